@@ -1,0 +1,10 @@
+# Run in script mode by levelhead_embed_fixtures; see EmbedFixtures.cmake.
+set(body "// Generated from fixtures/ at build time; do not edit.\n#include \"cli/demo_data.hpp\"\n\nnamespace levelhead::demo {\n\nconst std::vector<EmbeddedFile>& embedded_files() {\n  static const std::vector<EmbeddedFile> files = {\n")
+string(REPLACE "|" ";" FILES "${FILES}")
+foreach(path IN LISTS FILES)
+  get_filename_component(name ${path} NAME)
+  file(READ ${path} content)
+  string(APPEND body "    {\"${name}\", R\"lh_fixture(${content})lh_fixture\"},\n")
+endforeach()
+string(APPEND body "  };\n  return files;\n}\n\n}  // namespace levelhead::demo\n")
+file(WRITE ${OUTPUT} "${body}")

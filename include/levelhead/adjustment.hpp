@@ -1,0 +1,128 @@
+#pragma once
+// Least-squares adjustment of a levelling network.
+//
+// Method: Gauss-Markov model, weighted least squares of observed height
+// differences, l + v = A x, P = diag(1 / sigma_i^2), a-priori variance of
+// unit weight 1 (Ghilani, "Adjustment Computations", 6th ed., ch. 10 and 12;
+// Koch, "Parameter Estimation and Hypothesis Testing in Linear Models").
+// Normal equations N = A' P A are assembled sparse, factorised with a
+// fill-reducing ordering (CHOLMOD), and the cofactors of the heights come
+// from a selected inverse of N (Takahashi recurrences), never a dense inverse.
+//
+// In:  a Network (points with known heights, sections with dh), options.
+//      Known heights with sigma empty or 0 are held fixed; with sigma > 0
+//      they enter as weighted observations of the height. In a free
+//      adjustment only the chosen point is held (at its known height, or 0).
+// Out: adjusted heights (m) with a-posteriori and a-priori sigmas (m);
+//      residuals v = adjusted dh - observed dh (m), redundancy numbers,
+//      Baarda's normalised residuals w = v / sigma_v, minimal detectable
+//      biases (m); sigma0, redundancy, the two-sided chi-square test of the
+//      variance factor; suspects (|w| above the critical value), worst first.
+// Errors: InputError for a section that cannot be weighted (no sigma, length
+//      or setups); NetworkError for a connected part with no known height,
+//      control heights in different references, or a free-adjustment point
+//      that does not exist; ComputationError for a
+//      numerical failure; OptionError for an option out of range.
+
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "levelhead/network.hpp"
+
+namespace levelhead {
+
+// How a section's sigma was obtained; the one list for reports and CLI.
+enum class WeightRule { given_sigma, length, setups };
+std::string to_string(WeightRule rule);
+
+struct AdjustmentOptions {
+  double mm_per_sqrt_km = 1.0;        // sigma = k * sqrt(length in km) when no sigma (mm)
+  double mm_per_setup = 0.3;          // sigma = s * sqrt(setups) when no sigma, no length (mm)
+  double alpha = 0.05;                // global test, two-sided
+  double alpha0 = 0.001;              // data snooping, per observation, two-sided
+  double beta0 = 0.80;                // power for the minimal detectable bias
+  std::optional<std::string> free_point;  // hold only this point (free network check)
+  bool iterative_snooping = false;    // remove the worst suspect and re-adjust, repeatedly
+  std::size_t max_removals = 5;       // cap on removals in iterative snooping
+  double max_factor_nonzeros = 2e8;   // refuse larger factors (memory)
+
+  // Throws OptionError naming the option, its value and the rule.
+  void validate() const;
+};
+
+enum class ControlKind { adjusted, fixed, weighted };
+std::string to_string(ControlKind kind);
+
+struct AdjustedPoint {
+  std::size_t point = 0;          // index into Network::points
+  double height = 0.0;            // m
+  std::optional<double> sigma;    // m, a posteriori (sigma0 * sqrt(q)); nullopt when dof = 0
+  double sigma_apriori = 0.0;     // m, sqrt(q) with a-priori unit weight
+  ControlKind control = ControlKind::adjusted;
+  // For weighted control points: the residual (adjusted - given, m), w and MDB.
+  std::optional<double> control_residual, control_w, control_mdb, control_redundancy;
+};
+
+struct AdjustedSection {
+  std::size_t section = 0;        // index into Network::sections
+  WeightRule rule = WeightRule::given_sigma;
+  double sigma = 0.0;             // m, a-priori sigma of the observation
+  bool removed = false;           // removed by iterative data snooping
+  std::optional<std::size_t> removal_step;  // 1-based step of its removal
+  // Below: from the final adjustment (for a removed section: its misfit there).
+  double adjusted_dh = 0.0;       // m
+  double residual = 0.0;          // m, adjusted - observed
+  double redundancy = 0.0;        // r = qvv / qll, 0..1
+  std::optional<double> w;        // normalised residual; nullopt when r ~ 0 (no check)
+  std::optional<double> mdb;      // m, minimal detectable bias; nullopt when r ~ 0
+};
+
+struct Suspect {
+  enum class Kind { section, control } kind = Kind::section;
+  std::size_t index = 0;  // section index, or point index for a control
+  double w = 0.0;
+};
+
+struct Removal {
+  std::size_t section = 0;
+  double w = 0.0;       // its w when it was removed
+  double sigma0 = 0.0;  // sigma0 of the adjustment it was removed from
+};
+
+struct GlobalTest {
+  double statistic = 0.0;  // v'Pv, chi-square with dof degrees of freedom
+  double lower = 0.0, upper = 0.0;
+  double alpha = 0.05;
+  bool passed = true;
+};
+
+struct AdjustmentTimings {
+  double assembly = 0, ordering = 0, factorisation = 0, solve = 0, sigmas = 0;
+};
+
+struct AdjustmentResult {
+  std::vector<AdjustedPoint> points;
+  std::vector<AdjustedSection> sections;
+  std::size_t unknowns = 0, observations = 0, fixed_points = 0, weighted_points = 0;
+  std::size_t dof = 0;
+  double vtpv = 0.0;
+  std::optional<double> sigma0;         // nullopt when dof = 0
+  std::optional<GlobalTest> global_test;  // nullopt when dof = 0
+  double w_critical = 0.0, lambda0 = 0.0;
+  std::vector<Suspect> suspects;        // |w| > w_critical, worst first
+  std::vector<Removal> removals;        // iterative data snooping, in order
+  std::size_t weight_rule_counts[3] = {0, 0, 0};  // indexed by WeightRule
+  std::optional<std::string> free_point;
+  // The vertical reference of the adjusted heights: the common `datum` of the
+  // control points (empty when none is named), or a note for a free adjustment.
+  std::string reference;
+  AdjustmentTimings timings;
+  double factor_nonzeros = 0.0;
+  bool supernodal = false;
+};
+
+AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options);
+
+}  // namespace levelhead

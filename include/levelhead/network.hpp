@@ -1,0 +1,64 @@
+#pragma once
+// Levelling networks: points (benchmarks, wells, marks) and sections (one
+// observed height difference each), read from tables.
+//
+// Points table columns: id (unique, text), optional x, y (project CRS),
+// height (known height), sigma (its standard deviation; empty or 0 with a
+// height = held fixed), datum, kind.
+// Sections table columns: from, to, dh, length, optional setups, sigma, date, run.
+// Sign convention: dh = H(to) - H(from).
+// Units: heights, dh, sigma and length are converted from the table's
+// declared unit to metres.
+// Errors: InputError for a bad cell (file, row, column, value); NetworkError
+// for duplicate ids, sections naming a point that is not in the points
+// table, and sections from a point to itself.
+
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <unordered_map>
+#include <vector>
+
+#include "levelhead/table.hpp"
+
+namespace levelhead {
+
+struct Point {
+  std::string id;
+  std::optional<double> x, y;
+  std::optional<double> height;  // m
+  std::optional<double> sigma;   // m; nullopt or 0 with a height: fixed
+  std::string datum;
+  std::string kind;
+  CellLocation where;  // the row it came from, for messages
+
+  bool has_control() const { return height.has_value(); }
+  bool is_fixed() const { return height && (!sigma || *sigma <= 0.0); }
+};
+
+struct Section {
+  std::string from, to;
+  double dh = 0.0;                // m, H(to) - H(from)
+  std::optional<double> length;   // m, > 0
+  std::optional<double> sigma;    // m, > 0
+  std::optional<long long> setups;
+  std::string date, run;
+  CellLocation where;
+};
+
+struct Network {
+  std::vector<Point> points;
+  std::vector<Section> sections;
+  std::unordered_map<std::string, std::size_t> point_index;  // id -> index in points
+
+  // Section endpoints as indices into points, in section order.
+  std::vector<std::size_t> from_index, to_index;
+};
+
+std::vector<Point> read_points(const Table& table);
+std::vector<Section> read_sections(const Table& table);
+
+// Checks ids and references and builds the indices. Throws NetworkError.
+Network make_network(std::vector<Point> points, std::vector<Section> sections);
+
+}  // namespace levelhead

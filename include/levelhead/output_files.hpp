@@ -1,0 +1,40 @@
+#pragma once
+// All-or-nothing output: files are written under temporary names in the
+// output folder and renamed to their real names only when every one of them
+// is complete. If anything fails (or the set is destroyed uncommitted), the
+// temporary files are removed and no file that looks finished is left.
+// Existing files of the same names are replaced only at commit.
+
+#include <filesystem>
+#include <fstream>
+#include <map>
+#include <string>
+
+namespace levelhead {
+
+class OutputSet {
+ public:
+  // Creates `folder` (and parents) if needed; throws OutputError if it cannot.
+  explicit OutputSet(std::filesystem::path folder);
+  ~OutputSet();
+  OutputSet(const OutputSet&) = delete;
+  OutputSet& operator=(const OutputSet&) = delete;
+
+  // A stream to the temporary file behind `name` (a plain file name).
+  std::ostream& open(const std::string& name);
+  // Closes every stream, checks it, and renames all files into place.
+  void commit();
+
+  const std::filesystem::path& folder() const { return folder_; }
+
+ private:
+  std::filesystem::path temporary_path(const std::string& name) const;
+  std::filesystem::path folder_;
+  std::map<std::string, std::ofstream> streams_;
+  bool committed_ = false;
+};
+
+// A CSV cell: quoted when it holds a comma, quote or line break.
+std::string csv_cell(const std::string& text);
+
+}  // namespace levelhead

@@ -1,0 +1,443 @@
+#include "levelhead/adjustment.hpp"
+
+#include <algorithm>
+#include <chrono>
+#include <cmath>
+#include <fmt/format.h>
+#include <optional>
+
+#include "adjust/normal_solver.hpp"
+#include "levelhead/statistics.hpp"
+
+namespace levelhead {
+
+std::string to_string(WeightRule rule) {
+  switch (rule) {
+    case WeightRule::given_sigma:
+      return "sigma";
+    case WeightRule::length:
+      return "length";
+    case WeightRule::setups:
+      return "setups";
+  }
+  throw std::logic_error("unhandled WeightRule");
+}
+
+std::string to_string(ControlKind kind) {
+  switch (kind) {
+    case ControlKind::adjusted:
+      return "adjusted";
+    case ControlKind::fixed:
+      return "fixed";
+    case ControlKind::weighted:
+      return "weighted";
+  }
+  throw std::logic_error("unhandled ControlKind");
+}
+
+void AdjustmentOptions::validate() const {
+  const auto positive = [](double value, const char* name, const char* unit) {
+    if (!(value > 0.0) || !std::isfinite(value)) {
+      throw OptionError(fmt::format("{} = {} {}: must be a finite number > 0", name, value, unit));
+    }
+  };
+  positive(mm_per_sqrt_km, "sigma per sqrt(km)", "mm");
+  positive(mm_per_setup, "sigma per setup", "mm");
+  const auto probability = [](double value, const char* name, double low, double high) {
+    if (!(value > low && value < high)) {
+      throw OptionError(
+          fmt::format("{} = {}: must lie between {} and {} (exclusive)", name, value, low, high));
+    }
+  };
+  probability(alpha, "alpha (global test)", 0.0, 0.5);
+  probability(alpha0, "alpha0 (data snooping)", 0.0, 0.5);
+  probability(beta0, "beta0 (power)", 0.5, 1.0);
+  positive(max_factor_nonzeros, "max factor nonzeros", "");
+}
+
+namespace {
+
+using Clock = std::chrono::steady_clock;
+double seconds_since(Clock::time_point start) {
+  return std::chrono::duration<double>(Clock::now() - start).count();
+}
+
+// Redundancy numbers below this are treated as zero: the observation is not
+// checked by any other (a spur line or an open traverse). 1e-6 sits well above
+// the rounding error of qvv = qll - q_adjusted (about 1e-12 relative) and means
+// an error would show in the residual at less than one millionth of its size.
+constexpr double min_redundancy = 1e-6;
+
+struct Weighting {
+  std::vector<double> sigma;  // m, per section
+  std::vector<WeightRule> rule;
+};
+
+Weighting weigh_sections(const Network& net, const AdjustmentOptions& options) {
+  Weighting out;
+  out.sigma.resize(net.sections.size());
+  out.rule.resize(net.sections.size());
+  for (std::size_t i = 0; i < net.sections.size(); ++i) {
+    const Section& s = net.sections[i];
+    if (s.sigma) {
+      out.sigma[i] = *s.sigma;
+      out.rule[i] = WeightRule::given_sigma;
+    } else if (s.length) {
+      out.sigma[i] = options.mm_per_sqrt_km * 1e-3 * std::sqrt(*s.length / 1000.0);
+      out.rule[i] = WeightRule::length;
+    } else if (s.setups) {
+      out.sigma[i] = options.mm_per_setup * 1e-3 * std::sqrt(static_cast<double>(*s.setups));
+      out.rule[i] = WeightRule::setups;
+    } else {
+      throw InputError(s.where, "",
+                       fmt::format("section {} -> {} has no sigma, no length and no setups, so it "
+                                   "cannot be weighted; give one of them",
+                                   s.from, s.to));
+    }
+  }
+  return out;
+}
+
+struct Control {
+  std::vector<ControlKind> kind;  // per point
+  std::vector<double> height;     // known height where controlled (m)
+  std::vector<double> sigma;      // for weighted points (m)
+};
+
+Control choose_control(const Network& net, const AdjustmentOptions& options) {
+  Control c;
+  const std::size_t n = net.points.size();
+  c.kind.assign(n, ControlKind::adjusted);
+  c.height.assign(n, 0.0);
+  c.sigma.assign(n, 0.0);
+  if (options.free_point) {
+    const auto it = net.point_index.find(*options.free_point);
+    if (it == net.point_index.end()) {
+      throw NetworkError(fmt::format("the point to hold in a free adjustment, '{}', is not in the "
+                                     "points table",
+                                     *options.free_point),
+                         {*options.free_point});
+    }
+    c.kind[it->second] = ControlKind::fixed;
+    c.height[it->second] = net.points[it->second].height.value_or(0.0);
+    return c;
+  }
+  for (std::size_t i = 0; i < n; ++i) {
+    const Point& p = net.points[i];
+    if (!p.height) continue;
+    c.height[i] = *p.height;
+    if (p.is_fixed()) {
+      c.kind[i] = ControlKind::fixed;
+    } else {
+      c.kind[i] = ControlKind::weighted;
+      c.sigma[i] = *p.sigma;
+    }
+  }
+  return c;
+}
+
+// Approximate heights by walking the network outward from every controlled
+// point (breadth first). They make the unknowns small corrections, which
+// keeps rounding low, and every point left unreached lies in a part of the
+// network with no known height: a datum defect, reported by id.
+std::vector<double> approximate_heights(const Network& net, const Control& control,
+                                        const std::vector<char>& active) {
+  const std::size_t n = net.points.size();
+  std::vector<std::size_t> start(n + 1, 0);
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    if (!active[s]) continue;
+    ++start[net.from_index[s] + 1];
+    ++start[net.to_index[s] + 1];
+  }
+  for (std::size_t i = 0; i < n; ++i) start[i + 1] += start[i];
+  std::vector<std::size_t> fill(start.begin(), start.end() - 1);
+  std::vector<std::size_t> edge(start[n]);
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    if (!active[s]) continue;
+    edge[fill[net.from_index[s]]++] = s;
+    edge[fill[net.to_index[s]]++] = s;
+  }
+
+  std::vector<double> x0(n, 0.0);
+  std::vector<char> reached(n, 0);
+  std::vector<std::size_t> queue;
+  queue.reserve(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    if (control.kind[i] != ControlKind::adjusted) {
+      reached[i] = 1;
+      x0[i] = control.height[i];
+      queue.push_back(i);
+    }
+  }
+  const auto walk = [&](std::size_t head) {
+    for (; head < queue.size(); ++head) {
+      const std::size_t p = queue[head];
+      for (std::size_t e = start[p]; e < start[p + 1]; ++e) {
+        const std::size_t s = edge[e];
+        const bool forward = net.from_index[s] == p;
+        const std::size_t q = forward ? net.to_index[s] : net.from_index[s];
+        if (reached[q]) continue;
+        reached[q] = 1;
+        x0[q] = x0[p] + (forward ? net.sections[s].dh : -net.sections[s].dh);
+        queue.push_back(q);
+      }
+    }
+  };
+  walk(0);
+  if (queue.size() == n) return x0;
+
+  // Name the first part without control: walk it from its first point.
+  std::size_t first = 0;
+  while (reached[first]) ++first;
+  const std::size_t before = queue.size();
+  reached[first] = 1;
+  queue.push_back(first);
+  walk(before);
+  std::vector<std::string> ids;
+  for (std::size_t k = before; k < queue.size() && ids.size() < 10; ++k) {
+    ids.push_back(net.points[queue[k]].id);
+  }
+  const std::size_t part_size = queue.size() - before;
+  const std::size_t unreached = n - before;
+  throw NetworkError(
+      fmt::format("datum defect: {} point(s) are in a part of the network with no known height{} "
+                  "({}{}). Give one of them a known height in the points table, connect the part "
+                  "by a section to a point with a known height, or run a free adjustment that "
+                  "holds one point",
+                  part_size,
+                  unreached > part_size ? fmt::format(" ({} such points in all)", unreached) : "",
+                  fmt::join(ids, ", "), part_size > ids.size() ? ", ..." : ""),
+      ids);
+}
+
+AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& options,
+                             const Weighting& weights, const Control& control,
+                             const std::vector<char>& active) {
+  AdjustmentResult result;
+  const std::size_t n_points = net.points.size();
+  const std::vector<double> x0 = approximate_heights(net, control, active);
+
+  auto start = Clock::now();
+  std::vector<int> unknown(n_points, -1);
+  int n = 0;
+  for (std::size_t i = 0; i < n_points; ++i) {
+    if (control.kind[i] != ControlKind::fixed) unknown[i] = n++;
+    result.fixed_points += control.kind[i] == ControlKind::fixed;
+    result.weighted_points += control.kind[i] == ControlKind::weighted;
+  }
+  result.unknowns = static_cast<std::size_t>(n);
+
+  // Normal equations for the corrections dx to x0: N dx = A' P (l - A x0).
+  std::vector<Eigen::Triplet<double, int>> triplets;
+  triplets.reserve(3 * net.sections.size() + n_points);
+  Eigen::VectorXd rhs = Eigen::VectorXd::Zero(n);
+  std::size_t observations = 0;
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    if (!active[s]) continue;
+    ++observations;
+    const std::size_t f = net.from_index[s], t = net.to_index[s];
+    const double p = 1.0 / (weights.sigma[s] * weights.sigma[s]);
+    const double reduced = net.sections[s].dh - (x0[t] - x0[f]);
+    const int uf = unknown[f], ut = unknown[t];
+    if (ut >= 0) {
+      triplets.emplace_back(ut, ut, p);
+      rhs[ut] += p * reduced;
+    }
+    if (uf >= 0) {
+      triplets.emplace_back(uf, uf, p);
+      rhs[uf] -= p * reduced;
+    }
+    if (ut >= 0 && uf >= 0) triplets.emplace_back(std::max(ut, uf), std::min(ut, uf), -p);
+  }
+  for (std::size_t i = 0; i < n_points; ++i) {
+    if (control.kind[i] != ControlKind::weighted) continue;
+    ++observations;
+    const double p = 1.0 / (control.sigma[i] * control.sigma[i]);
+    triplets.emplace_back(unknown[i], unknown[i], p);
+    rhs[unknown[i]] += p * (control.height[i] - x0[i]);
+  }
+  result.observations = observations;
+  detail::NormalSolver::LowerMatrix normal(n, n);
+  normal.setFromTriplets(triplets.begin(), triplets.end());
+  normal.makeCompressed();
+  triplets = {};
+  result.timings.assembly = seconds_since(start);
+
+  // A network whose every point is fixed has nothing to solve.
+  std::optional<detail::NormalSolver> solver;
+  Eigen::VectorXd dx, q_diagonal;
+  if (n > 0) {
+    solver.emplace(normal, detail::SolverLimits{options.max_factor_nonzeros});
+    dx = solver->solve(rhs);
+    solver->compute_selected_inverse();
+    q_diagonal = solver->inverse_diagonal();
+    const auto& figures = solver->figures();
+    result.timings.ordering = figures.analyse_seconds;
+    result.timings.factorisation = figures.factor_seconds;
+    result.timings.solve = figures.solve_seconds;
+    result.timings.sigmas = figures.inverse_seconds;
+    result.factor_nonzeros = figures.factor_nonzeros;
+    result.supernodal = figures.supernodal;
+  }
+
+  start = Clock::now();
+  std::vector<double> height(x0);
+  for (std::size_t i = 0; i < n_points; ++i) {
+    if (unknown[i] >= 0) height[i] += dx[unknown[i]];
+  }
+  const auto cofactor = [&](std::size_t a, std::size_t b) {
+    const int ua = unknown[a], ub = unknown[b];
+    return ua < 0 || ub < 0 ? 0.0 : solver->inverse_entry(ua, ub);
+  };
+
+  // Residuals, their cofactors and the quantities of data snooping
+  // (Baarda 1968): qvv = qll - a Qxx a', r = qvv / qll, w = v / sqrt(qvv),
+  // MDB = sqrt(lambda0) * sigma / sqrt(r).
+  result.lambda0 = baarda_noncentrality(options.alpha0, options.beta0);
+  result.w_critical = w_test_critical_value(options.alpha0);
+  struct Check {
+    double redundancy;
+    std::optional<double> w, mdb;
+  };
+  const auto check = [&](double v, double sigma, double q_adjusted) {
+    const double q_ll = sigma * sigma;
+    const double r = (q_ll - q_adjusted) / q_ll;
+    if (r < min_redundancy) return Check{std::max(r, 0.0), std::nullopt, std::nullopt};
+    return Check{r, v / std::sqrt(q_ll - q_adjusted), std::sqrt(result.lambda0 / r) * sigma};
+  };
+
+  double vtpv = 0.0;
+  result.sections.resize(net.sections.size());
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    AdjustedSection& out = result.sections[s];
+    const std::size_t f = net.from_index[s], t = net.to_index[s];
+    out.section = s;
+    out.rule = weights.rule[s];
+    out.sigma = weights.sigma[s];
+    out.adjusted_dh = height[t] - height[f];
+    out.residual = out.adjusted_dh - net.sections[s].dh;
+    if (!active[s]) continue;
+    vtpv += out.residual * out.residual / (out.sigma * out.sigma);
+    const double q_adjusted = cofactor(t, t) + cofactor(f, f) - 2.0 * cofactor(f, t);
+    const Check c = check(out.residual, out.sigma, q_adjusted);
+    out.redundancy = c.redundancy;
+    out.w = c.w;
+    out.mdb = c.mdb;
+  }
+  result.points.resize(n_points);
+  for (std::size_t i = 0; i < n_points; ++i) {
+    AdjustedPoint& out = result.points[i];
+    out.point = i;
+    out.height = height[i];
+    out.control = control.kind[i];
+    out.sigma_apriori = unknown[i] >= 0 ? std::sqrt(q_diagonal[unknown[i]]) : 0.0;
+    if (control.kind[i] != ControlKind::weighted) continue;
+    const double v = height[i] - control.height[i];
+    vtpv += v * v / (control.sigma[i] * control.sigma[i]);
+    const Check c = check(v, control.sigma[i], q_diagonal[unknown[i]]);
+    out.control_residual = v;
+    out.control_redundancy = c.redundancy;
+    out.control_w = c.w;
+    out.control_mdb = c.mdb;
+  }
+
+  result.vtpv = vtpv;
+  result.dof = observations > static_cast<std::size_t>(n) ? observations - n : 0;
+  if (result.dof > 0) {
+    const double dof = static_cast<double>(result.dof);
+    result.sigma0 = std::sqrt(vtpv / dof);
+    GlobalTest test;
+    test.statistic = vtpv;
+    test.alpha = options.alpha;
+    test.lower = chi_square_quantile(options.alpha / 2.0, dof);
+    test.upper = chi_square_upper_quantile(options.alpha / 2.0, dof);
+    test.passed = vtpv >= test.lower && vtpv <= test.upper;
+    result.global_test = test;
+    for (AdjustedPoint& p : result.points) {
+      if (p.control != ControlKind::fixed) p.sigma = *result.sigma0 * p.sigma_apriori;
+      else p.sigma = 0.0;
+    }
+  } else {
+    for (AdjustedPoint& p : result.points) {
+      if (p.control == ControlKind::fixed) p.sigma = 0.0;
+    }
+  }
+
+  for (const AdjustedSection& s : result.sections) {
+    if (s.w && std::abs(*s.w) > result.w_critical) {
+      result.suspects.push_back({Suspect::Kind::section, s.section, *s.w});
+    }
+  }
+  for (const AdjustedPoint& p : result.points) {
+    if (p.control_w && std::abs(*p.control_w) > result.w_critical) {
+      result.suspects.push_back({Suspect::Kind::control, p.point, *p.control_w});
+    }
+  }
+  std::stable_sort(result.suspects.begin(), result.suspects.end(),
+                   [](const Suspect& a, const Suspect& b) { return std::abs(a.w) > std::abs(b.w); });
+  result.timings.sigmas += seconds_since(start);
+  return result;
+}
+
+// The control heights must share one vertical reference; mixing them would
+// bend the network by the datum offset.
+std::string common_reference(const Network& net, const Control& control,
+                             const AdjustmentOptions& options) {
+  if (options.free_point) return "free adjustment holding " + *options.free_point;
+  std::string reference;
+  std::size_t first = 0;
+  for (std::size_t i = 0; i < net.points.size(); ++i) {
+    if (control.kind[i] == ControlKind::adjusted || net.points[i].datum.empty()) continue;
+    if (reference.empty()) {
+      reference = net.points[i].datum;
+      first = i;
+    } else if (net.points[i].datum != reference) {
+      throw NetworkError(
+          fmt::format("known heights are in different vertical references: '{}' is '{}' but '{}' "
+                      "is '{}'; convert them to one reference first (levelhead convert) or hold "
+                      "only points of one reference",
+                      net.points[first].id, reference, net.points[i].id, net.points[i].datum),
+          {net.points[first].id, net.points[i].id});
+    }
+  }
+  return reference;
+}
+
+}  // namespace
+
+// Weighted least squares with optional iterative data snooping: while the
+// worst section fails the w-test, remove it and adjust again (Baarda 1968;
+// the iterative use is common practice). Control points are never removed:
+// a failing control height is reported for the user to decide.
+AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options) {
+  options.validate();
+  const Weighting weights = weigh_sections(network, options);
+  const Control control = choose_control(network, options);
+  const std::string reference = common_reference(network, control, options);
+  std::vector<char> active(network.sections.size(), 1);
+
+  std::vector<Removal> removals;
+  AdjustmentResult result = adjust_once(network, options, weights, control, active);
+  while (options.iterative_snooping && removals.size() < options.max_removals) {
+    const auto worst = std::find_if(result.suspects.begin(), result.suspects.end(),
+                                    [](const Suspect& s) { return s.kind == Suspect::Kind::section; });
+    if (worst == result.suspects.end()) break;
+    removals.push_back({worst->index, worst->w, result.sigma0.value_or(0.0)});
+    active[worst->index] = 0;
+    result = adjust_once(network, options, weights, control, active);
+  }
+  for (std::size_t k = 0; k < removals.size(); ++k) {
+    AdjustedSection& s = result.sections[removals[k].section];
+    s.removed = true;
+    s.removal_step = k + 1;
+  }
+  result.removals = std::move(removals);
+  for (const AdjustedSection& s : result.sections) {
+    ++result.weight_rule_counts[static_cast<std::size_t>(s.rule)];
+  }
+  result.free_point = options.free_point;
+  result.reference = reference;
+  return result;
+}
+
+}  // namespace levelhead

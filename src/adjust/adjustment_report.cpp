@@ -1,0 +1,191 @@
+#include "levelhead/adjustment_report.hpp"
+
+#include <cmath>
+#include <fmt/format.h>
+#include <nlohmann/json.hpp>
+
+#include "levelhead/output_files.hpp"
+#include "levelhead/version.hpp"
+
+namespace levelhead {
+
+namespace {
+
+// Resolution of the tables: heights and differences to 0.01 mm, which is
+// finer than any levelling measures, so rounding never adds error that matters.
+std::string metres(double value) { return fmt::format("{:.5f}", value); }
+std::string metres(const std::optional<double>& value) { return value ? metres(*value) : ""; }
+std::string ratio(const std::optional<double>& value, int decimals) {
+  return value ? fmt::format("{:.{}f}", *value, decimals) : "";
+}
+
+nlohmann::json optional_number(const std::optional<double>& value) {
+  return value ? nlohmann::json(*value) : nlohmann::json(nullptr);
+}
+
+nlohmann::json suspect_json(const Network& net, const AdjustmentResult& result, const Suspect& s) {
+  if (s.kind == Suspect::Kind::section) {
+    const Section& section = net.sections[s.index];
+    const AdjustedSection& a = result.sections[s.index];
+    return {{"kind", "section"}, {"from", section.from}, {"to", section.to}, {"w", s.w},
+            {"residual", a.residual}, {"mdb", optional_number(a.mdb)},
+            {"row", section.where.row}};
+  }
+  const Point& p = net.points[s.index];
+  const AdjustedPoint& a = result.points[s.index];
+  return {{"kind", "control"}, {"from", ""}, {"to", p.id}, {"point", p.id}, {"w", s.w},
+          {"residual", optional_number(a.control_residual)}, {"mdb", optional_number(a.control_mdb)},
+          {"row", p.where.row}};
+}
+
+std::string suspect_label(const Network& net, const Suspect& s) {
+  if (s.kind == Suspect::Kind::section) {
+    const Section& section = net.sections[s.index];
+    return fmt::format("section {} -> {} (row {})", section.from, section.to, section.where.row);
+  }
+  return fmt::format("known height of {} (row {})", net.points[s.index].id,
+                     net.points[s.index].where.row);
+}
+
+}  // namespace
+
+bool adjustment_has_failed_checks(const AdjustmentResult& result) {
+  return !result.suspects.empty() || (result.global_test && !result.global_test->passed);
+}
+
+void write_adjustment_outputs(const Network& net, const AdjustmentResult& result,
+                              const AdjustmentOptions& options, const AdjustmentInputs& inputs,
+                              const std::filesystem::path& folder) {
+  OutputSet out(folder);
+
+  std::ostream& heights = out.open("heights.csv");
+  heights << "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
+             "reference,kind\n";
+  for (const AdjustedPoint& a : result.points) {
+    const Point& p = net.points[a.point];
+    heights << csv_cell(p.id) << ',' << metres(a.height) << ',' << metres(a.sigma) << ','
+            << metres(a.sigma_apriori) << ',' << to_string(a.control) << ',' << metres(p.height)
+            << ',' << metres(a.control_residual) << ',' << ratio(a.control_w, 3) << ','
+            << csv_cell(result.reference) << ',' << csv_cell(p.kind) << '\n';
+  }
+
+  std::ostream& residuals = out.open("residuals.csv");
+  residuals << "from,to,dh,residual,w,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,run,"
+               "date,suspect,removed_step\n";
+  for (const AdjustedSection& a : result.sections) {
+    const Section& s = net.sections[a.section];
+    const bool suspect = a.w && std::abs(*a.w) > result.w_critical;
+    residuals << csv_cell(s.from) << ',' << csv_cell(s.to) << ',' << metres(s.dh) << ','
+              << metres(a.residual) << ',' << ratio(a.w, 3) << ',' << metres(a.adjusted_dh) << ','
+              << metres(a.sigma) << ',' << to_string(a.rule) << ','
+              << fmt::format("{:.4f}", a.redundancy) << ',' << metres(a.mdb) << ','
+              << (s.length ? fmt::format("{:.3f}", *s.length) : "") << ',' << csv_cell(s.run)
+              << ',' << csv_cell(s.date) << ',' << (suspect ? "yes" : "") << ','
+              << (a.removal_step ? std::to_string(*a.removal_step) : "") << '\n';
+  }
+
+  nlohmann::json summary;
+  summary["levelhead_version"] = version_string();
+  summary["command"] = "adjust";
+  summary["inputs"] = {{"points", inputs.points_file},
+                       {"sections", inputs.sections_file},
+                       {"length_unit", to_string(inputs.unit)}};
+  summary["reference"] = result.reference;
+  summary["free_point"] =
+      result.free_point ? nlohmann::json(*result.free_point) : nlohmann::json(nullptr);
+  summary["counts"] = {{"points", net.points.size()},
+                       {"sections", net.sections.size()},
+                       {"observations", result.observations},
+                       {"unknowns", result.unknowns},
+                       {"fixed_points", result.fixed_points},
+                       {"weighted_points", result.weighted_points},
+                       {"removed_sections", result.removals.size()}};
+  summary["dof"] = result.dof;
+  summary["vtpv"] = result.vtpv;
+  summary["sigma0"] = optional_number(result.sigma0);
+  if (result.global_test) {
+    const GlobalTest& g = *result.global_test;
+    summary["global_test"] = {{"statistic", g.statistic}, {"lower", g.lower}, {"upper", g.upper},
+                              {"alpha", g.alpha},         {"dof", result.dof}, {"passed", g.passed}};
+  } else {
+    summary["global_test"] = {{"statistic", result.vtpv}, {"lower", nullptr}, {"upper", nullptr},
+                              {"alpha", options.alpha},   {"dof", 0},         {"passed", nullptr},
+                              {"note", "no redundancy: the observations cannot be tested"}};
+  }
+  summary["data_snooping"] = {{"alpha0", options.alpha0},
+                              {"beta0", options.beta0},
+                              {"w_critical", result.w_critical},
+                              {"lambda0", result.lambda0},
+                              {"iterative", options.iterative_snooping}};
+  nlohmann::json suspects = nlohmann::json::array();
+  for (const Suspect& s : result.suspects) suspects.push_back(suspect_json(net, result, s));
+  summary["suspects"] = suspects;
+  nlohmann::json removals = nlohmann::json::array();
+  for (std::size_t k = 0; k < result.removals.size(); ++k) {
+    const Removal& r = result.removals[k];
+    const Section& s = net.sections[r.section];
+    removals.push_back({{"step", k + 1}, {"from", s.from}, {"to", s.to}, {"w", r.w},
+                        {"sigma0_before", r.sigma0}, {"row", s.where.row}});
+  }
+  summary["removals"] = removals;
+  summary["weights"] = {
+      {"sections_by_rule",
+       {{"sigma", result.weight_rule_counts[static_cast<int>(WeightRule::given_sigma)]},
+        {"length", result.weight_rule_counts[static_cast<int>(WeightRule::length)]},
+        {"setups", result.weight_rule_counts[static_cast<int>(WeightRule::setups)]}}},
+      {"mm_per_sqrt_km", options.mm_per_sqrt_km},
+      {"mm_per_setup", options.mm_per_setup}};
+  summary["solver"] = {{"factor_nonzeros", result.factor_nonzeros},
+                       {"supernodal", result.supernodal},
+                       {"seconds",
+                        {{"assembly", result.timings.assembly},
+                         {"ordering", result.timings.ordering},
+                         {"factorisation", result.timings.factorisation},
+                         {"solve", result.timings.solve},
+                         {"sigmas", result.timings.sigmas}}}};
+  out.open("summary.json") << summary.dump(2) << '\n';
+  out.commit();
+}
+
+std::string adjustment_summary_text(const Network& net, const AdjustmentResult& result) {
+  std::string text;
+  text += fmt::format("Adjusted {} points from {} sections ({} unknowns, {} fixed, {} weighted "
+                      "known heights){}\n",
+                      net.points.size(), net.sections.size(), result.unknowns,
+                      result.fixed_points, result.weighted_points,
+                      result.free_point ? fmt::format("; free adjustment holding {}",
+                                                      *result.free_point)
+                                        : "");
+  text += fmt::format("Weights: {} from sigma, {} from length, {} from setups\n",
+                      result.weight_rule_counts[0], result.weight_rule_counts[1],
+                      result.weight_rule_counts[2]);
+  if (result.global_test) {
+    const GlobalTest& g = *result.global_test;
+    text += fmt::format(
+        "Redundancy {}, sigma0 = {:.3f}; global test (alpha {}): v'Pv = {:.3f} in [{:.3f}, {:.3f}] "
+        "-> {}\n",
+        result.dof, *result.sigma0, g.alpha, g.statistic, g.lower, g.upper,
+        g.passed ? "passed" : "FAILED");
+  } else {
+    text += "Redundancy 0: no check on the observations is possible\n";
+  }
+  for (std::size_t k = 0; k < result.removals.size(); ++k) {
+    text += fmt::format("Removed (step {}): {} with w = {:.2f}\n", k + 1,
+                        suspect_label(net, {Suspect::Kind::section, result.removals[k].section,
+                                            result.removals[k].w}),
+                        result.removals[k].w);
+  }
+  if (result.suspects.empty()) {
+    text += fmt::format("No suspect observations (|w| <= {:.2f})\n", result.w_critical);
+  } else {
+    text += fmt::format("{} suspect observation(s) (|w| > {:.2f}), worst first:\n",
+                        result.suspects.size(), result.w_critical);
+    for (std::size_t k = 0; k < result.suspects.size() && k < 5; ++k) {
+      text += fmt::format("  {}: w = {:.2f}\n", suspect_label(net, result.suspects[k]),
+                          result.suspects[k].w);
+    }
+  }
+  return text;
+}
+
+}  // namespace levelhead

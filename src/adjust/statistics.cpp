@@ -1,0 +1,53 @@
+#include "levelhead/statistics.hpp"
+
+#include <boost/math/distributions/chi_squared.hpp>
+#include <boost/math/distributions/normal.hpp>
+#include <fmt/format.h>
+
+#include "levelhead/errors.hpp"
+
+namespace levelhead {
+
+namespace {
+void require_probability(double p, const char* name) {
+  if (!(p > 0.0 && p < 1.0)) {
+    throw OptionError(fmt::format("{} = {} must lie strictly between 0 and 1", name, p));
+  }
+}
+void require_dof(double dof) {
+  // Boost's default policy throws for dof <= 0; callers handle redundancy 0 themselves.
+  if (!(dof > 0.0)) throw std::logic_error("chi-square quantile needs dof > 0");
+}
+}  // namespace
+
+double normal_quantile(double p) {
+  require_probability(p, "probability");
+  return boost::math::quantile(boost::math::normal_distribution<double>(), p);
+}
+
+double chi_square_quantile(double p, double dof) {
+  require_probability(p, "probability");
+  require_dof(dof);
+  return boost::math::quantile(boost::math::chi_squared_distribution<double>(dof), p);
+}
+
+double chi_square_upper_quantile(double alpha, double dof) {
+  require_probability(alpha, "alpha");
+  require_dof(dof);
+  return boost::math::quantile(
+      boost::math::complement(boost::math::chi_squared_distribution<double>(dof), alpha));
+}
+
+double w_test_critical_value(double alpha0) {
+  require_probability(alpha0, "alpha0");
+  const boost::math::normal_distribution<double> normal;
+  return boost::math::quantile(boost::math::complement(normal, alpha0 / 2.0));
+}
+
+double baarda_noncentrality(double alpha0, double beta0) {
+  require_probability(beta0, "beta0");
+  const double z = w_test_critical_value(alpha0) + normal_quantile(beta0);
+  return z * z;
+}
+
+}  // namespace levelhead

@@ -1,0 +1,133 @@
+// `levelhead adjust` and `levelhead demo`.
+
+#include <fmt/format.h>
+#include <fstream>
+#include <optional>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "cli/demo_data.hpp"
+#include "levelhead/adjustment.hpp"
+#include "levelhead/adjustment_report.hpp"
+#include "levelhead/errors.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/table.hpp"
+
+namespace levelhead::cli {
+
+namespace {
+
+struct AdjustArguments {
+  std::string points, sections, out;
+  std::string unit = "m";
+  std::string points_columns, sections_columns, points_layer, sections_layer;
+  std::string free_point;
+  AdjustmentOptions options;
+  bool strict = false;
+  bool quiet = false;
+};
+
+void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
+  command.add_option("--mm-per-sqrt-km", a.options.mm_per_sqrt_km,
+                     "Sigma of a section without a sigma, per square root of its length in km "
+                     "(mm/sqrt(km))")
+      ->capture_default_str();
+  command.add_option("--mm-per-setup", a.options.mm_per_setup,
+                     "Sigma per setup for sections with neither sigma nor length (mm)")
+      ->capture_default_str();
+  command.add_option("--alpha", a.options.alpha, "Significance level of the global test")
+      ->capture_default_str();
+  command.add_option("--alpha0", a.options.alpha0,
+                     "Significance level of data snooping, per observation")
+      ->capture_default_str();
+  command.add_option("--beta0", a.options.beta0,
+                     "Power for the minimal detectable bias")
+      ->capture_default_str();
+  command.add_option("--free", a.free_point,
+                     "Free adjustment: hold only this point (at its known height, or 0) to check "
+                     "the observations before the control is trusted");
+  command.add_flag("--snoop", a.options.iterative_snooping,
+                   "Iterative data snooping: remove the worst suspect section and adjust again, "
+                   "reporting each removal");
+  command.add_option("--max-removals", a.options.max_removals,
+                     "Most sections removed by --snoop")
+      ->capture_default_str();
+  command.add_option("--max-factor-nonzeros", a.options.max_factor_nonzeros,
+                     "Refuse networks whose factor would be larger (memory guard)")
+      ->capture_default_str();
+  command.add_flag("--strict", a.strict,
+                   "Exit with status 3 when the global test fails or a suspect is found");
+  command.add_flag("--quiet", a.quiet, "Print nothing on success");
+}
+
+int adjust_files(const AdjustArguments& a, std::ostream& out) {
+  const LengthUnit unit = parse_length_unit(a.unit);
+  TableOptions point_options{parse_column_map(a.points_columns), unit, a.points_layer};
+  TableOptions section_options{parse_column_map(a.sections_columns), unit, a.sections_layer};
+  AdjustmentOptions options = a.options;
+  if (!a.free_point.empty()) options.free_point = a.free_point;
+  options.validate();
+
+  const Table point_table = read_table(a.points, point_options);
+  const Table section_table = read_table(a.sections, section_options);
+  const Network network =
+      make_network(read_points(point_table), read_sections(section_table));
+  const AdjustmentResult result = adjust(network, options);
+  write_adjustment_outputs(network, result, options, AdjustmentInputs{a.points, a.sections, unit},
+                           a.out);
+  if (!a.quiet) {
+    out << adjustment_summary_text(network, result);
+    out << fmt::format("Wrote heights.csv, residuals.csv and summary.json in {}\n", a.out);
+  }
+  return a.strict && adjustment_has_failed_checks(result) ? exit_checks_failed : exit_ok;
+}
+
+}  // namespace
+
+CommandRunner add_adjust_command(CLI::App& app) {
+  auto args = std::make_shared<AdjustArguments>();
+  CLI::App* command = app.add_subcommand(
+      "adjust", "Least-squares adjustment of a levelling network with blunder checks");
+  command->add_option("--points", args->points, "Points table (id, height, sigma, ...)")
+      ->required();
+  command->add_option("--sections", args->sections, "Sections table (from, to, dh, length, ...)")
+      ->required();
+  command->add_option("--out", args->out, "Output folder")->required();
+  command->add_option("--unit", args->unit,
+                      "Length unit of the input tables: m, ft (0.3048 m), us-ft (1200/3937 m)")
+      ->capture_default_str();
+  command->add_option("--points-columns", args->points_columns,
+                      "Column map for the points table, e.g. id=Station,height=Elev");
+  command->add_option("--sections-columns", args->sections_columns,
+                      "Column map for the sections table, e.g. from=BS,to=FS");
+  command->add_option("--points-layer", args->points_layer, "Layer or sheet of the points file");
+  command->add_option("--sections-layer", args->sections_layer,
+                      "Layer or sheet of the sections file");
+  add_adjustment_options(*command, *args);
+  return [args](std::ostream& out, std::ostream&) { return adjust_files(*args, out); };
+}
+
+CommandRunner add_demo_command(CLI::App& app) {
+  auto args = std::make_shared<AdjustArguments>();
+  CLI::App* command = app.add_subcommand(
+      "demo", "Run levelhead on its built-in demo site: writes the inputs and the results");
+  command->add_option("--out", args->out, "Output folder")->required();
+  return [args](std::ostream& out, std::ostream&) {
+    const std::filesystem::path folder(args->out);
+    {
+      OutputSet inputs(folder / "inputs");
+      for (const auto& file : demo::embedded_files()) {
+        inputs.open(std::string(file.name)) << file.content;
+      }
+      inputs.commit();
+    }
+    out << fmt::format("Demo inputs written to {}\n", (folder / "inputs").string());
+    AdjustArguments run = *args;
+    run.points = (folder / "inputs" / "points.csv").string();
+    run.sections = (folder / "inputs" / "sections.csv").string();
+    run.out = (folder / "adjust").string();
+    return adjust_files(run, out);
+  };
+}
+
+}  // namespace levelhead::cli

@@ -1,0 +1,16 @@
+#pragma once
+// Subcommands of the CLI: each registers its options on the parent app and
+// returns the function that runs it once the command line is parsed.
+
+#include <CLI/CLI.hpp>
+#include <functional>
+#include <ostream>
+
+namespace levelhead::cli {
+
+using CommandRunner = std::function<int(std::ostream& out, std::ostream& err)>;
+
+CommandRunner add_adjust_command(CLI::App& app);
+CommandRunner add_demo_command(CLI::App& app);
+
+}  // namespace levelhead::cli

@@ -1,0 +1,151 @@
+#include "levelhead/network.hpp"
+
+#include <fmt/format.h>
+
+namespace levelhead {
+
+namespace {
+
+std::string optional_text(const Table& table, std::size_t row, std::optional<std::size_t> column) {
+  return column ? std::string(table.cell(row, *column)) : std::string();
+}
+
+std::string required_text(const Table& table, std::size_t row, std::size_t column,
+                          const char* what) {
+  const std::string_view text = table.cell(row, column);
+  if (text.empty()) throw InputError(table.location(row, column), "", what);
+  return std::string(text);
+}
+
+template <typename T>
+std::optional<T> optional_cell(std::optional<std::size_t> column, auto read) {
+  return column ? read(*column) : std::nullopt;
+}
+
+}  // namespace
+
+std::vector<Point> read_points(const Table& table) {
+  const std::size_t id_col = table.require_column("id");
+  const auto x_col = table.find_column("x");
+  const auto y_col = table.find_column("y");
+  const auto height_col = table.find_column("height");
+  const auto sigma_col = table.find_column("sigma");
+  const auto datum_col = table.find_column("datum");
+  const auto kind_col = table.find_column("kind");
+
+  std::vector<Point> points;
+  points.reserve(table.row_count());
+  for (std::size_t row = 0; row < table.row_count(); ++row) {
+    Point p;
+    p.id = required_text(table, row, id_col, "every point needs an id");
+    p.where = table.location(row, id_col);
+    p.where.column.clear();
+    p.x = optional_cell<double>(x_col, [&](std::size_t c) { return table.number(row, c); });
+    p.y = optional_cell<double>(y_col, [&](std::size_t c) { return table.number(row, c); });
+    p.height = optional_cell<double>(height_col, [&](std::size_t c) { return table.length(row, c); });
+    p.sigma = optional_cell<double>(sigma_col, [&](std::size_t c) { return table.length(row, c); });
+    if (p.sigma && *p.sigma < 0.0) {
+      throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
+                       "a standard deviation cannot be negative (empty or 0 holds the height fixed)");
+    }
+    if (p.sigma && *p.sigma > 0.0 && !p.height) {
+      throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
+                       "a sigma is given but no height; give the known height or clear the sigma");
+    }
+    p.datum = optional_text(table, row, datum_col);
+    p.kind = optional_text(table, row, kind_col);
+    points.push_back(std::move(p));
+  }
+  return points;
+}
+
+std::vector<Section> read_sections(const Table& table) {
+  const std::size_t from_col = table.require_column("from");
+  const std::size_t to_col = table.require_column("to");
+  const std::size_t dh_col = table.require_column("dh");
+  const auto length_col = table.find_column("length");
+  const auto sigma_col = table.find_column("sigma");
+  const auto setups_col = table.find_column("setups");
+  const auto date_col = table.find_column("date");
+  const auto run_col = table.find_column("run");
+
+  std::vector<Section> sections;
+  sections.reserve(table.row_count());
+  for (std::size_t row = 0; row < table.row_count(); ++row) {
+    Section s;
+    s.from = required_text(table, row, from_col, "every section needs a 'from' point id");
+    s.to = required_text(table, row, to_col, "every section needs a 'to' point id");
+    s.where = table.location(row, from_col);
+    s.where.column.clear();
+    const auto dh = table.length(row, dh_col);
+    if (!dh) throw InputError(table.location(row, dh_col), "", "every section needs its dh");
+    s.dh = *dh;
+    if (length_col) {
+      s.length = table.length(row, *length_col);
+      if (s.length && *s.length <= 0.0) {
+        throw InputError(table.location(row, *length_col), std::string(table.cell(row, *length_col)),
+                         "a section length must be > 0 m");
+      }
+    }
+    if (sigma_col) {
+      s.sigma = table.length(row, *sigma_col);
+      if (s.sigma && *s.sigma <= 0.0) {
+        throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
+                         "a section sigma must be > 0 (leave it empty to weight by length or setups)");
+      }
+    }
+    if (setups_col) {
+      s.setups = table.count(row, *setups_col);
+      if (s.setups && *s.setups == 0) {
+        throw InputError(table.location(row, *setups_col), "0", "a section needs at least 1 setup");
+      }
+    }
+    s.date = optional_text(table, row, date_col);
+    s.run = optional_text(table, row, run_col);
+    sections.push_back(std::move(s));
+  }
+  return sections;
+}
+
+Network make_network(std::vector<Point> points, std::vector<Section> sections) {
+  Network net;
+  net.point_index.reserve(points.size());
+  for (std::size_t i = 0; i < points.size(); ++i) {
+    const auto [it, inserted] = net.point_index.emplace(points[i].id, i);
+    if (!inserted) {
+      throw NetworkError(fmt::format("{}: point id '{}' appears twice (first at row {}); ids must "
+                                     "be unique",
+                                     describe(points[i].where), points[i].id,
+                                     points[it->second].where.row),
+                         {points[i].id});
+    }
+  }
+  net.from_index.reserve(sections.size());
+  net.to_index.reserve(sections.size());
+  for (const Section& s : sections) {
+    const auto from = net.point_index.find(s.from);
+    const auto to = net.point_index.find(s.to);
+    for (const auto& [it, id] : {std::pair{from, &s.from}, std::pair{to, &s.to}}) {
+      if (it == net.point_index.end()) {
+        throw NetworkError(fmt::format("{}: section {} -> {} names point '{}', which is not in the "
+                                       "points table; add it there (with an empty height if it is "
+                                       "new) or correct the id",
+                                       describe(s.where), s.from, s.to, *id),
+                           {*id});
+      }
+    }
+    if (from->second == to->second) {
+      throw NetworkError(fmt::format("{}: section goes from '{}' to itself; a section needs two "
+                                     "different points",
+                                     describe(s.where), s.from),
+                         {s.from});
+    }
+    net.from_index.push_back(from->second);
+    net.to_index.push_back(to->second);
+  }
+  net.points = std::move(points);
+  net.sections = std::move(sections);
+  return net;
+}
+
+}  // namespace levelhead

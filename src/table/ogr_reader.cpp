@@ -1,0 +1,128 @@
+// Tables from any vector source GDAL/OGR reads. Every field is read as text
+// (spreadsheet drivers are told to keep strings and to treat the first row as
+// the header), so that GDAL's type guessing never alters a value.
+
+#include <gdal.h>
+#include <ogr_api.h>
+#include <cpl_conv.h>
+#include <cpl_error.h>
+
+#include <fmt/format.h>
+#include <memory>
+#include <mutex>
+
+#include "table/readers.hpp"
+#include "util/text.hpp"
+
+namespace levelhead::detail {
+
+namespace {
+
+struct DatasetCloser {
+  void operator()(void* dataset) const { GDALClose(dataset); }
+};
+using DatasetPtr = std::unique_ptr<void, DatasetCloser>;
+
+struct FeatureDestroyer {
+  void operator()(OGRFeatureH feature) const { OGR_F_Destroy(feature); }
+};
+using FeaturePtr = std::unique_ptr<std::remove_pointer_t<OGRFeatureH>, FeatureDestroyer>;
+
+std::string last_gdal_message() {
+  const char* message = CPLGetLastErrorMsg();
+  return message && *message ? std::string(message) : std::string("no reason given by GDAL");
+}
+
+}  // namespace
+
+Table read_ogr_table(const std::filesystem::path& path, const TableOptions& options) {
+  static std::once_flag registered;
+  std::call_once(registered, [] { GDALAllRegister(); });
+  // Thread-local settings: the first row is the header and every cell text.
+  CPLSetThreadLocalConfigOption("OGR_XLSX_HEADERS", "FORCE");
+  CPLSetThreadLocalConfigOption("OGR_XLSX_FIELD_TYPES", "STRING");
+  CPLSetThreadLocalConfigOption("OGR_ODS_HEADERS", "FORCE");
+  CPLSetThreadLocalConfigOption("OGR_ODS_FIELD_TYPES", "STRING");
+
+  const std::string name = path.string();
+  CPLPushErrorHandler(CPLQuietErrorHandler);
+  CPLErrorReset();
+  DatasetPtr dataset(GDALOpenEx(name.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr,
+                                nullptr));
+  CPLPopErrorHandler();
+  if (!dataset) {
+    throw InputError(name, fmt::format("GDAL cannot read this file as a table ({}); supported are "
+                                       "CSV and the vector formats of GDAL (XLSX, ODS, GPKG, DBF, "
+                                       "GeoJSON, ...)",
+                                       last_gdal_message()));
+  }
+  OGRLayerH layer = nullptr;
+  if (options.layer.empty()) {
+    if (GDALDatasetGetLayerCount(dataset.get()) < 1) throw InputError(name, "the file has no layer");
+    layer = GDALDatasetGetLayer(dataset.get(), 0);
+  } else {
+    layer = GDALDatasetGetLayerByName(dataset.get(), options.layer.c_str());
+    if (!layer) {
+      std::vector<std::string> names;
+      for (int i = 0; i < GDALDatasetGetLayerCount(dataset.get()); ++i) {
+        names.emplace_back(OGR_L_GetName(GDALDatasetGetLayer(dataset.get(), i)));
+      }
+      throw InputError(name, fmt::format("no layer or sheet '{}' (there are: {})", options.layer,
+                                         fmt::join(names, ", ")));
+    }
+  }
+
+  OGRFeatureDefnH definition = OGR_L_GetLayerDefn(layer);
+  const int field_count = OGR_FD_GetFieldCount(definition);
+  std::vector<std::string> columns;
+  for (int i = 0; i < field_count; ++i) {
+    columns.emplace_back(OGR_Fld_GetNameRef(OGR_FD_GetFieldDefn(definition, i)));
+  }
+  // A point layer without x/y fields offers its geometry as x and y.
+  const bool has_xy = [&] {
+    for (const auto& c : columns) {
+      if (util::iequals(c, "x") || util::iequals(c, "y")) return true;
+    }
+    return false;
+  }();
+  const bool geometry_xy =
+      !has_xy && wkbFlatten(OGR_L_GetGeomType(layer)) == wkbPoint;
+  if (geometry_xy) {
+    columns.emplace_back("x");
+    columns.emplace_back("y");
+  }
+
+  Table table(name, columns, options);
+  std::vector<std::string> values(columns.size());
+  std::vector<std::string_view> views(columns.size());
+  std::size_t index = 0;
+  OGR_L_ResetReading(layer);
+  while (FeaturePtr feature{OGR_L_GetNextFeature(layer)}) {
+    for (int i = 0; i < field_count; ++i) {
+      values[i] = OGR_F_IsFieldSetAndNotNull(feature.get(), i)
+                      ? std::string(OGR_F_GetFieldAsString(feature.get(), i))
+                      : std::string();
+    }
+    if (geometry_xy) {
+      OGRGeometryH geometry = OGR_F_GetGeometryRef(feature.get());
+      if (geometry && !OGR_G_IsEmpty(geometry)) {
+        values[field_count] = fmt::format("{:.17g}", OGR_G_GetX(geometry, 0));
+        values[field_count + 1] = fmt::format("{:.17g}", OGR_G_GetY(geometry, 0));
+      } else {
+        values[field_count].clear();
+        values[field_count + 1].clear();
+      }
+    }
+    ++index;
+    bool blank = true;
+    for (std::size_t i = 0; i < values.size(); ++i) {
+      views[i] = values[i];
+      blank = blank && util::trim(values[i]).empty();
+    }
+    if (blank) continue;                 // spreadsheets often end in empty rows
+    table.add_row(views, index + 1);     // header counted as row 1, as a spreadsheet shows it
+  }
+  return table;
+}
+
+}  // namespace levelhead::detail

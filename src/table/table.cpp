@@ -1,0 +1,161 @@
+#include "levelhead/table.hpp"
+
+#include <charconv>
+#include <cmath>
+#include <fmt/format.h>
+#include <set>
+
+#include "table/readers.hpp"
+#include "util/text.hpp"
+
+namespace levelhead {
+
+ColumnMap parse_column_map(std::string_view text) {
+  ColumnMap map;
+  std::size_t start = 0;
+  while (start <= text.size()) {
+    std::size_t end = text.find(',', start);
+    if (end == std::string_view::npos) end = text.size();
+    const std::string_view item = util::trim(text.substr(start, end - start));
+    if (!item.empty()) {
+      const std::size_t eq = item.find('=');
+      if (eq == std::string_view::npos || util::trim(item.substr(0, eq)).empty() ||
+          util::trim(item.substr(eq + 1)).empty()) {
+        throw OptionError(fmt::format(
+            "column map entry '{}' is not of the form ours=theirs (e.g. height=Elev_m)", item));
+      }
+      map[util::to_lower(util::trim(item.substr(0, eq)))] =
+          std::string(util::trim(item.substr(eq + 1)));
+    }
+    start = end + 1;
+  }
+  return map;
+}
+
+Table::Table(std::string source, std::vector<std::string> column_names, TableOptions options)
+    : source_(std::move(source)), column_names_(std::move(column_names)), options_(std::move(options)) {
+  std::set<std::string> seen;
+  for (const auto& name : column_names_) {
+    if (!seen.insert(util::to_lower(name)).second) {
+      throw InputError(source_, fmt::format("column '{}' appears twice in the header (names are "
+                                            "compared case-insensitively); rename one",
+                                            name));
+    }
+  }
+  for (const auto& [ours, theirs] : options_.column_map) {
+    bool found = false;
+    for (const auto& name : column_names_) found = found || util::iequals(name, theirs);
+    if (!found) {
+      throw InputError(source_, fmt::format("the column map sends '{}' to '{}', but the file has "
+                                            "no column '{}' (columns: {})",
+                                            ours, theirs, theirs, fmt::join(column_names_, ", ")));
+    }
+  }
+}
+
+std::optional<std::size_t> Table::find_column(std::string_view name) const {
+  std::string wanted(name);
+  if (const auto it = options_.column_map.find(util::to_lower(name));
+      it != options_.column_map.end()) {
+    wanted = it->second;
+  }
+  for (std::size_t i = 0; i < column_names_.size(); ++i) {
+    if (util::iequals(column_names_[i], wanted)) return i;
+  }
+  return std::nullopt;
+}
+
+std::size_t Table::require_column(std::string_view name) const {
+  if (auto index = find_column(name)) return *index;
+  throw InputError(source_, fmt::format("required column '{}' is missing (columns found: {}); "
+                                        "rename the column or map it with a column map",
+                                        name, fmt::join(column_names_, ", ")));
+}
+
+std::string_view Table::cell(std::size_t row, std::size_t column) const {
+  const Span span = cells_[row * column_names_.size() + column];
+  return std::string_view(text_).substr(span.offset, span.size);
+}
+
+CellLocation Table::location(std::size_t row, std::size_t column) const {
+  return CellLocation{source_, source_rows_[row], column_names_[column]};
+}
+
+std::optional<double> Table::number(std::size_t row, std::size_t column) const {
+  const std::string_view text = cell(row, column);
+  if (text.empty()) return std::nullopt;
+  double value = 0.0;
+  const char* first = text.data();
+  const char* last = first + text.size();
+  if (*first == '+') ++first;  // from_chars rejects a leading plus
+  const auto [end, ec] = std::from_chars(first, last, value);
+  if (ec != std::errc() || end != last) {
+    const bool decimal_comma = text.find(',') != std::string_view::npos;
+    throw InputError(location(row, column), std::string(text),
+                     decimal_comma ? "expected a number with a decimal point (not a comma)"
+                                   : "expected a number");
+  }
+  if (!std::isfinite(value)) {
+    throw InputError(location(row, column), std::string(text),
+                     "expected a finite number (NaN and inf are not accepted; leave the cell "
+                     "empty if the value is unknown)");
+  }
+  return value;
+}
+
+std::optional<double> Table::length(std::size_t row, std::size_t column) const {
+  const auto value = number(row, column);
+  if (!value) return std::nullopt;
+  return *value * metres_per_unit(options_.length_unit);
+}
+
+std::optional<long long> Table::count(std::size_t row, std::size_t column) const {
+  const std::string_view text = cell(row, column);
+  if (text.empty()) return std::nullopt;
+  long long value = 0;
+  const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), value, 10);
+  if (ec != std::errc() || end != text.data() + text.size() || value < 0) {
+    throw InputError(location(row, column), std::string(text), "expected a whole number >= 0");
+  }
+  return value;
+}
+
+void Table::reserve(std::size_t rows, std::size_t text_bytes) {
+  source_rows_.reserve(rows);
+  cells_.reserve(rows * column_names_.size());
+  text_.reserve(text_bytes);
+}
+
+void Table::add_row(const std::vector<std::string_view>& cells, std::size_t source_row) {
+  if (cells.size() > column_names_.size()) {
+    throw InputError(CellLocation{source_, source_row, {}}, std::string(cells.back()),
+                     fmt::format("this row has {} cells but the header names only {} columns; "
+                                 "quote cells that contain the separator",
+                                 cells.size(), column_names_.size()));
+  }
+  for (std::size_t i = 0; i < column_names_.size(); ++i) {
+    if (i < cells.size()) {
+      const std::string_view value = util::trim(cells[i]);
+      cells_.push_back(Span{text_.size(), value.size()});
+      text_.append(value);
+    } else {
+      cells_.push_back(Span{text_.size(), 0});
+    }
+  }
+  source_rows_.push_back(source_row);
+}
+
+Table read_table(const std::filesystem::path& path, const TableOptions& options) {
+  std::error_code ec;
+  if (!std::filesystem::is_regular_file(path, ec)) {
+    throw InputError(path.string(), "no such file (check the path; relative paths are taken from "
+                                    "the current folder)");
+  }
+  const std::string extension = util::to_lower(path.extension().string());
+  if (extension == ".csv" || extension == ".tsv" || extension == ".txt") {
+    return detail::read_delimited_file(path, options);
+  }
+  return detail::read_ogr_table(path, options);
+}
+
+}  // namespace levelhead
