@@ -1,1 +1,123 @@
+// The CLI driven in process: exit codes, messages, and all-or-nothing output.
+
 #include <catch2/catch.hpp>
+#include <nlohmann/json.hpp>
+
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+#include "cli/app.hpp"
+#include "support/temp_folder.hpp"
+
+using Catch::Matchers::Contains;
+namespace fs = std::filesystem;
+
+namespace {
+
+struct CliRun {
+  int code;
+  std::string out, err;
+};
+
+CliRun run_cli(std::vector<std::string> args) {
+  args.insert(args.begin(), "levelhead");
+  std::ostringstream out, err;
+  const int code = levelhead::cli::run(args, out, err);
+  return {code, out.str(), err.str()};
+}
+
+const fs::path bad = fs::path(LEVELHEAD_FIXTURES_DIR) / "bad";
+
+std::vector<std::string> files_in(const fs::path& folder) {
+  std::vector<std::string> names;
+  if (!fs::exists(folder)) return names;
+  for (const auto& entry : fs::directory_iterator(folder)) names.push_back(entry.path().filename());
+  return names;
+}
+
+CliRun adjust_bad(const std::string& points, const std::string& sections, const fs::path& out) {
+  return run_cli({"adjust", "--points", (bad / points).string(), "--sections",
+                  (bad / sections).string(), "--out", out.string()});
+}
+
+}  // namespace
+
+TEST_CASE("adjust writes the three outputs for a good network", "[cli]") {
+  levelhead::testing::TempFolder tmp;
+  const CliRun r = adjust_bad("points.csv", "sections.csv", tmp.path() / "out");
+  INFO(r.err);
+  REQUIRE(r.code == 0);
+  CHECK_THAT(r.out, Contains("sigma0") && Contains("global test"));
+  std::ifstream heights(tmp.path() / "out" / "heights.csv");
+  std::string header;
+  std::getline(heights, header);
+  CHECK(header.rfind("id,height,sigma,", 0) == 0);
+  std::ifstream residuals(tmp.path() / "out" / "residuals.csv");
+  std::getline(residuals, header);
+  CHECK(header.rfind("from,to,dh,residual,w,", 0) == 0);
+  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "out" / "summary.json"));
+  for (const char* key : {"sigma0", "dof", "global_test", "suspects"}) CHECK(summary.contains(key));
+  for (const char* key : {"statistic", "lower", "upper", "passed"}) {
+    CHECK(summary["global_test"].contains(key));
+  }
+  CHECK(files_in(tmp.path() / "out").size() == 3);  // no temporary file left
+}
+
+TEST_CASE("bad input exits 1 naming the problem and leaves no output", "[cli][errors]") {
+  struct Case {
+    const char* points;
+    const char* sections;
+    std::vector<const char*> names;
+  };
+  const std::vector<Case> cases = {
+      {"points_duplicate_id.csv", "sections.csv", {"'A' appears twice", "row 4"}},
+      {"points.csv", "sections_unknown_point.csv", {"'BM-7'", "row 3"}},
+      {"points.csv", "sections_zero_length.csv", {"row 3", "column 'length'"}},
+      {"points.csv", "sections_not_a_number.csv", {"row 3", "column 'dh'", "'0.25O'"}},
+      {"points_with_island.csv", "sections_island.csv", {"datum defect", "C, D"}},
+  };
+  for (const Case& c : cases) {
+    levelhead::testing::TempFolder tmp;
+    const fs::path out = tmp.path() / "out";
+    const CliRun r = adjust_bad(c.points, c.sections, out);
+    INFO(c.points << " + " << c.sections << ": " << r.err);
+    CHECK(r.code == 1);
+    for (const char* name : c.names) CHECK_THAT(r.err, Contains(name));
+    CHECK(files_in(out).empty());
+  }
+}
+
+TEST_CASE("usage errors exit 2", "[cli]") {
+  CHECK(run_cli({}).code == 2);
+  CHECK(run_cli({"adjust", "--points", "p.csv"}).code == 2);
+  CHECK(run_cli({"adjust", "--points", "p", "--sections", "s", "--out", "o", "--alpha", "x"}).code == 2);
+  const CliRun unit = run_cli({"adjust", "--points", "p", "--sections", "s", "--out", "o",
+                               "--unit", "yard"});
+  CHECK(unit.code == 2);
+  CHECK_THAT(unit.err, Contains("yard"));
+  CHECK(run_cli({"--help"}).code == 0);
+}
+
+TEST_CASE("strict mode exits 3 when a check fails, 0 otherwise", "[cli]") {
+  levelhead::testing::TempFolder tmp;
+  // The good corpus misclosure is 1 mm in 530 m of levelling; at 0.1 mm/sqrt(km)
+  // that is far beyond expectation, so the global test fails.
+  const std::vector<std::string> base = {"adjust", "--points", (bad / "points.csv").string(),
+                                         "--sections", (bad / "sections.csv").string(),
+                                         "--out", (tmp.path() / "o").string(), "--strict"};
+  std::vector<std::string> tight = base;
+  tight.insert(tight.end(), {"--mm-per-sqrt-km", "0.1"});
+  CHECK(run_cli(tight).code == 3);
+  CHECK(run_cli(base).code == 0);
+}
+
+TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
+  levelhead::testing::TempFolder tmp;
+  const CliRun r = run_cli({"demo", "--out", tmp.path().string()});
+  INFO(r.err);
+  REQUIRE(r.code == 0);
+  CHECK(fs::exists(tmp.path() / "inputs" / "points.csv"));
+  CHECK(fs::exists(tmp.path() / "adjust" / "heights.csv"));
+  CHECK_THAT(r.out, Contains("passed"));
+}

@@ -1,1 +1,150 @@
 #include <catch2/catch.hpp>
+#include <gdal.h>
+#include <ogr_api.h>
+
+#include <filesystem>
+#include <fstream>
+
+#include "levelhead/table.hpp"
+#include "support/temp_folder.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::Contains;
+using Catch::Matchers::WithinAbs;
+
+TEST_CASE("CSV columns are found by name, case-insensitively", "[table]") {
+  const Table t = parse_delimited_text("ID,Height,SIGMA\nBM1,10.5,0.001\n", "p.csv");
+  REQUIRE(t.row_count() == 1);
+  CHECK(t.cell(0, t.require_column("id")) == "BM1");
+  CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(10.5, 1e-15));
+  CHECK_FALSE(t.find_column("datum"));
+}
+
+TEST_CASE("a column map renames the file's columns", "[table]") {
+  TableOptions options;
+  options.column_map = parse_column_map("id=Station, height=Elev_m");
+  const Table t = parse_delimited_text("Station;Elev_m\nBM1;10.5\n", "p.csv", options);
+  CHECK(t.cell(0, t.require_column("id")) == "BM1");
+  CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(10.5, 1e-15));
+  options.column_map = parse_column_map("height=Elevation");
+  CHECK_THROWS_WITH(parse_delimited_text("Station;Elev_m\n", "p.csv", options),
+                    Contains("Elevation") && Contains("Station, Elev_m"));
+  CHECK_THROWS_AS(parse_column_map("height"), OptionError);
+}
+
+TEST_CASE("separators, quotes, BOM and line ends are handled", "[table]") {
+  const Table t = parse_delimited_text(
+      "\xEF\xBB\xBFid\tremark\r\nA\t\"says \"\"hi\"\"\tthere\"\r\n\r\nB\tplain\r\n", "t.tsv");
+  REQUIRE(t.row_count() == 2);
+  CHECK(t.column_names()[0] == "id");
+  CHECK(t.cell(0, 1) == "says \"hi\"\tthere");
+  CHECK(t.cell(1, 0) == "B");
+  CHECK(t.source_row(1) == 4);  // the blank line still counts
+  const Table multi = parse_delimited_text("id,note\nA,\"two\nlines\"\nB,x\n", "m.csv");
+  CHECK(multi.source_row(1) == 4);
+}
+
+TEST_CASE("ids stay text: 007 is not 7", "[table]") {
+  const Table t = parse_delimited_text("id\n007\n", "p.csv");
+  CHECK(t.cell(0, 0) == "007");
+}
+
+TEST_CASE("bad numbers name file, row, column and value", "[table][errors]") {
+  const Table t = parse_delimited_text("id,dh,length\nA,1.5,12\nB,abc,12\nC,1,2\nD,nan,1\nE,1,\"1,5\"\n",
+                                       "sections.csv");
+  CHECK_THROWS_WITH(t.number(1, 1), Contains("sections.csv, row 3, column 'dh'") &&
+                                        Contains("'abc'") && Contains("expected a number"));
+  CHECK_THROWS_WITH(t.number(3, 1), Contains("row 5") && Contains("NaN"));
+  CHECK_THROWS_WITH(t.number(4, 2), Contains("decimal point"));
+  CHECK_FALSE(parse_delimited_text("a,b\n1,\n", "x.csv").number(0, 1));
+  CHECK(*parse_delimited_text("a\n+2.5e-3\n", "x.csv").number(0, 0) == Approx(2.5e-3).epsilon(0));
+}
+
+TEST_CASE("lengths convert from the declared unit to metres", "[table][units]") {
+  TableOptions feet;
+  feet.length_unit = LengthUnit::us_survey_foot;
+  const Table t = parse_delimited_text("dh\n3937\n", "s.csv", feet);
+  CHECK_THAT(*t.length(0, 0), WithinAbs(1200.0, 1e-9));  // 3937 US survey ft = 1200 m exactly
+  CHECK_THAT(*t.number(0, 0), WithinAbs(3937.0, 1e-12));
+}
+
+TEST_CASE("structural CSV problems are clear errors", "[table][errors]") {
+  CHECK_THROWS_WITH(parse_delimited_text("", "e.csv"), Contains("e.csv") && Contains("empty"));
+  CHECK_THROWS_WITH(parse_delimited_text("id,ID\n", "d.csv"), Contains("appears twice"));
+  CHECK_THROWS_WITH(parse_delimited_text("id,x\nA,1,2\n", "w.csv"),
+                    Contains("row 2") && Contains("3 cells"));
+  CHECK_THROWS_WITH(parse_delimited_text("id\n\"A\n", "q.csv"), Contains("never closed"));
+  CHECK_THROWS_WITH(parse_delimited_text("id,\n", "h.csv"), Contains("header cell 2"));
+  const Table t = parse_delimited_text("id\nA\n", "m.csv");
+  CHECK_THROWS_WITH(t.require_column("height"), Contains("'height' is missing"));
+}
+
+TEST_CASE("a missing file is named", "[table][errors]") {
+  CHECK_THROWS_WITH(read_table("no/such/points.csv"), Contains("no/such/points.csv"));
+}
+
+namespace {
+// Writes a small table with GDAL in the given driver: id as text, h as real.
+void write_ogr_table(const std::filesystem::path& path, const char* driver_name, bool as_points) {
+  GDALAllRegister();
+  GDALDriverH driver = GDALGetDriverByName(driver_name);
+  REQUIRE(driver != nullptr);
+  GDALDatasetH ds = GDALCreate(driver, path.string().c_str(), 0, 0, 0, GDT_Unknown, nullptr);
+  REQUIRE(ds != nullptr);
+  OGRLayerH layer = GDALDatasetCreateLayer(ds, "pts", nullptr, as_points ? wkbPoint : wkbNone, nullptr);
+  OGRFieldDefnH id = OGR_Fld_Create("ID", OFTString);
+  OGR_L_CreateField(layer, id, 1);
+  OGR_Fld_Destroy(id);
+  OGRFieldDefnH h = OGR_Fld_Create("Height", OFTReal);
+  OGR_L_CreateField(layer, h, 1);
+  OGR_Fld_Destroy(h);
+  const char* ids[] = {"007", "BM-2"};
+  for (int i = 0; i < 2; ++i) {
+    OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer));
+    OGR_F_SetFieldString(f, 0, ids[i]);
+    if (i == 0) OGR_F_SetFieldDouble(f, 1, 12.3456);
+    if (as_points) {
+      OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
+      OGR_G_SetPoint_2D(g, 0, 500000.0 + i, 4400000.0);
+      OGR_F_SetGeometryDirectly(f, g);
+    }
+    REQUIRE(OGR_L_CreateFeature(layer, f) == OGRERR_NONE);
+    OGR_F_Destroy(f);
+  }
+  GDALClose(ds);
+}
+}  // namespace
+
+TEST_CASE("GDAL sources are read as text tables", "[table][gdal]") {
+  testing::TempFolder folder;
+  SECTION("GeoPackage point layer, geometry as x and y") {
+    const auto path = folder.path() / "points.gpkg";
+    write_ogr_table(path, "GPKG", true);
+    const Table t = read_table(path);
+    REQUIRE(t.row_count() == 2);
+    CHECK(t.cell(0, t.require_column("id")) == "007");
+    CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(12.3456, 1e-12));
+    CHECK_FALSE(t.number(1, t.require_column("height")));  // unset stays empty, not 0
+    CHECK_THAT(*t.number(1, t.require_column("x")), WithinAbs(500001.0, 1e-9));
+  }
+  SECTION("XLSX sheet, header forced and cells kept as text") {
+    const auto path = folder.path() / "points.xlsx";
+    write_ogr_table(path, "XLSX", false);
+    const Table t = read_table(path);
+    REQUIRE(t.row_count() == 2);
+    CHECK(t.cell(0, t.require_column("id")) == "007");
+    CHECK(t.source_row(1) == 3);
+  }
+  SECTION("GeoJSON") {
+    const auto path = folder.path() / "points.geojson";
+    std::ofstream(path) << R"({"type":"FeatureCollection","features":[
+      {"type":"Feature","properties":{"id":"A","height":"1.25"},"geometry":null}]})";
+    const Table t = read_table(path);
+    CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(1.25, 1e-15));
+  }
+  SECTION("an unreadable file") {
+    const auto path = folder.path() / "junk.xlsx";
+    std::ofstream(path) << "not a spreadsheet";
+    CHECK_THROWS_WITH(read_table(path), Contains("junk.xlsx") && Contains("cannot read"));
+  }
+}

@@ -1,1 +1,42 @@
+// Quantiles against published statistical tables.
+
 #include <catch2/catch.hpp>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/statistics.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::WithinAbs;
+
+TEST_CASE("normal quantiles match the standard normal table", "[reference][statistics]") {
+  // NIST/SEMATECH e-Handbook of Statistical Methods, 1.3.6.7.1 (critical
+  // values of the normal distribution): z(0.975) = 1.960, z(0.9995) = 3.291.
+  // Tables give 3 decimals, hence the 5e-4 tolerance; the 6-decimal value
+  // 1.959964 is the usual quoted figure (common practice).
+  CHECK_THAT(normal_quantile(0.975), WithinAbs(1.959964, 5e-7));
+  CHECK_THAT(w_test_critical_value(0.001), WithinAbs(3.291, 5e-4));
+  CHECK_THAT(normal_quantile(0.80), WithinAbs(0.8416, 5e-5));  // same table, 0.84 to 4 decimals
+}
+
+TEST_CASE("chi-square quantiles match the chi-square table", "[reference][statistics]") {
+  // NIST/SEMATECH e-Handbook, 1.3.6.7.4 (critical values of the chi-square
+  // distribution), nu = 10: lower 0.025 -> 3.247, upper 0.025 -> 20.483;
+  // nu = 1: upper 0.05 -> 3.841; nu = 100: upper 0.05 -> 124.342.
+  CHECK_THAT(chi_square_quantile(0.025, 10), WithinAbs(3.247, 5e-4));
+  CHECK_THAT(chi_square_upper_quantile(0.025, 10), WithinAbs(20.483, 5e-4));
+  CHECK_THAT(chi_square_upper_quantile(0.05, 1), WithinAbs(3.841, 5e-4));
+  CHECK_THAT(chi_square_upper_quantile(0.05, 100), WithinAbs(124.342, 5e-4));
+}
+
+TEST_CASE("Baarda's non-centrality for alpha0 = 0.1 %, beta0 = 80 %", "[reference][statistics]") {
+  // Baarda (1968), Publications on Geodesy 2(5), Netherlands Geodetic
+  // Commission: lambda0 = 17.075 for the one-dimensional test with these
+  // settings (value recalled from memory of Baarda's table; it equals
+  // (3.2905 + 0.8416)^2 from the normal table above).
+  CHECK_THAT(baarda_noncentrality(0.001, 0.80), WithinAbs(17.075, 1e-3));
+}
+
+TEST_CASE("probabilities outside (0, 1) are refused", "[statistics]") {
+  CHECK_THROWS_AS(normal_quantile(1.0), OptionError);
+  CHECK_THROWS_AS(chi_square_quantile(0.0, 3), OptionError);
+}
