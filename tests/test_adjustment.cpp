@@ -126,7 +126,7 @@ TEST_CASE("weights come from sigma, else length, else setups", "[adjust][weights
 
 TEST_CASE("a section with no way to weight it is an error naming its row", "[adjust][errors]") {
   Section bare = section("A", "B", 1.0, std::nullopt);
-  bare.where.row = 9;
+  bare.row = 9;
   const Network net = make_network({point("A", 10.0), point("B")}, {bare});
   CHECK_THROWS_WITH(adjust(net, AdjustmentOptions{}),
                     Contains("row 9") && Contains("cannot be weighted"));

@@ -12,19 +12,20 @@ TEST_CASE("points and sections are read from tables", "[network]") {
   feet.length_unit = LengthUnit::international_foot;
   const auto points = read_points(parse_delimited_text(
       "id,height,sigma,datum\nA,100,,EPSG:5703\nB,,,\nC,50,0.01,EPSG:5703\n", "p.csv", feet));
-  REQUIRE(points.size() == 3);
-  CHECK(points[0].is_fixed());
-  CHECK_FALSE(points[1].has_control());
-  CHECK_FALSE(points[2].is_fixed());
-  CHECK_THAT(*points[0].height, WithinAbs(30.48, 1e-12));
-  CHECK_THAT(*points[2].sigma, WithinAbs(0.003048, 1e-15));
-  CHECK(points[1].where.row == 3);
+  REQUIRE(points.points.size() == 3);
+  CHECK(points.file == "p.csv");
+  CHECK(points.points[0].is_fixed());
+  CHECK_FALSE(points.points[1].has_control());
+  CHECK_FALSE(points.points[2].is_fixed());
+  CHECK_THAT(*points.points[0].height, WithinAbs(30.48, 1e-12));
+  CHECK_THAT(*points.points[2].sigma, WithinAbs(0.003048, 1e-15));
+  CHECK(points.points[1].row == 3);
 
   const auto sections = read_sections(parse_delimited_text(
       "From,To,dH,Length,Setups,run\nA,B,1.5,300,4,r1\n", "s.csv"));
-  REQUIRE(sections.size() == 1);
-  CHECK(*sections[0].setups == 4);
-  CHECK(sections[0].run == "r1");
+  REQUIRE(sections.sections.size() == 1);
+  CHECK(*sections.sections[0].setups == 4);
+  CHECK(sections.sections[0].run == "r1");
 }
 
 TEST_CASE("bad point and section cells name their row and column", "[network][errors]") {
@@ -50,11 +51,11 @@ TEST_CASE("duplicate ids, unknown points and self-sections are refused", "[netwo
   using testing::point;
   using testing::section;
   Point second = point("A");
-  second.where.row = 5;
+  second.row = 5;
   CHECK_THROWS_WITH(make_network({point("A", 1.0), second}, {}),
                     Contains("'A' appears twice") && Contains("row 5"));
   Section typo = section("A", "BM-9", 1.0);
-  typo.where.row = 12;
+  typo.row = 12;
   try {
     make_network({point("A", 1.0)}, {typo});
     FAIL("expected a NetworkError");

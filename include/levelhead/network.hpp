@@ -16,6 +16,7 @@
 #include <cstddef>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <unordered_map>
 #include <vector>
 
@@ -30,7 +31,7 @@ struct Point {
   std::optional<double> sigma;   // m; nullopt or 0 with a height: fixed
   std::string datum;
   std::string kind;
-  CellLocation where;  // the row it came from, for messages
+  std::size_t row = 0;  // row of the points table it came from (header = 1), for messages
 
   bool has_control() const { return height.has_value(); }
   bool is_fixed() const { return height && (!sigma || *sigma <= 0.0); }
@@ -43,22 +44,49 @@ struct Section {
   std::optional<double> sigma;    // m, > 0
   std::optional<long long> setups;
   std::string date, run;
-  CellLocation where;
+  std::size_t row = 0;  // row of the sections table it came from (header = 1)
 };
 
+struct PointTable {
+  std::string file;  // names the source in messages
+  std::vector<Point> points;
+};
+
+struct SectionTable {
+  std::string file;
+  std::vector<Section> sections;
+};
+
+// Move-only: point_index holds views of the ids in `points`.
 struct Network {
+  std::string points_file, sections_file;
   std::vector<Point> points;
   std::vector<Section> sections;
-  std::unordered_map<std::string, std::size_t> point_index;  // id -> index in points
+  std::unordered_map<std::string_view, std::size_t> point_index;  // id -> index in points
 
   // Section endpoints as indices into points, in section order.
   std::vector<std::size_t> from_index, to_index;
+
+  Network() = default;
+  Network(Network&&) = default;
+  Network& operator=(Network&&) = default;
+  Network(const Network&) = delete;
+  Network& operator=(const Network&) = delete;
+
+  CellLocation point_location(std::size_t point) const {
+    return {points_file, points[point].row, {}};
+  }
+  CellLocation section_location(std::size_t section) const {
+    return {sections_file, sections[section].row, {}};
+  }
 };
 
-std::vector<Point> read_points(const Table& table);
-std::vector<Section> read_sections(const Table& table);
+PointTable read_points(const Table& table);
+SectionTable read_sections(const Table& table);
 
 // Checks ids and references and builds the indices. Throws NetworkError.
+Network make_network(PointTable points, SectionTable sections);
+// For networks built in code: the sources are named "points" and "sections".
 Network make_network(std::vector<Point> points, std::vector<Section> sections);
 
 }  // namespace levelhead

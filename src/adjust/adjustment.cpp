@@ -89,7 +89,7 @@ Weighting weigh_sections(const Network& net, const AdjustmentOptions& options) {
       out.sigma[i] = options.mm_per_setup * 1e-3 * std::sqrt(static_cast<double>(*s.setups));
       out.rule[i] = WeightRule::setups;
     } else {
-      throw InputError(s.where, "",
+      throw InputError(net.section_location(i), "",
                        fmt::format("section {} -> {} has no sigma, no length and no setups, so it "
                                    "cannot be weighted; give one of them",
                                    s.from, s.to));

@@ -29,22 +29,22 @@ nlohmann::json suspect_json(const Network& net, const AdjustmentResult& result, 
     const AdjustedSection& a = result.sections[s.index];
     return {{"kind", "section"}, {"from", section.from}, {"to", section.to}, {"w", s.w},
             {"residual", a.residual}, {"mdb", optional_number(a.mdb)},
-            {"row", section.where.row}};
+            {"row", section.row}};
   }
   const Point& p = net.points[s.index];
   const AdjustedPoint& a = result.points[s.index];
   return {{"kind", "control"}, {"from", ""}, {"to", p.id}, {"point", p.id}, {"w", s.w},
           {"residual", optional_number(a.control_residual)}, {"mdb", optional_number(a.control_mdb)},
-          {"row", p.where.row}};
+          {"row", p.row}};
 }
 
 std::string suspect_label(const Network& net, const Suspect& s) {
   if (s.kind == Suspect::Kind::section) {
     const Section& section = net.sections[s.index];
-    return fmt::format("section {} -> {} (row {})", section.from, section.to, section.where.row);
+    return fmt::format("section {} -> {} (row {})", section.from, section.to, section.row);
   }
   return fmt::format("known height of {} (row {})", net.points[s.index].id,
-                     net.points[s.index].where.row);
+                     net.points[s.index].row);
 }
 
 }  // namespace
@@ -125,7 +125,7 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
     const Removal& r = result.removals[k];
     const Section& s = net.sections[r.section];
     removals.push_back({{"step", k + 1}, {"from", s.from}, {"to", s.to}, {"w", r.w},
-                        {"sigma0_before", r.sigma0}, {"row", s.where.row}});
+                        {"sigma0_before", r.sigma0}, {"row", s.row}});
   }
   summary["removals"] = removals;
   summary["weights"] = {

@@ -24,7 +24,7 @@ std::optional<T> optional_cell(std::optional<std::size_t> column, auto read) {
 
 }  // namespace
 
-std::vector<Point> read_points(const Table& table) {
+PointTable read_points(const Table& table) {
   const std::size_t id_col = table.require_column("id");
   const auto x_col = table.find_column("x");
   const auto y_col = table.find_column("y");
@@ -33,13 +33,13 @@ std::vector<Point> read_points(const Table& table) {
   const auto datum_col = table.find_column("datum");
   const auto kind_col = table.find_column("kind");
 
-  std::vector<Point> points;
+  PointTable out{table.source(), {}};
+  std::vector<Point>& points = out.points;
   points.reserve(table.row_count());
   for (std::size_t row = 0; row < table.row_count(); ++row) {
     Point p;
     p.id = required_text(table, row, id_col, "every point needs an id");
-    p.where = table.location(row, id_col);
-    p.where.column.clear();
+    p.row = table.source_row(row);
     p.x = optional_cell<double>(x_col, [&](std::size_t c) { return table.number(row, c); });
     p.y = optional_cell<double>(y_col, [&](std::size_t c) { return table.number(row, c); });
     p.height = optional_cell<double>(height_col, [&](std::size_t c) { return table.length(row, c); });
@@ -56,10 +56,10 @@ std::vector<Point> read_points(const Table& table) {
     p.kind = optional_text(table, row, kind_col);
     points.push_back(std::move(p));
   }
-  return points;
+  return out;
 }
 
-std::vector<Section> read_sections(const Table& table) {
+SectionTable read_sections(const Table& table) {
   const std::size_t from_col = table.require_column("from");
   const std::size_t to_col = table.require_column("to");
   const std::size_t dh_col = table.require_column("dh");
@@ -69,14 +69,14 @@ std::vector<Section> read_sections(const Table& table) {
   const auto date_col = table.find_column("date");
   const auto run_col = table.find_column("run");
 
-  std::vector<Section> sections;
+  SectionTable out{table.source(), {}};
+  std::vector<Section>& sections = out.sections;
   sections.reserve(table.row_count());
   for (std::size_t row = 0; row < table.row_count(); ++row) {
     Section s;
     s.from = required_text(table, row, from_col, "every section needs a 'from' point id");
     s.to = required_text(table, row, to_col, "every section needs a 'to' point id");
-    s.where = table.location(row, from_col);
-    s.where.column.clear();
+    s.row = table.source_row(row);
     const auto dh = table.length(row, dh_col);
     if (!dh) throw InputError(table.location(row, dh_col), "", "every section needs its dh");
     s.dh = *dh;
@@ -104,25 +104,31 @@ std::vector<Section> read_sections(const Table& table) {
     s.run = optional_text(table, row, run_col);
     sections.push_back(std::move(s));
   }
-  return sections;
+  return out;
 }
 
-Network make_network(std::vector<Point> points, std::vector<Section> sections) {
+Network make_network(PointTable point_table, SectionTable section_table) {
   Network net;
+  net.points_file = std::move(point_table.file);
+  net.sections_file = std::move(section_table.file);
+  net.points = std::move(point_table.points);
+  const std::vector<Point>& points = net.points;
   net.point_index.reserve(points.size());
   for (std::size_t i = 0; i < points.size(); ++i) {
     const auto [it, inserted] = net.point_index.emplace(points[i].id, i);
     if (!inserted) {
       throw NetworkError(fmt::format("{}: point id '{}' appears twice (first at row {}); ids must "
                                      "be unique",
-                                     describe(points[i].where), points[i].id,
-                                     points[it->second].where.row),
+                                     describe(net.point_location(i)), points[i].id,
+                                     points[it->second].row),
                          {points[i].id});
     }
   }
-  net.from_index.reserve(sections.size());
-  net.to_index.reserve(sections.size());
-  for (const Section& s : sections) {
+  net.sections = std::move(section_table.sections);
+  net.from_index.reserve(net.sections.size());
+  net.to_index.reserve(net.sections.size());
+  for (std::size_t k = 0; k < net.sections.size(); ++k) {
+    const Section& s = net.sections[k];
     const auto from = net.point_index.find(s.from);
     const auto to = net.point_index.find(s.to);
     for (const auto& [it, id] : {std::pair{from, &s.from}, std::pair{to, &s.to}}) {
@@ -130,22 +136,25 @@ Network make_network(std::vector<Point> points, std::vector<Section> sections) {
         throw NetworkError(fmt::format("{}: section {} -> {} names point '{}', which is not in the "
                                        "points table; add it there (with an empty height if it is "
                                        "new) or correct the id",
-                                       describe(s.where), s.from, s.to, *id),
+                                       describe(net.section_location(k)), s.from, s.to, *id),
                            {*id});
       }
     }
     if (from->second == to->second) {
       throw NetworkError(fmt::format("{}: section goes from '{}' to itself; a section needs two "
                                      "different points",
-                                     describe(s.where), s.from),
+                                     describe(net.section_location(k)), s.from),
                          {s.from});
     }
     net.from_index.push_back(from->second);
     net.to_index.push_back(to->second);
   }
-  net.points = std::move(points);
-  net.sections = std::move(sections);
   return net;
+}
+
+Network make_network(std::vector<Point> points, std::vector<Section> sections) {
+  return make_network(PointTable{"points", std::move(points)},
+                      SectionTable{"sections", std::move(sections)});
 }
 
 }  // namespace levelhead

@@ -1,1 +1,159 @@
-int main() { return 0; }
+// Benchmark of `adjust` on two shapes of invented network:
+//   national: a grid of junctions joined by long lines of benchmarks (most
+//             points of degree 2), the shape of regional levelling networks;
+//   mesh:     a dense 2D monitoring grid, the worst case for fill.
+// Each case runs in its own process (so peak memory is its own) and prints
+// the time of every stage: writing is not timed; reading the two CSV tables,
+// assembly, ordering (symbolic analysis), factorisation, solve, sigmas
+// (selected inverse + residual statistics), and the peak resident memory.
+// A dense solution of a small network is timed in the same process as the
+// sparse one and reported as a ratio, since machines are noisy.
+//
+// usage: bench_adjust            run the standard set (1e4, 1e5, 1e6 points)
+//        bench_adjust --quick    1e4 and 1e5 only
+//        bench_adjust --case national|mesh N
+//        bench_adjust --dense N  sparse vs dense ratio on a random network
+
+#include <Eigen/Dense>
+#include <sys/resource.h>
+
+#include <chrono>
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fmt/format.h>
+#include <fstream>
+#include <string>
+
+#include "levelhead/adjustment.hpp"
+#include "levelhead/table.hpp"
+#include "support/synthetic_networks.hpp"
+
+using namespace levelhead;
+using Clock = std::chrono::steady_clock;
+
+namespace {
+
+double seconds_since(Clock::time_point t) {
+  return std::chrono::duration<double>(Clock::now() - t).count();
+}
+
+double peak_rss_mb() {
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  return static_cast<double>(usage.ru_maxrss) / 1024.0;
+}
+
+void write_csv(const testing::SyntheticNetwork& net, const std::filesystem::path& folder) {
+  std::ofstream points(folder / "points.csv");
+  points << "id,x,y,height,sigma\n";
+  for (const Point& p : net.points) {
+    points << p.id << ',' << fmt::format("{:.1f},{:.1f},", *p.x, *p.y)
+           << (p.height ? fmt::format("{:.5f}", *p.height) : "") << ",\n";
+  }
+  std::ofstream sections(folder / "sections.csv");
+  sections << "from,to,dh,length\n";
+  for (const Section& s : net.sections) {
+    sections << s.from << ',' << s.to << ',' << fmt::format("{:.5f},{:.1f}\n", s.dh, *s.length);
+  }
+}
+
+int run_case(const std::string& shape, std::size_t n) {
+  const std::filesystem::path folder =
+      std::filesystem::temp_directory_path() / fmt::format("levelhead-bench-{}-{}", shape, n);
+  std::filesystem::create_directories(folder);
+  std::size_t n_points = 0, n_sections = 0;
+  {  // generated and written, then freed: the timed part starts from files only
+    const testing::SyntheticNetwork synthetic =
+        shape == "mesh" ? testing::mesh_network(n, 42) : testing::national_network(n, 20, 42);
+    write_csv(synthetic, folder);
+    n_points = synthetic.points.size();
+    n_sections = synthetic.sections.size();
+  }
+
+  const auto start = Clock::now();
+  Network net = make_network(read_points(read_table(folder / "points.csv")),
+                             read_sections(read_table(folder / "sections.csv")));
+  const double read_seconds = seconds_since(start);
+  AdjustmentOptions options;
+  options.max_factor_nonzeros = 1e9;
+  const AdjustmentResult r = adjust(net, options);
+  const double total = seconds_since(start);
+  if (!std::getenv("LEVELHEAD_BENCH_KEEP")) std::filesystem::remove_all(folder);
+
+  const AdjustmentTimings& t = r.timings;
+  fmt::print("{:<9}{:>9}{:>9}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>9.3g}{:>9.0f}"
+             "   sigma0 {:.3f}\n",
+             shape, n_points, n_sections, read_seconds, t.assembly, t.ordering, t.factorisation,
+             t.solve, t.sigmas, total, r.factor_nonzeros, peak_rss_mb(), r.sigma0.value_or(0.0));
+  return 0;
+}
+
+// Dense reference: N = A'PA as a dense matrix, Cholesky, full inverse.
+int run_dense_ratio(std::size_t n) {
+  testing::SyntheticNetwork synthetic = testing::random_network(n, n, 3);
+  std::mt19937_64 rng(4);
+  testing::set_control(synthetic, {0, 1}, {}, 0.0, rng);
+  const Network net = make_network(synthetic.points, synthetic.sections);
+
+  auto start = Clock::now();
+  const AdjustmentResult sparse = adjust(net, AdjustmentOptions{});
+  const double sparse_seconds = seconds_since(start);
+
+  start = Clock::now();
+  std::vector<int> unknown(net.points.size(), -1);
+  int m = 0;
+  for (std::size_t i = 0; i < net.points.size(); ++i) {
+    if (!net.points[i].is_fixed()) unknown[i] = m++;
+  }
+  Eigen::MatrixXd N = Eigen::MatrixXd::Zero(m, m);
+  Eigen::VectorXd b = Eigen::VectorXd::Zero(m);
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    const double p = 1.0 / (sparse.sections[s].sigma * sparse.sections[s].sigma);
+    const int f = unknown[net.from_index[s]], t = unknown[net.to_index[s]];
+    double l = net.sections[s].dh;
+    if (f < 0) l += *net.points[net.from_index[s]].height;
+    if (t < 0) l -= *net.points[net.to_index[s]].height;
+    if (f >= 0) N(f, f) += p, b[f] -= p * l;
+    if (t >= 0) N(t, t) += p, b[t] += p * l;
+    if (f >= 0 && t >= 0) N(f, t) -= p, N(t, f) -= p;
+  }
+  const Eigen::MatrixXd Q = N.llt().solve(Eigen::MatrixXd::Identity(m, m));
+  const Eigen::VectorXd x = Q * b;
+  const double dense_seconds = seconds_since(start);
+  fmt::print("dense reference, {} points, {} sections: sparse {:.4f} s, dense {:.4f} s, "
+             "dense/sparse = {:.1f}  (check: {:.2e} m)\n",
+             net.points.size(), net.sections.size(), sparse_seconds, dense_seconds,
+             dense_seconds / sparse_seconds, std::abs(x[m - 1] - sparse.points.back().height));
+  return 0;
+}
+
+}  // namespace
+
+int main(int argc, char** argv) {
+  const std::string self = std::filesystem::canonical("/proc/self/exe").string();
+  if (argc == 4 && std::string(argv[1]) == "--case") {
+    return run_case(argv[2], std::stoul(argv[3]));
+  }
+  if (argc == 3 && std::string(argv[1]) == "--dense") return run_dense_ratio(std::stoul(argv[2]));
+  const bool quick = argc == 2 && std::string(argv[1]) == "--quick";
+
+  fmt::print("levelhead adjust benchmark (seconds; every height's sigma computed)\n");
+  fmt::print("{:<9}{:>9}{:>9}{:>8}{:>8}{:>8}{:>8}{:>8}{:>8}{:>8}{:>9}{:>9}\n", "shape", "points",
+             "sections", "read", "assem", "order", "factor", "solve", "sigmas", "total", "nnz(L)",
+             "peak MB");
+  std::vector<std::size_t> sizes = {10000, 100000};
+  if (!quick) sizes.push_back(1000000);
+  int status = 0;
+  for (const char* shape : {"national", "mesh"}) {
+    for (std::size_t n : sizes) {
+      std::fflush(stdout);
+      status |= std::system(fmt::format("'{}' --case {} {}", self, shape, n).c_str());
+    }
+  }
+  std::fflush(stdout);
+  for (std::size_t n : {1000, 2000}) {
+    status |= std::system(fmt::format("'{}' --dense {}", self, n).c_str());
+  }
+  return status == 0 ? 0 : 1;
+}

@@ -16,7 +16,6 @@ inline Point point(std::string id, std::optional<double> height = std::nullopt,
   p.height = height;
   p.sigma = sigma;
   p.datum = std::move(datum);
-  p.where = {"points.csv", 0, {}};
   return p;
 }
 
@@ -27,7 +26,6 @@ inline Section section(std::string from, std::string to, double dh,
   s.to = std::move(to);
   s.dh = dh;
   s.length = length;
-  s.where = {"sections.csv", 0, {}};
   return s;
 }
 
