@@ -13,8 +13,10 @@
 //        bench_adjust --quick    1e4 and 1e5 only
 //        bench_adjust --case national|mesh N
 //        bench_adjust --dense N  sparse vs dense ratio on a random network
+//        bench_adjust --solvers  Eigen SimplicialLDLT vs CHOLMOD factorisation
 
 #include <Eigen/Dense>
+#include <Eigen/SparseCholesky>
 #include <sys/resource.h>
 
 #include <chrono>
@@ -25,6 +27,7 @@
 #include <fstream>
 #include <string>
 
+#include "adjust/normal_solver.hpp"
 #include "levelhead/adjustment.hpp"
 #include "levelhead/table.hpp"
 #include "support/synthetic_networks.hpp"
@@ -89,6 +92,70 @@ int run_case(const std::string& shape, std::size_t n) {
   return 0;
 }
 
+// Normal equations of the heights themselves (not corrections), weighted by
+// length as the adjustment's default does; fixed points moved to the right side.
+struct NormalEquations {
+  std::vector<Eigen::Triplet<double, int>> lower;
+  Eigen::VectorXd rhs;
+};
+
+NormalEquations assemble(const Network& net) {
+  std::vector<int> unknown(net.points.size(), -1);
+  int m = 0;
+  for (std::size_t i = 0; i < net.points.size(); ++i) {
+    if (!net.points[i].is_fixed()) unknown[i] = m++;
+  }
+  NormalEquations out;
+  out.rhs = Eigen::VectorXd::Zero(m);
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    const double sigma = AdjustmentOptions{}.mm_per_sqrt_km * 1e-3 *
+                         std::sqrt(*net.sections[s].length / 1000.0);
+    const double p = 1.0 / (sigma * sigma);
+    const int f = unknown[net.from_index[s]], t = unknown[net.to_index[s]];
+    double l = net.sections[s].dh;
+    if (f < 0) l += *net.points[net.from_index[s]].height;
+    if (t < 0) l -= *net.points[net.to_index[s]].height;
+    if (f >= 0) out.lower.emplace_back(f, f, p), out.rhs[f] -= p * l;
+    if (t >= 0) out.lower.emplace_back(t, t, p), out.rhs[t] += p * l;
+    if (f >= 0 && t >= 0) out.lower.emplace_back(std::max(f, t), std::min(f, t), -p);
+  }
+  return out;
+}
+
+// Factorisation alone, same matrix, same process: Eigen's SimplicialLDLT with
+// AMD against CHOLMOD as the adjustment uses it (analysis, factorisation and
+// conversion to the simplicial LDL' that the selected inverse needs).
+int run_solver_comparison() {
+  fmt::print("{:<9}{:>9}{:>14}{:>14}{:>10}\n", "shape", "points", "Eigen LDLT s", "CHOLMOD s",
+             "ratio");
+  for (const auto& [shape, n] : {std::pair{"national", 100000}, std::pair{"national", 1000000},
+                                 std::pair{"mesh", 100000}, std::pair{"mesh", 1000000}}) {
+    testing::SyntheticNetwork synthetic = std::string(shape) == "mesh"
+                                              ? testing::mesh_network(n, 42)
+                                              : testing::national_network(n, 20, 42);
+    const Network net = make_network(std::move(synthetic.points), std::move(synthetic.sections));
+    const NormalEquations normal = assemble(net);
+    const auto m = static_cast<int>(normal.rhs.size());
+    detail::NormalSolver::LowerMatrix N(m, m);
+    N.setFromTriplets(normal.lower.begin(), normal.lower.end());
+    N.makeCompressed();
+
+    auto start = Clock::now();
+    Eigen::SimplicialLDLT<Eigen::SparseMatrix<double, Eigen::ColMajor, int>, Eigen::Lower,
+                          Eigen::AMDOrdering<int>>
+        eigen(N);
+    const double eigen_seconds = seconds_since(start);
+    start = Clock::now();
+    detail::NormalSolver cholmod(N, detail::SolverLimits{1e9});
+    const double cholmod_seconds = seconds_since(start);
+    const Eigen::VectorXd difference = eigen.solve(normal.rhs) - cholmod.solve(normal.rhs);
+    fmt::print("{:<9}{:>9}{:>14.3f}{:>14.3f}{:>10.2f}   (solutions differ by {:.1e} m)\n", shape,
+               net.points.size(), eigen_seconds, cholmod_seconds, eigen_seconds / cholmod_seconds,
+               difference.cwiseAbs().maxCoeff());
+  }
+  return 0;
+}
+
 // Dense reference: N = A'PA as a dense matrix, Cholesky, full inverse.
 int run_dense_ratio(std::size_t n) {
   testing::SyntheticNetwork synthetic = testing::random_network(n, n, 3);
@@ -101,23 +168,14 @@ int run_dense_ratio(std::size_t n) {
   const double sparse_seconds = seconds_since(start);
 
   start = Clock::now();
-  std::vector<int> unknown(net.points.size(), -1);
-  int m = 0;
-  for (std::size_t i = 0; i < net.points.size(); ++i) {
-    if (!net.points[i].is_fixed()) unknown[i] = m++;
-  }
+  const NormalEquations normal = assemble(net);
+  const int m = static_cast<int>(normal.rhs.size());
   Eigen::MatrixXd N = Eigen::MatrixXd::Zero(m, m);
-  Eigen::VectorXd b = Eigen::VectorXd::Zero(m);
-  for (std::size_t s = 0; s < net.sections.size(); ++s) {
-    const double p = 1.0 / (sparse.sections[s].sigma * sparse.sections[s].sigma);
-    const int f = unknown[net.from_index[s]], t = unknown[net.to_index[s]];
-    double l = net.sections[s].dh;
-    if (f < 0) l += *net.points[net.from_index[s]].height;
-    if (t < 0) l -= *net.points[net.to_index[s]].height;
-    if (f >= 0) N(f, f) += p, b[f] -= p * l;
-    if (t >= 0) N(t, t) += p, b[t] += p * l;
-    if (f >= 0 && t >= 0) N(f, t) -= p, N(t, f) -= p;
+  for (const auto& t : normal.lower) {
+    N(t.row(), t.col()) += t.value();
+    if (t.row() != t.col()) N(t.col(), t.row()) += t.value();
   }
+  const Eigen::VectorXd& b = normal.rhs;
   const Eigen::MatrixXd Q = N.llt().solve(Eigen::MatrixXd::Identity(m, m));
   const Eigen::VectorXd x = Q * b;
   const double dense_seconds = seconds_since(start);
@@ -136,6 +194,7 @@ int main(int argc, char** argv) {
     return run_case(argv[2], std::stoul(argv[3]));
   }
   if (argc == 3 && std::string(argv[1]) == "--dense") return run_dense_ratio(std::stoul(argv[2]));
+  if (argc == 2 && std::string(argv[1]) == "--solvers") return run_solver_comparison();
   const bool quick = argc == 2 && std::string(argv[1]) == "--quick";
 
   fmt::print("levelhead adjust benchmark (seconds; every height's sigma computed)\n");
