@@ -11,7 +11,7 @@
 //                suspect, removed_step.
 // summary.json   sigma0, dof, global_test {statistic, lower, upper, alpha,
 //                passed}, suspects (worst first: from, to, w, ...), counts,
-//                weighting rules, data-snooping settings, solver figures.
+//                weighting rules, data-snooping settings, factor size.
 
 #include <filesystem>
 #include <string>
