@@ -7,20 +7,19 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/demo_data.hpp"
+#include "cli/network_inputs.hpp"
 #include "levelhead/adjustment.hpp"
 #include "levelhead/adjustment_report.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/output_files.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/units.hpp"
 
 namespace levelhead::cli {
 
 namespace {
 
 struct AdjustArguments {
-  std::string points, sections, out;
-  std::string unit = "m";
-  std::string points_columns, sections_columns, points_layer, sections_layer;
+  NetworkInputs inputs;
   std::string free_point;
   AdjustmentOptions options;
   bool strict = false;
@@ -61,23 +60,19 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
 }
 
 int adjust_files(const AdjustArguments& a, std::ostream& out) {
-  const LengthUnit unit = parse_length_unit(a.unit);
-  TableOptions point_options{parse_column_map(a.points_columns), unit, a.points_layer};
-  TableOptions section_options{parse_column_map(a.sections_columns), unit, a.sections_layer};
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
   options.validate();
 
-  const Table point_table = read_table(a.points, point_options);
-  const Table section_table = read_table(a.sections, section_options);
-  const Network network =
-      make_network(read_points(point_table), read_sections(section_table));
+  const Network network = load_network(a.inputs);
   const AdjustmentResult result = adjust(network, options);
-  write_adjustment_outputs(network, result, options, AdjustmentInputs{a.points, a.sections, unit},
-                           a.out);
+  write_adjustment_outputs(network, result, options,
+                           AdjustmentInputs{a.inputs.points, a.inputs.sections,
+                                            parse_length_unit(a.inputs.unit)},
+                           a.inputs.out);
   if (!a.quiet) {
     out << adjustment_summary_text(network, result);
-    out << fmt::format("Wrote heights.csv, residuals.csv and summary.json in {}\n", a.out);
+    out << fmt::format("Wrote heights.csv, residuals.csv and summary.json in {}\n", a.inputs.out);
   }
   return a.strict && adjustment_has_failed_checks(result) ? exit_checks_failed : exit_ok;
 }
@@ -88,21 +83,7 @@ CommandRunner add_adjust_command(CLI::App& app) {
   auto args = std::make_shared<AdjustArguments>();
   CLI::App* command = app.add_subcommand(
       "adjust", "Least-squares adjustment of a levelling network with blunder checks");
-  command->add_option("--points", args->points, "Points table (id, height, sigma, ...)")
-      ->required();
-  command->add_option("--sections", args->sections, "Sections table (from, to, dh, length, ...)")
-      ->required();
-  command->add_option("--out", args->out, "Output folder")->required();
-  command->add_option("--unit", args->unit,
-                      "Length unit of the input tables: m, ft (0.3048 m), us-ft (1200/3937 m)")
-      ->capture_default_str();
-  command->add_option("--points-columns", args->points_columns,
-                      "Column map for the points table, e.g. id=Station,height=Elev");
-  command->add_option("--sections-columns", args->sections_columns,
-                      "Column map for the sections table, e.g. from=BS,to=FS");
-  command->add_option("--points-layer", args->points_layer, "Layer or sheet of the points file");
-  command->add_option("--sections-layer", args->sections_layer,
-                      "Layer or sheet of the sections file");
+  add_network_input_options(*command, args->inputs);
   add_adjustment_options(*command, *args);
   return [args](std::ostream& out, std::ostream&) { return adjust_files(*args, out); };
 }
@@ -111,9 +92,9 @@ CommandRunner add_demo_command(CLI::App& app) {
   auto args = std::make_shared<AdjustArguments>();
   CLI::App* command = app.add_subcommand(
       "demo", "Run levelhead on its built-in demo site: writes the inputs and the results");
-  command->add_option("--out", args->out, "Output folder")->required();
+  command->add_option("--out", args->inputs.out, "Output folder")->required();
   return [args](std::ostream& out, std::ostream&) {
-    const std::filesystem::path folder(args->out);
+    const std::filesystem::path folder(args->inputs.out);
     {
       OutputSet inputs(folder / "inputs");
       for (const auto& file : demo::embedded_files()) {
@@ -123,9 +104,9 @@ CommandRunner add_demo_command(CLI::App& app) {
     }
     out << fmt::format("Demo inputs written to {}\n", (folder / "inputs").string());
     AdjustArguments run = *args;
-    run.points = (folder / "inputs" / "points.csv").string();
-    run.sections = (folder / "inputs" / "sections.csv").string();
-    run.out = (folder / "adjust").string();
+    run.inputs.points = (folder / "inputs" / "points.csv").string();
+    run.inputs.sections = (folder / "inputs" / "sections.csv").string();
+    run.inputs.out = (folder / "adjust").string();
     return adjust_files(run, out);
   };
 }

@@ -14,6 +14,7 @@
 //        bench_adjust --case national|mesh N
 //        bench_adjust --dense N  sparse vs dense ratio on a random network
 //        bench_adjust --solvers  Eigen SimplicialLDLT vs CHOLMOD factorisation
+//        bench_adjust --loops    loop finding on the same shapes
 
 #include <Eigen/Dense>
 #include <Eigen/SparseCholesky>
@@ -29,6 +30,7 @@
 
 #include "adjust/normal_solver.hpp"
 #include "levelhead/adjustment.hpp"
+#include "levelhead/loops.hpp"
 #include "levelhead/table.hpp"
 #include "support/synthetic_networks.hpp"
 
@@ -156,6 +158,34 @@ int run_solver_comparison() {
   return 0;
 }
 
+// Loop finding (levelhead loops) against the adjustment of the same network,
+// in one process.
+int run_loop_timing() {
+  fmt::print("{:<9}{:>9}{:>9}{:>10}{:>10}{:>10}{:>8}\n", "shape", "points", "loops", "loops s",
+             "adjust s", "ratio", "MB");
+  for (const auto& [shape, n] : {std::pair{"national", 100000}, std::pair{"national", 1000000},
+                                 std::pair{"mesh", 100000}, std::pair{"mesh", 1000000}}) {
+    testing::SyntheticNetwork synthetic = std::string(shape) == "mesh"
+                                              ? testing::mesh_network(n, 42)
+                                              : testing::national_network(n, 20, 42);
+    const Network net = make_network(std::move(synthetic.points), std::move(synthetic.sections));
+    auto start = Clock::now();
+    const LoopResult loops = find_loops(net, LoopOptions{});
+    const double loop_seconds = seconds_since(start);
+    double adjust_seconds = NAN;
+    if (std::string(shape) != "mesh" || n <= 100000) {
+      start = Clock::now();
+      adjust(net, AdjustmentOptions{});
+      adjust_seconds = seconds_since(start);
+    }
+    fmt::print("{:<9}{:>9}{:>9}{:>10.2f}{:>10.2f}{:>10.2f}{:>8.0f}\n", shape, net.points.size(),
+               loops.loops.size(), loop_seconds, adjust_seconds, loop_seconds / adjust_seconds,
+               peak_rss_mb());
+    std::fflush(stdout);
+  }
+  return 0;
+}
+
 // Dense reference: N = A'PA as a dense matrix, Cholesky, full inverse.
 int run_dense_ratio(std::size_t n) {
   testing::SyntheticNetwork synthetic = testing::random_network(n, n, 3);
@@ -195,6 +225,7 @@ int main(int argc, char** argv) {
   }
   if (argc == 3 && std::string(argv[1]) == "--dense") return run_dense_ratio(std::stoul(argv[2]));
   if (argc == 2 && std::string(argv[1]) == "--solvers") return run_solver_comparison();
+  if (argc == 2 && std::string(argv[1]) == "--loops") return run_loop_timing();
   const bool quick = argc == 2 && std::string(argv[1]) == "--quick";
 
   fmt::print("levelhead adjust benchmark (seconds; every height's sigma computed)\n");

@@ -1,0 +1,84 @@
+#pragma once
+// Loop closures of a levelling network, before any adjustment.
+//
+// In:  a Network (every section needs a length > 0) and options.
+// Out: an independent set of loops, as many as the cyclomatic number
+//      (sections - points + connected parts, counting only points that some
+//      section touches), preferring short local loops; for each loop its
+//      points in order, length (m), misclosure (m: the signed sum of dh
+//      around the loop, dh taken as H(to) - H(from) when the loop runs from
+//      -> to), tolerance (m: k mm * sqrt(length in km)) and verdict.
+//      Also: sections in no loop (spurs, side shots and links between
+//      loops: their heights are unchecked), sections observed only once
+//      (no other section joins the same two points), and for each failing
+//      loop the sections it shares with other failing loops.
+// Errors: InputError for a section without a length (its row); OptionError
+//      for a tolerance <= 0 or an unknown preset.
+//
+// Method: near-minimum cycle basis. Spurs are pruned, chains of degree-2
+// points collapsed into single edges, the shortest cycle through every
+// remaining edge found (Dijkstra in the graph without that edge), and the
+// candidates taken shortest first while independent over GF(2) (a subset of
+// Horton's candidate set: Horton 1987, "A polynomial-time algorithm to find
+// the shortest cycle basis of a graph", SIAM J. Comput. 16(2)). If they do
+// not span the cycle space, fundamental cycles of a shortest-path tree fill
+// the rest.
+
+#include <cstddef>
+#include <optional>
+#include <string>
+#include <string_view>
+#include <vector>
+
+#include "levelhead/network.hpp"
+
+namespace levelhead {
+
+// Named closure classes: k in mm/sqrt(km).
+struct ToleranceClass {
+  std::string_view name;
+  double mm_per_sqrt_km;
+  std::string_view source;
+};
+const std::vector<ToleranceClass>& tolerance_classes();
+// Throws OptionError listing the names.
+const ToleranceClass& find_tolerance_class(std::string_view name);
+
+struct LoopOptions {
+  double mm_per_sqrt_km = 12.0;  // loop tolerance k; default: third-order class (see docs)
+  void validate() const;
+};
+
+struct LoopStep {
+  std::size_t section = 0;  // index into Network::sections
+  bool forward = true;      // traversed from -> to
+};
+
+struct Loop {
+  std::vector<LoopStep> steps;        // in order around the loop
+  std::vector<std::size_t> points;    // point indices in order, first repeated at the end
+  double length = 0.0;                // m
+  double misclosure = 0.0;            // m
+  double tolerance = 0.0;             // m
+  bool passed = true;
+  // Sections of this loop that also lie in another failing loop, with those loops (0-based).
+  std::vector<std::pair<std::size_t, std::vector<std::size_t>>> shared_with_failing;
+};
+
+struct LoopResult {
+  std::vector<Loop> loops;
+  std::size_t cyclomatic_number = 0;       // expected loop count
+  std::size_t connected_parts = 0;         // among points touched by sections
+  std::size_t points_in_sections = 0;
+  std::vector<std::size_t> unchecked_sections;    // in no loop
+  std::vector<std::size_t> single_observations;   // no other section joins the same points
+  std::size_t failed = 0;
+  double mm_per_sqrt_km = 0.0;
+};
+
+LoopResult find_loops(const Network& network, const LoopOptions& options);
+
+// "A>B>C>A"
+std::string loop_point_list(const Network& network, const Loop& loop);
+
+}  // namespace levelhead

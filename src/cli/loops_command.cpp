@@ -1,0 +1,56 @@
+// `levelhead loops`: loop closures before adjustment.
+
+#include <fmt/format.h>
+#include <memory>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "cli/network_inputs.hpp"
+#include "levelhead/loop_report.hpp"
+#include "levelhead/loops.hpp"
+
+namespace levelhead::cli {
+
+namespace {
+struct LoopArguments {
+  NetworkInputs inputs;
+  LoopOptions options;
+  std::string closure_class;
+  bool strict = false;
+  bool quiet = false;
+};
+}  // namespace
+
+CommandRunner add_loops_command(CLI::App& app) {
+  auto args = std::make_shared<LoopArguments>();
+  CLI::App* command = app.add_subcommand(
+      "loops", "Independent loops of a levelling network with misclosure against tolerance");
+  add_network_input_options(*command, args->inputs);
+  auto* k = command
+                ->add_option("--tolerance", args->options.mm_per_sqrt_km,
+                             "Loop tolerance k in k mm * sqrt(loop length in km)")
+                ->capture_default_str();
+  std::string classes;
+  for (const auto& c : tolerance_classes()) classes += fmt::format(" {} ({} mm)", c.name, c.mm_per_sqrt_km);
+  command->add_option("--class", args->closure_class, "Named closure class instead of --tolerance:" + classes)
+      ->excludes(k);
+  command->add_flag("--strict", args->strict, "Exit with status 3 when a loop fails");
+  command->add_flag("--quiet", args->quiet, "Print nothing on success");
+  return [args](std::ostream& out, std::ostream&) {
+    LoopOptions options = args->options;
+    if (!args->closure_class.empty()) {
+      options.mm_per_sqrt_km = find_tolerance_class(args->closure_class).mm_per_sqrt_km;
+    }
+    options.validate();
+    const Network network = load_network(args->inputs);
+    const LoopResult result = find_loops(network, options);
+    write_loop_outputs(network, result, args->inputs.out);
+    if (!args->quiet) {
+      out << loop_summary_text(network, result);
+      out << fmt::format("Wrote loops.csv and summary.json in {}\n", args->inputs.out);
+    }
+    return args->strict && result.failed > 0 ? exit_checks_failed : exit_ok;
+  };
+}
+
+}  // namespace levelhead::cli

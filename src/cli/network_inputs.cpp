@@ -1,0 +1,36 @@
+#include "cli/network_inputs.hpp"
+
+#include "levelhead/table.hpp"
+
+namespace levelhead::cli {
+
+void add_network_input_options(CLI::App& command, NetworkInputs& inputs) {
+  command.add_option("--points", inputs.points, "Points table (id, height, sigma, ...)")
+      ->required();
+  command.add_option("--sections", inputs.sections, "Sections table (from, to, dh, length, ...)")
+      ->required();
+  command.add_option("--out", inputs.out, "Output folder")->required();
+  command.add_option("--unit", inputs.unit,
+                     "Length unit of the input tables: m, ft (0.3048 m), us-ft (1200/3937 m)")
+      ->capture_default_str();
+  command.add_option("--points-columns", inputs.points_columns,
+                     "Column map for the points table, e.g. id=Station,height=Elev");
+  command.add_option("--sections-columns", inputs.sections_columns,
+                     "Column map for the sections table, e.g. from=BS,to=FS");
+  command.add_option("--points-layer", inputs.points_layer, "Layer or sheet of the points file");
+  command.add_option("--sections-layer", inputs.sections_layer,
+                     "Layer or sheet of the sections file");
+}
+
+Network load_network(const NetworkInputs& inputs) {
+  const LengthUnit unit = parse_length_unit(inputs.unit);
+  const TableOptions point_options{parse_column_map(inputs.points_columns), unit,
+                                   inputs.points_layer};
+  const TableOptions section_options{parse_column_map(inputs.sections_columns), unit,
+                                     inputs.sections_layer};
+  const Table point_table = read_table(inputs.points, point_options);
+  const Table section_table = read_table(inputs.sections, section_options);
+  return make_network(read_points(point_table), read_sections(section_table));
+}
+
+}  // namespace levelhead::cli

@@ -1,0 +1,23 @@
+#pragma once
+// Options shared by the commands that read a points and a sections table.
+
+#include <CLI/CLI.hpp>
+#include <string>
+
+#include "levelhead/network.hpp"
+
+namespace levelhead::cli {
+
+struct NetworkInputs {
+  std::string points, sections, out;
+  std::string unit = "m";
+  std::string points_columns, sections_columns, points_layer, sections_layer;
+};
+
+// --points, --sections, --out (all required), --unit, column maps and layers.
+void add_network_input_options(CLI::App& command, NetworkInputs& inputs);
+
+// Reads both tables and checks the network. Throws the library's errors.
+Network load_network(const NetworkInputs& inputs);
+
+}  // namespace levelhead::cli

@@ -1,0 +1,127 @@
+#include "levelhead/loop_report.hpp"
+
+#include <cmath>
+#include <fmt/format.h>
+#include <nlohmann/json.hpp>
+
+#include "levelhead/output_files.hpp"
+#include "levelhead/version.hpp"
+
+namespace levelhead {
+
+namespace {
+
+std::string section_label(const Network& net, std::size_t s) {
+  return net.sections[s].from + ">" + net.sections[s].to;
+}
+
+nlohmann::json section_json(const Network& net, std::size_t s) {
+  return {{"from", net.sections[s].from}, {"to", net.sections[s].to},
+          {"row", net.sections[s].row}};
+}
+
+std::string shared_text(const Network& net, const Loop& loop) {
+  std::string text;
+  for (const auto& [section, loops] : loop.shared_with_failing) {
+    if (!text.empty()) text += ';';
+    std::vector<std::size_t> numbers;
+    for (std::size_t k : loops) numbers.push_back(k + 1);
+    text += fmt::format("{}@loops {}", section_label(net, section), fmt::join(numbers, " "));
+  }
+  return text;
+}
+
+}  // namespace
+
+void write_loop_outputs(const Network& net, const LoopResult& result,
+                        const std::filesystem::path& folder) {
+  OutputSet out(folder);
+  std::ostream& loops = out.open("loops.csv");
+  loops << "loop,points,length,misclosure,tolerance,passed,sections,ratio,shared_with_failing\n";
+  for (std::size_t k = 0; k < result.loops.size(); ++k) {
+    const Loop& loop = result.loops[k];
+    loops << k + 1 << ',' << csv_cell(loop_point_list(net, loop)) << ','
+          << fmt::format("{:.3f},{:.5f},{:.5f}", loop.length, loop.misclosure, loop.tolerance)
+          << ',' << (loop.passed ? "yes" : "no") << ',' << loop.steps.size() << ','
+          << fmt::format("{:.2f}", std::abs(loop.misclosure) / loop.tolerance) << ','
+          << csv_cell(shared_text(net, loop)) << '\n';
+  }
+
+  nlohmann::json summary;
+  summary["levelhead_version"] = version_string();
+  summary["command"] = "loops";
+  summary["inputs"] = {{"points", net.points_file}, {"sections", net.sections_file}};
+  summary["units"] = "m";
+  summary["tolerance_mm_per_sqrt_km"] = result.mm_per_sqrt_km;
+  summary["counts"] = {{"sections", net.sections.size()},
+                       {"points_in_sections", result.points_in_sections},
+                       {"connected_parts", result.connected_parts},
+                       {"loops", result.loops.size()},
+                       {"failed", result.failed},
+                       {"unchecked_sections", result.unchecked_sections.size()},
+                       {"single_observations", result.single_observations.size()}};
+  nlohmann::json failed = nlohmann::json::array();
+  for (std::size_t k = 0; k < result.loops.size(); ++k) {
+    const Loop& loop = result.loops[k];
+    if (loop.passed) continue;
+    nlohmann::json shared = nlohmann::json::array();
+    for (const auto& [section, loops_with] : loop.shared_with_failing) {
+      nlohmann::json entry = section_json(net, section);
+      std::vector<std::size_t> numbers;
+      for (std::size_t j : loops_with) numbers.push_back(j + 1);
+      entry["other_failing_loops"] = numbers;
+      shared.push_back(entry);
+    }
+    failed.push_back({{"loop", k + 1},
+                      {"points", loop_point_list(net, loop)},
+                      {"misclosure", loop.misclosure},
+                      {"tolerance", loop.tolerance},
+                      {"length", loop.length},
+                      {"shared_with_failing", shared}});
+  }
+  summary["failed_loops"] = failed;
+  nlohmann::json unchecked = nlohmann::json::array();
+  for (std::size_t s : result.unchecked_sections) unchecked.push_back(section_json(net, s));
+  summary["unchecked_sections"] = unchecked;
+  nlohmann::json single = nlohmann::json::array();
+  for (std::size_t s : result.single_observations) single.push_back(section_json(net, s));
+  summary["single_observations"] = single;
+  out.open("summary.json") << summary.dump(2) << '\n';
+  out.commit();
+}
+
+std::string loop_summary_text(const Network& net, const LoopResult& result) {
+  std::string text = fmt::format(
+      "{} loops from {} sections and {} points in {} connected part(s); tolerance {} "
+      "mm*sqrt(km)\n",
+      result.loops.size(), net.sections.size(), result.points_in_sections, result.connected_parts,
+      result.mm_per_sqrt_km);
+  if (result.failed == 0) {
+    text += "All loops close within tolerance\n";
+  } else {
+    text += fmt::format("{} loop(s) FAILED:\n", result.failed);
+    for (std::size_t k = 0; k < result.loops.size(); ++k) {
+      const Loop& loop = result.loops[k];
+      if (loop.passed) continue;
+      text += fmt::format("  loop {}: {} misclosure {:.2f} mm, tolerance {:.2f} mm{}\n", k + 1,
+                          loop_point_list(net, loop), loop.misclosure * 1e3, loop.tolerance * 1e3,
+                          loop.shared_with_failing.empty()
+                              ? std::string()
+                              : fmt::format("; shares {}", shared_text(net, loop)));
+    }
+  }
+  if (!result.unchecked_sections.empty()) {
+    std::vector<std::string> labels;
+    for (std::size_t k = 0; k < result.unchecked_sections.size() && k < 8; ++k) {
+      labels.push_back(section_label(net, result.unchecked_sections[k]));
+    }
+    text += fmt::format("{} section(s) lie in no loop; their heights are unchecked: {}{}\n",
+                        result.unchecked_sections.size(), fmt::join(labels, " "),
+                        result.unchecked_sections.size() > labels.size() ? " ..." : "");
+  }
+  text += fmt::format("{} section(s) observed only once (no other section joins the same points)\n",
+                      result.single_observations.size());
+  return text;
+}
+
+}  // namespace levelhead

@@ -1,0 +1,471 @@
+#include "levelhead/loops.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <fmt/format.h>
+#include <map>
+#include <numeric>
+#include <queue>
+
+#include "levelhead/errors.hpp"
+#include "util/text.hpp"
+
+namespace levelhead {
+
+const std::vector<ToleranceClass>& tolerance_classes() {
+  // Loop-closure limits of the US Federal Geodetic Control Committee,
+  // "Standards and Specifications for Geodetic Control Networks" (1984),
+  // geodetic leveling, loop misclosure; values recalled from memory.
+  static const std::vector<ToleranceClass> classes = {
+      {"fgcc-first-i", 4.0, "FGCC 1984, first order class I (from memory)"},
+      {"fgcc-first-ii", 5.0, "FGCC 1984, first order class II (from memory)"},
+      {"fgcc-second-i", 6.0, "FGCC 1984, second order class I (from memory)"},
+      {"fgcc-second-ii", 8.0, "FGCC 1984, second order class II (from memory)"},
+      {"fgcc-third", 12.0, "FGCC 1984, third order (from memory)"},
+  };
+  return classes;
+}
+
+const ToleranceClass& find_tolerance_class(std::string_view name) {
+  const std::string key = util::to_lower(util::trim(name));
+  std::vector<std::string_view> names;
+  for (const ToleranceClass& c : tolerance_classes()) {
+    if (c.name == key) return c;
+    names.push_back(c.name);
+  }
+  throw OptionError(fmt::format("unknown closure class '{}': use one of {}", name,
+                                fmt::join(names, ", ")));
+}
+
+void LoopOptions::validate() const {
+  if (!(mm_per_sqrt_km > 0.0) || !std::isfinite(mm_per_sqrt_km)) {
+    throw OptionError(fmt::format("loop tolerance = {} mm/sqrt(km): must be a finite number > 0",
+                                  mm_per_sqrt_km));
+  }
+}
+
+namespace {
+
+constexpr std::size_t none = static_cast<std::size_t>(-1);
+
+// A chain of sections between two junctions (or a ring back to its start).
+struct Chain {
+  std::size_t a = 0, b = 0;    // point indices at its ends
+  std::vector<LoopStep> steps;  // in order from a to b
+  double length = 0.0;
+};
+
+// A candidate loop over chains, in traversal order starting at chains[0].a.
+struct Candidate {
+  std::vector<std::pair<std::size_t, bool>> walk;  // chain, traversed a -> b
+  std::vector<std::size_t> members;                // sorted chain ids (GF(2) vector)
+  double length = 0.0;
+};
+
+std::vector<std::size_t> symmetric_difference(const std::vector<std::size_t>& x,
+                                              const std::vector<std::size_t>& y) {
+  std::vector<std::size_t> out;
+  out.reserve(x.size() + y.size());
+  std::set_symmetric_difference(x.begin(), x.end(), y.begin(), y.end(), std::back_inserter(out));
+  return out;
+}
+
+// Greedy independence over GF(2): each kept vector is stored reduced, keyed
+// by its largest chain id (its pivot).
+class Gf2Basis {
+ public:
+  // Adds `members` if independent of what is kept; returns whether it was.
+  bool add(std::vector<std::size_t> members) {
+    while (!members.empty()) {
+      const auto it = by_pivot_.find(members.back());
+      if (it == by_pivot_.end()) {
+        const std::size_t pivot = members.back();
+        by_pivot_.emplace(pivot, std::move(members));
+        return true;
+      }
+      members = symmetric_difference(members, it->second);
+    }
+    return false;
+  }
+  std::size_t rank() const { return by_pivot_.size(); }
+
+ private:
+  std::map<std::size_t, std::vector<std::size_t>> by_pivot_;
+};
+
+class ChainGraph {
+ public:
+  ChainGraph(std::size_t n_points, const std::vector<Chain>& chains) : chains_(chains) {
+    start_.assign(n_points + 1, 0);
+    for (const Chain& c : chains) ++start_[c.a + 1], ++start_[c.b + 1];
+    for (std::size_t i = 0; i < n_points; ++i) start_[i + 1] += start_[i];
+    incident_.resize(start_[n_points]);
+    std::vector<std::size_t> fill(start_.begin(), start_.end() - 1);
+    for (std::size_t e = 0; e < chains.size(); ++e) {
+      incident_[fill[chains[e].a]++] = e;
+      incident_[fill[chains[e].b]++] = e;
+    }
+    distance_.assign(n_points, INFINITY);
+    via_.assign(n_points, none);
+  }
+
+  // Shortest path from `from` to `to` avoiding chain `skip` (Dijkstra, stopped
+  // when `to` is settled). Returns the chains from `from` to `to` in order, or
+  // nothing when `to` cannot be reached.
+  std::optional<std::vector<std::pair<std::size_t, bool>>> shortest_path(std::size_t from,
+                                                                         std::size_t to,
+                                                                         std::size_t skip,
+                                                                         double* length) {
+    using Entry = std::pair<double, std::size_t>;
+    std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
+    const auto reset = [&] {
+      for (std::size_t p : touched_) distance_[p] = INFINITY, via_[p] = none;
+      touched_.clear();
+    };
+    distance_[from] = 0.0;
+    touched_.push_back(from);
+    queue.emplace(0.0, from);
+    bool found = false;
+    while (!queue.empty()) {
+      const auto [d, p] = queue.top();
+      queue.pop();
+      if (d > distance_[p]) continue;
+      if (p == to) {
+        found = true;
+        break;
+      }
+      for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
+        const std::size_t e = incident_[k];
+        if (e == skip) continue;
+        const Chain& c = chains_[e];
+        const std::size_t q = c.a == p ? c.b : c.a;
+        const double nd = d + c.length;
+        if (nd < distance_[q]) {
+          if (distance_[q] == INFINITY) touched_.push_back(q);
+          distance_[q] = nd;
+          via_[q] = e;
+          queue.emplace(nd, q);
+        }
+      }
+    }
+    if (!found) {
+      reset();
+      return std::nullopt;
+    }
+    *length = distance_[to];
+    std::vector<std::pair<std::size_t, bool>> path;
+    for (std::size_t p = to; p != from;) {
+      const Chain& c = chains_[via_[p]];
+      const bool forward = c.b == p;  // reached p by running the chain a -> b
+      path.emplace_back(via_[p], forward);
+      p = forward ? c.a : c.b;
+    }
+    std::reverse(path.begin(), path.end());
+    reset();
+    return path;
+  }
+
+  // Fundamental cycles of a shortest-path forest: complete a basis whatever
+  // the candidates missed.
+  std::vector<Candidate> fundamental_cycles() {
+    const std::size_t n = distance_.size();
+    std::vector<std::size_t> parent_chain(n, none), depth(n, 0);
+    std::vector<char> seen(n, 0), tree_chain(chains_.size(), 0);
+    for (std::size_t root = 0; root < n; ++root) {
+      if (seen[root] || start_[root] == start_[root + 1]) continue;
+      using Entry = std::pair<double, std::size_t>;
+      std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
+      distance_[root] = 0.0;
+      touched_.push_back(root);
+      queue.emplace(0.0, root);
+      while (!queue.empty()) {
+        const auto [d, p] = queue.top();
+        queue.pop();
+        if (seen[p] || d > distance_[p]) continue;
+        seen[p] = 1;
+        if (via_[p] != none) {
+          parent_chain[p] = via_[p];
+          tree_chain[via_[p]] = 1;
+          const Chain& c = chains_[via_[p]];
+          depth[p] = depth[c.a == p ? c.b : c.a] + 1;
+        }
+        for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
+          const Chain& c = chains_[incident_[k]];
+          const std::size_t q = c.a == p ? c.b : c.a;
+          if (!seen[q] && d + c.length < distance_[q]) {
+            if (distance_[q] == INFINITY) touched_.push_back(q);
+            distance_[q] = d + c.length;
+            via_[q] = incident_[k];
+            queue.emplace(distance_[q], q);
+          }
+        }
+      }
+    }
+    const auto up = [&](std::size_t p) {
+      const Chain& c = chains_[parent_chain[p]];
+      return c.a == p ? c.b : c.a;
+    };
+    std::vector<Candidate> out;
+    for (std::size_t e = 0; e < chains_.size(); ++e) {
+      if (tree_chain[e]) continue;
+      // Walk a -> b along e, then from b up to the common ancestor and down to a.
+      std::vector<std::pair<std::size_t, bool>> from_b, from_a;
+      std::size_t x = chains_[e].b, y = chains_[e].a;
+      while (x != y) {
+        if (depth[x] >= depth[y]) {
+          const Chain& c = chains_[parent_chain[x]];
+          from_b.emplace_back(parent_chain[x], c.b == x ? false : true);
+          x = up(x);
+        } else {
+          const Chain& c = chains_[parent_chain[y]];
+          from_a.emplace_back(parent_chain[y], c.b == y ? true : false);
+          y = up(y);
+        }
+      }
+      Candidate cand;
+      cand.walk.emplace_back(e, true);
+      for (const auto& step : from_b) cand.walk.push_back(step);
+      for (auto it = from_a.rbegin(); it != from_a.rend(); ++it) cand.walk.push_back(*it);
+      out.push_back(std::move(cand));
+    }
+    for (std::size_t p : touched_) distance_[p] = INFINITY, via_[p] = none;
+    touched_.clear();
+    return out;
+  }
+
+ private:
+  const std::vector<Chain>& chains_;
+  std::vector<std::size_t> start_, incident_;
+  std::vector<double> distance_;
+  std::vector<std::size_t> via_, touched_;
+};
+
+void finish_candidate(Candidate& c, const std::vector<Chain>& chains) {
+  c.length = 0.0;
+  for (const auto& [chain, forward] : c.walk) {
+    c.members.push_back(chain);
+    c.length += chains[chain].length;
+  }
+  std::sort(c.members.begin(), c.members.end());
+}
+
+std::size_t find_root(std::vector<std::size_t>& parent, std::size_t x) {
+  while (parent[x] != x) x = parent[x] = parent[parent[x]];
+  return x;
+}
+
+}  // namespace
+
+LoopResult find_loops(const Network& net, const LoopOptions& options) {
+  options.validate();
+  const std::size_t n = net.points.size(), m = net.sections.size();
+  for (std::size_t s = 0; s < m; ++s) {
+    if (!net.sections[s].length) {
+      throw InputError(net.section_location(s), "",
+                       fmt::format("section {} -> {} has no length; loop tolerances need the "
+                                   "length of every section",
+                                   net.sections[s].from, net.sections[s].to));
+    }
+  }
+  const auto other_end = [&](std::size_t s, std::size_t p) {
+    return net.from_index[s] == p ? net.to_index[s] : net.from_index[s];
+  };
+
+  LoopResult result;
+  result.mm_per_sqrt_km = options.mm_per_sqrt_km;
+
+  // Cyclomatic number = sections - points touched + connected parts.
+  std::vector<std::size_t> parent(n);
+  std::iota(parent.begin(), parent.end(), 0);
+  std::vector<char> touched(n, 0);
+  for (std::size_t s = 0; s < m; ++s) {
+    touched[net.from_index[s]] = touched[net.to_index[s]] = 1;
+    parent[find_root(parent, net.from_index[s])] = find_root(parent, net.to_index[s]);
+  }
+  for (std::size_t p = 0; p < n; ++p) {
+    if (!touched[p]) continue;
+    ++result.points_in_sections;
+    result.connected_parts += find_root(parent, p) == p;
+  }
+  result.cyclomatic_number = m - result.points_in_sections + result.connected_parts;
+
+  // Incidence lists over sections.
+  std::vector<std::size_t> start(n + 1, 0);
+  for (std::size_t s = 0; s < m; ++s) ++start[net.from_index[s] + 1], ++start[net.to_index[s] + 1];
+  for (std::size_t p = 0; p < n; ++p) start[p + 1] += start[p];
+  std::vector<std::size_t> incident(start[n]);
+  {
+    std::vector<std::size_t> fill(start.begin(), start.end() - 1);
+    for (std::size_t s = 0; s < m; ++s) {
+      incident[fill[net.from_index[s]]++] = s;
+      incident[fill[net.to_index[s]]++] = s;
+    }
+  }
+
+  // 1. Prune spurs: points of degree 1, repeatedly.
+  std::vector<std::size_t> degree(n);
+  for (std::size_t p = 0; p < n; ++p) degree[p] = start[p + 1] - start[p];
+  std::vector<char> alive(m, 1);
+  std::vector<std::size_t> stack;
+  for (std::size_t p = 0; p < n; ++p) {
+    if (degree[p] == 1) stack.push_back(p);
+  }
+  while (!stack.empty()) {
+    const std::size_t p = stack.back();
+    stack.pop_back();
+    if (degree[p] != 1) continue;
+    for (std::size_t k = start[p]; k < start[p + 1]; ++k) {
+      const std::size_t s = incident[k];
+      if (!alive[s]) continue;
+      alive[s] = 0;
+      --degree[p];
+      const std::size_t q = other_end(s, p);
+      if (--degree[q] == 1) stack.push_back(q);
+      break;
+    }
+  }
+
+  // 2. Collapse chains of degree-2 points into single edges.
+  std::vector<Chain> chains;
+  std::vector<char> assigned(m, 0);
+  const auto walk_chain = [&](std::size_t from, std::size_t first_section) {
+    Chain chain;
+    chain.a = from;
+    std::size_t p = from, s = first_section;
+    while (true) {
+      assigned[s] = 1;
+      chain.steps.push_back({s, net.from_index[s] == p});
+      chain.length += *net.sections[s].length;
+      p = other_end(s, p);
+      if (degree[p] != 2 || p == from) break;
+      std::size_t next = none;
+      for (std::size_t k = start[p]; k < start[p + 1]; ++k) {
+        if (alive[incident[k]] && !assigned[incident[k]]) next = incident[k];
+      }
+      if (next == none) break;  // a ring closed on itself
+      s = next;
+    }
+    chain.b = p;
+    chains.push_back(std::move(chain));
+  };
+  for (std::size_t p = 0; p < n; ++p) {
+    if (degree[p] == 0 || degree[p] == 2) continue;
+    for (std::size_t k = start[p]; k < start[p + 1]; ++k) {
+      if (alive[incident[k]] && !assigned[incident[k]]) walk_chain(p, incident[k]);
+    }
+  }
+  for (std::size_t s = 0; s < m; ++s) {  // rings of degree-2 points only
+    if (alive[s] && !assigned[s]) walk_chain(net.from_index[s], s);
+  }
+
+  // 3. Loops: chains closed on themselves directly; the rest from candidates.
+  std::vector<Candidate> chosen;
+  std::vector<Candidate> candidates;
+  Gf2Basis basis;
+  ChainGraph graph(n, chains);
+  for (std::size_t e = 0; e < chains.size(); ++e) {
+    if (chains[e].a == chains[e].b) {
+      Candidate c;
+      c.walk.emplace_back(e, true);
+      finish_candidate(c, chains);
+      basis.add(c.members);
+      chosen.push_back(std::move(c));
+      continue;
+    }
+    double path_length = 0.0;
+    auto path = graph.shortest_path(chains[e].a, chains[e].b, e, &path_length);
+    if (!path) continue;  // a link between loops: no cycle runs through it
+    Candidate c;
+    c.walk.emplace_back(e, true);
+    // The path runs a -> b; the loop returns from b to a along it reversed.
+    for (auto it = path->rbegin(); it != path->rend(); ++it) c.walk.emplace_back(it->first, !it->second);
+    finish_candidate(c, chains);
+    candidates.push_back(std::move(c));
+  }
+  const auto by_length = [](const Candidate& x, const Candidate& y) {
+    return x.length != y.length ? x.length < y.length : x.members < y.members;
+  };
+  std::sort(candidates.begin(), candidates.end(), by_length);
+  const std::size_t target = result.cyclomatic_number;
+  const auto take = [&](std::vector<Candidate>& pool) {
+    for (Candidate& c : pool) {
+      if (chosen.size() >= target) break;
+      if (basis.add(c.members)) chosen.push_back(std::move(c));
+    }
+  };
+  take(candidates);
+  if (chosen.size() < target) {
+    std::vector<Candidate> fundamental = graph.fundamental_cycles();
+    for (Candidate& c : fundamental) finish_candidate(c, chains);
+    std::sort(fundamental.begin(), fundamental.end(), by_length);
+    take(fundamental);
+  }
+  if (chosen.size() != target) {
+    throw std::logic_error(fmt::format("loop basis has {} loops, expected {}", chosen.size(), target));
+  }
+
+  // 4. Expand chains into sections and close each loop.
+  std::vector<std::vector<std::size_t>> loops_of_section(m);
+  for (const Candidate& c : chosen) {
+    Loop loop;
+    std::size_t p = c.walk.front().second ? chains[c.walk.front().first].a
+                                          : chains[c.walk.front().first].b;
+    loop.points.push_back(p);
+    for (const auto& [chain_id, forward] : c.walk) {
+      const Chain& chain = chains[chain_id];
+      const auto emit = [&](LoopStep step) {
+        loop.steps.push_back(step);
+        const Section& s = net.sections[step.section];
+        loop.misclosure += step.forward ? s.dh : -s.dh;
+        loop.length += *s.length;
+        p = step.forward ? net.to_index[step.section] : net.from_index[step.section];
+        loop.points.push_back(p);
+      };
+      if (forward) {
+        for (const LoopStep& step : chain.steps) emit(step);
+      } else {
+        for (auto it = chain.steps.rbegin(); it != chain.steps.rend(); ++it) {
+          emit({it->section, !it->forward});
+        }
+      }
+    }
+    loop.tolerance = options.mm_per_sqrt_km * 1e-3 * std::sqrt(loop.length / 1000.0);
+    loop.passed = std::abs(loop.misclosure) <= loop.tolerance;
+    result.failed += !loop.passed;
+    for (const LoopStep& step : loop.steps) loops_of_section[step.section].push_back(result.loops.size());
+    result.loops.push_back(std::move(loop));
+  }
+
+  for (Loop& loop : result.loops) {
+    if (loop.passed) continue;
+    for (const LoopStep& step : loop.steps) {
+      std::vector<std::size_t> others;
+      for (std::size_t k : loops_of_section[step.section]) {
+        if (&result.loops[k] != &loop && !result.loops[k].passed) others.push_back(k);
+      }
+      if (!others.empty()) loop.shared_with_failing.emplace_back(step.section, std::move(others));
+    }
+  }
+  std::map<std::pair<std::size_t, std::size_t>, std::size_t> pair_count;
+  for (std::size_t s = 0; s < m; ++s) {
+    ++pair_count[std::minmax(net.from_index[s], net.to_index[s])];
+  }
+  for (std::size_t s = 0; s < m; ++s) {
+    if (loops_of_section[s].empty()) result.unchecked_sections.push_back(s);
+    if (pair_count[std::minmax(net.from_index[s], net.to_index[s])] == 1) {
+      result.single_observations.push_back(s);
+    }
+  }
+  return result;
+}
+
+std::string loop_point_list(const Network& net, const Loop& loop) {
+  std::string text;
+  for (std::size_t k = 0; k < loop.points.size(); ++k) {
+    if (k) text += '>';
+    text += net.points[loop.points[k]].id;
+  }
+  return text;
+}
+
+}  // namespace levelhead

@@ -1,0 +1,163 @@
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <set>
+
+#include "levelhead/loops.hpp"
+#include "support/network_builders.hpp"
+#include "support/synthetic_networks.hpp"
+
+using namespace levelhead;
+using levelhead::testing::point;
+using levelhead::testing::section;
+using Catch::Matchers::Contains;
+using Catch::Matchers::WithinAbs;
+
+namespace {
+
+// Every loop is a closed walk along its sections, its misclosure is the
+// signed sum of their dh and its length their sum.
+void check_loops_are_consistent(const Network& net, const LoopResult& r) {
+  for (const Loop& loop : r.loops) {
+    REQUIRE(loop.points.size() == loop.steps.size() + 1);
+    CHECK(loop.points.front() == loop.points.back());
+    double misclosure = 0.0, length = 0.0;
+    for (std::size_t k = 0; k < loop.steps.size(); ++k) {
+      const LoopStep& step = loop.steps[k];
+      const std::size_t from = step.forward ? net.from_index[step.section] : net.to_index[step.section];
+      const std::size_t to = step.forward ? net.to_index[step.section] : net.from_index[step.section];
+      CHECK(from == loop.points[k]);
+      CHECK(to == loop.points[k + 1]);
+      misclosure += step.forward ? net.sections[step.section].dh : -net.sections[step.section].dh;
+      length += *net.sections[step.section].length;
+    }
+    CHECK_THAT(loop.misclosure, WithinAbs(misclosure, 1e-12));
+    CHECK_THAT(loop.length, WithinAbs(length, 1e-9));
+  }
+}
+
+// Rank over GF(2) of the loops' section sets, by dense elimination.
+std::size_t gf2_rank(const Network& net, const LoopResult& r) {
+  std::vector<std::vector<char>> rows;
+  for (const Loop& loop : r.loops) {
+    std::vector<char> row(net.sections.size(), 0);
+    for (const LoopStep& step : loop.steps) row[step.section] ^= 1;
+    rows.push_back(row);
+  }
+  std::size_t rank = 0;
+  for (std::size_t col = 0; col < net.sections.size() && rank < rows.size(); ++col) {
+    std::size_t pivot = rank;
+    while (pivot < rows.size() && !rows[pivot][col]) ++pivot;
+    if (pivot == rows.size()) continue;
+    std::swap(rows[pivot], rows[rank]);
+    for (std::size_t i = 0; i < rows.size(); ++i) {
+      if (i != rank && rows[i][col]) {
+        for (std::size_t c = 0; c < net.sections.size(); ++c) rows[i][c] ^= rows[rank][c];
+      }
+    }
+    ++rank;
+  }
+  return rank;
+}
+
+}  // namespace
+
+TEST_CASE("loop count equals the cyclomatic number and the loops are independent", "[loops]") {
+  for (std::uint64_t seed : {1u, 2u, 3u, 4u, 5u, 6u}) {
+    testing::SyntheticNetwork a = testing::random_network(70, 30 + 10 * seed, seed);
+    testing::SyntheticNetwork b = testing::random_network(25, 5, seed + 50);
+    // Two parts, so connected parts count; b's ids renamed to stay unique.
+    for (auto& p : b.points) p.id = "Q" + p.id;
+    for (auto& s : b.sections) s.from = "Q" + s.from, s.to = "Q" + s.to;
+    a.points.insert(a.points.end(), b.points.begin(), b.points.end());
+    a.sections.insert(a.sections.end(), b.sections.begin(), b.sections.end());
+    a.sections.push_back(a.sections.front());  // a repeated observation: a two-section loop
+    const Network net = make_network(a.points, a.sections);
+    const LoopResult r = find_loops(net, LoopOptions{});
+    INFO("seed " << seed);
+    CHECK(r.connected_parts == 2);
+    CHECK(r.cyclomatic_number == net.sections.size() - r.points_in_sections + 2);
+    CHECK(r.loops.size() == r.cyclomatic_number);
+    CHECK(gf2_rank(net, r) == r.loops.size());
+    check_loops_are_consistent(net, r);
+  }
+}
+
+TEST_CASE("loops of a mesh are its cells, of a national net its junction squares", "[loops]") {
+  const testing::SyntheticNetwork mesh = testing::mesh_network(100, 9);  // 10 x 10
+  const Network mesh_net = make_network(mesh.points, mesh.sections);
+  const LoopResult m = find_loops(mesh_net, LoopOptions{});
+  CHECK(m.loops.size() == 81);
+  for (const Loop& loop : m.loops) CHECK(loop.steps.size() == 4);
+
+  const testing::SyntheticNetwork national = testing::national_network(4 * 4 * 11, 5, 9);
+  const Network national_net = make_network(national.points, national.sections);
+  const LoopResult n = find_loops(national_net, LoopOptions{});
+  CHECK(n.loops.size() == 9);  // 4 x 4 junctions: 3 x 3 cells
+  for (const Loop& loop : n.loops) CHECK(loop.steps.size() == 4 * 6);  // 6 sections a line
+  check_loops_are_consistent(national_net, n);
+}
+
+TEST_CASE("a planted 15 mm blunder shows in exactly the loops through its section", "[loops]") {
+  testing::SyntheticNetwork synthetic = testing::random_network(80, 60, 77);
+  for (Section& s : synthetic.sections) {  // noise-free, so only the blunder misclosed
+    s.dh = synthetic.true_height[std::stoul(s.to.substr(1))] -
+           synthetic.true_height[std::stoul(s.from.substr(1))];
+  }
+  const std::size_t planted = synthetic.sections.size() - 2;
+  synthetic.sections[planted].dh += 0.015;
+  const Network net = make_network(synthetic.points, synthetic.sections);
+  const LoopResult r = find_loops(net, LoopOptions{});
+  std::size_t through = 0;
+  for (const Loop& loop : r.loops) {
+    bool contains = false;
+    for (const LoopStep& step : loop.steps) contains = contains || step.section == planted;
+    through += contains;
+    // 1e-9 m: the sums of exact differences only carry rounding.
+    CHECK_THAT(std::abs(loop.misclosure), WithinAbs(contains ? 0.015 : 0.0, 1e-9));
+  }
+  CHECK(through >= 1);
+}
+
+TEST_CASE("spurs, links and single observations are reported", "[loops]") {
+  // Two triangles joined by one link C-D, a spur C-W to a well, and A-B
+  // levelled twice (forward and back).
+  const Network net = make_network(
+      {point("A"), point("B"), point("C"), point("D"), point("E"), point("F"), point("W")},
+      {section("A", "B", 1.0, 100), section("B", "A", -1.0, 100), section("B", "C", 1.0, 100),
+       section("C", "A", -2.0, 100), section("C", "D", 0.5, 100), section("D", "E", 0.1, 100),
+       section("E", "F", 0.1, 100), section("F", "D", -0.2, 100), section("C", "W", 0.3, 30)});
+  const LoopResult r = find_loops(net, LoopOptions{});
+  CHECK(r.loops.size() == 3);
+  CHECK(r.unchecked_sections == std::vector<std::size_t>{4, 8});
+  // A-B is observed twice; everything else once.
+  CHECK(r.single_observations == std::vector<std::size_t>{2, 3, 4, 5, 6, 7, 8});
+}
+
+TEST_CASE("failing loops name the sections they share", "[loops]") {
+  // Two loops sharing B-C; a 20 mm blunder on B-C fails both.
+  const Network net = make_network(
+      {point("A"), point("B"), point("C"), point("D")},
+      {section("A", "B", 1.0, 500), section("B", "C", 1.020, 500), section("C", "A", -2.0, 500),
+       section("B", "D", 0.5, 500), section("D", "C", 0.5, 500)});
+  LoopOptions options;
+  options.mm_per_sqrt_km = 4.0;
+  const LoopResult r = find_loops(net, options);
+  REQUIRE(r.failed == 2);
+  for (const Loop& loop : r.loops) {
+    REQUIRE(loop.shared_with_failing.size() == 1);
+    CHECK(loop.shared_with_failing[0].first == 1);
+  }
+  CHECK_THAT(r.loops[0].tolerance, WithinAbs(4e-3 * std::sqrt(1.5), 1e-15));
+}
+
+TEST_CASE("loops refuse sections without length and bad tolerances", "[loops][errors]") {
+  Section bare = section("A", "B", 1.0, std::nullopt);
+  bare.row = 4;
+  const Network net = make_network({point("A"), point("B")}, {bare});
+  CHECK_THROWS_WITH(find_loops(net, LoopOptions{}), Contains("row 4") && Contains("no length"));
+  LoopOptions bad;
+  bad.mm_per_sqrt_km = 0.0;
+  CHECK_THROWS_AS(find_loops(net, bad), OptionError);
+  CHECK_THROWS_WITH(find_tolerance_class("first"), Contains("fgcc-third"));
+  CHECK(find_tolerance_class("FGCC-Third").mm_per_sqrt_km > 0.0);
+}
