@@ -119,5 +119,34 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
   REQUIRE(r.code == 0);
   CHECK(fs::exists(tmp.path() / "inputs" / "points.csv"));
   CHECK(fs::exists(tmp.path() / "adjust" / "heights.csv"));
+  CHECK(fs::exists(tmp.path() / "loops" / "loops.csv"));
   CHECK_THAT(r.out, Contains("passed"));
+}
+
+TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "[cli][loops]") {
+  levelhead::testing::TempFolder tmp;
+  const std::vector<std::string> base = {"loops", "--points", (bad / "points.csv").string(),
+                                         "--sections", (bad / "sections.csv").string(),
+                                         "--out", (tmp.path() / "o").string(), "--strict"};
+  const CliRun ok = run_cli(base);
+  INFO(ok.err);
+  REQUIRE(ok.code == 0);
+  std::ifstream loops(tmp.path() / "o" / "loops.csv");
+  std::string header, row;
+  std::getline(loops, header);
+  std::getline(loops, row);
+  CHECK(header.rfind("loop,points,length,misclosure,tolerance,passed", 0) == 0);
+  CHECK_THAT(row, Contains("BM1>A>B>BM1") || Contains("A>B>BM1>A") || Contains("B>BM1>A>B"));
+  // The corpus loop misses by 1 mm over 530 m; 1 mm/sqrt(km) allows 0.73 mm.
+  std::vector<std::string> tight = base;
+  tight.insert(tight.end(), {"--tolerance", "1"});
+  CHECK(run_cli(tight).code == 3);
+  std::vector<std::string> both = base;
+  both.insert(both.end(), {"--tolerance", "1", "--class", "fgcc-third"});
+  CHECK(run_cli(both).code == 2);
+  std::vector<std::string> unknown = base;
+  unknown.insert(unknown.end(), {"--class", "best"});
+  const CliRun r = run_cli(unknown);
+  CHECK(r.code == 2);
+  CHECK_THAT(r.err, Contains("fgcc-second-ii"));
 }

@@ -1,4 +1,4 @@
-// `levelhead adjust` and `levelhead demo`.
+// `levelhead adjust`.
 
 #include <fmt/format.h>
 #include <fstream>
@@ -6,12 +6,10 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
-#include "cli/demo_data.hpp"
 #include "cli/network_inputs.hpp"
 #include "levelhead/adjustment.hpp"
 #include "levelhead/adjustment_report.hpp"
 #include "levelhead/errors.hpp"
-#include "levelhead/output_files.hpp"
 #include "levelhead/units.hpp"
 
 namespace levelhead::cli {
@@ -86,29 +84,6 @@ CommandRunner add_adjust_command(CLI::App& app) {
   add_network_input_options(*command, args->inputs);
   add_adjustment_options(*command, *args);
   return [args](std::ostream& out, std::ostream&) { return adjust_files(*args, out); };
-}
-
-CommandRunner add_demo_command(CLI::App& app) {
-  auto args = std::make_shared<AdjustArguments>();
-  CLI::App* command = app.add_subcommand(
-      "demo", "Run levelhead on its built-in demo site: writes the inputs and the results");
-  command->add_option("--out", args->inputs.out, "Output folder")->required();
-  return [args](std::ostream& out, std::ostream&) {
-    const std::filesystem::path folder(args->inputs.out);
-    {
-      OutputSet inputs(folder / "inputs");
-      for (const auto& file : demo::embedded_files()) {
-        inputs.open(std::string(file.name)) << file.content;
-      }
-      inputs.commit();
-    }
-    out << fmt::format("Demo inputs written to {}\n", (folder / "inputs").string());
-    AdjustArguments run = *args;
-    run.inputs.points = (folder / "inputs" / "points.csv").string();
-    run.inputs.sections = (folder / "inputs" / "sections.csv").string();
-    run.inputs.out = (folder / "adjust").string();
-    return adjust_files(run, out);
-  };
 }
 
 }  // namespace levelhead::cli

@@ -1,0 +1,43 @@
+// `levelhead demo`: writes the built-in demo site's tables and runs the
+// chain on them with the same commands a user would type.
+
+#include <fmt/format.h>
+#include <memory>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "cli/demo_data.hpp"
+#include "levelhead/output_files.hpp"
+
+namespace levelhead::cli {
+
+CommandRunner add_demo_command(CLI::App& app) {
+  auto out_folder = std::make_shared<std::string>();
+  CLI::App* command = app.add_subcommand(
+      "demo", "Run levelhead on its built-in demo site: writes the inputs and the results");
+  command->add_option("--out", *out_folder, "Output folder")->required();
+  return [out_folder](std::ostream& out, std::ostream& err) {
+    const std::filesystem::path folder(*out_folder);
+    const std::filesystem::path inputs = folder / "inputs";
+    {
+      OutputSet files(inputs);
+      for (const auto& file : demo::embedded_files()) {
+        files.open(std::string(file.name)) << file.content;
+      }
+      files.commit();
+    }
+    out << fmt::format("Demo inputs written to {}\n", inputs.string());
+    const std::string points = (inputs / "points.csv").string();
+    const std::string sections = (inputs / "sections.csv").string();
+    for (const char* stage : {"loops", "adjust"}) {
+      out << fmt::format("\n== levelhead {} ==\n", stage);
+      const int code = run({"levelhead", stage, "--points", points, "--sections", sections,
+                            "--out", (folder / stage).string()},
+                           out, err);
+      if (code != exit_ok) return code;
+    }
+    return static_cast<int>(exit_ok);
+  };
+}
+
+}  // namespace levelhead::cli
