@@ -124,6 +124,24 @@ TEST_CASE("weights come from sigma, else length, else setups", "[adjust][weights
   CHECK(r.weight_rule_counts[2] == 1);
 }
 
+TEST_CASE("a mean of repeated runs weighs as their number", "[adjust][weights]") {
+  // Mean of n runs: variance / n (common practice). Length rule: k sqrt(L / n);
+  // setups rule with setups counted over all runs: s sqrt(setups) / n.
+  Section mean_by_length = section("A", "B", 1.0, 400.0);
+  mean_by_length.runs = 2;
+  Section mean_by_setups = section("B", "C", 1.0, std::nullopt);
+  mean_by_setups.setups = 8;
+  mean_by_setups.runs = 2;
+  const Network net = make_network({point("A", 10.0), point("B"), point("C", 12.0)},
+                                   {mean_by_length, mean_by_setups});
+  AdjustmentOptions options;
+  options.mm_per_sqrt_km = 2.0;
+  options.mm_per_setup = 0.5;
+  const AdjustmentResult r = adjust(net, options);
+  CHECK_THAT(r.sections[0].sigma, WithinAbs(2.0e-3 * std::sqrt(0.4 / 2.0), 1e-15));
+  CHECK_THAT(r.sections[1].sigma, WithinAbs(0.5e-3 * std::sqrt(8.0) / 2.0, 1e-15));
+}
+
 TEST_CASE("a section with no way to weight it is an error naming its row", "[adjust][errors]") {
   Section bare = section("A", "B", 1.0, std::nullopt);
   bare.row = 9;

@@ -5,7 +5,8 @@
 // Points table columns: id (unique, text), optional x, y (project CRS),
 // height (known height), sigma (its standard deviation; empty or 0 with a
 // height = held fixed), datum, kind.
-// Sections table columns: from, to, dh, length, optional setups, sigma, date, run.
+// Sections table columns: from, to, dh, length, optional setups, runs, sigma,
+// date, run.
 // Sign convention: dh = H(to) - H(from).
 // Units: heights, dh, sigma and length are converted from the table's
 // declared unit to metres.
@@ -43,6 +44,9 @@ struct Section {
   std::optional<double> length;   // m, > 0
   std::optional<double> sigma;    // m, > 0
   std::optional<long long> setups;
+  // dh is the mean of this many independent runs (from field-book
+  // reduction); sigmas from length or setups are divided by sqrt(runs).
+  long long runs = 1;
   std::string date, run;
   std::size_t row = 0;  // row of the sections table it came from (header = 1)
 };

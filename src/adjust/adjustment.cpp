@@ -79,14 +79,17 @@ Weighting weigh_sections(const Network& net, const AdjustmentOptions& options) {
   out.rule.resize(net.sections.size());
   for (std::size_t i = 0; i < net.sections.size(); ++i) {
     const Section& s = net.sections[i];
+    const double runs = static_cast<double>(s.runs);
     if (s.sigma) {
       out.sigma[i] = *s.sigma;
       out.rule[i] = WeightRule::given_sigma;
     } else if (s.length) {
-      out.sigma[i] = options.mm_per_sqrt_km * 1e-3 * std::sqrt(*s.length / 1000.0);
+      out.sigma[i] = options.mm_per_sqrt_km * 1e-3 * std::sqrt(*s.length / 1000.0 / runs);
       out.rule[i] = WeightRule::length;
     } else if (s.setups) {
-      out.sigma[i] = options.mm_per_setup * 1e-3 * std::sqrt(static_cast<double>(*s.setups));
+      // setups counts every run's setups: sigma of one run is s sqrt(setups / runs),
+      // and the mean of the runs divides that by sqrt(runs).
+      out.sigma[i] = options.mm_per_setup * 1e-3 * std::sqrt(static_cast<double>(*s.setups)) / runs;
       out.rule[i] = WeightRule::setups;
     } else {
       throw InputError(net.section_location(i), "",

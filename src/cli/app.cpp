@@ -17,6 +17,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   app.set_version_flag("--version", version_string());
 
   const std::vector<std::pair<std::string, CommandRunner>> commands = {
+      {"reduce", add_reduce_command(app)},
       {"loops", add_loops_command(app)},
       {"adjust", add_adjust_command(app)},
       {"demo", add_demo_command(app)},

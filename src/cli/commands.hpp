@@ -13,5 +13,6 @@ using CommandRunner = std::function<int(std::ostream& out, std::ostream& err)>;
 CommandRunner add_adjust_command(CLI::App& app);
 CommandRunner add_demo_command(CLI::App& app);
 CommandRunner add_loops_command(CLI::App& app);
+CommandRunner add_reduce_command(CLI::App& app);
 
 }  // namespace levelhead::cli

@@ -68,6 +68,7 @@ SectionTable read_sections(const Table& table) {
   const auto setups_col = table.find_column("setups");
   const auto date_col = table.find_column("date");
   const auto run_col = table.find_column("run");
+  const auto runs_col = table.find_column("runs");
 
   SectionTable out{table.source(), {}};
   std::vector<Section>& sections = out.sections;
@@ -99,6 +100,13 @@ SectionTable read_sections(const Table& table) {
       if (s.setups && *s.setups == 0) {
         throw InputError(table.location(row, *setups_col), "0", "a section needs at least 1 setup");
       }
+    }
+    if (runs_col) {
+      const auto runs = table.count(row, *runs_col);
+      if (runs && *runs == 0) {
+        throw InputError(table.location(row, *runs_col), "0", "runs must be at least 1");
+      }
+      s.runs = runs.value_or(1);
     }
     s.date = optional_text(table, row, date_col);
     s.run = optional_text(table, row, run_col);
