@@ -10,7 +10,8 @@
 //      -> to), tolerance (m: k mm * sqrt(length in km)) and verdict.
 //      Also: sections in no loop (spurs, side shots and links between
 //      loops: their heights are unchecked), sections observed only once
-//      (no other section joins the same two points), and for each failing
+//      (no other section joins the same two points and it is not the mean of
+//      repeated runs), and for each failing
 //      loop the sections it shares with other failing loops.
 // Errors: InputError for a section without a length (its row); OptionError
 //      for a tolerance <= 0 or an unknown preset.

@@ -1,5 +1,6 @@
 // `levelhead demo`: writes the built-in demo site's tables and runs the
-// chain on them with the same commands a user would type.
+// chain on them with the same commands a user would type: field book ->
+// sections -> loops -> adjustment (with iterative data snooping).
 
 #include <fmt/format.h>
 #include <memory>
@@ -28,12 +29,18 @@ CommandRunner add_demo_command(CLI::App& app) {
     }
     out << fmt::format("Demo inputs written to {}\n", inputs.string());
     const std::string points = (inputs / "points.csv").string();
-    const std::string sections = (inputs / "sections.csv").string();
-    for (const char* stage : {"loops", "adjust"}) {
-      out << fmt::format("\n== levelhead {} ==\n", stage);
-      const int code = run({"levelhead", stage, "--points", points, "--sections", sections,
-                            "--out", (folder / stage).string()},
-                           out, err);
+    const std::string sections = (folder / "reduce" / "sections.csv").string();
+    const std::vector<std::vector<std::string>> stages = {
+        {"reduce", (inputs / "fieldbook.csv").string()},
+        {"loops", "--points", points, "--sections", sections},
+        {"adjust", "--points", points, "--sections", sections, "--snoop"},
+    };
+    for (const auto& stage : stages) {
+      out << fmt::format("\n== levelhead {} ==\n", fmt::join(stage, " "));
+      std::vector<std::string> args = {"levelhead"};
+      args.insert(args.end(), stage.begin(), stage.end());
+      args.insert(args.end(), {"--out", (folder / stage.front()).string()});
+      const int code = run(args, out, err);
       if (code != exit_ok) return code;
     }
     return static_cast<int>(exit_ok);

@@ -31,6 +31,17 @@ std::string shared_text(const Network& net, const Loop& loop) {
   return text;
 }
 
+std::string shared_human_text(const Network& net, const Loop& loop) {
+  std::string text;
+  for (const auto& [section, loops] : loop.shared_with_failing) {
+    std::vector<std::size_t> numbers;
+    for (std::size_t k : loops) numbers.push_back(k + 1);
+    text += fmt::format("; section {} is also in failing loop(s) {}", section_label(net, section),
+                        fmt::join(numbers, ", "));
+  }
+  return text;
+}
+
 }  // namespace
 
 void write_loop_outputs(const Network& net, const LoopResult& result,
@@ -105,9 +116,7 @@ std::string loop_summary_text(const Network& net, const LoopResult& result) {
       if (loop.passed) continue;
       text += fmt::format("  loop {}: {} misclosure {:.2f} mm, tolerance {:.2f} mm{}\n", k + 1,
                           loop_point_list(net, loop), loop.misclosure * 1e3, loop.tolerance * 1e3,
-                          loop.shared_with_failing.empty()
-                              ? std::string()
-                              : fmt::format("; shares {}", shared_text(net, loop)));
+                          shared_human_text(net, loop));
     }
   }
   if (!result.unchecked_sections.empty()) {

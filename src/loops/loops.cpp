@@ -448,11 +448,12 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
   }
   std::map<std::pair<std::size_t, std::size_t>, std::size_t> pair_count;
   for (std::size_t s = 0; s < m; ++s) {
-    ++pair_count[std::minmax(net.from_index[s], net.to_index[s])];
+    pair_count[std::minmax(net.from_index[s], net.to_index[s])] +=
+        static_cast<std::size_t>(net.sections[s].runs);
   }
   for (std::size_t s = 0; s < m; ++s) {
     if (loops_of_section[s].empty()) result.unchecked_sections.push_back(s);
-    if (pair_count[std::minmax(net.from_index[s], net.to_index[s])] == 1) {
+    if (pair_count[std::minmax(net.from_index[s], net.to_index[s])] < 2) {
       result.single_observations.push_back(s);
     }
   }
