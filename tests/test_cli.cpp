@@ -154,3 +154,34 @@ TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "
   CHECK(r.code == 2);
   CHECK_THAT(r.err, Contains("fgcc-second-ii"));
 }
+
+TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1", "[cli][fieldbook]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path book = fs::path(LEVELHEAD_FIXTURES_DIR) / "fieldbook" / "hand_worked.csv";
+  const CliRun ok = run_cli({"reduce", book.string(), "--out", (tmp.path() / "r").string()});
+  INFO(ok.err);
+  REQUIRE(ok.code == 0);
+  CHECK(files_in(tmp.path() / "r").size() == 3);
+  std::ifstream sections(tmp.path() / "r" / "sections.csv");
+  std::string header;
+  std::getline(sections, header);
+  CHECK(header.rfind("from,to,dh,length,setups,runs,", 0) == 0);
+
+  struct Case {
+    const char* file;
+    std::vector<const char*> names;
+  };
+  for (const Case& c : std::vector<Case>{
+           {"fieldbook_missing_fore.csv", {"setup 1", "row 2", "no fore sight"}},
+           {"fieldbook_text_reading.csv", {"row 3", "column 'reading'", "'1.6OO0'"}},
+           {"fieldbook_open_run.csv", {"row 5", "must close on a named point"}}}) {
+    const fs::path out = tmp.path() / c.file;
+    const CliRun r = run_cli({"reduce", (bad / c.file).string(), "--out", out.string()});
+    INFO(c.file << ": " << r.err);
+    CHECK(r.code == 1);
+    for (const char* name : c.names) CHECK_THAT(r.err, Contains(name));
+    CHECK(files_in(out).empty());
+  }
+  CHECK(run_cli({"reduce", book.string(), "--out", "x", "--collimation-mm-per-m", "0.1",
+                 "--collimation-arcsec", "2"}).code == 2);
+}
