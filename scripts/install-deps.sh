@@ -6,6 +6,7 @@ set -euo pipefail
 packages=(
   build-essential cmake pkg-config
   libproj-dev proj-data proj-bin
+  libssl-dev
   libgdal-dev gdal-bin
   libeigen3-dev
   libsuitesparse-dev

@@ -7,6 +7,8 @@
 // ComputationError a computation that cannot give a trustworthy answer (exit 1)
 // OptionError     an option value outside its allowed range (exit 2 from the CLI)
 // OutputError     an output that could not be written (exit 1)
+// ReferenceError  a vertical reference that cannot be resolved or converted
+//                 honestly: unknown CRS, missing grid, point outside a grid (exit 1)
 
 #include <cstddef>
 #include <stdexcept>
@@ -63,6 +65,11 @@ class OptionError : public Error {
 };
 
 class OutputError : public Error {
+ public:
+  using Error::Error;
+};
+
+class ReferenceError : public Error {
  public:
   using Error::Error;
 };

@@ -1,0 +1,39 @@
+#pragma once
+// `levelhead convert`: the height column of a points table into another
+// vertical reference.
+//
+// In:  a points table (id, x, y, height, optional sigma, other columns kept),
+//      its heights in the table's length unit, a VerticalTransformer.
+// Out: the same table with height (m) and sigma (m) converted and the
+//      columns reference, transform (operation name) and flags added;
+//      a summary (JSON) with every operation used (name, pipeline, accuracy,
+//      grids with SHA-256), PROJ version and warnings.
+//      sigma_out = sqrt(sigma_in^2 + accuracy^2) where PROJ knows the
+//      operation's accuracy; otherwise sigma is kept and flagged.
+// Errors: InputError for bad cells; ReferenceError naming the points that
+//      could not be converted (unless lenient: then they are flagged, left
+//      empty, and the summary says lenient).
+
+#include <filesystem>
+#include <string>
+
+#include "levelhead/table.hpp"
+#include "levelhead/vertical_reference.hpp"
+
+namespace levelhead {
+
+struct HeightConversionOptions {
+  bool lenient = false;
+};
+
+struct HeightConversionSummary {
+  std::size_t points = 0, converted = 0, failed = 0;
+};
+
+// Writes `output` (CSV) and `summary` (JSON) all-or-nothing.
+HeightConversionSummary convert_points_table(const Table& table, VerticalTransformer& transformer,
+                                             const HeightConversionOptions& options,
+                                             const std::filesystem::path& output,
+                                             const std::filesystem::path& summary);
+
+}  // namespace levelhead

@@ -1,0 +1,100 @@
+#pragma once
+// Height conversion between vertical references known to PROJ.
+//
+// In:  a source and a target reference: any vertical CRS (e.g. EPSG:5703),
+//      compound CRS (e.g. EPSG:4326+5773) or geographic 3D CRS with
+//      ellipsoidal heights (e.g. EPSG:4979), as an EPSG code, WKT or
+//      PROJJSON; the horizontal CRS of the points (x = easting or longitude,
+//      y = northing or latitude, whatever the CRS's axis order); points and
+//      their heights in metres.
+// Out: per point the converted height in metres, the operation used, or the
+//      reason it could not be converted.
+// Honesty: ballpark operations (no geoid or grid applied) are never used.
+//      When no operation can run because grids are missing, a ReferenceError
+//      names the grids PROJ wanted and the folders it searched. A point
+//      outside every usable operation's extent (or grid) fails on its own,
+//      named by the caller. A dynamic CRS needs an epoch.
+// Units: metres in and out; a CRS whose heights are in feet is handled in
+//      metres inside (PROJ 9.1 mixes units in some foot cases, OSGeo/PROJ#3938).
+
+#include <cstddef>
+#include <filesystem>
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace levelhead {
+
+struct ProjSettings {
+  std::vector<std::filesystem::path> grid_paths;  // searched before PROJ_DATA
+  bool allow_network = false;                     // PROJ's CDN for missing grids
+};
+
+struct GridUse {
+  std::string name;       // as PROJ names it
+  std::string path;       // where it was found; empty if missing
+  std::string sha256;     // of the file, when found
+};
+
+struct OperationRecord {
+  std::string name;
+  std::string pipeline;               // PROJ string
+  std::optional<double> accuracy;     // m, when PROJ knows it
+  std::vector<GridUse> grids;
+  std::size_t points = 0;             // points converted with it
+};
+
+struct ReferenceInfo {
+  std::string definition;  // as given
+  std::string name;        // PROJ's name of the CRS
+  std::string unit;        // native height unit name
+  double metres_per_unit = 1.0;
+  bool dynamic = false;
+};
+
+struct PlanePoint {
+  double x = 0.0, y = 0.0;
+};
+
+struct PointConversion {
+  std::optional<double> height;         // m, in the target reference
+  std::optional<std::size_t> operation;  // index into operations()
+  std::string failure;                  // why not, when height is empty
+};
+
+class VerticalTransformer {
+ public:
+  // horizontal_crs empty: the source reference's own horizontal CRS (it must
+  // be compound or geographic 3D). epoch: decimal year, required when either
+  // reference is dynamic.
+  VerticalTransformer(const std::string& from, const std::string& to,
+                      const std::string& horizontal_crs, const ProjSettings& settings,
+                      std::optional<double> epoch = std::nullopt);
+  ~VerticalTransformer();
+  VerticalTransformer(const VerticalTransformer&) = delete;
+  VerticalTransformer& operator=(const VerticalTransformer&) = delete;
+
+  const ReferenceInfo& source() const;
+  const ReferenceInfo& target() const;
+
+  // heights in metres in the source reference; one result per point.
+  std::vector<PointConversion> convert(const std::vector<PlanePoint>& points,
+                                       const std::vector<double>& heights);
+
+  const std::vector<OperationRecord>& operations() const;
+  // Notes such as a more accurate operation that needs a grid not installed.
+  const std::vector<std::string>& warnings() const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
+// PROJ and its database, for provenance: "PROJ 9.1.1, EPSG v10.076".
+std::string proj_version_text();
+
+// SHA-256 of a file as lowercase hex (for grid provenance).
+std::string file_sha256(const std::filesystem::path& path);
+
+}  // namespace levelhead

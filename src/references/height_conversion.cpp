@@ -1,0 +1,159 @@
+#include "levelhead/height_conversion.hpp"
+
+#include <cmath>
+#include <fmt/format.h>
+#include <nlohmann/json.hpp>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/version.hpp"
+
+namespace levelhead {
+
+HeightConversionSummary convert_points_table(const Table& table, VerticalTransformer& transformer,
+                                             const HeightConversionOptions& options,
+                                             const std::filesystem::path& output,
+                                             const std::filesystem::path& summary_path) {
+  const std::size_t id_col = table.require_column("id");
+  const std::size_t x_col = table.require_column("x");
+  const std::size_t y_col = table.require_column("y");
+  const std::size_t height_col = table.require_column("height");
+  const auto sigma_col = table.find_column("sigma");
+
+  std::vector<PlanePoint> points;
+  std::vector<double> heights;
+  std::vector<std::size_t> rows;  // table rows that carry a height
+  for (std::size_t row = 0; row < table.row_count(); ++row) {
+    const auto height = table.length(row, height_col);
+    if (!height) continue;  // nothing to convert; copied as is
+    const auto x = table.number(row, x_col), y = table.number(row, y_col);
+    if (!x || !y) {
+      throw InputError(table.location(row, x ? y_col : x_col), "",
+                       "a point with a height needs x and y to be converted");
+    }
+    points.push_back({*x, *y});
+    heights.push_back(*height);
+    rows.push_back(row);
+  }
+  const std::vector<PointConversion> results = transformer.convert(points, heights);
+
+  HeightConversionSummary counts;
+  counts.points = rows.size();
+  std::vector<std::string> failures;
+  for (std::size_t k = 0; k < results.size(); ++k) {
+    if (results[k].height) {
+      ++counts.converted;
+      continue;
+    }
+    ++counts.failed;
+    if (failures.size() < 10) {
+      failures.push_back(fmt::format("'{}' (row {}): {}", table.cell(rows[k], id_col),
+                                     table.source_row(rows[k]), results[k].failure));
+    }
+  }
+  if (counts.failed > 0 && !options.lenient) {
+    throw ReferenceError(fmt::format(
+        "{} of {} point(s) could not be converted from '{}' to '{}': {}{}. Nothing was written; "
+        "check the points' x, y and --crs, or use --lenient to write the others and flag these",
+        counts.failed, counts.points, transformer.source().definition,
+        transformer.target().definition, fmt::join(failures, "; "),
+        counts.failed > failures.size() ? "; ..." : ""));
+  }
+
+  const auto& operations = transformer.operations();
+  std::vector<std::optional<std::size_t>> result_of_row(table.row_count());
+  for (std::size_t k = 0; k < rows.size(); ++k) result_of_row[rows[k]] = k;
+
+  const std::filesystem::path folder = output.parent_path().empty() ? "." : output.parent_path();
+  OutputSet out(folder);
+  std::ostream& csv = out.open(output.filename().string());
+  for (std::size_t c = 0; c < table.column_names().size(); ++c) {
+    csv << (c ? "," : "") << csv_cell(table.column_names()[c]);
+  }
+  if (!sigma_col) csv << ",sigma";
+  csv << ",reference,transform,flags\n";
+  for (std::size_t row = 0; row < table.row_count(); ++row) {
+    const auto k = result_of_row[row];
+    const std::optional<double> sigma_in = sigma_col ? table.length(row, *sigma_col) : std::nullopt;
+    const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", sigma_in.value()) : "";
+    std::string height_text, sigma_text, transform, flags;
+    if (k && results[*k].height) {
+      const OperationRecord& op = operations[*results[*k].operation];
+      height_text = fmt::format("{:.5f}", *results[*k].height);
+      transform = op.name;
+      if (op.accuracy) {
+        const double s = std::hypot(sigma_in.value_or(0.0), *op.accuracy);
+        sigma_text = fmt::format("{:.5f}", s);
+        if (!sigma_in) flags = "sigma-from-operation-only";
+      } else {
+        sigma_text = sigma_given;
+        flags = "operation-accuracy-unknown";
+      }
+    } else if (k) {
+      flags = "not-converted: " + results[*k].failure;
+    } else {
+      sigma_text = sigma_given;
+    }
+    for (std::size_t c = 0; c < table.column_names().size(); ++c) {
+      if (c) csv << ',';
+      if (c == height_col && k) {
+        csv << height_text;
+      } else if (sigma_col && c == *sigma_col) {
+        csv << sigma_text;
+      } else {
+        csv << csv_cell(std::string(table.cell(row, c)));
+      }
+    }
+    if (!sigma_col) csv << ',' << sigma_text;
+    csv << ',' << csv_cell(k ? transformer.target().definition : std::string()) << ','
+        << csv_cell(transform) << ',' << csv_cell(flags) << '\n';
+  }
+
+  nlohmann::json summary;
+  summary["levelhead_version"] = version_string();
+  summary["command"] = "convert";
+  summary["proj"] = proj_version_text();
+  summary["input"] = table.source();
+  summary["units"] = "m";
+  summary["lenient"] = options.lenient;
+  const auto info = [](const ReferenceInfo& r) {
+    return nlohmann::json{{"definition", r.definition}, {"name", r.name}, {"native_unit", r.unit},
+                          {"metres_per_unit", r.metres_per_unit}, {"dynamic", r.dynamic}};
+  };
+  summary["from"] = info(transformer.source());
+  summary["to"] = info(transformer.target());
+  summary["counts"] = {{"points_with_height", counts.points},
+                       {"converted", counts.converted},
+                       {"failed", counts.failed}};
+  nlohmann::json ops = nlohmann::json::array();
+  for (const OperationRecord& op : operations) {
+    nlohmann::json grids = nlohmann::json::array();
+    for (const GridUse& g : op.grids) {
+      grids.push_back({{"name", g.name}, {"path", g.path}, {"sha256", g.sha256}});
+    }
+    ops.push_back({{"name", op.name},
+                   {"pipeline", op.pipeline},
+                   {"accuracy", op.accuracy ? nlohmann::json(*op.accuracy) : nlohmann::json(nullptr)},
+                   {"grids", grids},
+                   {"points", op.points}});
+  }
+  summary["operations"] = ops;
+  summary["warnings"] = transformer.warnings();
+  nlohmann::json failed = nlohmann::json::array();
+  for (std::size_t k = 0; k < results.size(); ++k) {
+    if (!results[k].height) {
+      failed.push_back({{"id", std::string(table.cell(rows[k], id_col))},
+                        {"row", table.source_row(rows[k])},
+                        {"reason", results[k].failure}});
+    }
+  }
+  summary["failed_points"] = failed;
+  if (summary_path.parent_path() != output.parent_path()) {
+    throw std::logic_error("summary must sit beside the output table");
+  }
+  out.open(summary_path.filename().string()) << summary.dump(2) << '\n';
+  out.commit();
+  return counts;
+}
+
+}  // namespace levelhead
