@@ -185,3 +185,56 @@ TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1",
   CHECK(run_cli({"reduce", book.string(), "--out", "x", "--collimation-mm-per-m", "0.1",
                  "--collimation-arcsec", "2"}).code == 2);
 }
+
+TEST_CASE("convert refuses a missing grid and writes nothing", "[cli][proj]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path in = tmp.path() / "gnss.csv";
+  std::ofstream(in) << "id,x,y,height,sigma\nG1,10.0,45.0,100.000,0.020\nG2,11.0,45.5,120.000,\n";
+  const fs::path out = tmp.path() / "out" / "converted.csv";
+  const CliRun refused = run_cli({"convert", "--from", "EPSG:4979", "--to", "EPSG:4326+3855",
+                                  "--in", in.string(), "--out", out.string()});
+  CHECK(refused.code == 1);
+  CHECK_THAT(refused.err, Contains("us_nga_egm08_25.tif") && Contains("ballpark"));
+  CHECK(files_in(out.parent_path()).empty());
+
+  const CliRun ok = run_cli({"convert", "--from", "EPSG:4979", "--to", "EPSG:4326+5773", "--in",
+                             in.string(), "--out", out.string()});
+  INFO(ok.err);
+  REQUIRE(ok.code == 0);
+  std::ifstream table(out);
+  std::string header, first;
+  std::getline(table, header);
+  std::getline(table, first);
+  CHECK(header == "id,x,y,height,sigma,reference,transform,flags");
+  CHECK_THAT(first, Contains("EPSG:4326+5773") && Contains("EGM96"));
+  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "out" / "converted.summary.json"));
+  CHECK(summary["operations"][0]["grids"][0]["sha256"].get<std::string>().size() == 64);
+  CHECK(summary["counts"]["converted"] == 2);
+}
+
+TEST_CASE("tie writes a reference that convert then uses", "[cli][tie]") {
+  levelhead::testing::TempFolder tmp;
+  std::ofstream(tmp.path() / "site.csv") << "id,x,y,height,sigma\nA,0,0,10.000,0.001\n"
+                                            "B,100,0,11.000,0.001\nC,0,100,12.000,0.001\n"
+                                            "D,100,100,13.000,0.001\nW,50,50,9.000,0.002\n";
+  std::ofstream(tmp.path() / "base.csv") << "id,height,sigma\nA,105.2500,0.001\nB,106.2512,0.001\n"
+                                            "C,107.2489,0.001\nD,108.2502,0.001\n";
+  const fs::path refs = tmp.path() / "refs" / "references.toml";
+  const CliRun tie = run_cli({"tie", "--site", (tmp.path() / "site.csv").string(), "--base",
+                              (tmp.path() / "base.csv").string(), "--name", "site-1998",
+                              "--base-ref", "EPSG:5703", "--out", refs.string()});
+  INFO(tie.err);
+  REQUIRE(tie.code == 0);
+  CHECK(fs::exists(tmp.path() / "refs" / "site-1998.ties.csv"));
+  const CliRun conv = run_cli({"convert", "--from", "site-1998", "--to", "EPSG:5703", "--references",
+                               refs.string(), "--in", (tmp.path() / "site.csv").string(), "--out",
+                               (tmp.path() / "converted.csv").string()});
+  INFO(conv.err);
+  REQUIRE(conv.code == 0);
+  std::ifstream table(tmp.path() / "converted.csv");
+  std::string line, last;
+  while (std::getline(table, line)) last = line;
+  // W: 9.000 + mean offset (95.25 + 95.2512 + 95.2489 + 95.2502) / 4 = 104.250075
+  // (its last digit rounds either way in print: compare to 0.1 mm).
+  CHECK_THAT(last, Contains("W,50,50,104.2500"));
+}

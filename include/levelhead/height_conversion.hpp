@@ -3,13 +3,14 @@
 // vertical reference.
 //
 // In:  a points table (id, x, y, height, optional sigma, other columns kept),
-//      its heights in the table's length unit, a VerticalTransformer.
+//      its heights in the table's length unit, a HeightConverter.
 // Out: the same table with height (m) and sigma (m) converted and the
 //      columns reference, transform (operation name) and flags added;
 //      a summary (JSON) with every operation used (name, pipeline, accuracy,
 //      grids with SHA-256), PROJ version and warnings.
-//      sigma_out = sqrt(sigma_in^2 + accuracy^2) where PROJ knows the
-//      operation's accuracy; otherwise sigma is kept and flagged.
+//      sigma_out^2 = sigma_in^2 + the variance of every step (PROJ's
+//      accuracy, an offset's sigma or a tie's covariance); a step of unknown
+//      variance is flagged.
 // Errors: InputError for bad cells; ReferenceError naming the points that
 //      could not be converted (unless lenient: then they are flagged, left
 //      empty, and the summary says lenient).
@@ -18,7 +19,7 @@
 #include <string>
 
 #include "levelhead/table.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/height_converter.hpp"
 
 namespace levelhead {
 
@@ -31,7 +32,7 @@ struct HeightConversionSummary {
 };
 
 // Writes `output` (CSV) and `summary` (JSON) all-or-nothing.
-HeightConversionSummary convert_points_table(const Table& table, VerticalTransformer& transformer,
+HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
                                              const HeightConversionOptions& options,
                                              const std::filesystem::path& output,
                                              const std::filesystem::path& summary);

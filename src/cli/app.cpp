@@ -21,6 +21,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       {"loops", add_loops_command(app)},
       {"adjust", add_adjust_command(app)},
       {"convert", add_convert_command(app)},
+      {"tie", add_tie_command(app)},
       {"demo", add_demo_command(app)},
   };
 

@@ -15,5 +15,6 @@ CommandRunner add_demo_command(CLI::App& app);
 CommandRunner add_loops_command(CLI::App& app);
 CommandRunner add_reduce_command(CLI::App& app);
 CommandRunner add_convert_command(CLI::App& app);
+CommandRunner add_tie_command(CLI::App& app);
 
 }  // namespace levelhead::cli

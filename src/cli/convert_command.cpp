@@ -6,6 +6,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "levelhead/height_conversion.hpp"
+#include "levelhead/references_file.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/units.hpp"
 
@@ -13,7 +14,7 @@ namespace levelhead::cli {
 
 namespace {
 struct ConvertArguments {
-  std::string from, to, input, output, crs, unit, columns, layer;
+  std::string from, to, input, output, crs, unit, columns, layer, references;
   std::vector<std::string> grid_paths;
   std::optional<double> epoch;
   bool network = false, lenient = false, quiet = false;
@@ -37,6 +38,7 @@ CommandRunner add_convert_command(CLI::App& app) {
                              "unit of --from, else m)");
   c->add_option("--columns", a->columns, "Column map, e.g. height=Elev,x=E,y=N");
   c->add_option("--layer", a->layer, "Layer or sheet of the input file");
+  c->add_option("--references", a->references, "TOML file defining references of our own");
   c->add_option("--grid-path", a->grid_paths, "Folder searched for grids before PROJ_DATA");
   c->add_option("--epoch", a->epoch, "Epoch of the heights (decimal year), for dynamic references");
   c->add_flag("--network", a->network, "Let PROJ download missing grids (off by default)");
@@ -47,14 +49,17 @@ CommandRunner add_convert_command(CLI::App& app) {
     ProjSettings settings;
     for (const auto& p : a->grid_paths) settings.grid_paths.emplace_back(p);
     settings.allow_network = a->network;
-    VerticalTransformer transformer(a->from, a->to, a->crs, settings, a->epoch);
+    const ReferenceSet references =
+        a->references.empty() ? ReferenceSet{} : ReferenceSet::load(a->references);
+    HeightConverter converter(a->from, a->to, a->crs, references, settings, a->epoch);
     // Heights are in the unit declared, else in the source reference's own unit.
     LengthUnit table_unit = LengthUnit::metre;
+    const double source_unit = converter.source_metres_per_unit();
     if (unit->count() > 0) {
       table_unit = parse_length_unit(a->unit);
-    } else if (std::abs(transformer.source().metres_per_unit - metres_per_us_survey_foot) < 1e-12) {
+    } else if (std::abs(source_unit - metres_per_us_survey_foot) < 1e-12) {
       table_unit = LengthUnit::us_survey_foot;
-    } else if (std::abs(transformer.source().metres_per_unit - metres_per_international_foot) < 1e-12) {
+    } else if (std::abs(source_unit - metres_per_international_foot) < 1e-12) {
       table_unit = LengthUnit::international_foot;
     }
     const Table table =
@@ -63,18 +68,21 @@ CommandRunner add_convert_command(CLI::App& app) {
     std::filesystem::path summary = output;
     summary.replace_extension(".summary.json");
     const HeightConversionSummary counts =
-        convert_points_table(table, transformer, HeightConversionOptions{a->lenient}, output, summary);
+        convert_points_table(table, converter, HeightConversionOptions{a->lenient}, output, summary);
     if (!a->quiet) {
       out << fmt::format("Converted {} of {} heights from {} to {} (heights read in {})\n",
-                         counts.converted, counts.points, transformer.source().name,
-                         transformer.target().name, to_string(table_unit));
-      for (const OperationRecord& op : transformer.operations()) {
-        if (op.points == 0) continue;
-        out << fmt::format("  {} points by {}{}\n", op.points, op.name,
-                           op.accuracy ? fmt::format(" (accuracy {} m)", *op.accuracy)
-                                       : std::string(" (accuracy unknown)"));
+                         counts.converted, counts.points, converter.from(), converter.to(),
+                         to_string(table_unit));
+      for (const std::string& step : converter.step_descriptions()) out << "  step: " << step << '\n';
+      if (const VerticalTransformer* proj = converter.proj()) {
+        for (const OperationRecord& op : proj->operations()) {
+          if (op.points == 0) continue;
+          out << fmt::format("  {} points by {}{}\n", op.points, op.name,
+                             op.accuracy ? fmt::format(" (accuracy {} m)", *op.accuracy)
+                                         : std::string(" (accuracy unknown)"));
+        }
+        for (const std::string& w : proj->warnings()) out << "Warning: " << w << '\n';
       }
-      for (const std::string& w : transformer.warnings()) out << "Warning: " << w << '\n';
       if (counts.failed) out << fmt::format("{} point(s) NOT converted (flagged)\n", counts.failed);
       out << fmt::format("Wrote {} and {}\n", output.string(), summary.string());
     }

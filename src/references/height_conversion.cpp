@@ -10,7 +10,7 @@
 
 namespace levelhead {
 
-HeightConversionSummary convert_points_table(const Table& table, VerticalTransformer& transformer,
+HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
                                              const HeightConversionOptions& options,
                                              const std::filesystem::path& output,
                                              const std::filesystem::path& summary_path) {
@@ -35,7 +35,7 @@ HeightConversionSummary convert_points_table(const Table& table, VerticalTransfo
     heights.push_back(*height);
     rows.push_back(row);
   }
-  const std::vector<PointConversion> results = transformer.convert(points, heights);
+  const std::vector<ConvertedHeight> results = converter.convert(points, heights);
 
   HeightConversionSummary counts;
   counts.points = rows.size();
@@ -55,12 +55,10 @@ HeightConversionSummary convert_points_table(const Table& table, VerticalTransfo
     throw ReferenceError(fmt::format(
         "{} of {} point(s) could not be converted from '{}' to '{}': {}{}. Nothing was written; "
         "check the points' x, y and --crs, or use --lenient to write the others and flag these",
-        counts.failed, counts.points, transformer.source().definition,
-        transformer.target().definition, fmt::join(failures, "; "),
+        counts.failed, counts.points, converter.from(), converter.to(), fmt::join(failures, "; "),
         counts.failed > failures.size() ? "; ..." : ""));
   }
 
-  const auto& operations = transformer.operations();
   std::vector<std::optional<std::size_t>> result_of_row(table.row_count());
   for (std::size_t k = 0; k < rows.size(); ++k) result_of_row[rows[k]] = k;
 
@@ -78,17 +76,17 @@ HeightConversionSummary convert_points_table(const Table& table, VerticalTransfo
     const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", sigma_in.value()) : "";
     std::string height_text, sigma_text, transform, flags;
     if (k && results[*k].height) {
-      const OperationRecord& op = operations[*results[*k].operation];
-      height_text = fmt::format("{:.5f}", *results[*k].height);
-      transform = op.name;
-      if (op.accuracy) {
-        const double s = std::hypot(sigma_in.value_or(0.0), *op.accuracy);
+      const ConvertedHeight& r = results[*k];
+      height_text = fmt::format("{:.5f}", *r.height);
+      transform = r.transform;
+      std::vector<std::string> notes = r.flags;
+      if (sigma_in || r.variance_added > 0.0) {
+        const double s = std::sqrt(sigma_in.value_or(0.0) * sigma_in.value_or(0.0) + r.variance_added);
         sigma_text = fmt::format("{:.5f}", s);
-        if (!sigma_in) flags = "sigma-from-operation-only";
-      } else {
-        sigma_text = sigma_given;
-        flags = "operation-accuracy-unknown";
       }
+      if (!sigma_in) notes.push_back("input-sigma-missing");
+      if (!r.variance_complete) notes.push_back("step-variance-unknown");
+      flags = fmt::format("{}", fmt::join(notes, " "));
     } else if (k) {
       flags = "not-converted: " + results[*k].failure;
     } else {
@@ -105,7 +103,7 @@ HeightConversionSummary convert_points_table(const Table& table, VerticalTransfo
       }
     }
     if (!sigma_col) csv << ',' << sigma_text;
-    csv << ',' << csv_cell(k ? transformer.target().definition : std::string()) << ','
+    csv << ',' << csv_cell(k ? converter.to() : std::string()) << ','
         << csv_cell(transform) << ',' << csv_cell(flags) << '\n';
   }
 
@@ -116,16 +114,24 @@ HeightConversionSummary convert_points_table(const Table& table, VerticalTransfo
   summary["input"] = table.source();
   summary["units"] = "m";
   summary["lenient"] = options.lenient;
-  const auto info = [](const ReferenceInfo& r) {
-    return nlohmann::json{{"definition", r.definition}, {"name", r.name}, {"native_unit", r.unit},
-                          {"metres_per_unit", r.metres_per_unit}, {"dynamic", r.dynamic}};
-  };
-  summary["from"] = info(transformer.source());
-  summary["to"] = info(transformer.target());
+  summary["from"] = converter.from();
+  summary["to"] = converter.to();
+  if (const VerticalTransformer* proj = converter.proj()) {
+    const auto info = [](const ReferenceInfo& r) {
+      return nlohmann::json{{"definition", r.definition}, {"name", r.name},
+                            {"native_unit", r.unit}, {"metres_per_unit", r.metres_per_unit},
+                            {"dynamic", r.dynamic}};
+    };
+    summary["proj_from"] = info(proj->source());
+    summary["proj_to"] = info(proj->target());
+  }
+  summary["reference_steps"] = converter.step_descriptions();
   summary["counts"] = {{"points_with_height", counts.points},
                        {"converted", counts.converted},
                        {"failed", counts.failed}};
   nlohmann::json ops = nlohmann::json::array();
+  const std::vector<OperationRecord> no_operations;
+  const auto& operations = converter.proj() ? converter.proj()->operations() : no_operations;
   for (const OperationRecord& op : operations) {
     nlohmann::json grids = nlohmann::json::array();
     for (const GridUse& g : op.grids) {
@@ -138,7 +144,7 @@ HeightConversionSummary convert_points_table(const Table& table, VerticalTransfo
                    {"points", op.points}});
   }
   summary["operations"] = ops;
-  summary["warnings"] = transformer.warnings();
+  summary["warnings"] = converter.proj() ? converter.proj()->warnings() : std::vector<std::string>{};
   nlohmann::json failed = nlohmann::json::array();
   for (std::size_t k = 0; k < results.size(); ++k) {
     if (!results[k].height) {

@@ -1,0 +1,66 @@
+#pragma once
+// Heights from one vertical reference to another, through our own references
+// (offsets and ties, see references_file.hpp) and PROJ.
+//
+// A named reference is followed down to the PROJ CRS it is built on; when
+// both ends share that CRS (or an intermediate named reference), no PROJ
+// operation is used at all. Otherwise: source -> its PROJ CRS -> (PROJ) ->
+// target's PROJ CRS -> target. Each step adds its variance; a step whose
+// variance is unknown is flagged.
+//
+// In:  points (x, y in the points' CRS), heights (m).
+// Out: converted heights (m), added variance (m^2), the steps taken, flags
+//      (outside the hull of a tie's points: extrapolation).
+// Errors: ReferenceError (see vertical_reference.hpp), also for a reference
+//      chain that loops.
+
+#include <memory>
+#include <optional>
+#include <string>
+#include <vector>
+
+#include "levelhead/references_file.hpp"
+#include "levelhead/vertical_reference.hpp"
+
+namespace levelhead {
+
+struct ConvertedHeight {
+  std::optional<double> height;     // m
+  double variance_added = 0.0;      // m^2, from the steps whose variance is known
+  bool variance_complete = true;    // false when some step's variance is unknown
+  std::string transform;            // the steps, in order
+  std::vector<std::string> flags;
+  std::string failure;              // why height is empty
+};
+
+class HeightConverter {
+ public:
+  HeightConverter(const std::string& from, const std::string& to,
+                  const std::string& horizontal_crs, const ReferenceSet& references,
+                  const ProjSettings& settings, std::optional<double> epoch = std::nullopt);
+  ~HeightConverter();
+
+  std::vector<ConvertedHeight> convert(const std::vector<PlanePoint>& points,
+                                       const std::vector<double>& heights);
+
+  const std::string& from() const { return from_; }
+  const std::string& to() const { return to_; }
+  // The PROJ part, when one is needed.
+  const VerticalTransformer* proj() const { return proj_.get(); }
+  // Descriptions of the named steps, in order.
+  const std::vector<std::string>& step_descriptions() const { return descriptions_; }
+  // Metres per unit of the source reference's heights (1 for our references).
+  double source_metres_per_unit() const;
+
+ private:
+  struct Step {
+    const ReferenceDefinition* definition;
+    int direction;  // +1: to its base, -1: from its base
+  };
+  std::string from_, to_;
+  std::vector<Step> steps_before_, steps_after_;  // around the PROJ step
+  std::unique_ptr<VerticalTransformer> proj_;
+  std::vector<std::string> descriptions_;
+};
+
+}  // namespace levelhead

@@ -1,0 +1,77 @@
+#pragma once
+// Vertical references of our own, defined in a TOML file.
+//
+//   [references.site-1998]          # a name used in tables and on the command line
+//   kind = "offset"                 # or "crs"
+//   base = "EPSG:5703"              # the reference it is defined over (a name or a PROJ CRS)
+//   offset = -100.012               # m
+//   slope_x = 0.0                   # m per m of x (optional)
+//   slope_y = 0.0                   # m per m of y (optional)
+//   x0 = 512500.0                   # origin of the slopes, in crs (needed with slopes)
+//   y0 = 4409700.0
+//   crs = "EPSG:32613"              # CRS of x0, y0 and of the points' x, y for this step
+//   sigma = 0.004                   # m, of the relation at a point, or instead:
+//   covariance = [[...], [...], [...]]  # of (offset, slope_x, slope_y), written by `levelhead tie`
+//   hull = [[x, y], ...]            # outline of the tie points (written by `tie`)
+//   source = "..."                  # free text
+//
+//   [references.egm96]
+//   kind = "crs"
+//   definition = "EPSG:4326+5773"
+//
+// Sign convention of an offset reference (heights H of this reference):
+//   H_base = H + offset + slope_x (x - x0) + slope_y (y - y0)
+// i.e. `offset` is the height, in the base reference, of this reference's zero.
+// Errors: InputError naming the file, line and key; unknown keys are errors
+// with the nearest valid key suggested.
+
+#include <array>
+#include <filesystem>
+#include <map>
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace levelhead {
+
+struct OffsetRelation {
+  double offset = 0.0, slope_x = 0.0, slope_y = 0.0;  // m, m/m, m/m
+  double x0 = 0.0, y0 = 0.0;
+  std::string crs;                                   // of x0, y0; empty: the points' CRS
+  std::optional<double> sigma;                       // m
+  std::optional<std::array<std::array<double, 3>, 3>> covariance;  // (offset, slope_x, slope_y)
+  std::vector<std::array<double, 2>> hull;           // tie outline (extrapolation check)
+
+  // H_base - H at (x, y), and its variance (nullopt when neither sigma nor covariance is known).
+  double shift(double x, double y) const;
+  std::optional<double> variance(double x, double y) const;
+  bool inside_hull(double x, double y) const;  // true when no hull is recorded
+};
+
+struct ReferenceDefinition {
+  std::string name;
+  enum class Kind { crs, offset } kind = Kind::crs;
+  std::string definition;  // kind crs: the PROJ CRS
+  std::string base;        // kind offset
+  OffsetRelation relation;
+  std::string source;
+  std::string file;
+};
+
+class ReferenceSet {
+ public:
+  ReferenceSet() = default;
+  static ReferenceSet load(const std::filesystem::path& file);
+  void add(ReferenceDefinition definition);
+
+  const ReferenceDefinition* find(const std::string& name) const;
+  bool empty() const { return definitions_.empty(); }
+
+ private:
+  std::map<std::string, ReferenceDefinition> definitions_;
+};
+
+// The TOML text of one offset reference (as `levelhead tie` writes it).
+std::string to_toml(const ReferenceDefinition& definition);
+
+}  // namespace levelhead

@@ -1,0 +1,144 @@
+#include "levelhead/height_converter.hpp"
+
+#include <algorithm>
+#include <cmath>
+#include <fmt/format.h>
+
+#include "levelhead/errors.hpp"
+
+namespace levelhead {
+
+namespace {
+
+struct Chain {
+  std::vector<const ReferenceDefinition*> steps;  // offsets from the reference down to root
+  std::string root;                               // a PROJ CRS
+};
+
+Chain follow(const std::string& name, const ReferenceSet& references) {
+  Chain chain;
+  std::string current = name;
+  for (int depth = 0;; ++depth) {
+    if (depth > 32) {
+      throw ReferenceError(fmt::format("reference '{}' is defined in a loop of bases", name));
+    }
+    const ReferenceDefinition* d = references.find(current);
+    if (!d) {
+      chain.root = current;
+      return chain;
+    }
+    if (d->kind == ReferenceDefinition::Kind::crs) {
+      chain.root = d->definition;
+      return chain;
+    }
+    chain.steps.push_back(d);
+    current = d->base;
+  }
+}
+
+std::string describe(const ReferenceDefinition& d, int direction) {
+  const OffsetRelation& r = d.relation;
+  const bool sloped = std::abs(r.slope_x) > 0.0 || std::abs(r.slope_y) > 0.0;
+  return fmt::format("{} {} {}: offset {:.4f} m{}{}", direction > 0 ? d.name : d.base,
+                     "->", direction > 0 ? d.base : d.name, r.offset,
+                     sloped ? " with slope" : "", d.source.empty() ? "" : " (" + d.source + ")");
+}
+
+}  // namespace
+
+HeightConverter::HeightConverter(const std::string& from, const std::string& to,
+                                 const std::string& horizontal_crs, const ReferenceSet& references,
+                                 const ProjSettings& settings, std::optional<double> epoch)
+    : from_(from), to_(to) {
+  Chain a = follow(from, references);
+  Chain b = follow(to, references);
+  // Drop the common part below the lowest shared reference.
+  while (a.root == b.root && !a.steps.empty() && !b.steps.empty() &&
+         a.steps.back() == b.steps.back()) {
+    a.steps.pop_back();
+    b.steps.pop_back();
+  }
+  for (const ReferenceDefinition* d : a.steps) steps_before_.push_back({d, +1});
+  for (auto it = b.steps.rbegin(); it != b.steps.rend(); ++it) steps_after_.push_back({*it, -1});
+  for (const std::vector<Step>* steps : {&steps_before_, &steps_after_}) {
+    for (const Step& s : *steps) {
+      const std::string& crs = s.definition->relation.crs;
+      if (!crs.empty() && !horizontal_crs.empty() && crs != horizontal_crs) {
+        throw ReferenceError(fmt::format("reference '{}' ({}) is defined with x, y in {}; give the "
+                                         "points in that CRS (--crs {})",
+                                         s.definition->name, s.definition->file, crs, crs));
+      }
+    }
+  }
+  for (const Step& s : steps_before_) descriptions_.push_back(describe(*s.definition, +1));
+  if (a.root != b.root) {
+    proj_ = std::make_unique<VerticalTransformer>(a.root, b.root, horizontal_crs, settings, epoch);
+  }
+  for (const Step& s : steps_after_) descriptions_.push_back(describe(*s.definition, -1));
+}
+
+HeightConverter::~HeightConverter() = default;
+
+double HeightConverter::source_metres_per_unit() const {
+  return steps_before_.empty() && proj_ ? proj_->source().metres_per_unit : 1.0;
+}
+
+std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoint>& points,
+                                                      const std::vector<double>& heights) {
+  std::vector<ConvertedHeight> out(points.size());
+  std::vector<double> current(heights);
+  const auto apply = [&](const std::vector<Step>& steps) {
+    for (const Step& s : steps) {
+      const OffsetRelation& r = s.definition->relation;
+      for (std::size_t i = 0; i < points.size(); ++i) {
+        ConvertedHeight& c = out[i];
+        current[i] += s.direction * r.shift(points[i].x, points[i].y);
+        const auto variance = r.variance(points[i].x, points[i].y);
+        if (variance) {
+          c.variance_added += *variance;
+        } else {
+          c.variance_complete = false;
+        }
+        if (!r.inside_hull(points[i].x, points[i].y)) {
+          c.flags.push_back(fmt::format("outside-ties-hull({})", s.definition->name));
+        }
+      }
+    }
+  };
+  apply(steps_before_);
+  std::vector<PointConversion> proj_results;
+  if (proj_) proj_results = proj_->convert(points, current);
+  for (std::size_t i = 0; i < points.size(); ++i) {
+    if (!proj_) continue;
+    if (!proj_results[i].height) {
+      out[i].failure = proj_results[i].failure;
+      continue;
+    }
+    current[i] = *proj_results[i].height;
+  }
+  apply(steps_after_);
+
+  for (std::size_t i = 0; i < points.size(); ++i) {
+    ConvertedHeight& c = out[i];
+    if (!c.failure.empty()) continue;
+    c.height = current[i];
+    std::vector<std::string> parts;
+    for (std::size_t k = 0; k < steps_before_.size(); ++k) parts.push_back(descriptions_[k]);
+    if (proj_) {
+      const OperationRecord& op = proj_->operations()[*proj_results[i].operation];
+      parts.push_back(op.name);
+      if (op.accuracy) {
+        c.variance_added += *op.accuracy * *op.accuracy;
+      } else {
+        c.variance_complete = false;
+      }
+    }
+    for (std::size_t k = steps_before_.size(); k < descriptions_.size(); ++k) {
+      parts.push_back(descriptions_[k]);
+    }
+    c.transform = parts.empty() ? std::string("identity") : fmt::format("{}", fmt::join(parts, "; "));
+  }
+  return out;
+}
+
+}  // namespace levelhead

@@ -1,0 +1,204 @@
+#include "levelhead/references_file.hpp"
+
+#include <toml++/toml.h>
+
+#include <algorithm>
+#include <cmath>
+#include <fmt/format.h>
+#include <sstream>
+
+#include "levelhead/errors.hpp"
+
+namespace levelhead {
+
+double OffsetRelation::shift(double x, double y) const {
+  return offset + slope_x * (x - x0) + slope_y * (y - y0);
+}
+
+std::optional<double> OffsetRelation::variance(double x, double y) const {
+  if (covariance) {
+    const double g[3] = {1.0, x - x0, y - y0};
+    double v = 0.0;
+    for (int i = 0; i < 3; ++i) {
+      for (int j = 0; j < 3; ++j) v += g[i] * (*covariance)[i][j] * g[j];
+    }
+    return v;
+  }
+  if (sigma) return *sigma * *sigma;
+  return std::nullopt;
+}
+
+// Point in polygon by ray crossing (hull vertices in order).
+bool OffsetRelation::inside_hull(double x, double y) const {
+  if (hull.size() < 3) return true;
+  bool inside = false;
+  for (std::size_t i = 0, j = hull.size() - 1; i < hull.size(); j = i++) {
+    const auto& a = hull[i];
+    const auto& b = hull[j];
+    if ((a[1] > y) != (b[1] > y) && x < (b[0] - a[0]) * (y - a[1]) / (b[1] - a[1]) + a[0]) {
+      inside = !inside;
+    }
+  }
+  return inside;
+}
+
+namespace {
+
+std::size_t edit_distance(const std::string& a, const std::string& b) {
+  std::vector<std::size_t> row(b.size() + 1);
+  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
+  for (std::size_t i = 1; i <= a.size(); ++i) {
+    std::size_t diagonal = row[0];
+    row[0] = i;
+    for (std::size_t j = 1; j <= b.size(); ++j) {
+      const std::size_t above = row[j];
+      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] != b[j - 1])});
+      diagonal = above;
+    }
+  }
+  return row[b.size()];
+}
+
+std::string where(const std::string& file, const toml::node& node) {
+  return fmt::format("{}, line {}", file, node.source().begin.line);
+}
+
+void check_keys(const std::string& file, const toml::table& table,
+                const std::vector<std::string>& allowed) {
+  for (const auto& [key, node] : table) {
+    const std::string name(key.str());
+    if (std::find(allowed.begin(), allowed.end(), name) != allowed.end()) continue;
+    std::string nearest = allowed.front();
+    for (const auto& candidate : allowed) {
+      if (edit_distance(name, candidate) < edit_distance(name, nearest)) nearest = candidate;
+    }
+    throw InputError(where(file, node), fmt::format("unknown key '{}' (did you mean '{}'?)", name,
+                                                    nearest));
+  }
+}
+
+double number(const std::string& file, const toml::table& t, const char* key, double fallback) {
+  const toml::node* node = t.get(key);
+  if (!node) return fallback;
+  if (auto v = node->value<double>()) return *v;
+  throw InputError(where(file, *node), fmt::format("'{}' must be a number", key));
+}
+
+std::string text(const std::string& file, const toml::table& t, const char* key, bool required,
+                 const std::string& reference) {
+  const toml::node* node = t.get(key);
+  if (!node) {
+    if (required) {
+      throw InputError(file, fmt::format("reference '{}' needs '{}'", reference, key));
+    }
+    return "";
+  }
+  if (auto v = node->value<std::string>()) return *v;
+  throw InputError(where(file, *node), fmt::format("'{}' must be a string", key));
+}
+
+}  // namespace
+
+void ReferenceSet::add(ReferenceDefinition definition) {
+  const std::string name = definition.name;
+  definitions_[name] = std::move(definition);
+}
+
+const ReferenceDefinition* ReferenceSet::find(const std::string& name) const {
+  const auto it = definitions_.find(name);
+  return it == definitions_.end() ? nullptr : &it->second;
+}
+
+ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
+  const std::string file = path.string();
+  toml::table root;
+  try {
+    root = toml::parse_file(file);
+  } catch (const toml::parse_error& e) {
+    throw InputError(fmt::format("{}, line {}", file, e.source().begin.line),
+                     std::string(e.description()));
+  }
+  check_keys(file, root, {"references"});
+  const toml::table* references = root["references"].as_table();
+  if (!references) throw InputError(file, "expected a [references.NAME] table");
+  ReferenceSet set;
+  for (const auto& [key, node] : *references) {
+    const toml::table* t = node.as_table();
+    const std::string name(key.str());
+    if (!t) throw InputError(where(file, node), fmt::format("'{}' must be a table", name));
+    ReferenceDefinition d;
+    d.name = name;
+    d.file = file;
+    const std::string kind = text(file, *t, "kind", true, name);
+    d.source = text(file, *t, "source", false, name);
+    if (kind == "crs") {
+      check_keys(file, *t, {"kind", "definition", "source"});
+      d.kind = ReferenceDefinition::Kind::crs;
+      d.definition = text(file, *t, "definition", true, name);
+    } else if (kind == "offset") {
+      check_keys(file, *t, {"kind", "base", "offset", "slope_x", "slope_y", "x0", "y0", "crs",
+                            "sigma", "covariance", "hull", "source"});
+      d.kind = ReferenceDefinition::Kind::offset;
+      d.base = text(file, *t, "base", true, name);
+      OffsetRelation& r = d.relation;
+      if (!t->get("offset")) throw InputError(file, fmt::format("reference '{}' needs 'offset'", name));
+      r.offset = number(file, *t, "offset", 0.0);
+      r.slope_x = number(file, *t, "slope_x", 0.0);
+      r.slope_y = number(file, *t, "slope_y", 0.0);
+      r.x0 = number(file, *t, "x0", 0.0);
+      r.y0 = number(file, *t, "y0", 0.0);
+      r.crs = text(file, *t, "crs", false, name);
+      if (t->get("sigma")) r.sigma = number(file, *t, "sigma", 0.0);
+      if (const toml::array* c = (*t)["covariance"].as_array()) {
+        std::array<std::array<double, 3>, 3> m{};
+        if (c->size() != 3) throw InputError(where(file, *c), "covariance must be 3 x 3");
+        for (std::size_t i = 0; i < 3; ++i) {
+          const toml::array* row = (*c)[i].as_array();
+          if (!row || row->size() != 3) throw InputError(where(file, *c), "covariance must be 3 x 3");
+          for (std::size_t j = 0; j < 3; ++j) m[i][j] = (*row)[j].value<double>().value_or(NAN);
+        }
+        r.covariance = m;
+      }
+      if (const toml::array* h = (*t)["hull"].as_array()) {
+        for (const auto& vertex : *h) {
+          const toml::array* xy = vertex.as_array();
+          if (!xy || xy->size() != 2) throw InputError(where(file, vertex), "hull vertices are [x, y]");
+          r.hull.push_back({(*xy)[0].value<double>().value_or(NAN),
+                            (*xy)[1].value<double>().value_or(NAN)});
+        }
+      }
+    } else {
+      throw InputError(where(file, node),
+                       fmt::format("reference '{}': kind '{}' is not 'crs' or 'offset'", name, kind));
+    }
+    set.add(std::move(d));
+  }
+  return set;
+}
+
+std::string to_toml(const ReferenceDefinition& d) {
+  const OffsetRelation& r = d.relation;
+  std::string out = fmt::format("[references.{}]\nkind = \"offset\"\nbase = \"{}\"\n", d.name, d.base);
+  out += fmt::format("offset = {:.6f}\nslope_x = {:.9e}\nslope_y = {:.9e}\nx0 = {:.3f}\ny0 = {:.3f}\n",
+                     r.offset, r.slope_x, r.slope_y, r.x0, r.y0);
+  if (!r.crs.empty()) out += fmt::format("crs = \"{}\"\n", r.crs);
+  if (r.sigma) out += fmt::format("sigma = {:.6f}\n", *r.sigma);
+  if (r.covariance) {
+    out += "covariance = [\n";
+    for (const auto& row : *r.covariance) {
+      out += fmt::format("  [{:.9e}, {:.9e}, {:.9e}],\n", row[0], row[1], row[2]);
+    }
+    out += "]\n";
+  }
+  if (!r.hull.empty()) {
+    out += "hull = [";
+    for (std::size_t i = 0; i < r.hull.size(); ++i) {
+      out += fmt::format("{}[{:.3f}, {:.3f}]", i ? ", " : "", r.hull[i][0], r.hull[i][1]);
+    }
+    out += "]\n";
+  }
+  if (!d.source.empty()) out += fmt::format("source = \"{}\"\n", d.source);
+  return out;
+}
+
+}  // namespace levelhead

@@ -1,0 +1,156 @@
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <fstream>
+#include <random>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/height_converter.hpp"
+#include "levelhead/references_file.hpp"
+#include "levelhead/site_tie.hpp"
+#include "support/temp_folder.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::Contains;
+using Catch::Matchers::WithinAbs;
+
+namespace {
+
+ReferenceDefinition offset_reference(std::string name, std::string base, double offset) {
+  ReferenceDefinition d;
+  d.name = std::move(name);
+  d.kind = ReferenceDefinition::Kind::offset;
+  d.base = std::move(base);
+  d.relation.offset = offset;
+  d.relation.sigma = 0.004;
+  return d;
+}
+
+}  // namespace
+
+TEST_CASE("an offset with slopes shifts heights as written (hand computation)", "[references]") {
+  // H_base = H + offset + slope_x (x - x0) + slope_y (y - y0):
+  // 1.0 + 1e-5 * (1500 - 1000) + (-2e-5) * (1000 - 2000) = 1.0 + 0.005 + 0.02 = 1.025 m.
+  OffsetRelation r;
+  r.offset = 1.0;
+  r.slope_x = 1e-5;
+  r.slope_y = -2e-5;
+  r.x0 = 1000.0;
+  r.y0 = 2000.0;
+  CHECK_THAT(r.shift(1500.0, 1000.0), WithinAbs(1.025, 1e-12));
+  // Variance from the covariance of (offset, slope_x, slope_y): g' C g with
+  // g = (1, 500, -1000): 1e-6 + 500^2 * 1e-12 + 1000^2 * 1e-12 = 2.25e-6.
+  r.covariance = std::array<std::array<double, 3>, 3>{{{1e-6, 0, 0}, {0, 1e-12, 0}, {0, 0, 1e-12}}};
+  CHECK_THAT(*r.variance(1500.0, 1000.0), WithinAbs(2.25e-6, 1e-18));
+}
+
+TEST_CASE("named references chain without PROJ when they share a base", "[references]") {
+  ReferenceSet set;
+  set.add(offset_reference("site-1998", "EPSG:5703", 95.25));
+  set.add(offset_reference("site-2010", "site-1998", -0.012));
+  HeightConverter up("site-2010", "EPSG:5703", "EPSG:32613", set, ProjSettings{});
+  CHECK(up.proj() == nullptr);
+  const auto r = up.convert({{0.0, 0.0}}, {10.0});
+  REQUIRE(r[0].height);
+  CHECK_THAT(*r[0].height, WithinAbs(10.0 - 0.012 + 95.25, 1e-12));
+  CHECK_THAT(r[0].variance_added, WithinAbs(2 * 0.004 * 0.004, 1e-15));
+  // Between two site references only their own steps apply.
+  HeightConverter across("site-2010", "site-1998", "", set, ProjSettings{});
+  CHECK_THAT(*across.convert({{0.0, 0.0}}, {10.0})[0].height, WithinAbs(9.988, 1e-12));
+  HeightConverter down("EPSG:5703", "site-2010", "", set, ProjSettings{});
+  CHECK_THAT(*down.convert({{0.0, 0.0}}, {105.238})[0].height, WithinAbs(10.0, 1e-12));
+}
+
+TEST_CASE("a named reference over a PROJ CRS chains through PROJ", "[references][proj]") {
+  // Site heights 20 m below EGM96 heights; then EGM96 -> ellipsoidal by the geoid.
+  ReferenceSet set;
+  set.add(offset_reference("site", "EPSG:4326+5773", 20.0));
+  HeightConverter chained("site", "EPSG:4979", "EPSG:4326", set, ProjSettings{});
+  REQUIRE(chained.proj() != nullptr);
+  HeightConverter direct("EPSG:4326+5773", "EPSG:4979", "EPSG:4326", set, ProjSettings{});
+  const auto a = chained.convert({{10.0, 45.0}}, {80.0});
+  const auto b = direct.convert({{10.0, 45.0}}, {100.0});
+  REQUIRE(a[0].height);
+  CHECK_THAT(*a[0].height, WithinAbs(*b[0].height, 1e-9));
+  CHECK_THAT(a[0].transform, Contains("site -> EPSG:4326+5773") && Contains("EGM96"));
+}
+
+TEST_CASE("references files are parsed strictly", "[references][errors]") {
+  testing::TempFolder tmp;
+  const auto path = tmp.path() / "refs.toml";
+  std::ofstream(path) << "[references.old]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffset = 1.5\n"
+                         "sigma = 0.002\nhull = [[0, 0], [10, 0], [10, 10], [0, 10]]\n"
+                         "[references.egm]\nkind = \"crs\"\ndefinition = \"EPSG:4326+5773\"\n";
+  const ReferenceSet set = ReferenceSet::load(path);
+  REQUIRE(set.find("old"));
+  CHECK_THAT(set.find("old")->relation.offset, WithinAbs(1.5, 1e-15));
+  CHECK(set.find("old")->relation.inside_hull(5, 5));
+  CHECK_FALSE(set.find("old")->relation.inside_hull(15, 5));
+  CHECK(set.find("egm")->definition == "EPSG:4326+5773");
+
+  std::ofstream(path) << "[references.old]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffest = 1.5\n";
+  CHECK_THROWS_WITH(ReferenceSet::load(path), Contains("line 4") && Contains("did you mean 'offset'"));
+  std::ofstream(path) << "[references.old]\nkind = \"offset\"\noffset = 1.5\n";
+  CHECK_THROWS_WITH(ReferenceSet::load(path), Contains("needs 'base'"));
+  std::ofstream(path) << "[references.old\nkind = 1\n";
+  CHECK_THROWS_WITH(ReferenceSet::load(path), Contains("line 1"));
+  std::ofstream(path) << "[references.a]\nkind = \"offset\"\nbase = \"b\"\noffset = 1\n"
+                         "[references.b]\nkind = \"offset\"\nbase = \"a\"\noffset = 1\n";
+  CHECK_THROWS_WITH(HeightConverter("a", "EPSG:5703", "", ReferenceSet::load(path), ProjSettings{}),
+                    Contains("loop"));
+}
+
+TEST_CASE("points outside the hull of a tie are flagged as extrapolated", "[references]") {
+  ReferenceSet set;
+  ReferenceDefinition d = offset_reference("site", "EPSG:5703", 1.0);
+  d.relation.hull = {{0, 0}, {100, 0}, {100, 100}, {0, 100}};
+  set.add(d);
+  HeightConverter c("site", "EPSG:5703", "", set, ProjSettings{});
+  const auto r = c.convert({{50, 50}, {150, 50}}, {1.0, 1.0});
+  CHECK(r[0].flags.empty());
+  CHECK(r[1].flags == std::vector<std::string>{"outside-ties-hull(site)"});
+}
+
+TEST_CASE("a tie recovers a known offset and slope, and a bad tie stands out", "[references][tie]") {
+  // Invented ties: offset 95.25 m, slopes 20 and -10 mm/km, noise 1 mm, one tie 25 mm off.
+  std::mt19937_64 rng(11);
+  std::normal_distribution<double> noise(0.0, 0.001);
+  std::uniform_real_distribution<double> coordinate(0.0, 2000.0);
+  std::vector<TiePoint> ties;
+  for (int i = 0; i < 12; ++i) {
+    TiePoint t;
+    t.id = "T" + std::to_string(i);
+    t.x = coordinate(rng);
+    t.y = coordinate(rng);
+    t.site_height = 10.0 + i;
+    t.base_height = t.site_height + 95.25 + 2e-5 * (t.x - 1000.0) - 1e-5 * (t.y - 1000.0) + noise(rng);
+    t.site_sigma = t.base_sigma = 0.001 / std::sqrt(2.0);
+    ties.push_back(t);
+  }
+  TieOptions options;
+  options.model = TieModel::plane;
+  const TieResult clean = estimate_tie(ties, options);
+  const auto& cov = *clean.relation.covariance;
+  // Within 4 sigma of the truth (the centroid is not (1000, 1000), so compare the shift there).
+  CHECK_THAT(clean.relation.shift(1000.0, 1000.0), WithinAbs(95.25, 4 * 0.001));
+  CHECK_THAT(clean.relation.slope_x, WithinAbs(2e-5, 4 * std::sqrt(cov[1][1])));
+  CHECK_THAT(clean.relation.slope_y, WithinAbs(-1e-5, 4 * std::sqrt(cov[2][2])));
+  CHECK(clean.suspects.empty());
+  CHECK(clean.relation.hull.size() >= 3);
+
+  ties[4].base_height += 0.025;
+  const TieResult bad = estimate_tie(ties, options);
+  REQUIRE_FALSE(bad.suspects.empty());
+  CHECK(bad.suspects.front() == 4);
+}
+
+TEST_CASE("ties refuse too few points and collinear slopes", "[references][tie][errors]") {
+  std::vector<TiePoint> ties(2);
+  ties[1].x = 1.0;
+  CHECK_THROWS_WITH(estimate_tie(ties, TieOptions{}), Contains("only 2") && Contains("at least 3"));
+  std::vector<TiePoint> line(5);
+  for (int i = 0; i < 5; ++i) line[i].x = i * 100.0, line[i].base_height = 1.0 + 0.001 * i;
+  TieOptions plane;
+  plane.model = TieModel::plane;
+  CHECK_THROWS_WITH(estimate_tie(line, plane), Contains("on a line"));
+  CHECK_THROWS_AS(parse_tie_model("tilt"), OptionError);
+}
