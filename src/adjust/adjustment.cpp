@@ -8,6 +8,7 @@
 
 #include "adjust/normal_solver.hpp"
 #include "levelhead/statistics.hpp"
+#include "util/option_checks.hpp"
 
 namespace levelhead {
 
@@ -36,13 +37,9 @@ std::string to_string(ControlKind kind) {
 }
 
 void AdjustmentOptions::validate() const {
-  const auto positive = [](double value, const char* name, const char* unit) {
-    if (!(value > 0.0) || !std::isfinite(value)) {
-      throw OptionError(fmt::format("{} = {} {}: must be a finite number > 0", name, value, unit));
-    }
-  };
-  positive(mm_per_sqrt_km, "sigma per sqrt(km)", "mm");
-  positive(mm_per_setup, "sigma per setup", "mm");
+  using util::require_positive;
+  require_positive(mm_per_sqrt_km, "sigma per sqrt(km)", "mm");
+  require_positive(mm_per_setup, "sigma per setup", "mm");
   const auto probability = [](double value, const char* name, double low, double high) {
     if (!(value > low && value < high)) {
       throw OptionError(
@@ -52,7 +49,7 @@ void AdjustmentOptions::validate() const {
   probability(alpha, "alpha (global test)", 0.0, 0.5);
   probability(alpha0, "alpha0 (data snooping)", 0.0, 0.5);
   probability(beta0, "beta0 (power)", 0.5, 1.0);
-  positive(max_factor_nonzeros, "max factor nonzeros", "");
+  require_positive(max_factor_nonzeros, "max factor nonzeros", "");
 }
 
 namespace {

@@ -8,6 +8,7 @@
 #include <set>
 
 #include "levelhead/errors.hpp"
+#include "util/option_checks.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -82,17 +83,13 @@ FieldBook read_field_book(const Table& table) {
 }
 
 void FieldBookOptions::validate() const {
-  const auto positive = [](double value, const char* name, const char* unit) {
-    if (!(value > 0.0) || !std::isfinite(value)) {
-      throw OptionError(fmt::format("{} = {} {}: must be a finite number > 0", name, value, unit));
-    }
-  };
-  positive(max_sight_length, "maximum sight length", "m");
-  positive(max_setup_imbalance, "maximum setup imbalance", "m");
-  positive(max_section_imbalance, "maximum section imbalance", "m");
-  positive(double_reading_tolerance, "double-reading tolerance", "m");
-  positive(rod_length, "rod length", "m");
-  positive(section_tolerance_mm_per_sqrt_km, "section tolerance", "mm/sqrt(km)");
+  using util::require_positive;
+  require_positive(max_sight_length, "maximum sight length", "m");
+  require_positive(max_setup_imbalance, "maximum setup imbalance", "m");
+  require_positive(max_section_imbalance, "maximum section imbalance", "m");
+  require_positive(double_reading_tolerance, "double-reading tolerance", "m");
+  require_positive(rod_length, "rod length", "m");
+  require_positive(section_tolerance_mm_per_sqrt_km, "section tolerance", "mm/sqrt(km)");
   if (!(min_reading >= 0.0) || min_reading >= rod_length) {
     throw OptionError(fmt::format("minimum rod reading = {} m: must be >= 0 and below the rod "
                                   "length ({} m)",

@@ -8,6 +8,7 @@
 #include <queue>
 
 #include "levelhead/errors.hpp"
+#include "util/option_checks.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -38,10 +39,7 @@ const ToleranceClass& find_tolerance_class(std::string_view name) {
 }
 
 void LoopOptions::validate() const {
-  if (!(mm_per_sqrt_km > 0.0) || !std::isfinite(mm_per_sqrt_km)) {
-    throw OptionError(fmt::format("loop tolerance = {} mm/sqrt(km): must be a finite number > 0",
-                                  mm_per_sqrt_km));
-  }
+  util::require_positive(mm_per_sqrt_km, "loop tolerance", "mm/sqrt(km)");
 }
 
 namespace {

@@ -63,14 +63,17 @@ void write_csv(const testing::SyntheticNetwork& net, const std::filesystem::path
   }
 }
 
+testing::SyntheticNetwork make_shape(const std::string& shape, std::size_t n) {
+  return shape == "mesh" ? testing::mesh_network(n, 42) : testing::national_network(n, 20, 42);
+}
+
 int run_case(const std::string& shape, std::size_t n) {
   const std::filesystem::path folder =
       std::filesystem::temp_directory_path() / fmt::format("levelhead-bench-{}-{}", shape, n);
   std::filesystem::create_directories(folder);
   std::size_t n_points = 0, n_sections = 0;
   {  // generated and written, then freed: the timed part starts from files only
-    const testing::SyntheticNetwork synthetic =
-        shape == "mesh" ? testing::mesh_network(n, 42) : testing::national_network(n, 20, 42);
+    const testing::SyntheticNetwork synthetic = make_shape(shape, n);
     write_csv(synthetic, folder);
     n_points = synthetic.points.size();
     n_sections = synthetic.sections.size();
@@ -132,9 +135,7 @@ int run_solver_comparison() {
              "ratio");
   for (const auto& [shape, n] : {std::pair{"national", 100000}, std::pair{"national", 1000000},
                                  std::pair{"mesh", 100000}, std::pair{"mesh", 1000000}}) {
-    testing::SyntheticNetwork synthetic = std::string(shape) == "mesh"
-                                              ? testing::mesh_network(n, 42)
-                                              : testing::national_network(n, 20, 42);
+    testing::SyntheticNetwork synthetic = make_shape(shape, n);
     const Network net = make_network(std::move(synthetic.points), std::move(synthetic.sections));
     const NormalEquations normal = assemble(net);
     const auto m = static_cast<int>(normal.rhs.size());
@@ -165,9 +166,7 @@ int run_loop_timing() {
              "adjust s", "ratio", "MB");
   for (const auto& [shape, n] : {std::pair{"national", 100000}, std::pair{"national", 1000000},
                                  std::pair{"mesh", 100000}, std::pair{"mesh", 1000000}}) {
-    testing::SyntheticNetwork synthetic = std::string(shape) == "mesh"
-                                              ? testing::mesh_network(n, 42)
-                                              : testing::national_network(n, 20, 42);
+    testing::SyntheticNetwork synthetic = make_shape(shape, n);
     const Network net = make_network(std::move(synthetic.points), std::move(synthetic.sections));
     auto start = Clock::now();
     const LoopResult loops = find_loops(net, LoopOptions{});
