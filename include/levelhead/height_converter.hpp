@@ -49,13 +49,16 @@ class HeightConverter {
   const VerticalTransformer* proj() const { return proj_.get(); }
   // Descriptions of the named steps, in order.
   const std::vector<std::string>& step_descriptions() const { return descriptions_; }
+  // Grid files of grid references used, with checksums.
+  std::vector<GridUse> grids() const;
   // Metres per unit of the source reference's heights (1 for our references).
   double source_metres_per_unit() const;
 
  private:
   struct Step {
-    const ReferenceDefinition* definition;
-    int direction;  // +1: to its base, -1: from its base
+    ReferenceDefinition definition;     // a copy: the converter outlives the set it came from
+    int direction;                      // +1: to its base, -1: from its base
+    std::shared_ptr<GridShift> grid;    // for grid references
   };
   std::string from_, to_;
   std::vector<Step> steps_before_, steps_after_;  // around the PROJ step

@@ -19,9 +19,19 @@
 //   kind = "crs"
 //   definition = "EPSG:4326+5773"
 //
+//   [references.site-geoid]
+//   kind = "grid"                   # a geoid or offset grid over a base
+//   base = "EPSG:4979"
+//   grid = "grids/site_geoid.tif"   # GTX, GeoTIFF or any raster GDAL reads;
+//                                   # geographic lon/lat; relative to this file
+//   sigma = 0.02                    # m, of the grid values (optional)
+//
 // Sign convention of an offset reference (heights H of this reference):
 //   H_base = H + offset + slope_x (x - x0) + slope_y (y - y0)
 // i.e. `offset` is the height, in the base reference, of this reference's zero.
+// A grid reference holds, at each node, the height of this reference's
+// surface above the base's: H_base = H + G(lon, lat) (for a geoid over an
+// ellipsoid, h = H + N). Bilinear between nodes at pixel centres (PROJ).
 // Errors: InputError naming the file, line and key; unknown keys are errors
 // with the nearest valid key suggested.
 
@@ -50,9 +60,10 @@ struct OffsetRelation {
 
 struct ReferenceDefinition {
   std::string name;
-  enum class Kind { crs, offset } kind = Kind::crs;
+  enum class Kind { crs, offset, grid } kind = Kind::crs;
   std::string definition;  // kind crs: the PROJ CRS
-  std::string base;        // kind offset
+  std::string base;        // kinds offset and grid
+  std::filesystem::path grid;  // kind grid: absolute path of the grid file
   OffsetRelation relation;
   std::string source;
   std::string file;

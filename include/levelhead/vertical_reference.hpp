@@ -91,6 +91,28 @@ class VerticalTransformer {
   std::unique_ptr<Impl> impl_;
 };
 
+// Values of a grid of our own (geoid or offset grid) at points, through
+// PROJ's vgridshift (bilinear, nodes at pixel centres). A raster PROJ cannot
+// read (anything but GTX and GeoTIFF) is first converted to GeoTIFF with
+// GDAL. The grid must be in geographic longitude and latitude; the points'
+// x, y are brought to longitude and latitude (WGS 84) for the lookup.
+class GridShift {
+ public:
+  GridShift(const std::filesystem::path& grid, const std::string& points_crs,
+            const ProjSettings& settings);
+  ~GridShift();
+  GridShift(const GridShift&) = delete;
+  GridShift& operator=(const GridShift&) = delete;
+
+  // The grid's value (m) at each point; nullopt outside the grid or on nodata.
+  std::vector<std::optional<double>> values(const std::vector<PlanePoint>& points);
+  const GridUse& grid() const;
+
+ private:
+  struct Impl;
+  std::unique_ptr<Impl> impl_;
+};
+
 // PROJ and its database, for provenance: "PROJ 9.1.1, EPSG v10.076".
 std::string proj_version_text();
 

@@ -126,6 +126,11 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     summary["proj_to"] = info(proj->target());
   }
   summary["reference_steps"] = converter.step_descriptions();
+  nlohmann::json grids = nlohmann::json::array();
+  for (const GridUse& g : converter.grids()) {
+    grids.push_back({{"name", g.name}, {"path", g.path}, {"sha256", g.sha256}});
+  }
+  summary["reference_grids"] = grids;
   summary["counts"] = {{"points_with_height", counts.points},
                        {"converted", counts.converted},
                        {"failed", counts.failed}};

@@ -38,6 +38,11 @@ Chain follow(const std::string& name, const ReferenceSet& references) {
 
 std::string describe(const ReferenceDefinition& d, int direction) {
   const OffsetRelation& r = d.relation;
+  if (d.kind == ReferenceDefinition::Kind::grid) {
+    return fmt::format("{} -> {}: grid {}{}", direction > 0 ? d.name : d.base,
+                       direction > 0 ? d.base : d.name, d.grid.filename().string(),
+                       d.source.empty() ? "" : " (" + d.source + ")");
+  }
   const bool sloped = std::abs(r.slope_x) > 0.0 || std::abs(r.slope_y) > 0.0;
   return fmt::format("{} {} {}: offset {:.4f} m{}{}", direction > 0 ? d.name : d.base,
                      "->", direction > 0 ? d.base : d.name, r.offset,
@@ -58,26 +63,45 @@ HeightConverter::HeightConverter(const std::string& from, const std::string& to,
     a.steps.pop_back();
     b.steps.pop_back();
   }
-  for (const ReferenceDefinition* d : a.steps) steps_before_.push_back({d, +1});
-  for (auto it = b.steps.rbegin(); it != b.steps.rend(); ++it) steps_after_.push_back({*it, -1});
+  const auto make_step = [&](const ReferenceDefinition* d, int direction) {
+    Step step{*d, direction, nullptr};
+    if (d->kind == ReferenceDefinition::Kind::grid) {
+      step.grid = std::make_shared<GridShift>(d->grid, horizontal_crs, settings);
+    }
+    return step;
+  };
+  for (const ReferenceDefinition* d : a.steps) steps_before_.push_back(make_step(d, +1));
+  for (auto it = b.steps.rbegin(); it != b.steps.rend(); ++it) {
+    steps_after_.push_back(make_step(*it, -1));
+  }
   for (const std::vector<Step>* steps : {&steps_before_, &steps_after_}) {
     for (const Step& s : *steps) {
-      const std::string& crs = s.definition->relation.crs;
+      const std::string& crs = s.definition.relation.crs;
       if (!crs.empty() && !horizontal_crs.empty() && crs != horizontal_crs) {
         throw ReferenceError(fmt::format("reference '{}' ({}) is defined with x, y in {}; give the "
                                          "points in that CRS (--crs {})",
-                                         s.definition->name, s.definition->file, crs, crs));
+                                         s.definition.name, s.definition.file, crs, crs));
       }
     }
   }
-  for (const Step& s : steps_before_) descriptions_.push_back(describe(*s.definition, +1));
+  for (const Step& s : steps_before_) descriptions_.push_back(describe(s.definition, +1));
   if (a.root != b.root) {
     proj_ = std::make_unique<VerticalTransformer>(a.root, b.root, horizontal_crs, settings, epoch);
   }
-  for (const Step& s : steps_after_) descriptions_.push_back(describe(*s.definition, -1));
+  for (const Step& s : steps_after_) descriptions_.push_back(describe(s.definition, -1));
 }
 
 HeightConverter::~HeightConverter() = default;
+
+std::vector<GridUse> HeightConverter::grids() const {
+  std::vector<GridUse> out;
+  for (const std::vector<Step>* steps : {&steps_before_, &steps_after_}) {
+    for (const Step& s : *steps) {
+      if (s.grid) out.push_back(s.grid->grid());
+    }
+  }
+  return out;
+}
 
 double HeightConverter::source_metres_per_unit() const {
   return steps_before_.empty() && proj_ ? proj_->source().metres_per_unit : 1.0;
@@ -89,10 +113,23 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
   std::vector<double> current(heights);
   const auto apply = [&](const std::vector<Step>& steps) {
     for (const Step& s : steps) {
-      const OffsetRelation& r = s.definition->relation;
+      const OffsetRelation& r = s.definition.relation;
+      std::vector<std::optional<double>> grid_values;
+      if (s.grid) grid_values = s.grid->values(points);
       for (std::size_t i = 0; i < points.size(); ++i) {
         ConvertedHeight& c = out[i];
-        current[i] += s.direction * r.shift(points[i].x, points[i].y);
+        if (s.grid) {
+          if (!grid_values[i]) {
+            if (c.failure.empty()) {
+              c.failure = fmt::format("outside grid {} of reference '{}' (or on a nodata node)",
+                                      s.grid->grid().name, s.definition.name);
+            }
+            continue;
+          }
+          current[i] += s.direction * *grid_values[i];
+        } else {
+          current[i] += s.direction * r.shift(points[i].x, points[i].y);
+        }
         const auto variance = r.variance(points[i].x, points[i].y);
         if (variance) {
           c.variance_added += *variance;
@@ -100,7 +137,7 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
           c.variance_complete = false;
         }
         if (!r.inside_hull(points[i].x, points[i].y)) {
-          c.flags.push_back(fmt::format("outside-ties-hull({})", s.definition->name));
+          c.flags.push_back(fmt::format("outside-ties-hull({})", s.definition.name));
         }
       }
     }
@@ -111,7 +148,7 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
   for (std::size_t i = 0; i < points.size(); ++i) {
     if (!proj_) continue;
     if (!proj_results[i].height) {
-      out[i].failure = proj_results[i].failure;
+      if (out[i].failure.empty()) out[i].failure = proj_results[i].failure;
       continue;
     }
     current[i] = *proj_results[i].height;

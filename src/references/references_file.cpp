@@ -167,9 +167,18 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
                             (*xy)[1].value<double>().value_or(NAN)});
         }
       }
+    } else if (kind == "grid") {
+      check_keys(file, *t, {"kind", "base", "grid", "sigma", "source"});
+      d.kind = ReferenceDefinition::Kind::grid;
+      d.base = text(file, *t, "base", true, name);
+      std::filesystem::path grid = text(file, *t, "grid", true, name);
+      if (grid.is_relative()) grid = path.parent_path() / grid;
+      d.grid = std::filesystem::absolute(grid).lexically_normal();
+      if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
     } else {
-      throw InputError(where(file, node),
-                       fmt::format("reference '{}': kind '{}' is not 'crs' or 'offset'", name, kind));
+      throw InputError(where(file, node), fmt::format("reference '{}': kind '{}' is not 'crs', "
+                                                      "'offset' or 'grid'",
+                                                      name, kind));
     }
     set.add(std::move(d));
   }

@@ -1,6 +1,10 @@
 #include "levelhead/vertical_reference.hpp"
 
+#include <gdal.h>
+#include <gdal_utils.h>
+#include <cpl_error.h>
 #include <openssl/evp.h>
+#include <unistd.h>
 #include <proj.h>
 #include <proj_experimental.h>
 
@@ -409,6 +413,110 @@ std::string file_sha256(const std::filesystem::path& path) {
   std::string hex;
   for (unsigned int i = 0; i < length; ++i) hex += fmt::format("{:02x}", digest[i]);
   return hex;
+}
+
+}  // namespace levelhead
+
+namespace levelhead {
+
+struct GridShift::Impl {
+  ContextPtr ctx{proj_context_create()};
+  PjPtr to_lonlat, pipeline;
+  GridUse grid;
+  std::filesystem::path converted;  // GeoTIFF made from a raster PROJ cannot read
+  ~Impl() {
+    if (!converted.empty()) {
+      std::error_code ignored;
+      std::filesystem::remove(converted, ignored);
+    }
+  }
+};
+
+namespace {
+
+// PROJ reads GTX and GeoTIFF grids; other rasters are translated by GDAL.
+std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
+                                       std::filesystem::path& converted) {
+  std::string extension = grid.extension().string();
+  std::transform(extension.begin(), extension.end(), extension.begin(), ::tolower);
+  if (extension == ".gtx" || extension == ".tif" || extension == ".tiff") return grid;
+  GDALAllRegister();
+  GDALDatasetH source = GDALOpen(grid.string().c_str(), GA_ReadOnly);
+  if (!source) {
+    throw ReferenceError(fmt::format("grid '{}' cannot be read by GDAL: {}", grid.string(),
+                                     CPLGetLastErrorMsg()));
+  }
+  converted = std::filesystem::temp_directory_path() /
+              fmt::format("levelhead-grid-{}-{}.tif", getpid(), grid.stem().string());
+  const char* args[] = {"-of", "GTiff", "-ot", "Float32", nullptr};
+  GDALTranslateOptions* options = GDALTranslateOptionsNew(const_cast<char**>(args), nullptr);
+  GDALDatasetH out = GDALTranslate(converted.string().c_str(), source, options, nullptr);
+  GDALTranslateOptionsFree(options);
+  GDALClose(source);
+  if (!out) {
+    throw ReferenceError(fmt::format("grid '{}' could not be converted to GeoTIFF for PROJ: {}",
+                                     grid.string(), CPLGetLastErrorMsg()));
+  }
+  GDALClose(out);
+  return converted;
+}
+
+}  // namespace
+
+GridShift::GridShift(const std::filesystem::path& grid, const std::string& points_crs,
+                     const ProjSettings& settings)
+    : impl_(std::make_unique<Impl>()) {
+  PJ_CONTEXT* ctx = impl_->ctx.get();
+  proj_log_level(ctx, PJ_LOG_NONE);
+  proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
+  if (!std::filesystem::is_regular_file(grid)) {
+    throw ReferenceError(fmt::format("grid file '{}' does not exist", grid.string()));
+  }
+  if (points_crs.empty()) {
+    throw ReferenceError(fmt::format("grid '{}' is looked up by position: give the CRS of the "
+                                     "points' x and y (--crs)",
+                                     grid.string()));
+  }
+  impl_->grid = GridUse{grid.filename().string(), grid.string(), file_sha256(grid)};
+  const std::filesystem::path readable = readable_by_proj(grid, impl_->converted);
+  PjPtr from(proj_create(ctx, points_crs.c_str()));
+  PjPtr wgs84(proj_create(ctx, "EPSG:4326"));
+  if (!from) throw ReferenceError(fmt::format("unknown CRS '{}'", points_crs));
+  PjPtr raw(proj_create_crs_to_crs_from_pj(ctx, from.get(), wgs84.get(), nullptr, nullptr));
+  if (!raw) throw ReferenceError(fmt::format("cannot bring '{}' to longitude and latitude", points_crs));
+  impl_->to_lonlat.reset(proj_normalize_for_visualization(ctx, raw.get()));
+  // The grid name is absolute and carries no '@', so a missing or unreadable
+  // grid fails here instead of being skipped; the multiplier is written out
+  // (PROJ's default is -1).
+  const std::string pipeline = fmt::format(
+      "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
+      "+step +proj=vgridshift +grids={} +multiplier=1 "
+      "+step +proj=unitconvert +xy_in=rad +xy_out=deg",
+      readable.string());
+  impl_->pipeline.reset(proj_create(ctx, pipeline.c_str()));
+  if (!impl_->pipeline) {
+    throw ReferenceError(fmt::format("PROJ cannot use grid '{}' ({}); it must be a geographic "
+                                     "(longitude, latitude) height grid",
+                                     grid.string(), proj_message(ctx)));
+  }
+}
+
+GridShift::~GridShift() = default;
+
+const GridUse& GridShift::grid() const { return impl_->grid; }
+
+std::vector<std::optional<double>> GridShift::values(const std::vector<PlanePoint>& points) {
+  std::vector<std::optional<double>> out(points.size());
+  for (std::size_t i = 0; i < points.size(); ++i) {
+    const PJ_COORD ll = proj_trans(impl_->to_lonlat.get(), PJ_FWD,
+                                   proj_coord(points[i].x, points[i].y, 0.0, HUGE_VAL));
+    if (!std::isfinite(ll.xy.x)) continue;
+    proj_errno_reset(impl_->pipeline.get());
+    const PJ_COORD r =
+        proj_trans(impl_->pipeline.get(), PJ_FWD, proj_coord(ll.xy.x, ll.xy.y, 0.0, HUGE_VAL));
+    if (r.xyz.z != HUGE_VAL && std::isfinite(r.xyz.z)) out[i] = r.xyz.z;
+  }
+  return out;
 }
 
 }  // namespace levelhead
