@@ -22,6 +22,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       {"adjust", add_adjust_command(app)},
       {"convert", add_convert_command(app)},
       {"tie", add_tie_command(app)},
+      {"gnss-check", add_gnss_check_command(app)},
       {"demo", add_demo_command(app)},
   };
 

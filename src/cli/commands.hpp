@@ -16,5 +16,6 @@ CommandRunner add_loops_command(CLI::App& app);
 CommandRunner add_reduce_command(CLI::App& app);
 CommandRunner add_convert_command(CLI::App& app);
 CommandRunner add_tie_command(CLI::App& app);
+CommandRunner add_gnss_check_command(CLI::App& app);
 
 }  // namespace levelhead::cli

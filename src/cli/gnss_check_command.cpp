@@ -1,0 +1,147 @@
+// `levelhead gnss-check`: levelled against GNSS heights at common marks.
+
+#include <cmath>
+#include <fmt/format.h>
+#include <map>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <unordered_map>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "levelhead/errors.hpp"
+#include "levelhead/gnss_check.hpp"
+#include "levelhead/height_converter.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/table.hpp"
+#include "levelhead/version.hpp"
+
+namespace levelhead::cli {
+
+namespace {
+struct GnssArguments {
+  std::string levelled, levelled_ref, gnss, gnss_ref = "EPSG:4979", crs, out, references, unit = "m";
+  std::vector<std::string> grid_paths;
+  double tolerance = 0.05;
+  bool strict = false, quiet = false;
+};
+}  // namespace
+
+CommandRunner add_gnss_check_command(CLI::App& app) {
+  auto a = std::make_shared<GnssArguments>();
+  CLI::App* c = app.add_subcommand("gnss-check", "Compare levelled and GNSS heights at common marks "
+                                                 "and name the classic geoid mistakes");
+  c->add_option("--levelled", a->levelled, "Levelled heights (id, height, sigma)")->required();
+  c->add_option("--levelled-ref", a->levelled_ref, "Reference of the levelled heights")->required();
+  c->add_option("--gnss", a->gnss, "GNSS heights (id, x, y, height, sigma)")->required();
+  c->add_option("--gnss-ref", a->gnss_ref, "Reference the GNSS heights are labelled in")
+      ->capture_default_str();
+  c->add_option("--crs", a->crs, "CRS of the GNSS table's x and y")->required();
+  c->add_option("--out", a->out, "Output folder")->required();
+  c->add_option("--references", a->references, "References file (TOML)");
+  c->add_option("--grid-path", a->grid_paths, "Folder searched for grids before PROJ_DATA");
+  c->add_option("--unit", a->unit, "Length unit of both tables")->capture_default_str();
+  c->add_option("--tolerance", a->tolerance,
+                "Largest difference accepted as consistent (m); 3 sigma is used when larger")
+      ->capture_default_str();
+  c->add_flag("--strict", a->strict, "Exit with status 3 when a mark is not consistent");
+  c->add_flag("--quiet", a->quiet, "Print nothing on success");
+  return [a](std::ostream& out, std::ostream&) {
+    const LengthUnit unit = parse_length_unit(a->unit);
+    const Table levelled = read_table(a->levelled, TableOptions{{}, unit, {}});
+    const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}});
+    const std::size_t lid = levelled.require_column("id"), lh = levelled.require_column("height");
+    const auto ls = levelled.find_column("sigma");
+    const std::size_t gid = gnss.require_column("id"), gh = gnss.require_column("height");
+    const std::size_t gx = gnss.require_column("x"), gy = gnss.require_column("y");
+    const auto gs = gnss.find_column("sigma");
+    std::unordered_map<std::string, std::size_t> levelled_rows;
+    for (std::size_t r = 0; r < levelled.row_count(); ++r) {
+      if (levelled.length(r, lh)) levelled_rows.emplace(std::string(levelled.cell(r, lid)), r);
+    }
+    std::vector<GnssMark> marks;
+    std::vector<PlanePoint> points;
+    std::vector<double> heights, level_sigma, gnss_sigma;
+    for (std::size_t r = 0; r < gnss.row_count(); ++r) {
+      const auto it = levelled_rows.find(std::string(gnss.cell(r, gid)));
+      const auto h = gnss.length(r, gh);
+      if (it == levelled_rows.end() || !h) continue;
+      const auto x = gnss.number(r, gx), y = gnss.number(r, gy);
+      if (!x || !y) throw InputError(gnss.location(r, x ? gy : gx), "", "a GNSS mark needs x and y");
+      GnssMark m;
+      m.id = std::string(gnss.cell(r, gid));
+      m.levelled = *levelled.length(it->second, lh);
+      m.gnss = *h;
+      marks.push_back(m);
+      points.push_back({*x, *y});
+      heights.push_back(*h);
+      level_sigma.push_back(ls ? levelled.length(it->second, *ls).value_or(0.0) : 0.0);
+      gnss_sigma.push_back(gs ? gnss.length(r, *gs).value_or(0.0) : 0.0);
+    }
+    if (marks.empty()) {
+      throw InputError(a->gnss, fmt::format("no mark has a height in both {} and {}; the ids must "
+                                            "match",
+                                            a->gnss, a->levelled));
+    }
+    ProjSettings settings;
+    for (const auto& p : a->grid_paths) settings.grid_paths.emplace_back(p);
+    const ReferenceSet references =
+        a->references.empty() ? ReferenceSet{} : ReferenceSet::load(a->references);
+    HeightConverter converter(a->gnss_ref, a->levelled_ref, a->crs, references, settings);
+    const std::vector<ConvertedHeight> converted = converter.convert(points, heights);
+    for (std::size_t i = 0; i < marks.size(); ++i) {
+      if (!converted[i].height) {
+        throw ReferenceError(fmt::format("mark '{}': {}", marks[i].id, converted[i].failure));
+      }
+      marks[i].gnss_converted = *converted[i].height;
+      marks[i].sigma = std::sqrt(level_sigma[i] * level_sigma[i] + gnss_sigma[i] * gnss_sigma[i] +
+                                 converted[i].variance_added);
+    }
+    const GnssCheckResult result = check_gnss_marks(marks, a->tolerance);
+
+    OutputSet files(a->out);
+    std::ostream& csv = files.open("gnss_check.csv");
+    csv << "id,levelled,gnss,gnss_converted,separation,difference,sigma,verdict,transform\n";
+    std::map<std::string, std::size_t> counts;
+    for (std::size_t i = 0; i < marks.size(); ++i) {
+      const GnssCheck& ch = result.marks[i];
+      ++counts[to_string(ch.verdict)];
+      csv << csv_cell(marks[i].id)
+          << fmt::format(",{:.4f},{:.4f},{:.4f},{:.4f},{:.4f},{:.4f},", marks[i].levelled,
+                         marks[i].gnss, marks[i].gnss_converted, ch.separation, ch.difference,
+                         marks[i].sigma)
+          << to_string(ch.verdict) << ',' << csv_cell(converted[i].transform) << '\n';
+    }
+    nlohmann::json summary;
+    summary["levelhead_version"] = version_string();
+    summary["command"] = "gnss-check";
+    summary["units"] = "m";
+    summary["levelled_reference"] = a->levelled_ref;
+    summary["gnss_reference"] = a->gnss_ref;
+    summary["tolerance"] = a->tolerance;
+    summary["marks"] = marks.size();
+    summary["verdicts"] = counts;
+    summary["common_offset"] =
+        result.common_offset ? nlohmann::json(*result.common_offset) : nlohmann::json(nullptr);
+    files.open("summary.json") << summary.dump(2) << '\n';
+    files.commit();
+    if (!a->quiet) {
+      out << fmt::format("{} mark(s) with levelled and GNSS heights\n", marks.size());
+      for (std::size_t i = 0; i < marks.size(); ++i) {
+        const GnssCheck& ch = result.marks[i];
+        if (ch.verdict == GnssVerdict::consistent) continue;
+        out << fmt::format("  {}: levelled - GNSS = {:+.3f} m (N = {:.3f} m): {}\n", marks[i].id,
+                           ch.difference, ch.separation, explain(ch.verdict));
+      }
+      if (result.common_offset) {
+        out << fmt::format("Most marks share an offset of {:+.3f} m\n", *result.common_offset);
+      }
+      out << fmt::format("{} consistent. Wrote gnss_check.csv and summary.json in {}\n",
+                         counts["consistent"], a->out);
+    }
+    const bool all_consistent = counts["consistent"] == marks.size();
+    return a->strict && !all_consistent ? exit_checks_failed : exit_ok;
+  };
+}
+
+}  // namespace levelhead::cli
