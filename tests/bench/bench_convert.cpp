@@ -1,0 +1,77 @@
+// Benchmark of height conversion: 1e6 points through the EGM96 geoid grid
+// (EPSG:4979 -> EPSG:4326+5773), levelhead's VerticalTransformer against
+// PROJ's own `cct` running the same operation on the same points, in the
+// same run. Prints both times, the ratio, and the largest difference.
+//
+// usage: bench_convert [N]   (default 1000000)
+
+#include <chrono>
+#include <cmath>
+#include <cstdio>
+#include <cstdlib>
+#include <filesystem>
+#include <fmt/format.h>
+#include <fstream>
+#include <random>
+#include <sstream>
+
+#include "levelhead/vertical_reference.hpp"
+
+using namespace levelhead;
+using Clock = std::chrono::steady_clock;
+
+int main(int argc, char** argv) {
+  const std::size_t n = argc > 1 ? std::stoul(argv[1]) : 1000000;
+  std::mt19937_64 rng(7);
+  std::uniform_real_distribution<double> lon(-180.0, 180.0), lat(-80.0, 80.0), h(-50.0, 3000.0);
+  std::vector<PlanePoint> points(n);
+  std::vector<double> heights(n);
+  for (std::size_t i = 0; i < n; ++i) {
+    points[i] = {lon(rng), lat(rng)};
+    heights[i] = h(rng);
+  }
+
+  auto start = Clock::now();
+  VerticalTransformer t("EPSG:4979", "EPSG:4326+5773", "EPSG:4326", ProjSettings{});
+  const double setup = std::chrono::duration<double>(Clock::now() - start).count();
+  start = Clock::now();
+  const auto results = t.convert(points, heights);
+  const double ours = std::chrono::duration<double>(Clock::now() - start).count();
+
+  // The same operation for cct (it takes latitude, longitude in EPSG order).
+  const std::string pipeline = t.operations().front().pipeline;
+  const auto folder = std::filesystem::temp_directory_path() / "levelhead-bench-convert";
+  std::filesystem::create_directories(folder);
+  {
+    std::ofstream in(folder / "in.txt");
+    for (std::size_t i = 0; i < n; ++i) {
+      in << fmt::format("{:.9f} {:.9f} {:.9f}\n", points[i].y, points[i].x, heights[i]);
+    }
+  }
+  start = Clock::now();
+  const std::string command = fmt::format("cct -d 6 {} '{}' > '{}'", pipeline,
+                                          (folder / "in.txt").string(),
+                                          (folder / "out.txt").string());
+  const int status = std::system(command.c_str());
+  const double cct = std::chrono::duration<double>(Clock::now() - start).count();
+  if (status != 0) {
+    fmt::print("cct failed ({}); is proj-bin installed?\n", status);
+    return 1;
+  }
+  std::ifstream out(folder / "out.txt");
+  double worst = 0.0;
+  std::string line;
+  for (std::size_t i = 0; i < n && std::getline(out, line); ++i) {
+    std::istringstream fields(line);
+    double a, b, z;
+    fields >> a >> b >> z;
+    if (results[i].height) worst = std::max(worst, std::abs(z - *results[i].height));
+  }
+  std::filesystem::remove_all(folder);
+  fmt::print("{} points through {}\n", n, t.operations().front().name);
+  fmt::print("levelhead: {:.3f} s ({:.2f} M points/s; setup {:.3f} s)\n", ours, n / ours / 1e6, setup);
+  fmt::print("cct:       {:.3f} s ({:.2f} M points/s, text in and out)\n", cct, n / cct / 1e6);
+  fmt::print("cct / levelhead time = {:.2f}; largest difference {:.1e} m (cct prints 6 decimals)\n",
+             cct / ours, worst);
+  return 0;
+}
