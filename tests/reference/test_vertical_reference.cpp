@@ -91,3 +91,18 @@ TEST_CASE("heights of a US survey foot reference are handled in metres", "[proj]
   REQUIRE(r[0].height);
   CHECK_THAT(*r[0].height, WithinAbs(304.8006096, 1e-6));
 }
+
+TEST_CASE("a dynamic reference needs an epoch", "[proj][errors]") {
+  // ITRF2014 (EPSG:7912) is a dynamic geodetic reference frame in the EPSG
+  // dataset: coordinates in it move with the plates, so an epoch is required.
+  CHECK_THROWS_WITH(VerticalTransformer("EPSG:7912", "EPSG:4326+5773", "EPSG:4326", ProjSettings{}),
+                    Contains("dynamic") && Contains("--epoch"));
+  VerticalTransformer t("EPSG:7912", "EPSG:4326+5773", "EPSG:4326", ProjSettings{}, 2026.9);
+  CHECK(t.source().dynamic);
+  // Between ITRF2014 and the WGS 84 ensemble EPSG has no operation but a
+  // ballpark outside North America (the only other path runs through NAD83):
+  // in Europe the point is refused rather than shifted by nothing.
+  const auto r = t.convert({{10.0, 45.0}}, {100.0});
+  CHECK_FALSE(r[0].height);
+  CHECK_THAT(r[0].failure, Contains("no usable operation"));
+}
