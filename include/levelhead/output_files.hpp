@@ -9,6 +9,7 @@
 #include <fstream>
 #include <map>
 #include <string>
+#include <vector>
 
 namespace levelhead {
 
@@ -22,6 +23,9 @@ class OutputSet {
 
   // A stream to the temporary file behind `name` (a plain file name).
   std::ostream& open(const std::string& name);
+  // A temporary path for a file written by another library (e.g. a
+  // GeoPackage by GDAL); it is renamed to `name` at commit like the rest.
+  std::filesystem::path reserve(const std::string& name);
   // Closes every stream, checks it, and renames all files into place.
   void commit();
 
@@ -31,6 +35,7 @@ class OutputSet {
   std::filesystem::path temporary_path(const std::string& name) const;
   std::filesystem::path folder_;
   std::map<std::string, std::ofstream> streams_;
+  std::vector<std::string> reserved_;
   bool committed_ = false;
 };
 

@@ -16,6 +16,7 @@
 
 #include <cstddef>
 #include <filesystem>
+#include <functional>
 #include <map>
 #include <optional>
 #include <string>
@@ -84,6 +85,13 @@ class Table {
 
 // Reads a table from a file (see the header comment for formats).
 Table read_table(const std::filesystem::path& path, const TableOptions& options = {});
+
+// Reads a table in batches of at most `batch_rows` rows, so that very large
+// CSV/TSV files (readings by the million) never sit in memory as one table:
+// `consume` gets each batch (row numbers as in the file). Other formats are
+// read whole and passed as one batch.
+void read_table_in_batches(const std::filesystem::path& path, const TableOptions& options,
+                           std::size_t batch_rows, const std::function<void(Table&)>& consume);
 
 // Parses delimited text held in memory; `source` names it in messages.
 Table parse_delimited_text(std::string_view text, const std::string& source,

@@ -23,6 +23,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       {"convert", add_convert_command(app)},
       {"tie", add_tie_command(app)},
       {"gnss-check", add_gnss_check_command(app)},
+      {"heads", add_heads_command(app)},
       {"demo", add_demo_command(app)},
   };
 

@@ -1,5 +1,6 @@
 #include "levelhead/output_files.hpp"
 
+#include <algorithm>
 #include <fmt/format.h>
 #include <unistd.h>
 
@@ -23,11 +24,28 @@ OutputSet::~OutputSet() {
     std::error_code ignored;
     std::filesystem::remove(temporary_path(name), ignored);
   }
+  for (const std::string& name : reserved_) {
+    std::error_code ignored;
+    std::filesystem::remove(temporary_path(name), ignored);
+  }
+}
+
+std::filesystem::path OutputSet::reserve(const std::string& name) {
+  if (streams_.count(name) || std::find(reserved_.begin(), reserved_.end(), name) != reserved_.end()) {
+    throw std::logic_error("output file reserved twice: " + name);
+  }
+  reserved_.push_back(name);
+  std::error_code ignored;
+  std::filesystem::remove(temporary_path(name), ignored);
+  return temporary_path(name);
 }
 
 std::filesystem::path OutputSet::temporary_path(const std::string& name) const {
-  // Hidden and marked as partial, with the process id so runs do not collide.
-  return folder_ / fmt::format(".{}.partial-{}", name, static_cast<long>(getpid()));
+  // Hidden and marked as partial, with the process id so runs do not collide;
+  // the extension is kept (GDAL drivers check it).
+  const std::filesystem::path plain(name);
+  return folder_ / fmt::format(".{}.partial-{}{}", plain.stem().string(), static_cast<long>(getpid()),
+                               plain.extension().string());
 }
 
 std::ostream& OutputSet::open(const std::string& name) {
@@ -49,7 +67,9 @@ void OutputSet::commit() {
                                     folder_.string()));
     }
   }
-  for (auto& [name, stream] : streams_) {
+  std::vector<std::string> names = reserved_;
+  for (const auto& [name, stream] : streams_) names.push_back(name);
+  for (const std::string& name : names) {
     std::error_code ec;
     std::filesystem::rename(temporary_path(name), folder_ / name, ec);
     if (ec) {

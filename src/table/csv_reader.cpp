@@ -3,7 +3,14 @@
 // megabyte, silently empties later bad values and turns `007` into 7; here
 // every cell stays text and the typed accessors of Table report bad cells.
 
+#include <fcntl.h>
+#include <sys/mman.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <algorithm>
 #include <deque>
+#include <optional>
 #include <fmt/format.h>
 #include <fstream>
 #include <sstream>
@@ -128,8 +135,11 @@ bool blank(const std::vector<std::string_view>& cells) {
 
 }  // namespace
 
-Table parse_delimited_text(std::string_view text, const std::string& source,
-                           const TableOptions& options) {
+namespace {
+
+void parse_delimited_batches(std::string_view text, const std::string& source,
+                             const TableOptions& options, std::size_t batch_rows,
+                             const std::function<void(Table&)>& consume) {
   if (text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);  // UTF-8 byte order mark
   const std::size_t first_break = text.find_first_of("\r\n");
   const char separator = detect_separator(text.substr(0, first_break));
@@ -152,14 +162,63 @@ Table parse_delimited_text(std::string_view text, const std::string& source,
   }
   if (header.empty()) throw InputError(source, "the file is empty: expected a header row");
 
-  Table table(source, std::move(header), options);
-  // About 6 bytes a cell is typical of survey tables; reserve to avoid regrowth.
-  table.reserve(text.size() / 32 + 1, text.size());
+  const bool one_batch = batch_rows == 0;
+  const auto fresh = [&] {
+    Table table(source, header, options);
+    // About 32 bytes a row is typical of survey tables; reserve to avoid regrowth.
+    if (one_batch) table.reserve(text.size() / 32 + 1, text.size());
+    return table;
+  };
+  Table table = fresh();
   while (reader.next(cells, line)) {
     if (blank(cells)) continue;
     table.add_row(cells, line);
+    if (!one_batch && table.row_count() >= batch_rows) {
+      consume(table);
+      table = fresh();
+    }
   }
-  return table;
+  if (one_batch || table.row_count() > 0) consume(table);
+}
+
+}  // namespace
+
+Table parse_delimited_text(std::string_view text, const std::string& source,
+                           const TableOptions& options) {
+  std::optional<Table> result;
+  parse_delimited_batches(text, source, options, 0, [&](Table& t) { result.emplace(std::move(t)); });
+  return std::move(*result);
+}
+
+void read_table_in_batches(const std::filesystem::path& path, const TableOptions& options,
+                           std::size_t batch_rows, const std::function<void(Table&)>& consume) {
+  std::string extension = path.extension().string();
+  std::transform(extension.begin(), extension.end(), extension.begin(), ::tolower);
+  if (extension != ".csv" && extension != ".tsv" && extension != ".txt") {
+    Table whole = read_table(path, options);
+    consume(whole);
+    return;
+  }
+  // Mapped, not read: the pages come and go as the reader passes.
+  const int fd = ::open(path.c_str(), O_RDONLY);
+  if (fd < 0) throw InputError(path.string(), "no such file or cannot open it for reading");
+  struct stat info {};
+  if (::fstat(fd, &info) != 0 || info.st_size == 0) {
+    ::close(fd);
+    throw InputError(path.string(), "the file is empty: expected a header row");
+  }
+  const std::size_t size = static_cast<std::size_t>(info.st_size);
+  void* mapped = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, fd, 0);
+  ::close(fd);
+  if (mapped == MAP_FAILED) throw InputError(path.string(), "the file cannot be mapped for reading");
+  ::madvise(mapped, size, MADV_SEQUENTIAL);
+  struct Unmap {
+    void* p;
+    std::size_t n;
+    ~Unmap() { ::munmap(p, n); }
+  } unmap{mapped, size};
+  parse_delimited_batches(std::string_view(static_cast<const char*>(mapped), size), path.string(),
+                          options, std::max<std::size_t>(batch_rows, 1), consume);
 }
 
 namespace detail {

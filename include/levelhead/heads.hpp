@@ -1,0 +1,94 @@
+#pragma once
+// Water levels to heads, with the QA a hydrogeologist runs before contouring.
+//
+// In:  wells and measuring-point histories (wells.hpp), optionally the
+//      adjusted heights of a levelling network (heights.csv of `adjust`) for
+//      records that name a network point, the references needed to bring
+//      every measuring point into the target reference, and readings:
+//      well, time (ISO 8601; see time.hpp for zones), depth (m below the
+//      measuring point; negative: water above it), optional status, sigma,
+//      method, above (m of water above the measuring point in a flowing well).
+//      A depth cell may hold a state instead of a number: dry, flowing,
+//      frozen, obstructed, pumping, recently-pumped, or a censored value
+//      ">12.5" (deeper than) / "<0.3"; states are carried, never coerced.
+// Out: per reading: head = measuring-point elevation at that time - depth
+//      (m, in the target reference), sigma = sqrt(sigma_mp^2 + sigma_depth^2)
+//      (m), the measuring point used and its transform, flags, and whether it
+//      may be contoured (with the reason if not).
+// Errors: InputError naming the row (unknown well, bad time or depth, a
+//      reading before the first survey unless allowed); ReferenceError when a
+//      measuring point cannot be brought into the target reference (naming
+//      the well and reference).
+
+#include <cstddef>
+#include <filesystem>
+#include <map>
+#include <optional>
+#include <string>
+#include <unordered_map>
+#include <vector>
+
+#include "levelhead/height_converter.hpp"
+#include "levelhead/table.hpp"
+#include "levelhead/time.hpp"
+#include "levelhead/wells.hpp"
+
+namespace levelhead {
+
+struct HeadOptions {
+  std::string target;                   // target vertical reference
+  std::string crs;                      // CRS of the wells' x, y
+  bool interpolate = false;             // linear between surveys (moving ground)
+  bool allow_before_first = false;      // use the first survey for earlier readings (flagged)
+  double depth_sigma = 0.003;           // m, a tape or sounder reading (about 0.01 ft)
+  double mp_change_tolerance = 0.02;    // m, measuring point change between surveys
+  double repeat_tolerance = 0.003;      // m, repeat readings must agree (about 0.01 ft)
+  double repeat_window_hours = 2.0;     // readings of a well this close are repeats
+  std::optional<double> event;          // s since epoch: centre of a synoptic event
+  double synoptic_window_hours = 48.0;  // the event's window (centred on it)
+  void validate() const;
+};
+
+struct NetworkHeight {
+  double height = 0.0;
+  std::optional<double> sigma;
+  std::string reference;
+};
+using NetworkHeights = std::unordered_map<std::string, NetworkHeight>;
+
+// heights.csv of `levelhead adjust`: id, height, sigma, reference.
+NetworkHeights read_network_heights(const Table& table);
+
+// A measuring-point record brought into the target reference.
+struct MeasuringPointElevation {
+  double height = 0.0;  // m, target reference
+  double sigma = 0.0;   // m
+  bool sigma_known = true;
+  std::string source;   // "network:ID" or the record's datum
+  std::string transform;
+  std::vector<std::string> flags;
+};
+
+struct QaEntry {
+  std::string well, time, flag, detail;
+  std::size_t row = 0;  // row of the table it came from
+  std::string table;    // "levels" or "measuring-points"
+};
+
+struct HeadsSummary {
+  std::size_t readings = 0, heads = 0, states = 0, contourable = 0;
+  std::map<std::string, std::size_t> flags;   // flag -> count
+  std::map<std::string, std::size_t> states_by_kind;
+};
+
+class HeadWriter;  // defined in heads.cpp
+
+// Writes heads.csv, qa.csv, measuring_points.csv, summary.json and (unless
+// no_geopackage) heads.gpkg into `folder`, all-or-nothing.
+HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
+                           const NetworkHeights& network, const ReferenceSet& references,
+                           const ProjSettings& settings, const HeadOptions& options,
+                           const std::filesystem::path& levels, const TableOptions& levels_table,
+                           const std::filesystem::path& folder, bool geopackage);
+
+}  // namespace levelhead

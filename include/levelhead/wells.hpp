@@ -1,0 +1,60 @@
+#pragma once
+// Wells and the survey history of their measuring points.
+//
+// Wells table: id, x, y (project CRS), optional ground (ground elevation, m,
+// in the reference named by ground_datum, default the target reference),
+// screen_top and screen_bottom (depth below ground, m), nest, aquifer.
+// Measuring-point table: well, valid_from (ISO 8601 date or time), height
+// (m), datum (a reference), sigma (m), optional point (a point id of the
+// adjusted network: height, sigma and reference are then taken from it),
+// source, method (levelled, gnss, hand-level, ...), reason (survey, resurvey,
+// casing-cut, repair, replaced).
+// Errors: InputError naming the row for a bad cell, an unknown well, a
+// record with neither height nor point, two records of a well from the same
+// time.
+
+#include <optional>
+#include <string>
+#include <unordered_map>
+#include <vector>
+
+#include "levelhead/table.hpp"
+#include "levelhead/time.hpp"
+
+namespace levelhead {
+
+struct Well {
+  std::string id;
+  double x = 0.0, y = 0.0;
+  std::optional<double> ground;                     // m
+  std::string ground_datum;
+  std::optional<double> screen_top, screen_bottom;  // m below ground
+  std::string nest, aquifer;
+  std::size_t row = 0;
+};
+
+struct MeasuringPointRecord {
+  std::string well;
+  Instant valid_from;
+  std::string valid_from_text;
+  std::optional<double> height;  // m, in `datum`
+  std::string datum;
+  std::optional<double> sigma;   // m
+  std::string point;             // network point id
+  std::string source, method, reason;
+  std::size_t row = 0;
+
+  // A casing cut, repair or replacement breaks the series: never interpolate across it.
+  bool starts_new_series() const;
+};
+
+struct WellSet {
+  std::string file;
+  std::vector<Well> wells;
+  std::unordered_map<std::string, std::size_t> index;
+};
+
+WellSet read_wells(const Table& table);
+std::vector<MeasuringPointRecord> read_measuring_points(const Table& table, const WellSet& wells);
+
+}  // namespace levelhead

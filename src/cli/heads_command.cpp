@@ -1,0 +1,95 @@
+// `levelhead heads`: water levels to heads in one reference, with QA.
+
+#include <fmt/format.h>
+#include <memory>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "levelhead/errors.hpp"
+#include "levelhead/heads.hpp"
+#include "levelhead/table.hpp"
+
+namespace levelhead::cli {
+
+namespace {
+struct HeadArguments {
+  std::string wells, mp, levels, out, references, adjusted, event, unit = "m";
+  std::vector<std::string> grid_paths;
+  HeadOptions options;
+  bool no_geopackage = false, strict = false, quiet = false;
+};
+}  // namespace
+
+CommandRunner add_heads_command(CLI::App& app) {
+  auto a = std::make_shared<HeadArguments>();
+  HeadOptions& o = a->options;
+  CLI::App* c = app.add_subcommand("heads", "Heads from water levels, measuring-point histories and "
+                                            "vertical references, with QA before contouring");
+  c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, screen_top, screen_bottom, ...)")
+      ->required();
+  c->add_option("--mp", a->mp, "Measuring-point history (well, valid_from, height, datum, sigma, ...)")
+      ->required();
+  c->add_option("--levels", a->levels, "Water-level readings (well, time, depth, ...)")->required();
+  c->add_option("--to", o.target, "Target vertical reference of the heads")->required();
+  c->add_option("--crs", o.crs, "CRS of the wells' x and y")->required();
+  c->add_option("--out", a->out, "Output folder")->required();
+  c->add_option("--references", a->references, "References file (TOML)");
+  c->add_option("--adjusted", a->adjusted,
+                "heights.csv of levelhead adjust, for measuring points that name a network point");
+  c->add_option("--grid-path", a->grid_paths, "Folder searched for grids before PROJ_DATA");
+  c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
+  c->add_flag("--interpolate", o.interpolate,
+              "Interpolate the measuring point linearly between surveys (moving ground)");
+  c->add_flag("--allow-before-first", o.allow_before_first,
+              "Use the first survey for older readings (flagged) instead of failing");
+  c->add_option("--event", a->event, "Centre of a synoptic measurement event (ISO 8601)");
+  c->add_option("--synoptic-window", o.synoptic_window_hours, "Length of the event window (h)")
+      ->capture_default_str();
+  c->add_option("--depth-sigma", o.depth_sigma, "Sigma of a depth reading without one (m)")
+      ->capture_default_str();
+  c->add_option("--mp-change-tolerance", o.mp_change_tolerance,
+                "Flag a measuring point that changes more than this between surveys (m)")
+      ->capture_default_str();
+  c->add_option("--repeat-tolerance", o.repeat_tolerance,
+                "Repeat readings must agree within this (m)")
+      ->capture_default_str();
+  c->add_option("--repeat-window", o.repeat_window_hours,
+                "Readings of a well this close in time are repeats (h)")
+      ->capture_default_str();
+  c->add_flag("--no-gpkg", a->no_geopackage, "Do not write heads.gpkg");
+  c->add_flag("--strict", a->strict, "Exit with status 3 when any reading is flagged");
+  c->add_flag("--quiet", a->quiet, "Print nothing on success");
+  return [a](std::ostream& out, std::ostream&) {
+    HeadOptions options = a->options;
+    if (!a->event.empty()) {
+      const auto when = parse_iso8601(a->event);
+      if (!when) throw OptionError(fmt::format("--event '{}' is not an ISO 8601 time", a->event));
+      options.event = when->seconds;
+    }
+    options.validate();
+    const LengthUnit unit = parse_length_unit(a->unit);
+    const TableOptions table_options{{}, unit, {}};
+    const WellSet wells = read_wells(read_table(a->wells, table_options));
+    const auto records = read_measuring_points(read_table(a->mp, table_options), wells);
+    const NetworkHeights network =
+        a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
+    const ReferenceSet references =
+        a->references.empty() ? ReferenceSet{} : ReferenceSet::load(a->references);
+    ProjSettings settings;
+    for (const auto& p : a->grid_paths) settings.grid_paths.emplace_back(p);
+    const HeadsSummary s = compute_heads(wells, records, network, references, settings, options,
+                                         a->levels, table_options, a->out, !a->no_geopackage);
+    if (!a->quiet) {
+      out << fmt::format("{} readings of {} wells: {} heads in {}, {} states carried (not "
+                         "numbers), {} ready for contouring\n",
+                         s.readings, wells.wells.size(), s.heads, options.target, s.states,
+                         s.contourable);
+      for (const auto& [flag, count] : s.flags) out << fmt::format("  {}: {}\n", flag, count);
+      out << fmt::format("Wrote heads.csv, qa.csv, measuring_points.csv, summary.json{} in {}\n",
+                         a->no_geopackage ? "" : ", heads.gpkg", a->out);
+    }
+    return a->strict && !s.flags.empty() ? exit_checks_failed : exit_ok;
+  };
+}
+
+}  // namespace levelhead::cli

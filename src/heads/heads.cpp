@@ -1,0 +1,495 @@
+#include "levelhead/heads.hpp"
+
+#include <gdal.h>
+#include <ogr_api.h>
+#include <ogr_srs_api.h>
+#include <cpl_conv.h>
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <deque>
+#include <fmt/format.h>
+#include <nlohmann/json.hpp>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/version.hpp"
+#include "util/option_checks.hpp"
+#include "util/text.hpp"
+
+namespace levelhead {
+
+void HeadOptions::validate() const {
+  util::require_positive(depth_sigma, "depth sigma", "m");
+  util::require_positive(mp_change_tolerance, "measuring-point change tolerance", "m");
+  util::require_positive(repeat_tolerance, "repeat tolerance", "m");
+  util::require_positive(repeat_window_hours, "repeat window", "h");
+  util::require_positive(synoptic_window_hours, "synoptic window", "h");
+  if (target.empty()) throw OptionError("a target reference is needed (--to)");
+}
+
+NetworkHeights read_network_heights(const Table& t) {
+  const std::size_t id = t.require_column("id"), height = t.require_column("height");
+  const auto sigma = t.find_column("sigma"), reference = t.find_column("reference");
+  NetworkHeights out;
+  for (std::size_t r = 0; r < t.row_count(); ++r) {
+    const auto h = t.length(r, height);
+    if (!h) continue;
+    NetworkHeight n;
+    n.height = *h;
+    if (sigma) n.sigma = t.length(r, *sigma);
+    if (reference) n.reference = std::string(t.cell(r, *reference));
+    out.emplace(std::string(t.cell(r, id)), n);
+  }
+  return out;
+}
+
+namespace {
+
+// The states a reading can carry instead of a depth; the one list for
+// parsing, outputs and docs.
+const std::vector<std::string>& reading_states() {
+  static const std::vector<std::string> states = {"dry",        "flowing", "frozen",
+                                                  "obstructed", "pumping", "recently-pumped"};
+  return states;
+}
+
+std::string normalise_state(std::string_view text) {
+  std::string s = util::to_lower(util::trim(text));
+  std::replace(s.begin(), s.end(), '_', '-');
+  std::replace(s.begin(), s.end(), ' ', '-');
+  return s;
+}
+
+bool parse_number(std::string_view text, double& value) {
+  text = util::trim(text);
+  if (!text.empty() && text.front() == '+') text.remove_prefix(1);
+  const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), value);
+  return ec == std::errc() && end == text.data() + text.size() && std::isfinite(value);
+}
+
+// Decimals a head deserves: about one below its standard deviation, so no
+// table shows more digits than the data carry (0.003 m -> 3, 0.02 m -> 2).
+int decimals_for(double sigma) {
+  if (!(sigma > 0.0)) return 3;
+  return std::clamp(static_cast<int>(std::ceil(-std::log10(sigma))), 1, 4);
+}
+
+struct History {
+  std::vector<std::size_t> records;  // indices, by valid_from
+};
+
+struct WellState {
+  double last_time = -INFINITY;
+  std::deque<std::pair<double, double>> recent;  // (time, head) within the repeat window
+};
+
+}  // namespace
+
+HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
+                           const NetworkHeights& network, const ReferenceSet& references,
+                           const ProjSettings& settings, const HeadOptions& options,
+                           const std::filesystem::path& levels, const TableOptions& levels_table,
+                           const std::filesystem::path& folder, bool geopackage) {
+  options.validate();
+  std::vector<QaEntry> qa;
+
+  // 1. Every measuring point in the target reference.
+  std::vector<MeasuringPointElevation> elevation(records.size());
+  std::map<std::string, std::vector<std::size_t>> by_datum;
+  std::vector<double> given(records.size()), given_sigma(records.size(), NAN);
+  for (std::size_t k = 0; k < records.size(); ++k) {
+    const MeasuringPointRecord& m = records[k];
+    std::string datum = m.datum;
+    if (!m.point.empty()) {
+      const auto it = network.find(m.point);
+      if (it == network.end()) {
+        throw InputError(CellLocation{"measuring points", m.row, "point"}, m.point,
+                         "this point is not among the adjusted heights (--adjusted)");
+      }
+      given[k] = it->second.height;
+      if (it->second.sigma) given_sigma[k] = *it->second.sigma;
+      datum = it->second.reference.empty() ? m.datum : it->second.reference;
+      elevation[k].source = "network:" + m.point;
+      if (datum.empty()) {
+        throw InputError(CellLocation{"measuring points", m.row, "datum"}, "",
+                         fmt::format("the adjusted heights name no reference for point '{}'; give "
+                                     "the datum in the measuring-point table",
+                                     m.point));
+      }
+    } else {
+      given[k] = *m.height;
+      if (m.sigma) given_sigma[k] = *m.sigma;
+      elevation[k].source = m.source.empty() ? m.datum : m.source;
+    }
+    by_datum[datum].push_back(k);
+  }
+  for (const auto& [datum, indices] : by_datum) {
+    HeightConverter converter(datum, options.target, options.crs, references, settings);
+    std::vector<PlanePoint> points;
+    std::vector<double> heights;
+    for (std::size_t k : indices) {
+      const Well& w = wells.wells[wells.index.at(records[k].well)];
+      points.push_back({w.x, w.y});
+      heights.push_back(given[k]);
+    }
+    const auto converted = converter.convert(points, heights);
+    for (std::size_t j = 0; j < indices.size(); ++j) {
+      const std::size_t k = indices[j];
+      if (!converted[j].height) {
+        throw ReferenceError(fmt::format(
+            "well '{}' (measuring points row {}): its height in '{}' cannot be brought into '{}': {}",
+            records[k].well, records[k].row, datum, options.target, converted[j].failure));
+      }
+      MeasuringPointElevation& e = elevation[k];
+      e.height = *converted[j].height;
+      const double s = std::isnan(given_sigma[k]) ? 0.0 : given_sigma[k];
+      e.sigma = std::sqrt(s * s + converted[j].variance_added);
+      e.sigma_known = !std::isnan(given_sigma[k]) && converted[j].variance_complete;
+      e.transform = converted[j].transform;
+      e.flags = converted[j].flags;
+      if (!e.sigma_known) e.flags.push_back("mp-sigma-unknown");
+    }
+  }
+
+  // 2. Histories, and changes between surveys.
+  std::vector<History> history(wells.wells.size());
+  for (std::size_t k = 0; k < records.size(); ++k) {
+    history[wells.index.at(records[k].well)].records.push_back(k);
+  }
+  for (History& h : history) {
+    std::stable_sort(h.records.begin(), h.records.end(), [&](std::size_t a, std::size_t b) {
+      return records[a].valid_from.seconds < records[b].valid_from.seconds;
+    });
+    for (std::size_t j = 1; j < h.records.size(); ++j) {
+      const MeasuringPointRecord& a = records[h.records[j - 1]];
+      const MeasuringPointRecord& b = records[h.records[j]];
+      if (std::abs(a.valid_from.seconds - b.valid_from.seconds) < 0.5) {
+        throw InputError(CellLocation{"measuring points", b.row, "valid_from"}, b.valid_from_text,
+                         fmt::format("well '{}' has two measuring-point records from the same "
+                                     "time (rows {} and {})",
+                                     b.well, a.row, b.row));
+      }
+      const double change = elevation[h.records[j]].height - elevation[h.records[j - 1]].height;
+      if (std::abs(change) > options.mp_change_tolerance) {
+        qa.push_back({b.well, b.valid_from_text, "mp-changed",
+                      fmt::format("{:+.3f} m since {}{}", change, a.valid_from_text,
+                                  b.reason.empty() ? std::string(" (no reason given: subsidence, "
+                                                                 "damage or a datum mix-up?)")
+                                                   : " (" + b.reason + ")"),
+                      b.row, "measuring-points"});
+      }
+    }
+  }
+
+  OutputSet out(folder);
+  std::ostream& mp_csv = out.open("measuring_points.csv");
+  mp_csv << "well,valid_from,height,sigma,reference,source,method,reason,transform,flags,row\n";
+  for (std::size_t w = 0; w < history.size(); ++w) {
+    for (std::size_t k : history[w].records) {
+      const MeasuringPointRecord& m = records[k];
+      const MeasuringPointElevation& e = elevation[k];
+      mp_csv << csv_cell(m.well) << ',' << csv_cell(m.valid_from_text) << ','
+             << fmt::format("{:.4f},{:.4f}", e.height, e.sigma) << ',' << csv_cell(options.target)
+             << ',' << csv_cell(e.source) << ',' << csv_cell(m.method) << ',' << csv_cell(m.reason)
+             << ',' << csv_cell(e.transform) << ','
+             << csv_cell(fmt::format("{}", fmt::join(e.flags, " "))) << ',' << m.row << '\n';
+    }
+  }
+
+  // 3. GeoPackage layer, the vertical reference as columns and metadata.
+  GDALDatasetH gpkg = nullptr;
+  OGRLayerH layer = nullptr;
+  if (geopackage) {
+    GDALAllRegister();
+    CPLSetThreadLocalConfigOption("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");  // reproducible
+    const std::filesystem::path path = out.reserve("heads.gpkg");
+    gpkg = GDALCreate(GDALGetDriverByName("GPKG"), path.string().c_str(), 0, 0, 0, GDT_Unknown,
+                      nullptr);
+    if (!gpkg) throw OutputError("cannot create heads.gpkg: " + std::string(CPLGetLastErrorMsg()));
+    OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
+    if (OSRSetFromUserInput(srs, options.crs.c_str()) != OGRERR_NONE) {
+      OSRDestroySpatialReference(srs);
+      GDALClose(gpkg);
+      throw OptionError(fmt::format("--crs '{}' is not a CRS GDAL knows", options.crs));
+    }
+    OSRSetAxisMappingStrategy(srs, OAMS_TRADITIONAL_GIS_ORDER);
+    layer = GDALDatasetCreateLayer(gpkg, "heads", srs, wkbPoint, nullptr);
+    OSRDestroySpatialReference(srs);
+    for (const auto& [name, type] :
+         std::vector<std::pair<const char*, OGRFieldType>>{{"well", OFTString}, {"time", OFTString},
+                                                           {"time_utc", OFTString}, {"head", OFTReal},
+                                                           {"sigma", OFTReal}, {"datum", OFTString},
+                                                           {"mp_elevation", OFTReal}, {"state", OFTString},
+                                                           {"flags", OFTString}, {"contour", OFTString}}) {
+      OGRFieldDefnH field = OGR_Fld_Create(name, type);
+      OGR_L_CreateField(layer, field, 1);
+      OGR_Fld_Destroy(field);
+    }
+    GDALSetMetadataItem(layer, "VERTICAL_REFERENCE", options.target.c_str(), nullptr);
+    GDALSetMetadataItem(layer, "HEIGHT_UNIT", "metre", nullptr);
+    GDALSetMetadataItem(layer, "PRODUCER", version_string().c_str(), nullptr);
+    GDALDatasetStartTransaction(gpkg, 1);
+  }
+  struct GpkgCloser {
+    GDALDatasetH& ds;
+    ~GpkgCloser() {
+      if (ds) GDALClose(ds);
+    }
+  } closer{gpkg};
+
+  std::ostream& heads_csv = out.open("heads.csv");
+  heads_csv << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
+               "flags,contour,reason,transform\n";
+
+  // 4. Readings, streamed.
+  HeadsSummary summary;
+  std::vector<WellState> state(wells.wells.size());
+  const double repeat_window = options.repeat_window_hours * 3600.0;
+  const double half_window = options.synoptic_window_hours * 3600.0 / 2.0;
+  read_table_in_batches(levels, levels_table, 100000, [&](Table& t) {
+    const std::size_t well_col = t.require_column("well"), time_col = t.require_column("time");
+    const std::size_t depth_col = t.require_column("depth");
+    const auto status_col = t.find_column("status"), sigma_col = t.find_column("sigma");
+    const auto above_col = t.find_column("above");
+    const double unit = metres_per_unit(t.length_unit());
+    for (std::size_t r = 0; r < t.row_count(); ++r) {
+      ++summary.readings;
+      const std::string well_id(t.cell(r, well_col));
+      const auto wit = wells.index.find(well_id);
+      if (wit == wells.index.end()) {
+        throw InputError(t.location(r, well_col), well_id, "this well is not in the wells table");
+      }
+      const Well& well = wells.wells[wit->second];
+      const std::string time_text(t.cell(r, time_col));
+      const auto when = parse_iso8601(time_text);
+      if (!when) {
+        throw InputError(t.location(r, time_col), time_text,
+                         "expected an ISO 8601 time, e.g. 2026-10-06T08:30 or 2026-10-06T08:30+02:00");
+      }
+      const double time = when->seconds;
+      std::vector<std::string> flags;
+
+      // Depth or state.
+      std::optional<double> depth;
+      std::string reading_state;
+      const std::string_view depth_text = t.cell(r, depth_col);
+      double value = 0.0;
+      if (parse_number(depth_text, value)) {
+        depth = value * unit;
+      } else if (!depth_text.empty() && (depth_text.front() == '>' || depth_text.front() == '<') &&
+                 parse_number(depth_text.substr(1), value)) {
+        reading_state = depth_text.front() == '>' ? fmt::format("deeper-than:{}", value * unit)
+                                                  : fmt::format("shallower-than:{}", value * unit);
+      } else if (!depth_text.empty()) {
+        reading_state = normalise_state(depth_text);
+        const auto& known = reading_states();
+        if (std::find(known.begin(), known.end(), reading_state) == known.end()) {
+          throw InputError(t.location(r, depth_col), std::string(depth_text),
+                           fmt::format("expected a depth (m below the measuring point), a censored "
+                                       "value such as >12.5, or one of: {}",
+                                       fmt::join(known, ", ")));
+        }
+      }
+      std::string status = status_col ? normalise_state(t.cell(r, *status_col)) : std::string();
+      if (!status.empty()) {
+        const auto& known = reading_states();
+        if (std::find(known.begin(), known.end(), status) == known.end()) {
+          throw InputError(t.location(r, *status_col), std::string(t.cell(r, *status_col)),
+                           fmt::format("expected one of: {}", fmt::join(known, ", ")));
+        }
+      }
+      if (!depth && reading_state.empty() && status.empty()) {
+        throw InputError(t.location(r, depth_col), "",
+                         "a reading needs a depth or a state (dry, flowing, ...)");
+      }
+      const std::optional<double> above = above_col ? t.length(r, *above_col) : std::nullopt;
+      const bool flowing = reading_state == "flowing" || status == "flowing";
+
+      // Measuring point at that time.
+      const History& h = history[wit->second];
+      if (h.records.empty()) {
+        throw InputError(t.location(r, well_col), well_id,
+                         "this well has no measuring-point record; add its survey");
+      }
+      auto after = std::upper_bound(h.records.begin(), h.records.end(), time,
+                                    [&](double tt, std::size_t k) {
+                                      return tt < records[k].valid_from.seconds;
+                                    });
+      std::size_t k;
+      if (after == h.records.begin()) {
+        if (!options.allow_before_first) {
+          throw InputError(t.location(r, time_col), time_text,
+                           fmt::format("this reading of well '{}' is older than its first "
+                                       "measuring-point survey ({}); add the earlier survey or "
+                                       "allow it with --allow-before-first",
+                                       well_id, records[h.records.front()].valid_from_text));
+        }
+        k = h.records.front();
+        flags.push_back("before-first-survey");
+      } else {
+        k = *(after - 1);
+      }
+      double mp = elevation[k].height;
+      double mp_sigma = elevation[k].sigma;
+      if (options.interpolate && after != h.records.begin() && after != h.records.end() &&
+          !records[*after].starts_new_series()) {
+        const std::size_t next = *after;
+        const double t0 = records[k].valid_from.seconds, t1 = records[next].valid_from.seconds;
+        const double f = (time - t0) / (t1 - t0);
+        mp = (1.0 - f) * elevation[k].height + f * elevation[next].height;
+        mp_sigma = std::hypot((1.0 - f) * elevation[k].sigma, f * elevation[next].sigma);
+        flags.push_back("mp-interpolated");
+      }
+      for (const std::string& f : elevation[k].flags) flags.push_back(f);
+
+      // Head.
+      std::optional<double> head;
+      const double depth_sigma =
+          sigma_col && t.length(r, *sigma_col) ? *t.length(r, *sigma_col) : options.depth_sigma;
+      if (depth) {
+        head = mp - *depth;
+        if (*depth < 0.0 && !flowing) flags.push_back("water-above-mp");
+      } else if (flowing && above) {
+        head = mp + *above;
+      }
+      const double sigma = std::hypot(mp_sigma, depth_sigma);
+      if (head && well.ground && !flowing && *head > *well.ground) flags.push_back("water-above-ground");
+      if (head && well.ground && well.screen_bottom && *head < *well.ground - *well.screen_bottom) {
+        flags.push_back("below-screen-bottom");
+      }
+      if (status == "pumping" || status == "recently-pumped" || reading_state == "pumping" ||
+          reading_state == "recently-pumped") {
+        flags.push_back("pumping");
+      }
+      if (options.event && std::abs(time - *options.event) > half_window) {
+        flags.push_back("outside-synoptic-window");
+      }
+      WellState& ws = state[wit->second];
+      if (std::abs(time - ws.last_time) < 0.5) {
+        flags.push_back("duplicate");
+      } else if (time < ws.last_time) {
+        flags.push_back("out-of-order");
+      }
+      while (!ws.recent.empty() && std::abs(time - ws.recent.front().first) > repeat_window) {
+        ws.recent.pop_front();
+      }
+      if (head) {
+        for (const auto& [other_time, other_head] : ws.recent) {
+          if (std::abs(other_head - *head) > options.repeat_tolerance) {
+            flags.push_back("repeat-disagrees");
+            qa.push_back({well_id, time_text, "repeat-disagrees",
+                          fmt::format("{:+.3f} m against the reading at {}", *head - other_head,
+                                      format_utc(other_time)),
+                          t.source_row(r), "levels"});
+            break;
+          }
+        }
+        ws.recent.emplace_back(time, *head);
+      }
+      ws.last_time = std::max(ws.last_time, time);
+
+      // Contouring decision.
+      std::string reason;
+      const std::string shown_state = !reading_state.empty() ? reading_state : status;
+      if (!head) {
+        reason = "no head: " + shown_state;
+      } else {
+        for (const char* excluded : {"pumping", "water-above-mp", "outside-synoptic-window",
+                                     "repeat-disagrees", "duplicate", "before-first-survey"}) {
+          if (std::find(flags.begin(), flags.end(), excluded) != flags.end()) {
+            reason = excluded;
+            break;
+          }
+        }
+      }
+      const bool contour = reason.empty();
+      summary.heads += head.has_value();
+      summary.contourable += contour;
+      if (!shown_state.empty()) {
+        ++summary.states;
+        ++summary.states_by_kind[shown_state.substr(0, shown_state.find(':'))];
+      }
+      for (const std::string& f : flags) {
+        ++summary.flags[f];
+        if (f != "repeat-disagrees" && f != "mp-sigma-unknown") {
+          qa.push_back({well_id, time_text, f, "", t.source_row(r), "levels"});
+        }
+      }
+
+      const int dp = decimals_for(sigma);
+      const std::string head_text = head ? fmt::format("{:.{}f}", *head, dp) : "";
+      const std::string flag_text = fmt::format("{}", fmt::join(flags, " "));
+      heads_csv << csv_cell(well_id) << ',' << csv_cell(time_text) << ',' << head_text << ','
+                << (head ? fmt::format("{:.{}f}", sigma, dp + 1) : "") << ','
+                << csv_cell(options.target) << ',' << format_utc(time) << ','
+                << fmt::format("{:.4f},{:.4f}", mp, mp_sigma) << ',' << csv_cell(elevation[k].source)
+                << ',' << (depth ? fmt::format("{:.4f}", *depth) : "") << ','
+                << csv_cell(shown_state) << ',' << csv_cell(flag_text) << ','
+                << (contour ? "yes" : "no") << ',' << csv_cell(reason) << ','
+                << csv_cell(elevation[k].transform) << '\n';
+      if (layer) {
+        OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer));
+        OGR_F_SetFieldString(f, 0, well_id.c_str());
+        OGR_F_SetFieldString(f, 1, time_text.c_str());
+        OGR_F_SetFieldString(f, 2, format_utc(time).c_str());
+        if (head) {
+          OGR_F_SetFieldDouble(f, 3, std::round(*head * std::pow(10.0, dp)) / std::pow(10.0, dp));
+          OGR_F_SetFieldDouble(f, 4, sigma);
+        }
+        OGR_F_SetFieldString(f, 5, options.target.c_str());
+        OGR_F_SetFieldDouble(f, 6, mp);
+        OGR_F_SetFieldString(f, 7, shown_state.c_str());
+        OGR_F_SetFieldString(f, 8, flag_text.c_str());
+        OGR_F_SetFieldString(f, 9, contour ? "yes" : "no");
+        OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
+        OGR_G_SetPoint_2D(g, 0, well.x, well.y);
+        OGR_F_SetGeometryDirectly(f, g);
+        const OGRErr err = OGR_L_CreateFeature(layer, f);
+        OGR_F_Destroy(f);
+        if (err != OGRERR_NONE) throw OutputError("writing heads.gpkg failed: " + std::string(CPLGetLastErrorMsg()));
+      }
+    }
+  });
+  if (gpkg) {
+    GDALDatasetCommitTransaction(gpkg);
+    GDALClose(gpkg);
+    gpkg = nullptr;
+  }
+
+  std::ostream& qa_csv = out.open("qa.csv");
+  qa_csv << "table,row,well,time,flag,detail\n";
+  for (const QaEntry& e : qa) {
+    qa_csv << e.table << ',' << e.row << ',' << csv_cell(e.well) << ',' << csv_cell(e.time) << ','
+           << e.flag << ',' << csv_cell(e.detail) << '\n';
+  }
+  nlohmann::json s;
+  s["levelhead_version"] = version_string();
+  s["command"] = "heads";
+  s["target_reference"] = options.target;
+  s["units"] = "m";
+  s["time_rule"] = "times with a zone are converted to UTC; times without one are read as UTC";
+  s["counts"] = {{"readings", summary.readings},
+                 {"heads", summary.heads},
+                 {"states", summary.states},
+                 {"contourable", summary.contourable},
+                 {"measuring_point_records", records.size()},
+                 {"wells", wells.wells.size()}};
+  s["flags"] = summary.flags;
+  s["states"] = summary.states_by_kind;
+  s["options"] = {{"interpolate", options.interpolate},
+                  {"allow_before_first", options.allow_before_first},
+                  {"depth_sigma", options.depth_sigma},
+                  {"mp_change_tolerance", options.mp_change_tolerance},
+                  {"repeat_tolerance", options.repeat_tolerance},
+                  {"repeat_window_hours", options.repeat_window_hours},
+                  {"synoptic_window_hours", options.synoptic_window_hours},
+                  {"event", options.event ? nlohmann::json(format_utc(*options.event))
+                                          : nlohmann::json(nullptr)}};
+  out.open("summary.json") << s.dump(2) << '\n';
+  out.commit();
+  return summary;
+}
+
+}  // namespace levelhead
