@@ -46,6 +46,7 @@ struct HeadOptions {
   double repeat_window_hours = 2.0;     // readings of a well this close are repeats
   std::optional<double> event;          // s since epoch: centre of a synoptic event
   double synoptic_window_hours = 48.0;  // the event's window (centred on it)
+  double max_depth = 1000.0;            // m; deeper readings are errors (a unit mix-up)
   void validate() const;
 };
 

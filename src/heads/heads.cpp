@@ -26,6 +26,7 @@ void HeadOptions::validate() const {
   util::require_positive(repeat_tolerance, "repeat tolerance", "m");
   util::require_positive(repeat_window_hours, "repeat window", "h");
   util::require_positive(synoptic_window_hours, "synoptic window", "h");
+  util::require_positive(max_depth, "largest plausible depth", "m");
   if (target.empty()) throw OptionError("a target reference is needed (--to)");
 }
 
@@ -126,7 +127,22 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     by_datum[datum].push_back(k);
   }
   for (const auto& [datum, indices] : by_datum) {
-    HeightConverter converter(datum, options.target, options.crs, references, settings);
+    std::optional<HeightConverter> made;
+    try {
+      made.emplace(datum, options.target, options.crs, references, settings);
+    } catch (const ReferenceError& e) {
+      std::vector<std::string> named;
+      for (std::size_t k : indices) {
+        if (named.size() < 5) named.push_back(fmt::format("well '{}' (row {})", records[k].well, records[k].row));
+      }
+      throw ReferenceError(fmt::format(
+          "measuring points of {}{} are in '{}', which cannot be brought into '{}': {}. Define "
+          "'{}' in a references file (an offset, a tie or a grid) or correct the datum; heads in "
+          "different references are never merged",
+          fmt::join(named, ", "), indices.size() > named.size() ? " and others" : "", datum,
+          options.target, e.what(), datum));
+    }
+    HeightConverter& converter = *made;
     std::vector<PlanePoint> points;
     std::vector<double> heights;
     for (std::size_t k : indices) {
@@ -278,6 +294,12 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       double value = 0.0;
       if (parse_number(depth_text, value)) {
         depth = value * unit;
+        if (std::abs(*depth) > options.max_depth) {
+          throw InputError(t.location(r, depth_col), std::string(depth_text),
+                           fmt::format("a depth of {:.0f} m is not plausible (largest accepted {:.0f} "
+                                       "m); are the depths in another unit than --unit says?",
+                                       *depth, options.max_depth));
+        }
       } else if (!depth_text.empty() && (depth_text.front() == '>' || depth_text.front() == '<') &&
                  parse_number(depth_text.substr(1), value)) {
         reading_state = depth_text.front() == '>' ? fmt::format("deeper-than:{}", value * unit)
@@ -485,6 +507,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                   {"repeat_tolerance", options.repeat_tolerance},
                   {"repeat_window_hours", options.repeat_window_hours},
                   {"synoptic_window_hours", options.synoptic_window_hours},
+                  {"max_depth", options.max_depth},
                   {"event", options.event ? nlohmann::json(format_utc(*options.event))
                                           : nlohmann::json(nullptr)}};
   out.open("summary.json") << s.dump(2) << '\n';

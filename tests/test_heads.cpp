@@ -1,0 +1,185 @@
+// Heads from water levels: hand-worked cases (invented wells) and every QA flag.
+
+#include <catch2/catch.hpp>
+
+#include <fstream>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/heads.hpp"
+#include "support/temp_folder.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::Contains;
+using Catch::Matchers::WithinAbs;
+
+namespace {
+
+struct Site {
+  testing::TempFolder tmp;
+  std::string wells = "id,x,y,ground,screen_bottom\nW1,500000,4400000,12.0,20\nW2,500100,4400050,104.0,15\n";
+  std::string mp = "well,valid_from,height,datum,sigma,reason\n"
+                   "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
+                   "W1,2022-01-01,9.800,EPSG:5703,0.002,casing-cut\n"
+                   "W2,2020-01-01,8.000,site-1998,0.002,survey\n";
+  std::string levels;
+  HeadOptions options;
+  ReferenceSet references;
+
+  Site() {
+    options.target = "EPSG:5703";
+    options.crs = "EPSG:32613";
+    ReferenceDefinition d;
+    d.name = "site-1998";
+    d.kind = ReferenceDefinition::Kind::offset;
+    d.base = "EPSG:5703";
+    d.relation.offset = 95.25;
+    d.relation.sigma = 0.004;
+    references.add(d);
+  }
+
+  // Runs compute_heads and returns heads.csv as a table.
+  Table run() {
+    write("wells.csv", wells);
+    write("mp.csv", mp);
+    write("levels.csv", levels);
+    const WellSet w = read_wells(read_table(tmp.path() / "wells.csv"));
+    const auto records = read_measuring_points(read_table(tmp.path() / "mp.csv"), w);
+    compute_heads(w, records, {}, references, ProjSettings{}, options, tmp.path() / "levels.csv",
+                  TableOptions{}, tmp.path() / "out", true);
+    return read_table(tmp.path() / "out" / "heads.csv");
+  }
+  void write(const char* name, const std::string& text) { std::ofstream(tmp.path() / name) << text; }
+  Table qa() { return read_table(tmp.path() / "out" / "qa.csv"); }
+};
+
+double head(const Table& t, std::size_t row) { return *t.number(row, *t.find_column("head")); }
+std::string flags(const Table& t, std::size_t row) {
+  return std::string(t.cell(row, *t.find_column("flags")));
+}
+
+}  // namespace
+
+TEST_CASE("heads across a casing cut and across a change of reference", "[heads]") {
+  Site site;
+  site.levels = "well,time,depth\n"
+                "W1,2021-06-01T09:00Z,3.000\n"   // before the cut: 10.000 - 3.000
+                "W1,2022-06-01T09:00Z,2.850\n"   // after the cut:   9.800 - 2.850
+                "W2,2021-06-01T10:00Z,3.250\n";  // site datum: 8.000 + 95.25 - 3.25
+  const Table t = site.run();
+  REQUIRE(t.row_count() == 3);
+  CHECK_THAT(head(t, 0), WithinAbs(7.000, 1e-9));
+  CHECK_THAT(head(t, 1), WithinAbs(6.950, 1e-9));
+  CHECK_THAT(head(t, 2), WithinAbs(100.000, 1e-9));
+  // sigma = sqrt(0.002^2 + 0.003^2) for W1; W2 adds the offset's 0.004.
+  CHECK_THAT(*t.number(0, *t.find_column("sigma")), WithinAbs(std::hypot(0.002, 0.003), 1e-4));
+  CHECK_THAT(*t.number(2, *t.find_column("sigma")),
+             WithinAbs(std::sqrt(0.002 * 0.002 + 0.004 * 0.004 + 0.003 * 0.003), 1e-4));
+  CHECK(t.cell(0, *t.find_column("datum")) == "EPSG:5703");
+  CHECK_THAT(std::string(t.cell(2, *t.find_column("transform"))), Contains("site-1998"));
+  // The cut of 0.200 m is reported as a measuring-point change with its reason.
+  const Table qa = site.qa();
+  REQUIRE(qa.row_count() >= 1);
+  CHECK(qa.cell(0, *qa.find_column("flag")) == "mp-changed");
+  CHECK_THAT(std::string(qa.cell(0, *qa.find_column("detail"))), Contains("-0.200") && Contains("casing-cut"));
+}
+
+TEST_CASE("a subsiding well interpolates its measuring point between surveys", "[heads]") {
+  Site site;
+  site.mp = "well,valid_from,height,datum,sigma,reason\n"
+            "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
+            "W1,2021-01-01,9.900,EPSG:5703,0.002,resurvey\n";
+  // 2020 is a leap year: 2020-07-02T00:00 is exactly half of its 366 days.
+  site.levels = "well,time,depth\nW1,2020-07-02T00:00Z,2.000\n";
+  CHECK_THAT(head(site.run(), 0), WithinAbs(8.000, 1e-9));  // step: the 2020 survey holds
+  site.options.interpolate = true;
+  const Table t = site.run();
+  CHECK_THAT(head(t, 0), WithinAbs(7.950, 1e-9));  // 9.950 - 2.000
+  CHECK_THAT(flags(t, 0), Contains("mp-interpolated"));
+  // Never across a casing cut.
+  site.mp = "well,valid_from,height,datum,sigma,reason\n"
+            "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
+            "W1,2021-01-01,9.900,EPSG:5703,0.002,casing-cut\n";
+  CHECK_THAT(head(site.run(), 0), WithinAbs(8.000, 1e-9));
+}
+
+TEST_CASE("a measuring point with no path to the target reference is an error, never merged",
+          "[heads][errors]") {
+  // A naive merge would subtract depths from 8.000 m of an undefined site
+  // datum and put the head about 95 m too low; levelhead refuses.
+  Site site;
+  site.mp = "well,valid_from,height,datum,sigma\nW1,2020-01-01,8.000,old-site,0.002\n";
+  site.levels = "well,time,depth\nW1,2021-06-01,3.0\n";
+  CHECK_THROWS_WITH(site.run(), Contains("well 'W1'") && Contains("'old-site'"));
+}
+
+TEST_CASE("readings that are not numbers are carried and kept out of contouring", "[heads]") {
+  Site site;
+  site.levels = "well,time,depth,above,status\n"
+                "W1,2021-06-01,dry,,\n"
+                "W1,2021-06-02,>15.2,,\n"
+                "W1,2021-06-03,Frozen,,\n"
+                "W1,2021-06-04,,0.40,flowing\n"
+                "W1,2021-06-05,3.1,,recently pumped\n";
+  const Table t = site.run();
+  const std::size_t state = *t.find_column("state"), contour = *t.find_column("contour");
+  CHECK(t.cell(0, state) == "dry");
+  CHECK(t.cell(1, state) == "deeper-than:15.2");
+  CHECK(t.cell(2, state) == "frozen");
+  CHECK_FALSE(t.number(0, *t.find_column("head")));
+  CHECK(t.cell(0, contour) == "no");
+  CHECK_THAT(head(t, 3), WithinAbs(10.40, 1e-9));  // flowing: 10.000 + 0.40 above the MP
+  CHECK(flags(t, 3).empty());
+  CHECK(t.cell(4, contour) == "no");
+  CHECK_THAT(flags(t, 4), Contains("pumping"));
+}
+
+TEST_CASE("each QA flag is raised when it applies and not otherwise", "[heads][qa]") {
+  Site site;
+  site.options.event = parse_iso8601("2021-06-10T12:00Z")->seconds;
+  site.levels = "well,time,depth\n"
+                "W1,2021-06-10T08:00Z,3.000\n"    // 0 clean
+                "W1,2021-06-10T08:30Z,3.001\n"    // 1 repeat within 3 mm: clean
+                "W1,2021-06-10T09:00Z,3.010\n"    // 2 repeat 10 mm off: repeat-disagrees
+                "W1,2021-06-10T09:00Z,3.010\n"    // 3 duplicate
+                "W1,2021-06-10T07:00Z,3.000\n"    // 4 out-of-order
+                "W1,2021-06-20T08:00Z,3.000\n"    // 5 outside the 48 h window
+                "W1,2021-06-11T08:00Z,-0.100\n"   // 6 water above the MP, not marked flowing
+                "W2,2021-06-10T10:00Z,-1.0\n"     // 7 head 104.25 above ground at 104.0
+                "W2,2021-06-10T14:00Z,95.0\n";    // 8 head 8.25, below the screen bottom at 89.0
+  const Table t = site.run();
+  CHECK(flags(t, 0).empty());
+  CHECK(flags(t, 1).empty());
+  CHECK_THAT(flags(t, 2), Contains("repeat-disagrees"));
+  CHECK_THAT(flags(t, 3), Contains("duplicate"));
+  CHECK_THAT(flags(t, 4), Contains("out-of-order"));
+  CHECK_THAT(flags(t, 5), Contains("outside-synoptic-window"));
+  CHECK_FALSE(flags(t, 6).find("outside-synoptic-window") != std::string::npos);
+  CHECK_THAT(flags(t, 6), Contains("water-above-mp"));
+  CHECK_THAT(flags(t, 7), Contains("water-above-ground") && Contains("water-above-mp"));
+  CHECK_THAT(flags(t, 8), Contains("below-screen-bottom"));
+  CHECK_FALSE(flags(t, 0).find("below-screen-bottom") != std::string::npos);
+}
+
+TEST_CASE("readings before the first survey fail unless allowed", "[heads][errors]") {
+  Site site;
+  site.levels = "well,time,depth\nW1,2019-06-01,3.0\n";
+  CHECK_THROWS_WITH(site.run(), Contains("row 2") && Contains("older than its first") &&
+                                    Contains("--allow-before-first"));
+  site.options.allow_before_first = true;
+  const Table t = site.run();
+  CHECK_THAT(flags(t, 0), Contains("before-first-survey"));
+  CHECK(t.cell(0, *t.find_column("contour")) == "no");
+}
+
+TEST_CASE("bad reading tables name the row", "[heads][errors]") {
+  Site site;
+  site.levels = "well,time,depth\nW9,2021-06-01,3.0\n";
+  CHECK_THROWS_WITH(site.run(), Contains("row 2") && Contains("'W9'") && Contains("wells table"));
+  site.levels = "well,time,depth\nW1,06/01/2021,3.0\n";
+  CHECK_THROWS_WITH(site.run(), Contains("column 'time'") && Contains("ISO 8601"));
+  site.levels = "well,time,depth\nW1,2021-06-01,muddy\n";
+  CHECK_THROWS_WITH(site.run(), Contains("'muddy'") && Contains("dry"));
+  // Millimetres in a metre column.
+  site.levels = "well,time,depth\nW1,2021-06-01,3000\n";
+  CHECK_THROWS_WITH(site.run(), Contains("not plausible") && Contains("--unit"));
+}
