@@ -138,9 +138,9 @@ TEST_CASE("each QA flag is raised when it applies and not otherwise", "[heads][q
   site.options.event = parse_iso8601("2021-06-10T12:00Z")->seconds;
   site.levels = "well,time,depth\n"
                 "W1,2021-06-10T08:00Z,3.000\n"    // 0 clean
-                "W1,2021-06-10T08:30Z,3.001\n"    // 1 repeat within 3 mm: clean
-                "W1,2021-06-10T09:00Z,3.010\n"    // 2 repeat 10 mm off: repeat-disagrees
-                "W1,2021-06-10T09:00Z,3.010\n"    // 3 duplicate
+                "W1,2021-06-10T08:05Z,3.001\n"    // 1 repeat within 3 mm: clean
+                "W1,2021-06-10T08:10Z,3.010\n"    // 2 repeat 10 mm off: repeat-disagrees
+                "W1,2021-06-10T08:10Z,3.010\n"    // 3 duplicate
                 "W1,2021-06-10T07:00Z,3.000\n"    // 4 out-of-order
                 "W1,2021-06-20T08:00Z,3.000\n"    // 5 outside the 48 h window
                 "W1,2021-06-11T08:00Z,-0.100\n"   // 6 water above the MP, not marked flowing

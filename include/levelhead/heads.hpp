@@ -43,7 +43,7 @@ struct HeadOptions {
   double depth_sigma = 0.003;           // m, a tape or sounder reading (about 0.01 ft)
   double mp_change_tolerance = 0.02;    // m, measuring point change between surveys
   double repeat_tolerance = 0.003;      // m, repeat readings must agree (about 0.01 ft)
-  double repeat_window_hours = 2.0;     // readings of a well this close are repeats
+  double repeat_window_hours = 0.25;    // readings of a well this close are repeats (15 min)
   std::optional<double> event;          // s since epoch: centre of a synoptic event
   double synoptic_window_hours = 48.0;  // the event's window (centred on it)
   double max_depth = 1000.0;            // m; deeper readings are errors (a unit mix-up)

@@ -9,6 +9,7 @@
 #include <fstream>
 #include <map>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace levelhead {
@@ -41,5 +42,7 @@ class OutputSet {
 
 // A CSV cell: quoted when it holds a comma, quote or line break.
 std::string csv_cell(const std::string& text);
+// The same, appended to `out` (no allocation for plain cells).
+void append_csv_cell(std::string& out, std::string_view text);
 
 }  // namespace levelhead

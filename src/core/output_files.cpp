@@ -80,14 +80,22 @@ void OutputSet::commit() {
   committed_ = true;
 }
 
-std::string csv_cell(const std::string& text) {
-  if (text.find_first_of(",\"\r\n") == std::string::npos) return text;
-  std::string out = "\"";
+void append_csv_cell(std::string& out, std::string_view text) {
+  if (text.find_first_of(",\"\r\n") == std::string_view::npos) {
+    out.append(text);
+    return;
+  }
+  out.push_back('"');
   for (char c : text) {
     out.push_back(c);
     if (c == '"') out.push_back('"');
   }
   out.push_back('"');
+}
+
+std::string csv_cell(const std::string& text) {
+  std::string out;
+  append_csv_cell(out, text);
   return out;
 }
 

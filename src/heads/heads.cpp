@@ -261,6 +261,13 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
 
   // 4. Readings, streamed.
   HeadsSummary summary;
+  std::string row;
+  const std::string target_cell = csv_cell(options.target);
+  std::vector<std::string> source_cells, transform_cells;
+  for (const MeasuringPointElevation& e : elevation) {
+    source_cells.push_back(csv_cell(e.source));
+    transform_cells.push_back(csv_cell(e.transform));
+  }
   std::vector<WellState> state(wells.wells.size());
   const double repeat_window = options.repeat_window_hours * 3600.0;
   const double half_window = options.synoptic_window_hours * 3600.0 / 2.0;
@@ -441,16 +448,34 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
 
       const int dp = decimals_for(sigma);
-      const std::string head_text = head ? fmt::format("{:.{}f}", *head, dp) : "";
       const std::string flag_text = fmt::format("{}", fmt::join(flags, " "));
-      heads_csv << csv_cell(well_id) << ',' << csv_cell(time_text) << ',' << head_text << ','
-                << (head ? fmt::format("{:.{}f}", sigma, dp + 1) : "") << ','
-                << csv_cell(options.target) << ',' << format_utc(time) << ','
-                << fmt::format("{:.4f},{:.4f}", mp, mp_sigma) << ',' << csv_cell(elevation[k].source)
-                << ',' << (depth ? fmt::format("{:.4f}", *depth) : "") << ','
-                << csv_cell(shown_state) << ',' << csv_cell(flag_text) << ','
-                << (contour ? "yes" : "no") << ',' << csv_cell(reason) << ','
-                << csv_cell(elevation[k].transform) << '\n';
+      // One buffer per row, written at once: this loop runs 1e7 times.
+      row.clear();
+      auto to = std::back_inserter(row);
+      append_csv_cell(row, well_id);
+      row += ',';
+      append_csv_cell(row, time_text);
+      row += ',';
+      if (head) fmt::format_to(to, "{:.{}f},{:.{}f}", *head, dp, sigma, dp + 1);
+      else row += ',';
+      row += ',';
+      row += target_cell;
+      row += ',';
+      row += format_utc(time);
+      fmt::format_to(to, ",{:.4f},{:.4f},", mp, mp_sigma);
+      row += source_cells[k];
+      row += ',';
+      if (depth) fmt::format_to(to, "{:.4f}", *depth);
+      row += ',';
+      append_csv_cell(row, shown_state);
+      row += ',';
+      append_csv_cell(row, flag_text);
+      row += contour ? ",yes," : ",no,";
+      append_csv_cell(row, reason);
+      row += ',';
+      row += transform_cells[k];
+      row += '\n';
+      heads_csv.write(row.data(), static_cast<std::streamsize>(row.size()));
       if (layer) {
         OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer));
         OGR_F_SetFieldString(f, 0, well_id.c_str());

@@ -1,0 +1,93 @@
+// Benchmark of `heads`: N water-level readings (default 1e7) of 200 invented
+// wells streamed from CSV to heads.csv and qa.csv; the GeoPackage is timed
+// separately on a tenth of the readings. Prints seconds, readings per second
+// and peak memory; writing the input file is not timed.
+//
+// usage: bench_heads [N]
+
+#include <sys/resource.h>
+
+#include <chrono>
+#include <filesystem>
+#include <fmt/format.h>
+#include <fstream>
+#include <random>
+
+#include "levelhead/heads.hpp"
+
+using namespace levelhead;
+using Clock = std::chrono::steady_clock;
+
+namespace {
+double peak_rss_mb() {
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  return static_cast<double>(usage.ru_maxrss) / 1024.0;
+}
+
+double run(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
+           const HeadOptions& options, const std::filesystem::path& levels,
+           const std::filesystem::path& out, bool geopackage, std::size_t& readings) {
+  const auto start = Clock::now();
+  const HeadsSummary s = compute_heads(wells, records, {}, ReferenceSet{}, ProjSettings{}, options,
+                                       levels, TableOptions{}, out, geopackage);
+  readings = s.readings;
+  return std::chrono::duration<double>(Clock::now() - start).count();
+}
+}  // namespace
+
+int main(int argc, char** argv) {
+  const std::size_t n = argc > 1 ? std::stoul(argv[1]) : 10000000;
+  const std::size_t n_wells = 200;
+  const auto folder = std::filesystem::temp_directory_path() / "levelhead-bench-heads";
+  std::filesystem::create_directories(folder);
+  std::mt19937_64 rng(5);
+  std::normal_distribution<double> noise(0.0, 0.2);
+  {
+    std::ofstream w(folder / "wells.csv"), m(folder / "mp.csv");
+    w << "id,x,y\n";
+    m << "well,valid_from,height,datum,sigma,reason\n";
+    for (std::size_t i = 0; i < n_wells; ++i) {
+      w << fmt::format("W{},{},{}\n", i, 500000 + 37 * i, 4400000 + 53 * (i % 17));
+      m << fmt::format("W{},2000-01-01,{:.3f},EPSG:5703,0.003,survey\n", i, 100.0 + 0.01 * i);
+      m << fmt::format("W{},2015-01-01,{:.3f},EPSG:5703,0.003,resurvey\n", i, 99.98 + 0.01 * i);
+    }
+    std::ofstream l(folder / "levels.csv");
+    l << "well,time,depth\n";
+    const auto write = [&](std::ofstream& out, std::size_t count) {
+      for (std::size_t k = 0; k < count; ++k) {
+        const std::size_t well = k % n_wells;
+        const std::size_t step = k / n_wells;  // one reading an hour per well
+        const long long seconds = 946684800LL + static_cast<long long>(step) * 3600;
+        const long long day = seconds / 86400, rest = seconds % 86400;
+        // Dates by day number: cheap, valid ISO 8601 from 2000-01-01 on.
+        const auto ymd = std::chrono::year_month_day{std::chrono::sys_days{std::chrono::days{day}}};
+        out << fmt::format("W{},{:04d}-{:02d}-{:02d}T{:02d}:00Z,{:.3f}\n", well,
+                           static_cast<int>(ymd.year()), static_cast<unsigned>(ymd.month()),
+                           static_cast<unsigned>(ymd.day()), rest / 3600, 5.0 + noise(rng));
+      }
+    };
+    write(l, n);
+    std::ofstream small(folder / "levels_small.csv");
+    small << "well,time,depth\n";
+    write(small, n / 10);
+  }
+  const WellSet wells = read_wells(read_table(folder / "wells.csv"));
+  const auto records = read_measuring_points(read_table(folder / "mp.csv"), wells);
+  HeadOptions options;
+  options.target = "EPSG:5703";
+  options.crs = "EPSG:32613";
+  options.interpolate = true;
+
+  std::size_t readings = 0;
+  const double csv_seconds = run(wells, records, options, folder / "levels.csv", folder / "out",
+                                 false, readings);
+  fmt::print("heads, CSV out: {} readings in {:.2f} s ({:.2f} M readings/s), peak {:.0f} MB\n",
+             readings, csv_seconds, readings / csv_seconds / 1e6, peak_rss_mb());
+  const double gpkg_seconds = run(wells, records, options, folder / "levels_small.csv",
+                                  folder / "out_gpkg", true, readings);
+  fmt::print("heads, CSV + GeoPackage: {} readings in {:.2f} s ({:.2f} M readings/s)\n", readings,
+             gpkg_seconds, readings / gpkg_seconds / 1e6);
+  std::filesystem::remove_all(folder);
+  return 0;
+}
