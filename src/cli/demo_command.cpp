@@ -1,6 +1,7 @@
 // `levelhead demo`: writes the built-in demo site's tables and runs the
 // chain on them with the same commands a user would type: field book ->
-// sections -> loops -> adjustment (with iterative data snooping).
+// sections -> loops -> adjustment (with iterative data snooping) -> heads of
+// wells whose tops were surveyed on an old site datum and by the network.
 
 #include <fmt/format.h>
 #include <memory>
@@ -34,6 +35,10 @@ CommandRunner add_demo_command(CLI::App& app) {
         {"reduce", (inputs / "fieldbook.csv").string()},
         {"loops", "--points", points, "--sections", sections},
         {"adjust", "--points", points, "--sections", sections, "--snoop"},
+        {"heads", "--wells", (inputs / "wells.csv").string(), "--mp",
+         (inputs / "measuring_points.csv").string(), "--levels", (inputs / "levels.csv").string(),
+         "--references", (inputs / "references.toml").string(), "--adjusted",
+         (folder / "adjust" / "heights.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613"},
     };
     for (const auto& stage : stages) {
       out << fmt::format("\n== levelhead {} ==\n", fmt::join(stage, " "));

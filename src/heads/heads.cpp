@@ -94,7 +94,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                            const std::filesystem::path& levels, const TableOptions& levels_table,
                            const std::filesystem::path& folder, bool geopackage) {
   options.validate();
-  std::vector<QaEntry> qa;
+  std::vector<QaEntry> qa;  // measuring-point entries; reading entries are streamed
 
   // 1. Every measuring point in the target reference.
   std::vector<MeasuringPointElevation> elevation(records.size());
@@ -255,6 +255,14 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     }
   } closer{gpkg};
 
+  std::ostream& qa_csv = out.open("qa.csv");
+  qa_csv << "table,row,well,time,flag,detail\n";
+  const auto write_qa = [&](const QaEntry& e) {
+    qa_csv << e.table << ',' << e.row << ',' << csv_cell(e.well) << ',' << csv_cell(e.time) << ','
+           << e.flag << ',' << csv_cell(e.detail) << '\n';
+  };
+  for (const QaEntry& e : qa) write_qa(e);
+
   std::ostream& heads_csv = out.open("heads.csv");
   heads_csv << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
                "flags,contour,reason,transform\n";
@@ -408,7 +416,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         for (const auto& [other_time, other_head] : ws.recent) {
           if (std::abs(other_head - *head) > options.repeat_tolerance) {
             flags.push_back("repeat-disagrees");
-            qa.push_back({well_id, time_text, "repeat-disagrees",
+            write_qa({well_id, time_text, "repeat-disagrees",
                           fmt::format("{:+.3f} m against the reading at {}", *head - other_head,
                                       format_utc(other_time)),
                           t.source_row(r), "levels"});
@@ -442,8 +450,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
       for (const std::string& f : flags) {
         ++summary.flags[f];
-        if (f != "repeat-disagrees" && f != "mp-sigma-unknown") {
-          qa.push_back({well_id, time_text, f, "", t.source_row(r), "levels"});
+        // Informational flags stay in heads.csv; qa.csv lists what needs a look.
+        if (f != "repeat-disagrees" && f != "mp-sigma-unknown" && f != "mp-interpolated") {
+          write_qa({well_id, time_text, f, "", t.source_row(r), "levels"});
         }
       }
 
@@ -505,12 +514,6 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     gpkg = nullptr;
   }
 
-  std::ostream& qa_csv = out.open("qa.csv");
-  qa_csv << "table,row,well,time,flag,detail\n";
-  for (const QaEntry& e : qa) {
-    qa_csv << e.table << ',' << e.row << ',' << csv_cell(e.well) << ',' << csv_cell(e.time) << ','
-           << e.flag << ',' << csv_cell(e.detail) << '\n';
-  }
   nlohmann::json s;
   s["levelhead_version"] = version_string();
   s["command"] = "heads";
