@@ -78,6 +78,7 @@ struct QaEntry {
 
 struct HeadsSummary {
   std::size_t readings = 0, heads = 0, states = 0, contourable = 0;
+  std::size_t remeasure = 0;  // wells on the re-measure list (with an event)
   std::map<std::string, std::size_t> flags;   // flag -> count
   std::map<std::string, std::size_t> states_by_kind;
 };
@@ -85,7 +86,9 @@ struct HeadsSummary {
 class HeadWriter;  // defined in heads.cpp
 
 // Writes heads.csv, qa.csv, measuring_points.csv, summary.json and (unless
-// no_geopackage) heads.gpkg into `folder`, all-or-nothing.
+// no_geopackage) heads.gpkg into `folder`, all-or-nothing; with an event also
+// event.csv (one head per well, neighbour checks; event_qa.hpp), nests.csv
+// (vertical differences in piezometer nests) and remeasure.csv.
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
                            const NetworkHeights& network, const ReferenceSet& references,
                            const ProjSettings& settings, const HeadOptions& options,

@@ -38,7 +38,8 @@ CommandRunner add_demo_command(CLI::App& app) {
         {"heads", "--wells", (inputs / "wells.csv").string(), "--mp",
          (inputs / "measuring_points.csv").string(), "--levels", (inputs / "levels.csv").string(),
          "--references", (inputs / "references.toml").string(), "--adjusted",
-         (folder / "adjust" / "heights.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613"},
+         (folder / "adjust" / "heights.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613",
+         "--event", "2026-10-11T12:00-06:00", "--synoptic-window", "72"},
     };
     for (const auto& stage : stages) {
       out << fmt::format("\n== levelhead {} ==\n", fmt::join(stage, " "));

@@ -85,6 +85,9 @@ CommandRunner add_heads_command(CLI::App& app) {
                          s.readings, wells.wells.size(), s.heads, options.target, s.states,
                          s.contourable);
       for (const auto& [flag, count] : s.flags) out << fmt::format("  {}: {}\n", flag, count);
+      if (options.event) {
+        out << fmt::format("{} well(s) on the re-measure list (remeasure.csv)\n", s.remeasure);
+      }
       out << fmt::format("Wrote heads.csv, qa.csv, measuring_points.csv, summary.json{} in {}\n",
                          a->no_geopackage ? "" : ", heads.gpkg", a->out);
     }

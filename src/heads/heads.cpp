@@ -13,6 +13,7 @@
 #include <nlohmann/json.hpp>
 
 #include "levelhead/errors.hpp"
+#include "levelhead/event_qa.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
 #include "util/option_checks.hpp"
@@ -83,6 +84,9 @@ struct History {
 
 struct WellState {
   double last_time = -INFINITY;
+  std::optional<EventHead> event;  // contourable reading nearest the event
+  double event_distance = INFINITY;
+  bool repeat_problem = false;
   std::deque<std::pair<double, double>> recent;  // (time, head) within the repeat window
 };
 
@@ -442,6 +446,16 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         }
       }
       const bool contour = reason.empty();
+      if (contour && options.event && std::abs(time - *options.event) < ws.event_distance) {
+        ws.event_distance = std::abs(time - *options.event);
+        std::optional<double> middle;
+        if (well.screen_top && well.screen_bottom) middle = 0.5 * (*well.screen_top + *well.screen_bottom);
+        ws.event = EventHead{well_id, well.aquifer, well.nest, time_text, well.x, well.y, *head, sigma,
+                             middle};
+      }
+      if (std::find(flags.begin(), flags.end(), "repeat-disagrees") != flags.end()) {
+        ws.repeat_problem = true;
+      }
       summary.heads += head.has_value();
       summary.contourable += contour;
       if (!shown_state.empty()) {
@@ -451,7 +465,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       for (const std::string& f : flags) {
         ++summary.flags[f];
         // Informational flags stay in heads.csv; qa.csv lists what needs a look.
-        if (f != "repeat-disagrees" && f != "mp-sigma-unknown" && f != "mp-interpolated") {
+        if (f != "repeat-disagrees" && f != "mp-sigma-unknown" && f != "mp-interpolated" &&
+            f != "outside-synoptic-window") {
           write_qa({well_id, time_text, f, "", t.source_row(r), "levels"});
         }
       }
@@ -514,7 +529,59 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     gpkg = nullptr;
   }
 
+  // 5. Across wells, for the synoptic event.
+  nlohmann::json event_summary = nullptr;
+  if (options.event) {
+    std::vector<EventHead> event_heads;
+    for (const WellState& ws : state) {
+      if (ws.event) event_heads.push_back(*ws.event);
+    }
+    const EventQaResult e = check_event(event_heads, EventQaOptions{});
+    std::ostream& ev = out.open("event.csv");
+    ev << "well,time,head,sigma,aquifer,nest,prediction,misfit,flags\n";
+    std::map<std::string, std::vector<std::string>> remeasure;
+    for (std::size_t i = 0; i < event_heads.size(); ++i) {
+      const EventHead& h = event_heads[i];
+      const EventCheck& c = e.wells[i];
+      const int dp = decimals_for(h.sigma);
+      ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
+         << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ',' << csv_cell(h.aquifer)
+         << ',' << csv_cell(h.nest) << ','
+         << (c.prediction ? fmt::format("{:.{}f}", *c.prediction, dp) : "") << ','
+         << (c.misfit ? fmt::format("{:+.{}f}", *c.misfit, dp) : "") << ','
+         << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
+      for (const std::string& f : c.flags) {
+        if (f == "neighbour-misfit") {
+          remeasure[h.well].push_back(fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
+        }
+        if (f == "mp-sigma-large") remeasure[h.well].push_back("measuring point too uncertain beside its neighbours");
+      }
+    }
+    for (std::size_t w = 0; w < wells.wells.size(); ++w) {
+      if (!state[w].event) remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
+      if (state[w].repeat_problem) remeasure[wells.wells[w].id].push_back("repeat readings disagree");
+    }
+    std::ostream& nests = out.open("nests.csv");
+    nests << "nest,shallow,deep,dh,sigma,direction,significant\n";
+    for (const NestPair& n : e.nests) {
+      nests << csv_cell(n.nest) << ',' << csv_cell(n.shallow) << ',' << csv_cell(n.deep) << ','
+            << fmt::format("{:+.4f},{:.4f}", n.dh, n.sigma) << ',' << n.direction << ','
+            << (n.significant ? "yes" : "no") << '\n';
+    }
+    std::ostream& rm = out.open("remeasure.csv");
+    rm << "well,reasons\n";
+    for (const auto& [well_id, reasons] : remeasure) {
+      rm << csv_cell(well_id) << ',' << csv_cell(fmt::format("{}", fmt::join(reasons, "; "))) << '\n';
+    }
+    event_summary = {{"centre", format_utc(*options.event)},
+                     {"wells_with_reading", event_heads.size()},
+                     {"remeasure", remeasure.size()},
+                     {"nest_pairs", e.nests.size()}};
+    summary.remeasure = remeasure.size();
+  }
+
   nlohmann::json s;
+  s["event"] = event_summary;
   s["levelhead_version"] = version_string();
   s["command"] = "heads";
   s["target_reference"] = options.target;

@@ -1,0 +1,62 @@
+#pragma once
+// QA across wells for one synoptic event, before contouring.
+//
+// In:  one head per well for the event (the contourable reading nearest to
+//      the event's centre within its window), with the well's position,
+//      aquifer, nest and screen.
+// Out: per well: a local planar prediction from its nearest neighbours in
+//      the same aquifer (leave-one-out, weighted least squares of a plane,
+//      up to 8 neighbours) and the misfit; flags:
+//        neighbour-misfit    |misfit| > max(tolerance, 3 sigma of misfit);
+//                            worst first, each flagged well then left out of
+//                            its neighbours' fits (as iterative data snooping)
+//        mp-sigma-large      the head's sigma exceeds a third of its
+//                            difference from the nearest neighbour: the
+//                            contour there says nothing
+//        multiple-aquifers   an aquifer label naming more than one unit
+//                            ('+' or ';'): left out of per-unit contouring
+//      per nest, between consecutive screens (shallow to deep):
+//        dh = head(shallow) - head(deep) (m); dh > 0: downward flow.
+// Units: m. Errors: none (wells that cannot be checked are marked so).
+
+#include <optional>
+#include <string>
+#include <vector>
+
+namespace levelhead {
+
+struct EventHead {
+  std::string well, aquifer, nest, time;
+  double x = 0.0, y = 0.0;
+  double head = 0.0, sigma = 0.0;                 // m
+  std::optional<double> screen_middle;            // m below ground
+};
+
+struct EventCheck {
+  std::optional<double> prediction, misfit;       // m
+  std::vector<std::string> flags;
+};
+
+struct NestPair {
+  std::string nest, shallow, deep;
+  double dh = 0.0, sigma = 0.0;                    // m
+  std::string direction;                           // downward, upward
+  bool significant = false;                        // |dh| > 2 sigma
+};
+
+struct EventQaOptions {
+  // m, smallest misfit ever flagged: heads depart from a local plane by
+  // centimetres to decimetres in ordinary aquifers (common practice; set it
+  // from the site's own scatter)
+  double neighbour_tolerance = 0.10;
+  std::size_t neighbours = 8;
+};
+
+struct EventQaResult {
+  std::vector<EventCheck> wells;   // in input order
+  std::vector<NestPair> nests;
+};
+
+EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOptions& options);
+
+}  // namespace levelhead
