@@ -121,6 +121,13 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
   CHECK(fs::exists(tmp.path() / "adjust" / "heights.csv"));
   CHECK(fs::exists(tmp.path() / "loops" / "loops.csv"));
   CHECK(fs::exists(tmp.path() / "reduce" / "setups.csv"));
+  CHECK(fs::exists(tmp.path() / "heads" / "heads.gpkg"));
+  CHECK(fs::exists(tmp.path() / "heads" / "event.csv"));
+  const auto flow = nlohmann::json::parse(std::ifstream(tmp.path() / "flow" / "flow.json"));
+  // The invented water table falls 1.2 mm/m east and 0.8 mm/m north: 1.44e-3
+  // towards atan2(1.2, 0.8) = 56.3 degrees; 3 mm noise on 7 wells allows a degree.
+  CHECK_THAT(flow["gradient"]["value"].get<double>(), Catch::Matchers::WithinAbs(1.442e-3, 0.05e-3));
+  CHECK_THAT(flow["azimuth"]["value"].get<double>(), Catch::Matchers::WithinAbs(56.3, 1.5));
   // The demo field book holds a 20 mm misreading on SBM-B -> MW-04: the loops
   // through it fail, and data snooping removes it before the final adjustment.
   CHECK_THAT(r.out, Contains("FAILED") && Contains("Removed (step 1): section SBM-B -> MW-04"));

@@ -24,6 +24,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       {"tie", add_tie_command(app)},
       {"gnss-check", add_gnss_check_command(app)},
       {"heads", add_heads_command(app)},
+      {"flow", add_flow_command(app)},
       {"demo", add_demo_command(app)},
   };
 

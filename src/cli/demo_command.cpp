@@ -1,7 +1,8 @@
 // `levelhead demo`: writes the built-in demo site's tables and runs the
 // chain on them with the same commands a user would type: field book ->
 // sections -> loops -> adjustment (with iterative data snooping) -> heads of
-// wells whose tops were surveyed on an old site datum and by the network.
+// wells whose tops were surveyed on an old site datum and by the network ->
+// gradient and flow for the October 2026 round.
 
 #include <fmt/format.h>
 #include <memory>
@@ -40,6 +41,9 @@ CommandRunner add_demo_command(CLI::App& app) {
          "--references", (inputs / "references.toml").string(), "--adjusted",
          (folder / "adjust" / "heights.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613",
          "--event", "2026-10-11T12:00-06:00", "--synoptic-window", "72"},
+        {"flow", "--heads", (folder / "heads" / "event.csv").string(), "--wells",
+         (inputs / "wells.csv").string(), "--conductivity", "1e-5", "1e-3", "--porosity", "0.15",
+         "0.30", "--distance", "500"},
     };
     for (const auto& stage : stages) {
       out << fmt::format("\n== levelhead {} ==\n", fmt::join(stage, " "));

@@ -1,0 +1,137 @@
+// `levelhead flow`: hydraulic gradient, flow direction and Darcy ranges.
+
+#include <cmath>
+#include <fmt/format.h>
+#include <memory>
+#include <nlohmann/json.hpp>
+#include <set>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "levelhead/errors.hpp"
+#include "levelhead/flow.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/table.hpp"
+#include "levelhead/version.hpp"
+#include "levelhead/wells.hpp"
+
+namespace levelhead::cli {
+
+namespace {
+struct FlowArguments {
+  std::string heads, wells, aquifer, out;
+  std::vector<double> conductivity, porosity;
+  std::optional<double> distance;
+  bool quiet = false;
+};
+
+std::optional<Range> range_option(const std::vector<double>& values, const char* name, double min,
+                                  double max) {
+  if (values.empty()) return std::nullopt;
+  if (values.size() != 2 || !(values[0] > min) || values[1] < values[0] || values[1] > max) {
+    throw OptionError(fmt::format("{} takes LOW HIGH with {} < LOW <= HIGH <= {}", name, min, max));
+  }
+  return Range{values[0], values[1]};
+}
+
+nlohmann::json range_json(const std::optional<Range>& r) {
+  return r ? nlohmann::json{{"low", r->low}, {"high", r->high}} : nlohmann::json(nullptr);
+}
+}  // namespace
+
+CommandRunner add_flow_command(CLI::App& app) {
+  auto a = std::make_shared<FlowArguments>();
+  CLI::App* c = app.add_subcommand("flow", "Hydraulic gradient and flow direction from heads "
+                                           "(one per well), with Darcy velocity ranges");
+  c->add_option("--heads", a->heads, "Heads, one per well (event.csv of heads --event)")->required();
+  c->add_option("--wells", a->wells, "Wells table (id, x, y, aquifer)")->required();
+  c->add_option("--aquifer", a->aquifer, "Use only wells of this aquifer");
+  c->add_option("--out", a->out, "Output folder")->required();
+  c->add_option("--conductivity", a->conductivity, "Hydraulic conductivity range LOW HIGH (m/s)")
+      ->expected(2);
+  c->add_option("--porosity", a->porosity, "Effective porosity range LOW HIGH (0..1)")->expected(2);
+  c->add_option("--distance", a->distance, "Distance for the travel time (m)");
+  c->add_flag("--quiet", a->quiet, "Print nothing on success");
+  return [a](std::ostream& out, std::ostream&) {
+    FlowOptions options;
+    options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
+    options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
+    options.distance = a->distance;
+    const WellSet wells = read_wells(read_table(a->wells));
+    const Table heads = read_table(a->heads);
+    const std::size_t well_col = heads.require_column("well"), head_col = heads.require_column("head");
+    const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
+    std::vector<FlowWell> used;
+    std::set<std::string> seen;
+    for (std::size_t r = 0; r < heads.row_count(); ++r) {
+      const auto h = heads.length(r, head_col);
+      if (!h) continue;
+      if (contour_col && heads.cell(r, *contour_col) == "no") continue;
+      const std::string id(heads.cell(r, well_col));
+      const auto it = wells.index.find(id);
+      if (it == wells.index.end()) {
+        throw InputError(heads.location(r, well_col), id, "this well is not in the wells table");
+      }
+      const Well& w = wells.wells[it->second];
+      if (!a->aquifer.empty() && w.aquifer != a->aquifer) continue;
+      if (!seen.insert(id).second) {
+        throw InputError(heads.location(r, well_col), id,
+                         "a well appears twice: a gradient needs one head per well (use event.csv "
+                         "of levelhead heads --event)");
+      }
+      const double sigma = sigma_col ? heads.length(r, *sigma_col).value_or(0.0) : 0.0;
+      used.push_back({id, w.x, w.y, *h, sigma});
+    }
+    const FlowResult f = estimate_flow(used, options);
+
+    OutputSet files(a->out);
+    std::ostream& csv = files.open("flow_wells.csv");
+    csv << "well,x,y,head,sigma,residual\n";
+    for (std::size_t i = 0; i < used.size(); ++i) {
+      csv << csv_cell(used[i].id)
+          << fmt::format(",{:.3f},{:.3f},{:.4f},{:.4f},{:+.4f}\n", used[i].x, used[i].y, used[i].head,
+                         used[i].sigma, f.residuals[i]);
+    }
+    nlohmann::json j;
+    j["levelhead_version"] = version_string();
+    j["command"] = "flow";
+    j["wells"] = used.size();
+    j["aquifer"] = a->aquifer;
+    j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}, {"unit", "m/m"}};
+    j["azimuth"] = {{"value", f.azimuth}, {"sigma", f.azimuth_sigma},
+                    {"unit", "degrees clockwise from grid north, direction of flow"}};
+    j["plane"] = {{"dh_dx", f.dh_dx}, {"dh_dy", f.dh_dy}, {"head_at_centroid", f.intercept},
+                  {"x0", f.x0}, {"y0", f.y0},
+                  {"covariance", {{f.cov_xx, f.cov_xy}, {f.cov_xy, f.cov_yy}}}};
+    j["dof"] = f.dof;
+    j["sigma0"] = f.sigma0 ? nlohmann::json(*f.sigma0) : nlohmann::json(nullptr);
+    j["nearly_collinear"] = f.nearly_collinear;
+    j["darcy"] = {{"conductivity_m_per_s", range_json(options.conductivity)},
+                  {"porosity", range_json(options.porosity)},
+                  {"specific_discharge_m_per_s", range_json(f.specific_discharge)},
+                  {"velocity_m_per_s", range_json(f.velocity)},
+                  {"distance_m", options.distance ? nlohmann::json(*options.distance) : nlohmann::json(nullptr)},
+                  {"travel_time_s", range_json(f.travel_time)}};
+    files.open("flow.json") << j.dump(2) << '\n';
+    files.commit();
+    if (!a->quiet) {
+      out << fmt::format("{} wells: gradient {:.2e} +- {:.1e} m/m, flow towards {:.1f} +- {:.1f} "
+                         "degrees from grid north\n",
+                         used.size(), f.gradient, f.gradient_sigma, f.azimuth, f.azimuth_sigma);
+      if (f.nearly_collinear) out << "Warning: the wells lie nearly on a line; the direction is weak\n";
+      if (f.velocity) {
+        out << fmt::format("  average linear velocity {:.2e} .. {:.2e} m/s ({:.3g} .. {:.3g} m/day)\n",
+                           f.velocity->low, f.velocity->high, f.velocity->low * 86400,
+                           f.velocity->high * 86400);
+      }
+      if (f.travel_time) {
+        out << fmt::format("  travel time over {} m: {:.3g} .. {:.3g} days\n", *options.distance,
+                           f.travel_time->low / 86400, f.travel_time->high / 86400);
+      }
+      out << fmt::format("Wrote flow.json and flow_wells.csv in {}\n", a->out);
+    }
+    return static_cast<int>(exit_ok);
+  };
+}
+
+}  // namespace levelhead::cli

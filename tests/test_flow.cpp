@@ -1,0 +1,98 @@
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <random>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/flow.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::Contains;
+using Catch::Matchers::WithinAbs;
+
+TEST_CASE("three wells give the exact three-point solution", "[flow]") {
+  // Three-point problem worked by hand: A (0, 0) 10.0 m, B (100, 0) 9.0 m,
+  // C (0, 100) 9.5 m. dh/dx = -0.01, dh/dy = -0.005; i = sqrt(1e-4 + 2.5e-5)
+  // = 0.0111803; flow along (0.01, 0.005): azimuth atan2(0.01, 0.005) = 63.4349 deg.
+  const FlowResult r = estimate_flow({{"A", 0, 0, 10.0, 0.01}, {"B", 100, 0, 9.0, 0.01},
+                                      {"C", 0, 100, 9.5, 0.01}},
+                                     FlowOptions{});
+  CHECK_THAT(r.dh_dx, WithinAbs(-0.01, 1e-12));
+  CHECK_THAT(r.dh_dy, WithinAbs(-0.005, 1e-12));
+  CHECK_THAT(r.gradient, WithinAbs(0.0111803399, 1e-9));
+  CHECK_THAT(r.azimuth, WithinAbs(63.4349488, 1e-6));
+  CHECK(r.dof == 0);
+  CHECK_FALSE(r.sigma0);
+}
+
+TEST_CASE("noise-free planes give gradient and azimuth in all four quadrants", "[flow]") {
+  for (double azimuth : {30.0, 135.0, 200.0, 315.0}) {
+    INFO(azimuth);
+    const double i = 0.004, a = azimuth * M_PI / 180.0;
+    // Flow towards the azimuth: heads fall along (sin a, cos a).
+    const auto h = [&](double x, double y) { return 50.0 - i * (x * std::sin(a) + y * std::cos(a)); };
+    std::vector<FlowWell> wells;
+    for (auto [x, y] : std::vector<std::pair<double, double>>{{0, 0}, {400, 50}, {120, 380}, {500, 500}, {250, 200}}) {
+      wells.push_back({"W", x, y, h(x, y), 0.005});
+    }
+    const FlowResult r = estimate_flow(wells, FlowOptions{});
+    CHECK_THAT(r.gradient, WithinAbs(i, 1e-12));
+    CHECK_THAT(r.azimuth, WithinAbs(azimuth, 1e-8));
+    for (double v : r.residuals) CHECK_THAT(v, WithinAbs(0.0, 1e-9));
+  }
+}
+
+TEST_CASE("collinear wells are refused and nearly collinear ones warned", "[flow][errors]") {
+  CHECK_THROWS_WITH(estimate_flow({{"A", 0, 0, 10, 0.01}, {"B", 100, 100, 9, 0.01},
+                                   {"C", 200, 200, 8, 0.01}},
+                                  FlowOptions{}),
+                    Contains("on a line"));
+  const FlowResult r = estimate_flow({{"A", 0, 0, 10, 0.01}, {"B", 100, 1, 9, 0.01},
+                                      {"C", 200, 0, 8, 0.01}},
+                                     FlowOptions{});
+  CHECK(r.nearly_collinear);
+  CHECK_THROWS_AS(estimate_flow({{"A", 0, 0, 10, 0.01}}, FlowOptions{}), InputError);
+}
+
+TEST_CASE("the propagated gradient sigma agrees with Monte Carlo", "[flow]") {
+  // Sampling heads from their covariance (independent, 1 cm) and refitting:
+  // the spread of the gradient and azimuth must match the first-order
+  // propagation within 5 % (20000 samples: sampling error of a standard
+  // deviation about 0.5 %).
+  std::vector<FlowWell> wells = {{"A", 0, 0, 0, 0.01},     {"B", 600, 80, 0, 0.01},
+                                 {"C", 150, 550, 0, 0.01}, {"D", 700, 650, 0, 0.01},
+                                 {"E", 350, 300, 0, 0.01}};
+  for (FlowWell& w : wells) w.head = 30.0 - 0.003 * w.x - 0.002 * w.y;
+  const FlowResult truth = estimate_flow(wells, FlowOptions{});
+  std::mt19937_64 rng(17);
+  std::normal_distribution<double> noise(0.0, 0.01);
+  double sum = 0, sum2 = 0, asum = 0, asum2 = 0;
+  const int samples = 20000;
+  for (int s = 0; s < samples; ++s) {
+    std::vector<FlowWell> noisy = wells;
+    for (FlowWell& w : noisy) w.head += noise(rng);
+    const FlowResult r = estimate_flow(noisy, FlowOptions{});
+    sum += r.gradient, sum2 += r.gradient * r.gradient;
+    asum += r.azimuth, asum2 += r.azimuth * r.azimuth;
+  }
+  const double sd = std::sqrt(sum2 / samples - (sum / samples) * (sum / samples));
+  const double asd = std::sqrt(asum2 / samples - (asum / samples) * (asum / samples));
+  // Without redundancy scaling: the noise-free fit has sigma0 = 0, so scale 1.
+  CHECK_THAT(sd, WithinAbs(truth.gradient_sigma, 0.05 * truth.gradient_sigma));
+  CHECK_THAT(asd, WithinAbs(truth.azimuth_sigma, 0.05 * truth.azimuth_sigma));
+}
+
+TEST_CASE("Darcy ranges from conductivity and porosity ranges", "[flow]") {
+  FlowOptions o;
+  o.conductivity = Range{1e-5, 1e-3};
+  o.porosity = Range{0.1, 0.3};
+  o.distance = 100.0;
+  const FlowResult r = estimate_flow({{"A", 0, 0, 10.0, 0.01}, {"B", 100, 0, 9.0, 0.01},
+                                      {"C", 0, 100, 10.0, 0.01}},
+                                     o);
+  // i = 0.01: q = 1e-7 .. 1e-5 m/s; v = q / n_e = 1e-7/0.3 .. 1e-5/0.1; t = 100 m / v.
+  CHECK_THAT(r.specific_discharge->low, WithinAbs(1e-7, 1e-18));
+  CHECK_THAT(r.specific_discharge->high, WithinAbs(1e-5, 1e-16));
+  CHECK_THAT(r.velocity->high, WithinAbs(1e-4, 1e-15));
+  CHECK_THAT(r.travel_time->low, WithinAbs(1e6, 1e-3));
+  CHECK_THAT(r.travel_time->high, WithinAbs(100.0 / (1e-7 / 0.3), 1.0));
+}
