@@ -183,3 +183,19 @@ TEST_CASE("bad reading tables name the row", "[heads][errors]") {
   site.levels = "well,time,depth\nW1,2021-06-01,3000\n";
   CHECK_THROWS_WITH(site.run(), Contains("not plausible") && Contains("--unit"));
 }
+
+TEST_CASE("saline wells get a freshwater head at their screen", "[heads][density]") {
+  Site site;
+  site.wells = "id,x,y,ground,screen_top,screen_bottom,density\n"
+               "W1,500000,4400000,12.0,28,32,1025\nW2,500100,4400050,104.0,5,15,\n";
+  site.levels = "well,time,depth,temperature,salinity\n"
+                "W1,2021-06-01,2.000,,\n"        // well density 1025
+                "W2,2021-06-01,3.250,5,35\n";    // EOS-80: 1027.675 kg/m^3
+  const Table t = site.run();
+  const std::size_t fresh = *t.find_column("freshwater_head");
+  // W1: h = 8.000, screen at 12 - 30 = -18: h_f = 1.025 * 8 + 0.025 * 18 = 8.65 (by hand).
+  CHECK_THAT(*t.number(0, fresh), WithinAbs(8.650, 1e-9));
+  // W2: h = 100.000, screen at 104 - 10 = 94: h_f = 1.027675 * 100 - 0.027675 * 94.
+  const double rho = 1027.67547 / 1000.0;
+  CHECK_THAT(*t.number(1, fresh), WithinAbs(rho * 100.0 - (rho - 1.0) * 94.0, 1e-3));
+}

@@ -12,6 +12,7 @@
 #include <fmt/format.h>
 #include <nlohmann/json.hpp>
 
+#include "levelhead/density.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/event_qa.hpp"
 #include "levelhead/output_files.hpp"
@@ -269,7 +270,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
 
   std::ostream& heads_csv = out.open("heads.csv");
   heads_csv << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
-               "flags,contour,reason,transform\n";
+               "flags,contour,reason,transform,density,freshwater_head\n";
 
   // 4. Readings, streamed.
   HeadsSummary summary;
@@ -288,6 +289,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     const std::size_t depth_col = t.require_column("depth");
     const auto status_col = t.find_column("status"), sigma_col = t.find_column("sigma");
     const auto above_col = t.find_column("above");
+    const auto density_col = t.find_column("density");
+    const auto temperature_col = t.find_column("temperature");
+    const auto salinity_col = t.find_column("salinity");
     const double unit = metres_per_unit(t.length_unit());
     for (std::size_t r = 0; r < t.row_count(); ++r) {
       ++summary.readings;
@@ -396,6 +400,23 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         head = mp + *above;
       }
       const double sigma = std::hypot(mp_sigma, depth_sigma);
+      // Saline wells: the density of this reading, else from its temperature
+      // and salinity, else the well's; then the freshwater head at the screen.
+      std::optional<double> density = density_col ? t.number(r, *density_col) : std::nullopt;
+      if (!density && temperature_col && salinity_col) {
+        const auto tc = t.number(r, *temperature_col), sal = t.number(r, *salinity_col);
+        if (tc && sal) density = water_density_eos80(*sal, *tc);
+      }
+      if (!density) density = well.density;
+      std::optional<double> fresh_head;
+      if (density && head) {
+        if (well.ground && well.screen_top && well.screen_bottom) {
+          const double screen = *well.ground - 0.5 * (*well.screen_top + *well.screen_bottom);
+          fresh_head = freshwater_head(*head, *density, screen);
+        } else {
+          flags.push_back("freshwater-head-needs-screen");
+        }
+      }
       if (head && well.ground && !flowing && *head > *well.ground) flags.push_back("water-above-ground");
       if (head && well.ground && well.screen_bottom && *head < *well.ground - *well.screen_bottom) {
         flags.push_back("below-screen-bottom");
@@ -498,6 +519,10 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       append_csv_cell(row, reason);
       row += ',';
       row += transform_cells[k];
+      row += ',';
+      if (density) fmt::format_to(to, "{:.2f}", *density);
+      row += ',';
+      if (fresh_head) fmt::format_to(to, "{:.{}f}", *fresh_head, dp);
       row += '\n';
       heads_csv.write(row.data(), static_cast<std::streamsize>(row.size()));
       if (layer) {

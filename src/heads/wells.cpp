@@ -17,6 +17,7 @@ WellSet read_wells(const Table& t) {
   const auto ground = t.find_column("ground"), ground_datum = t.find_column("ground_datum");
   const auto top = t.find_column("screen_top"), bottom = t.find_column("screen_bottom");
   const auto nest = t.find_column("nest"), aquifer = t.find_column("aquifer");
+  const auto density = t.find_column("density");
   WellSet set{t.source(), {}, {}};
   for (std::size_t r = 0; r < t.row_count(); ++r) {
     Well w;
@@ -32,6 +33,7 @@ WellSet read_wells(const Table& t) {
     if (bottom) w.screen_bottom = t.length(r, *bottom);
     if (nest) w.nest = std::string(t.cell(r, *nest));
     if (aquifer) w.aquifer = std::string(t.cell(r, *aquifer));
+    if (density) w.density = t.number(r, *density);
     w.row = t.source_row(r);
     if (!set.index.emplace(w.id, set.wells.size()).second) {
       throw InputError(t.location(r, id), w.id, "this well id appears twice; ids must be unique");
