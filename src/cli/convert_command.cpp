@@ -5,6 +5,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "cli/reference_inputs.hpp"
 #include "levelhead/height_conversion.hpp"
 #include "levelhead/references_file.hpp"
 #include "levelhead/table.hpp"
@@ -14,10 +15,10 @@ namespace levelhead::cli {
 
 namespace {
 struct ConvertArguments {
-  std::string from, to, input, output, crs, unit, columns, layer, references;
-  std::vector<std::string> grid_paths;
+  std::string from, to, input, output, crs, unit, columns, layer;
+  ReferenceInputs refs;
   std::optional<double> epoch;
-  bool network = false, lenient = false, quiet = false;
+  bool lenient = false, quiet = false;
 };
 }  // namespace
 
@@ -38,19 +39,14 @@ CommandRunner add_convert_command(CLI::App& app) {
                              "unit of --from, else m)");
   c->add_option("--columns", a->columns, "Column map, e.g. height=Elev,x=E,y=N");
   c->add_option("--layer", a->layer, "Layer or sheet of the input file");
-  c->add_option("--references", a->references, "TOML file defining references of our own");
-  c->add_option("--grid-path", a->grid_paths, "Folder searched for grids before PROJ_DATA");
+  add_reference_options(*c, a->refs);
   c->add_option("--epoch", a->epoch, "Epoch of the heights (decimal year), for dynamic references");
-  c->add_flag("--network", a->network, "Let PROJ download missing grids (off by default)");
   c->add_flag("--lenient", a->lenient,
               "Write the points that convert and flag the others instead of failing");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a, unit](std::ostream& out, std::ostream&) {
-    ProjSettings settings;
-    for (const auto& p : a->grid_paths) settings.grid_paths.emplace_back(p);
-    settings.allow_network = a->network;
-    const ReferenceSet references =
-        a->references.empty() ? ReferenceSet{} : ReferenceSet::load(a->references);
+    const ProjSettings settings = a->refs.settings();
+    const ReferenceSet references = a->refs.load();
     HeightConverter converter(a->from, a->to, a->crs, references, settings, a->epoch);
     // Heights are in the unit declared, else in the source reference's own unit.
     LengthUnit table_unit = LengthUnit::metre;

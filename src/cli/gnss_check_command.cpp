@@ -9,6 +9,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "cli/reference_inputs.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/gnss_check.hpp"
 #include "levelhead/height_converter.hpp"
@@ -20,8 +21,8 @@ namespace levelhead::cli {
 
 namespace {
 struct GnssArguments {
-  std::string levelled, levelled_ref, gnss, gnss_ref = "EPSG:4979", crs, out, references, unit = "m";
-  std::vector<std::string> grid_paths;
+  std::string levelled, levelled_ref, gnss, gnss_ref = "EPSG:4979", crs, out, unit = "m";
+  ReferenceInputs refs;
   double tolerance = 0.05;
   bool strict = false, quiet = false;
 };
@@ -38,8 +39,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       ->capture_default_str();
   c->add_option("--crs", a->crs, "CRS of the GNSS table's x and y")->required();
   c->add_option("--out", a->out, "Output folder")->required();
-  c->add_option("--references", a->references, "References file (TOML)");
-  c->add_option("--grid-path", a->grid_paths, "Folder searched for grids before PROJ_DATA");
+  add_reference_options(*c, a->refs);
   c->add_option("--unit", a->unit, "Length unit of both tables")->capture_default_str();
   c->add_option("--tolerance", a->tolerance,
                 "Largest difference accepted as consistent (m); 3 sigma is used when larger")
@@ -83,10 +83,8 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
                                             "match",
                                             a->gnss, a->levelled));
     }
-    ProjSettings settings;
-    for (const auto& p : a->grid_paths) settings.grid_paths.emplace_back(p);
-    const ReferenceSet references =
-        a->references.empty() ? ReferenceSet{} : ReferenceSet::load(a->references);
+    const ProjSettings settings = a->refs.settings();
+    const ReferenceSet references = a->refs.load();
     HeightConverter converter(a->gnss_ref, a->levelled_ref, a->crs, references, settings);
     const std::vector<ConvertedHeight> converted = converter.convert(points, heights);
     for (std::size_t i = 0; i < marks.size(); ++i) {

@@ -5,6 +5,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "cli/reference_inputs.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/heads.hpp"
 #include "levelhead/table.hpp"
@@ -13,8 +14,8 @@ namespace levelhead::cli {
 
 namespace {
 struct HeadArguments {
-  std::string wells, mp, levels, out, references, adjusted, event, unit = "m";
-  std::vector<std::string> grid_paths;
+  std::string wells, mp, levels, out, adjusted, event, unit = "m";
+  ReferenceInputs refs;
   HeadOptions options;
   bool no_geopackage = false, strict = false, quiet = false;
 };
@@ -24,7 +25,7 @@ CommandRunner add_heads_command(CLI::App& app) {
   auto a = std::make_shared<HeadArguments>();
   HeadOptions& o = a->options;
   CLI::App* c = app.add_subcommand("heads", "Heads from water levels, measuring-point histories and "
-                                            "vertical references, with QA before contouring");
+                                            "vertical with QA before contouring");
   c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, screen_top, screen_bottom, ...)")
       ->required();
   c->add_option("--mp", a->mp, "Measuring-point history (well, valid_from, height, datum, sigma, ...)")
@@ -33,10 +34,9 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_option("--to", o.target, "Target vertical reference of the heads")->required();
   c->add_option("--crs", o.crs, "CRS of the wells' x and y")->required();
   c->add_option("--out", a->out, "Output folder")->required();
-  c->add_option("--references", a->references, "References file (TOML)");
   c->add_option("--adjusted", a->adjusted,
                 "heights.csv of levelhead adjust, for measuring points that name a network point");
-  c->add_option("--grid-path", a->grid_paths, "Folder searched for grids before PROJ_DATA");
+  add_reference_options(*c, a->refs);
   c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
   c->add_flag("--interpolate", o.interpolate,
               "Interpolate the measuring point linearly between surveys (moving ground)");
@@ -73,10 +73,8 @@ CommandRunner add_heads_command(CLI::App& app) {
     const auto records = read_measuring_points(read_table(a->mp, table_options), wells);
     const NetworkHeights network =
         a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
-    const ReferenceSet references =
-        a->references.empty() ? ReferenceSet{} : ReferenceSet::load(a->references);
-    ProjSettings settings;
-    for (const auto& p : a->grid_paths) settings.grid_paths.emplace_back(p);
+    const ReferenceSet references = a->refs.load();
+    const ProjSettings settings = a->refs.settings();
     const HeadsSummary s = compute_heads(wells, records, network, references, settings, options,
                                          a->levels, table_options, a->out, !a->no_geopackage);
     if (!a->quiet) {
