@@ -2,6 +2,7 @@
 
 #include <catch2/catch.hpp>
 
+#include <fmt/format.h>
 #include <fstream>
 
 #include "levelhead/errors.hpp"
@@ -198,4 +199,46 @@ TEST_CASE("saline wells get a freshwater head at their screen", "[heads][density
   // W2: h = 100.000, screen at 104 - 10 = 94: h_f = 1.027675 * 100 - 0.027675 * 94.
   const double rho = 1027.67547 / 1000.0;
   CHECK_THAT(*t.number(1, fresh), WithinAbs(rho * 100.0 - (rho - 1.0) * 94.0, 1e-3));
+}
+
+TEST_CASE("measuring points without sigma take one from their method", "[heads]") {
+  Site site;
+  site.mp = "well,valid_from,height,datum,method\nW1,2020-01-01,10.000,EPSG:5703,gnss\n"
+            "W2,2020-01-01,8.000,site-1998,map\n";
+  site.levels = "well,time,depth\nW1,2021-06-01,3.0\n";
+  CHECK_THROWS_WITH(site.run(), Contains("--map-contour-interval"));
+  site.options.map_contour_interval = 1.0;
+  const Table t = site.run();
+  // gnss: 0.03 m (from memory, common practice) with the 0.003 m depth sigma.
+  // (printed to 1 mm for a 3 cm sigma: compare to half of that)
+  CHECK_THAT(*t.number(0, *t.find_column("sigma")), WithinAbs(std::hypot(0.03, 0.003), 5e-4));
+  CHECK_THAT(flags(t, 0), Contains("mp-sigma-from-method"));
+  CHECK(method_sigma("map", 2.0) == 1.0);
+  CHECK_FALSE(method_sigma("guess", std::nullopt));
+}
+
+TEST_CASE("a head off its well's own trend goes on the re-measure list", "[heads][qa]") {
+  Site site;
+  site.options.event = parse_iso8601("2021-06-20T12:00Z")->seconds;
+  site.options.synoptic_window_hours = 24 * 40;
+  std::string levels = "well,time,depth\n";
+  for (int d = 1; d <= 20; ++d) {
+    const double depth = 3.0 + 0.01 * d + (d == 12 ? 0.8 : 0.0);  // one reading 0.8 m off
+    levels += fmt::format("W1,2021-06-{:02d}T08:00Z,{:.3f}\n", d, depth);
+  }
+  site.levels = levels;
+  site.run();
+  const Table qa = site.qa();
+  std::size_t departures = 0;
+  for (std::size_t r = 0; r < qa.row_count(); ++r) {
+    if (qa.cell(r, *qa.find_column("flag")) == "departs-from-history") {
+      ++departures;
+      CHECK_THAT(std::string(qa.cell(r, *qa.find_column("time"))), Contains("2021-06-12"));
+    }
+  }
+  CHECK(departures == 1);
+  const Table rm = read_table(site.tmp.path() / "out" / "remeasure.csv");
+  bool listed = false;
+  for (std::size_t r = 0; r < rm.row_count(); ++r) listed = listed || rm.cell(r, 0) == "W1";
+  CHECK(listed);
 }

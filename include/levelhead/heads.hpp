@@ -47,8 +47,16 @@ struct HeadOptions {
   std::optional<double> event;          // s since epoch: centre of a synoptic event
   double synoptic_window_hours = 48.0;  // the event's window (centred on it)
   double max_depth = 1000.0;            // m; deeper readings are errors (a unit mix-up)
+  std::optional<double> map_contour_interval;  // m, for measuring points read from a map
+  double history_tolerance = 0.30;      // m, smallest departure from a well's own trend flagged
   void validate() const;
 };
+
+// Standard deviation of a measuring-point height by survey method, for
+// records that give none (common practice, from memory): levelled 0.005 m,
+// gnss 0.03 m, hand-level 0.02 m, altimeter 1.0 m, map half the contour
+// interval. nullopt for an unknown method (the head is then flagged).
+std::optional<double> method_sigma(const std::string& method, std::optional<double> contour_interval);
 
 struct NetworkHeight {
   double height = 0.0;

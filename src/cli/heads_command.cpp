@@ -56,6 +56,11 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_option("--repeat-window", o.repeat_window_hours,
                 "Readings of a well this close in time are repeats (h)")
       ->capture_default_str();
+  c->add_option("--map-contour-interval", o.map_contour_interval,
+                "Contour interval of maps measuring points were read from (m); sigma = half of it");
+  c->add_option("--history-tolerance", o.history_tolerance,
+                "Smallest departure of a head from its well's own trend that is flagged (m)")
+      ->capture_default_str();
   c->add_flag("--no-gpkg", a->no_geopackage, "Do not write heads.gpkg");
   c->add_flag("--strict", a->strict, "Exit with status 3 when any reading is flagged");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");

@@ -29,7 +29,25 @@ void HeadOptions::validate() const {
   util::require_positive(repeat_window_hours, "repeat window", "h");
   util::require_positive(synoptic_window_hours, "synoptic window", "h");
   util::require_positive(max_depth, "largest plausible depth", "m");
+  util::require_positive(history_tolerance, "history tolerance", "m");
+  if (map_contour_interval) util::require_positive(*map_contour_interval, "map contour interval", "m");
   if (target.empty()) throw OptionError("a target reference is needed (--to)");
+}
+
+std::optional<double> method_sigma(const std::string& method, std::optional<double> contour_interval) {
+  const std::string m = util::to_lower(method);
+  if (m == "levelled" || m == "leveled" || m == "levelling") return 0.005;
+  if (m == "gnss" || m == "gps" || m == "rtk") return 0.03;
+  if (m == "hand-level") return 0.02;
+  if (m == "altimeter") return 1.0;
+  if (m == "map") {
+    if (!contour_interval) {
+      throw OptionError("a measuring point read from a map has no sigma: give the map's contour "
+                        "interval (--map-contour-interval) or the record's sigma");
+    }
+    return 0.5 * *contour_interval;
+  }
+  return std::nullopt;
 }
 
 NetworkHeights read_network_heights(const Table& t) {
@@ -88,6 +106,7 @@ struct WellState {
   std::optional<EventHead> event;  // contourable reading nearest the event
   double event_distance = INFINITY;
   bool repeat_problem = false;
+  std::vector<std::pair<double, double>> series;  // (time, head) of contourable numeric heads
   std::deque<std::pair<double, double>> recent;  // (time, head) within the repeat window
 };
 
@@ -126,7 +145,12 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
     } else {
       given[k] = *m.height;
-      if (m.sigma) given_sigma[k] = *m.sigma;
+      if (m.sigma) {
+        given_sigma[k] = *m.sigma;
+      } else if (const auto by_method = method_sigma(m.method, options.map_contour_interval)) {
+        given_sigma[k] = *by_method;
+        elevation[k].flags.push_back("mp-sigma-from-method");
+      }
       elevation[k].source = m.source.empty() ? m.datum : m.source;
     }
     by_datum[datum].push_back(k);
@@ -169,7 +193,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       e.sigma = std::sqrt(s * s + converted[j].variance_added);
       e.sigma_known = !std::isnan(given_sigma[k]) && converted[j].variance_complete;
       e.transform = converted[j].transform;
-      e.flags = converted[j].flags;
+      e.flags.insert(e.flags.end(), converted[j].flags.begin(), converted[j].flags.end());
       if (!e.sigma_known) e.flags.push_back("mp-sigma-unknown");
     }
   }
@@ -477,6 +501,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       if (std::find(flags.begin(), flags.end(), "repeat-disagrees") != flags.end()) {
         ws.repeat_problem = true;
       }
+      if (head && (reason.empty() || reason == "outside-synoptic-window")) {
+        ws.series.emplace_back(time, *head);
+      }
       summary.heads += head.has_value();
       summary.contourable += contour;
       if (!shown_state.empty()) {
@@ -554,7 +581,40 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     gpkg = nullptr;
   }
 
-  // 5. Across wells, for the synoptic event.
+  // 5. Each well against its own history: a head that departs from the
+  // running median of its 5 neighbours in time on each side by more than
+  // max(tolerance, 5 * 1.4826 * MAD of the well's departures) (a robust
+  // scale, Hampel 1974) goes on the re-measure list.
+  std::map<std::string, std::vector<std::string>> history_departures;
+  for (std::size_t w = 0; w < state.size(); ++w) {
+    auto& series = state[w].series;
+    if (series.size() < 7) continue;
+    std::sort(series.begin(), series.end());
+    std::vector<double> departure(series.size());
+    for (std::size_t i = 0; i < series.size(); ++i) {
+      std::vector<double> around;
+      for (std::size_t j = i >= 5 ? i - 5 : 0; j <= std::min(series.size() - 1, i + 5); ++j) {
+        if (j != i) around.push_back(series[j].second);
+      }
+      std::nth_element(around.begin(), around.begin() + around.size() / 2, around.end());
+      departure[i] = series[i].second - around[around.size() / 2];
+    }
+    std::vector<double> magnitude;
+    for (double d : departure) magnitude.push_back(std::abs(d));
+    std::nth_element(magnitude.begin(), magnitude.begin() + magnitude.size() / 2, magnitude.end());
+    const double limit = std::max(options.history_tolerance, 5.0 * 1.4826 * magnitude[magnitude.size() / 2]);
+    for (std::size_t i = 0; i < series.size(); ++i) {
+      if (std::abs(departure[i]) <= limit) continue;
+      const std::string when = format_utc(series[i].first);
+      write_qa({wells.wells[w].id, when, "departs-from-history",
+                fmt::format("{:+.3f} m from the well's running median", departure[i]), 0, "levels"});
+      history_departures[wells.wells[w].id].push_back(
+          fmt::format("head at {} departs {:+.3f} m from its own trend", when, departure[i]));
+      ++summary.flags["departs-from-history"];
+    }
+  }
+
+  // 6. Across wells, for the synoptic event.
   nlohmann::json event_summary = nullptr;
   if (options.event) {
     std::vector<EventHead> event_heads;
@@ -585,6 +645,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     for (std::size_t w = 0; w < wells.wells.size(); ++w) {
       if (!state[w].event) remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
       if (state[w].repeat_problem) remeasure[wells.wells[w].id].push_back("repeat readings disagree");
+      for (const std::string& d : history_departures[wells.wells[w].id]) {
+        remeasure[wells.wells[w].id].push_back(d);
+      }
     }
     std::ostream& nests = out.open("nests.csv");
     nests << "nest,shallow,deep,dh,sigma,direction,significant\n";
@@ -628,6 +691,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                   {"repeat_window_hours", options.repeat_window_hours},
                   {"synoptic_window_hours", options.synoptic_window_hours},
                   {"max_depth", options.max_depth},
+                  {"history_tolerance", options.history_tolerance},
                   {"event", options.event ? nlohmann::json(format_utc(*options.event))
                                           : nlohmann::json(nullptr)}};
   out.open("summary.json") << s.dump(2) << '\n';
