@@ -86,8 +86,9 @@ class VerticalTransformer {
   // Notes such as a more accurate operation that needs a grid not installed.
   const std::vector<std::string>& warnings() const;
 
+  struct Impl;  // PROJ state of one context (public name for the helpers in the .cpp)
+
  private:
-  struct Impl;
   std::unique_ptr<Impl> impl_;
 };
 

@@ -13,6 +13,7 @@
 #include <fmt/format.h>
 #include <fstream>
 #include <sstream>
+#include <thread>
 
 #include "levelhead/errors.hpp"
 
@@ -190,7 +191,14 @@ struct VerticalTransformer::Impl {
     return PjPtr(proj_normalize_for_visualization(ctx.get(), raw.get()));
   }
 
-  void find_operations() {
+  struct Arguments {
+    std::string from, to, horizontal;
+    ProjSettings settings;
+    std::optional<double> epoch;
+  } arguments;
+  std::vector<std::unique_ptr<Impl>> workers;  // one per extra thread, built on first use
+
+  void find_operations(bool provenance) {
     PJ_OPERATION_FACTORY_CONTEXT* factory = proj_create_operation_factory_context(ctx.get(), nullptr);
     proj_operation_factory_context_set_allow_ballpark_transformations(ctx.get(), factory, 0);
     proj_operation_factory_context_set_spatial_criterion(
@@ -237,7 +245,9 @@ struct VerticalTransformer::Impl {
         }
         continue;
       }
-      for (GridUse& grid : record.grids) grid.sha256 = file_sha256(grid.path);
+      if (provenance) {
+        for (GridUse& grid : record.grids) grid.sha256 = file_sha256(grid.path);
+      }
       const char* pipeline = proj_as_proj_string(ctx.get(), op.get(), PJ_PROJ_5, nullptr);
       record.pipeline = pipeline ? pipeline : "";
       Candidate c;
@@ -277,10 +287,15 @@ struct VerticalTransformer::Impl {
   }
 };
 
-VerticalTransformer::VerticalTransformer(const std::string& from, const std::string& to,
-                                         const std::string& horizontal_crs,
-                                         const ProjSettings& settings, std::optional<double> epoch)
-    : impl_(std::make_unique<Impl>()) {
+namespace {
+
+// Sets up one context with everything a conversion needs. Each thread of a
+// batch gets its own (PROJ contexts and operations are not shared between
+// threads).
+void build(VerticalTransformer::Impl& impl, const std::string& from, const std::string& to,
+           const std::string& horizontal_crs, const ProjSettings& settings,
+           std::optional<double> epoch, bool provenance) {
+  auto* impl_ = &impl;
   PJ_CONTEXT* ctx = impl_->ctx.get();
   proj_log_level(ctx, PJ_LOG_NONE);
   proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
@@ -331,7 +346,17 @@ VerticalTransformer::VerticalTransformer(const std::string& from, const std::str
   }
   PjPtr lonlat(proj_create(ctx, "EPSG:4326"));
   impl_->to_lonlat = impl_->horizontal_transform(impl_->points_crs.get(), lonlat.get());
-  impl_->find_operations();
+  impl_->find_operations(provenance);
+}
+
+}  // namespace
+
+VerticalTransformer::VerticalTransformer(const std::string& from, const std::string& to,
+                                         const std::string& horizontal_crs,
+                                         const ProjSettings& settings, std::optional<double> epoch)
+    : impl_(std::make_unique<Impl>()) {
+  impl_->arguments = {from, to, horizontal_crs, settings, epoch};
+  build(*impl_, from, to, horizontal_crs, settings, epoch, true);
 }
 
 VerticalTransformer::~VerticalTransformer() = default;
@@ -345,11 +370,13 @@ const std::vector<std::string>& VerticalTransformer::warnings() const { return i
 // whose area of use holds the point and that gives a finite height; this is
 // PROJ's own selection, done here so that the operation used is known and a
 // ballpark can never slip in.
-std::vector<PointConversion> VerticalTransformer::convert(const std::vector<PlanePoint>& points,
-                                                          const std::vector<double>& heights) {
-  Impl& im = *impl_;
-  std::vector<PointConversion> out(points.size());
-  for (std::size_t i = 0; i < points.size(); ++i) {
+namespace {
+
+void convert_range(VerticalTransformer::Impl& im, const std::vector<PlanePoint>& points,
+                   const std::vector<double>& heights, std::size_t begin, std::size_t end,
+                   std::vector<PointConversion>& out, std::vector<std::size_t>& used) {
+  used.assign(im.candidates.size(), 0);
+  for (std::size_t i = begin; i < end; ++i) {
     PointConversion& result = out[i];
     if (!std::isfinite(points[i].x) || !std::isfinite(points[i].y) || !std::isfinite(heights[i])) {
       result.failure = "coordinates or height not finite";
@@ -378,7 +405,7 @@ std::vector<PointConversion> VerticalTransformer::convert(const std::vector<Plan
       if (r.xyz.z == HUGE_VAL || !std::isfinite(r.xyz.z)) continue;
       result.height = r.xyz.z;
       result.operation = k;
-      ++im.records[k].points;
+      ++used[k];
       break;
     }
     if (!result.height) {
@@ -386,6 +413,42 @@ std::vector<PointConversion> VerticalTransformer::convert(const std::vector<Plan
           "no usable operation covers lon {:.6f}, lat {:.6f} (outside every grid or area of use)",
           lon, lat);
     }
+  }
+}
+
+}  // namespace
+
+// Large batches are split over the machine's cores, each thread with its own
+// PROJ context and operations; results do not depend on the split.
+std::vector<PointConversion> VerticalTransformer::convert(const std::vector<PlanePoint>& points,
+                                                          const std::vector<double>& heights) {
+  Impl& im = *impl_;
+  std::vector<PointConversion> out(points.size());
+  constexpr std::size_t per_thread_minimum = 50000;  // below this, setting up a context costs more
+  const std::size_t threads = std::clamp<std::size_t>(
+      std::min<std::size_t>(std::thread::hardware_concurrency(), points.size() / per_thread_minimum),
+      1, 8);
+  while (im.workers.size() + 1 < threads) {
+    auto worker = std::make_unique<Impl>();
+    const auto& a = im.arguments;
+    build(*worker, a.from, a.to, a.horizontal, a.settings, a.epoch, false);
+    if (worker->candidates.size() != im.candidates.size()) break;  // cannot happen; stay serial
+    im.workers.push_back(std::move(worker));
+  }
+  const std::size_t parts = im.workers.size() + 1 < threads ? 1 : threads;
+  std::vector<std::vector<std::size_t>> used(parts);
+  std::vector<std::thread> pool;
+  const std::size_t chunk = (points.size() + parts - 1) / parts;
+  for (std::size_t t = 1; t < parts; ++t) {
+    pool.emplace_back([&, t] {
+      convert_range(*im.workers[t - 1], points, heights, t * chunk,
+                    std::min(points.size(), (t + 1) * chunk), out, used[t]);
+    });
+  }
+  convert_range(im, points, heights, 0, std::min(points.size(), chunk), out, used[0]);
+  for (std::thread& th : pool) th.join();
+  for (const auto& counts : used) {
+    for (std::size_t k = 0; k < counts.size(); ++k) im.records[k].points += counts[k];
   }
   return out;
 }

@@ -106,3 +106,29 @@ TEST_CASE("a dynamic reference needs an epoch", "[proj][errors]") {
   CHECK_FALSE(r[0].height);
   CHECK_THAT(r[0].failure, Contains("no usable operation"));
 }
+
+TEST_CASE("a batch split over threads gives the same heights as small serial calls", "[proj]") {
+  // 120000 points: above the per-thread minimum, so a multi-core machine
+  // converts them on several PROJ contexts at once.
+  std::vector<PlanePoint> points;
+  std::vector<double> heights;
+  for (int i = 0; i < 120000; ++i) {
+    points.push_back({-170.0 + (i % 3400) * 0.1, -70.0 + (i / 3400) * 4.0});
+    heights.push_back(100.0 + i % 7);
+  }
+  VerticalTransformer batch("EPSG:4979", "EPSG:4326+5773", "EPSG:4326", ProjSettings{});
+  const auto all = batch.convert(points, heights);
+  VerticalTransformer serial("EPSG:4979", "EPSG:4326+5773", "EPSG:4326", ProjSettings{});
+  std::size_t counted = 0;
+  for (std::size_t start = 0; start < points.size(); start += 1000) {
+    const std::vector<PlanePoint> p(points.begin() + start, points.begin() + start + 1000);
+    const std::vector<double> h(heights.begin() + start, heights.begin() + start + 1000);
+    const auto part = serial.convert(p, h);
+    for (std::size_t i = 0; i < part.size(); ++i) {
+      REQUIRE(part[i].height.has_value() == all[start + i].height.has_value());
+      if (part[i].height) CHECK(*part[i].height == *all[start + i].height);  // same arithmetic, bit for bit
+    }
+  }
+  for (const auto& op : batch.operations()) counted += op.points;
+  CHECK(counted == points.size());
+}
