@@ -16,6 +16,7 @@
 //      empty, and the summary says lenient).
 
 #include <filesystem>
+#include <optional>
 #include <string>
 
 #include "levelhead/table.hpp"
@@ -25,6 +26,7 @@ namespace levelhead {
 
 struct HeightConversionOptions {
   bool lenient = false;
+  std::optional<double> epoch;  // decimal year; written as an `epoch` column when given
 };
 
 struct HeightConversionSummary {

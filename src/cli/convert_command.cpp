@@ -64,7 +64,7 @@ CommandRunner add_convert_command(CLI::App& app) {
     std::filesystem::path summary = output;
     summary.replace_extension(".summary.json");
     const HeightConversionSummary counts =
-        convert_points_table(table, converter, HeightConversionOptions{a->lenient}, output, summary);
+        convert_points_table(table, converter, HeightConversionOptions{a->lenient, a->epoch}, output, summary);
     if (!a->quiet) {
       out << fmt::format("Converted {} of {} heights from {} to {} (heights read in {})\n",
                          counts.converted, counts.points, converter.from(), converter.to(),

@@ -69,7 +69,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     csv << (c ? "," : "") << csv_cell(table.column_names()[c]);
   }
   if (!sigma_col) csv << ",sigma";
-  csv << ",reference,transform,flags\n";
+  csv << ",reference,transform,flags" << (options.epoch ? ",epoch\n" : "\n");
   for (std::size_t row = 0; row < table.row_count(); ++row) {
     const auto k = result_of_row[row];
     const std::optional<double> sigma_in = sigma_col ? table.length(row, *sigma_col) : std::nullopt;
@@ -104,7 +104,9 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     }
     if (!sigma_col) csv << ',' << sigma_text;
     csv << ',' << csv_cell(k ? converter.to() : std::string()) << ','
-        << csv_cell(transform) << ',' << csv_cell(flags) << '\n';
+        << csv_cell(transform) << ',' << csv_cell(flags);
+    if (options.epoch) csv << ',' << (k ? fmt::format("{:.3f}", *options.epoch) : std::string());
+    csv << '\n';
   }
 
   nlohmann::json summary;
@@ -114,6 +116,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   summary["input"] = table.source();
   summary["units"] = "m";
   summary["lenient"] = options.lenient;
+  summary["epoch"] = options.epoch ? nlohmann::json(*options.epoch) : nlohmann::json(nullptr);
   summary["from"] = converter.from();
   summary["to"] = converter.to();
   if (const VerticalTransformer* proj = converter.proj()) {
