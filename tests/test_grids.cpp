@@ -72,7 +72,7 @@ TEST_CASE("a tilted-plane grid interpolates exactly, in GeoTIFF, GTX and GDAL-on
                                                                    : ".asc";
     const auto path = tmp.path() / (std::string("plane") + extension);
     write_grid(path, driver, false);
-    GridShift grid(path, "EPSG:4326", ProjSettings{});
+    SurfaceShift grid(path, "EPSG:4326", ProjSettings{});
     const auto v = grid.values({{10.1, 45.3}, {9.0, 44.0}, {10.93, 45.61}, {20.0, 45.0}});
     // Float32 nodes hold about 7 digits: 1e-6 m.
     REQUIRE(v[0]);

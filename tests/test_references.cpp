@@ -154,3 +154,33 @@ TEST_CASE("ties refuse too few points and collinear slopes", "[references][tie][
   CHECK_THROWS_WITH(estimate_tie(line, plane), Contains("on a line"));
   CHECK_THROWS_AS(parse_tie_model("tilt"), OptionError);
 }
+
+TEST_CASE("an EPSG 1046 offset and slope matches the formula worked by hand", "[references][proj]") {
+  // EPSG Guidance Note 7-2, method 1046 (Vertical Offset and Slope):
+  //   shift = A + slope_lat rho0 (lat - lat0) + slope_lon nu0 (lon - lon0) cos(lat),
+  // slopes in radians (here 2" and -1"). Worked by hand for GRS80
+  // (a = 6378137, 1/f = 298.257222101) at lat0 46.9, lon0 7.9, point (47.0, 8.0):
+  // rho0 = 6369508.25 m, nu0 = 6389549.41 m, giving 1.5 + 0.1077924 - 0.0368728 = 1.5709196 m.
+  ReferenceDefinition d;
+  d.name = "old";
+  d.kind = ReferenceDefinition::Kind::vertoffset;
+  d.base = "EPSG:5703";
+  d.offset_slope = VerticalOffsetSlope{1.5, 2.0, -1.0, 46.9, 7.9, "GRS80"};
+  d.relation.sigma = 0.01;
+  ReferenceSet set;
+  set.add(d);
+  HeightConverter c("old", "EPSG:5703", "EPSG:4326", set, ProjSettings{});
+  const auto r = c.convert({{8.0, 47.0}}, {100.0});
+  REQUIRE(r[0].height);
+  CHECK_THAT(*r[0].height, WithinAbs(101.5709196, 1e-6));
+  CHECK_THAT(r[0].transform, Contains("EPSG 1046"));
+
+  testing::TempFolder tmp;
+  const auto path = tmp.path() / "refs.toml";
+  std::ofstream(path) << "[references.old]\nkind = \"vertoffset\"\nbase = \"EPSG:5703\"\n"
+                         "offset = 1.5\nslope_lat = 2\nslope_lon = -1\nlat0 = 46.9\nlon0 = 7.9\n";
+  const ReferenceSet loaded = ReferenceSet::load(path);
+  CHECK_THAT(loaded.find("old")->offset_slope.slope_lat, WithinAbs(2.0, 1e-15));
+  HeightConverter from_file("old", "EPSG:5703", "EPSG:4326", loaded, ProjSettings{});
+  CHECK_THAT(*from_file.convert({{8.0, 47.0}}, {100.0})[0].height, WithinAbs(101.5709196, 1e-6));
+}

@@ -58,7 +58,7 @@ class HeightConverter {
   struct Step {
     ReferenceDefinition definition;     // a copy: the converter outlives the set it came from
     int direction;                      // +1: to its base, -1: from its base
-    std::shared_ptr<GridShift> grid;    // for grid references
+    std::shared_ptr<SurfaceShift> grid;    // for grid references
   };
   std::string from_, to_;
   std::vector<Step> steps_before_, steps_after_;  // around the PROJ step

@@ -19,6 +19,17 @@
 //   kind = "crs"
 //   definition = "EPSG:4326+5773"
 //
+//   [references.old-datum]
+//   kind = "vertoffset"             # EPSG method 1046, offset and slope
+//   base = "EPSG:5703"
+//   offset = 0.245                  # m
+//   slope_lat = 0.012               # arc seconds
+//   slope_lon = -0.008              # arc seconds
+//   lat0 = 46.9                     # degrees
+//   lon0 = 7.9
+//   ellipsoid = "GRS80"             # optional
+//   sigma = 0.01
+//
 //   [references.site-geoid]
 //   kind = "grid"                   # a geoid or offset grid over a base
 //   base = "EPSG:4979"
@@ -42,6 +53,8 @@
 #include <string>
 #include <vector>
 
+#include "levelhead/vertical_reference.hpp"
+
 namespace levelhead {
 
 struct OffsetRelation {
@@ -60,10 +73,11 @@ struct OffsetRelation {
 
 struct ReferenceDefinition {
   std::string name;
-  enum class Kind { crs, offset, grid } kind = Kind::crs;
+  enum class Kind { crs, offset, grid, vertoffset } kind = Kind::crs;
   std::string definition;  // kind crs: the PROJ CRS
   std::string base;        // kinds offset and grid
   std::filesystem::path grid;  // kind grid: absolute path of the grid file
+  VerticalOffsetSlope offset_slope;  // kind vertoffset (EPSG 1046)
   OffsetRelation relation;
   std::string source;
   std::string file;

@@ -38,6 +38,11 @@ Chain follow(const std::string& name, const ReferenceSet& references) {
 
 std::string describe(const ReferenceDefinition& d, int direction) {
   const OffsetRelation& r = d.relation;
+  if (d.kind == ReferenceDefinition::Kind::vertoffset) {
+    return fmt::format("{} -> {}: offset and slope (EPSG 1046), {:.4f} m{}",
+                       direction > 0 ? d.name : d.base, direction > 0 ? d.base : d.name,
+                       d.offset_slope.offset, d.source.empty() ? "" : " (" + d.source + ")");
+  }
   if (d.kind == ReferenceDefinition::Kind::grid) {
     return fmt::format("{} -> {}: grid {}{}", direction > 0 ? d.name : d.base,
                        direction > 0 ? d.base : d.name, d.grid.filename().string(),
@@ -66,7 +71,9 @@ HeightConverter::HeightConverter(const std::string& from, const std::string& to,
   const auto make_step = [&](const ReferenceDefinition* d, int direction) {
     Step step{*d, direction, nullptr};
     if (d->kind == ReferenceDefinition::Kind::grid) {
-      step.grid = std::make_shared<GridShift>(d->grid, horizontal_crs, settings);
+      step.grid = std::make_shared<SurfaceShift>(d->grid, horizontal_crs, settings);
+    } else if (d->kind == ReferenceDefinition::Kind::vertoffset) {
+      step.grid = std::make_shared<SurfaceShift>(d->offset_slope, horizontal_crs, settings);
     }
     return step;
   };
@@ -97,7 +104,7 @@ std::vector<GridUse> HeightConverter::grids() const {
   std::vector<GridUse> out;
   for (const std::vector<Step>* steps : {&steps_before_, &steps_after_}) {
     for (const Step& s : *steps) {
-      if (s.grid) out.push_back(s.grid->grid());
+      if (s.grid && !s.grid->grid().name.empty()) out.push_back(s.grid->grid());
     }
   }
   return out;

@@ -167,6 +167,21 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
                             (*xy)[1].value<double>().value_or(NAN)});
         }
       }
+    } else if (kind == "vertoffset") {
+      check_keys(file, *t, {"kind", "base", "offset", "slope_lat", "slope_lon", "lat0", "lon0",
+                            "ellipsoid", "sigma", "source"});
+      d.kind = ReferenceDefinition::Kind::vertoffset;
+      d.base = text(file, *t, "base", true, name);
+      if (!t->get("offset")) throw InputError(file, fmt::format("reference '{}' needs 'offset'", name));
+      VerticalOffsetSlope& v = d.offset_slope;
+      v.offset = number(file, *t, "offset", 0.0);
+      v.slope_lat = number(file, *t, "slope_lat", 0.0);
+      v.slope_lon = number(file, *t, "slope_lon", 0.0);
+      v.lat0 = number(file, *t, "lat0", 0.0);
+      v.lon0 = number(file, *t, "lon0", 0.0);
+      const std::string ellipsoid = text(file, *t, "ellipsoid", false, name);
+      if (!ellipsoid.empty()) v.ellipsoid = ellipsoid;
+      if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
     } else if (kind == "grid") {
       check_keys(file, *t, {"kind", "base", "grid", "sigma", "source"});
       d.kind = ReferenceDefinition::Kind::grid;
@@ -177,7 +192,7 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
     } else {
       throw InputError(where(file, node), fmt::format("reference '{}': kind '{}' is not 'crs', "
-                                                      "'offset' or 'grid'",
+                                                      "'offset', 'vertoffset' or 'grid'",
                                                       name, kind));
     }
     set.add(std::move(d));

@@ -482,7 +482,7 @@ std::string file_sha256(const std::filesystem::path& path) {
 
 namespace levelhead {
 
-struct GridShift::Impl {
+struct SurfaceShift::Impl {
   ContextPtr ctx{proj_context_create()};
   PjPtr to_lonlat, pipeline;
   GridUse grid;
@@ -526,49 +526,61 @@ std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
 
 }  // namespace
 
-GridShift::GridShift(const std::filesystem::path& grid, const std::string& points_crs,
-                     const ProjSettings& settings)
+SurfaceShift::SurfaceShift(const std::filesystem::path& grid, const std::string& points_crs,
+                           const ProjSettings& settings)
     : impl_(std::make_unique<Impl>()) {
-  PJ_CONTEXT* ctx = impl_->ctx.get();
-  proj_log_level(ctx, PJ_LOG_NONE);
-  proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
   if (!std::filesystem::is_regular_file(grid)) {
     throw ReferenceError(fmt::format("grid file '{}' does not exist", grid.string()));
   }
-  if (points_crs.empty()) {
-    throw ReferenceError(fmt::format("grid '{}' is looked up by position: give the CRS of the "
-                                     "points' x and y (--crs)",
-                                     grid.string()));
-  }
   impl_->grid = GridUse{grid.filename().string(), grid.string(), file_sha256(grid)};
   const std::filesystem::path readable = readable_by_proj(grid, impl_->converted);
+  // The grid name is absolute and carries no '@', so a missing or unreadable
+  // grid fails here instead of being skipped; the multiplier is written out
+  // (PROJ's default is -1).
+  set_up(fmt::format("+step +proj=vgridshift +grids={} +multiplier=1", readable.string()), points_crs,
+         settings, "grid " + grid.string());
+}
+
+SurfaceShift::SurfaceShift(const VerticalOffsetSlope& r, const std::string& points_crs,
+                           const ProjSettings& settings)
+    : impl_(std::make_unique<Impl>()) {
+  set_up(fmt::format("+step +proj=vertoffset +lat_0={:.12g} +lon_0={:.12g} +dh={:.12g} "
+                     "+slope_lat={:.12g} +slope_lon={:.12g} +ellps={}",
+                     r.lat0, r.lon0, r.offset, r.slope_lat, r.slope_lon, r.ellipsoid),
+         points_crs, settings, "offset and slope (EPSG 1046)");
+}
+
+void SurfaceShift::set_up(const std::string& step, const std::string& points_crs,
+                          const ProjSettings& settings, const std::string& what) {
+  PJ_CONTEXT* ctx = impl_->ctx.get();
+  proj_log_level(ctx, PJ_LOG_NONE);
+  proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
+  if (points_crs.empty()) {
+    throw ReferenceError(fmt::format("{} is evaluated by position: give the CRS of the points' x "
+                                     "and y (--crs)",
+                                     what));
+  }
   PjPtr from(proj_create(ctx, points_crs.c_str()));
   PjPtr wgs84(proj_create(ctx, "EPSG:4326"));
   if (!from) throw ReferenceError(fmt::format("unknown CRS '{}'", points_crs));
   PjPtr raw(proj_create_crs_to_crs_from_pj(ctx, from.get(), wgs84.get(), nullptr, nullptr));
   if (!raw) throw ReferenceError(fmt::format("cannot bring '{}' to longitude and latitude", points_crs));
   impl_->to_lonlat.reset(proj_normalize_for_visualization(ctx, raw.get()));
-  // The grid name is absolute and carries no '@', so a missing or unreadable
-  // grid fails here instead of being skipped; the multiplier is written out
-  // (PROJ's default is -1).
-  const std::string pipeline = fmt::format(
-      "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad "
-      "+step +proj=vgridshift +grids={} +multiplier=1 "
-      "+step +proj=unitconvert +xy_in=rad +xy_out=deg",
-      readable.string());
+  const std::string pipeline = "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad " +
+                               step + " +step +proj=unitconvert +xy_in=rad +xy_out=deg";
   impl_->pipeline.reset(proj_create(ctx, pipeline.c_str()));
   if (!impl_->pipeline) {
-    throw ReferenceError(fmt::format("PROJ cannot use grid '{}' ({}); it must be a geographic "
+    throw ReferenceError(fmt::format("PROJ cannot use {} ({}); a grid must be a geographic "
                                      "(longitude, latitude) height grid",
-                                     grid.string(), proj_message(ctx)));
+                                     what, proj_message(ctx)));
   }
 }
 
-GridShift::~GridShift() = default;
+SurfaceShift::~SurfaceShift() = default;
 
-const GridUse& GridShift::grid() const { return impl_->grid; }
+const GridUse& SurfaceShift::grid() const { return impl_->grid; }
 
-std::vector<std::optional<double>> GridShift::values(const std::vector<PlanePoint>& points) {
+std::vector<std::optional<double>> SurfaceShift::values(const std::vector<PlanePoint>& points) {
   std::vector<std::optional<double>> out(points.size());
   for (std::size_t i = 0; i < points.size(); ++i) {
     const PJ_COORD ll = proj_trans(impl_->to_lonlat.get(), PJ_FWD,
