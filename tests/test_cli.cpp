@@ -245,3 +245,52 @@ TEST_CASE("tie writes a reference that convert then uses", "[cli][tie]") {
   // (its last digit rounds either way in print: compare to 0.1 mm).
   CHECK_THAT(last, Contains("W,50,50,104.2500"));
 }
+
+TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict", "[cli][epochs]") {
+  levelhead::testing::TempFolder tmp;
+  std::ofstream(tmp.path() / "points.csv")
+      << "id,height,datum,kind\nA,50.000,EPSG:5703,benchmark\nB,,,benchmark\nC,,,benchmark\nP,,,well\n";
+  // Invented: C rises 6 mm between the epochs, P sinks 5 mm; 1 mm sections.
+  std::ofstream(tmp.path() / "sections.csv")
+      << "epoch,from,to,dh,sigma,date\n"
+         "2025,A,B,1.0002,0.001,2025-05-02\n2025,B,C,-0.4003,0.001,2025-05-02\n"
+         "2025,C,A,-0.6001,0.001,2025-05-03\n2025,B,P,0.2001,0.001,2025-05-03\n"
+         "2025,P,C,-0.6002,0.001,2025-05-03\n"
+         "2026,A,B,1.0001,0.001,2026-05-04\n2026,B,C,-0.3941,0.001,2026-05-04\n"
+         "2026,C,A,-0.6063,0.001,2026-05-04\n2026,B,P,0.1950,0.001,2026-05-05\n"
+         "2026,P,C,-0.5889,0.001,2026-05-05\n";
+  const fs::path out = tmp.path() / "out";
+  const auto args = [&](bool strict) {
+    std::vector<std::string> a = {"epochs", "--points", (tmp.path() / "points.csv").string(), "--sections",
+                                  (tmp.path() / "sections.csv").string(), "--out", out.string()};
+    if (strict) a.push_back("--strict");
+    return a;
+  };
+  const CliRun run = run_cli(args(false));
+  INFO(run.out << run.err);
+  REQUIRE(run.code == 0);
+  CHECK_THAT(run.out, Contains("C            moving (step 1)"));
+  for (const char* name : {"epochs.csv", "reference_stability.csv", "displacements.csv", "rates.csv",
+                           "heights_by_epoch.csv", "summary.json"}) {
+    CHECK(fs::exists(out / name));
+  }
+  std::ifstream summary_file(out / "summary.json");
+  const auto summary = nlohmann::json::parse(summary_file);
+  CHECK(summary["held_mark"] == "A");
+  CHECK(summary["congruence_tests"][0]["passed"] == false);
+  CHECK(summary["congruence_tests"].back()["passed"] == true);
+  CHECK(run_cli(args(true)).code == 3);
+}
+
+TEST_CASE("epochs: a mark missing from the points table is a clear error", "[cli][epochs]") {
+  levelhead::testing::TempFolder tmp;
+  std::ofstream(tmp.path() / "points.csv") << "id\nA\nB\n";
+  std::ofstream(tmp.path() / "e1.csv") << "from,to,dh,sigma,date\nA,B,1.0,0.001,2025-05-02\n";
+  std::ofstream(tmp.path() / "e2.csv") << "from,to,dh,sigma,date\nA,B,1.0,0.001,2026-05-02\n";
+  const CliRun run = run_cli({"epochs", "--points", (tmp.path() / "points.csv").string(), "--sections",
+                              (tmp.path() / "e1.csv").string(), "--sections", (tmp.path() / "e2.csv").string(),
+                              "--marks", "A,X", "--out", (tmp.path() / "out").string()});
+  CHECK(run.code == 1);
+  CHECK_THAT(run.err, Contains("'X' is not in the points table"));
+  CHECK_FALSE(fs::exists(tmp.path() / "out" / "summary.json"));
+}

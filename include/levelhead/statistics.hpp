@@ -14,6 +14,12 @@ double chi_square_quantile(double p, double dof);
 // the complement for accuracy in the tail).
 double chi_square_upper_quantile(double alpha, double dof);
 
+// Fisher F quantile with upper-tail probability `alpha`, d1, d2 > 0.
+double fisher_upper_quantile(double alpha, double d1, double d2);
+
+// Student t quantile with `dof` > 0 degrees of freedom, lower tail p.
+double student_t_quantile(double p, double dof);
+
 // Critical value of Baarda's w-test for a two-sided significance level alpha0:
 // z(1 - alpha0/2). Reference: Baarda (1968), "A testing procedure for use in
 // geodetic networks", Netherlands Geodetic Commission, Publ. on Geodesy 2(5).

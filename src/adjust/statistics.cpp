@@ -1,7 +1,9 @@
 #include "levelhead/statistics.hpp"
 
 #include <boost/math/distributions/chi_squared.hpp>
+#include <boost/math/distributions/fisher_f.hpp>
 #include <boost/math/distributions/normal.hpp>
+#include <boost/math/distributions/students_t.hpp>
 #include <fmt/format.h>
 
 #include "levelhead/errors.hpp"
@@ -16,7 +18,7 @@ void require_probability(double p, const char* name) {
 }
 void require_dof(double dof) {
   // Boost's default policy throws for dof <= 0; callers handle redundancy 0 themselves.
-  if (!(dof > 0.0)) throw std::logic_error("chi-square quantile needs dof > 0");
+  if (!(dof > 0.0)) throw std::logic_error("a quantile needs degrees of freedom > 0");
 }
 }  // namespace
 
@@ -36,6 +38,20 @@ double chi_square_upper_quantile(double alpha, double dof) {
   require_dof(dof);
   return boost::math::quantile(
       boost::math::complement(boost::math::chi_squared_distribution<double>(dof), alpha));
+}
+
+double fisher_upper_quantile(double alpha, double d1, double d2) {
+  require_probability(alpha, "alpha");
+  require_dof(d1);
+  require_dof(d2);
+  return boost::math::quantile(
+      boost::math::complement(boost::math::fisher_f_distribution<double>(d1, d2), alpha));
+}
+
+double student_t_quantile(double p, double dof) {
+  require_probability(p, "probability");
+  require_dof(dof);
+  return boost::math::quantile(boost::math::students_t_distribution<double>(dof), p);
 }
 
 double w_test_critical_value(double alpha0) {

@@ -20,6 +20,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       {"reduce", add_reduce_command(app)},
       {"loops", add_loops_command(app)},
       {"adjust", add_adjust_command(app)},
+      {"epochs", add_epochs_command(app)},
       {"convert", add_convert_command(app)},
       {"tie", add_tie_command(app)},
       {"gnss-check", add_gnss_check_command(app)},

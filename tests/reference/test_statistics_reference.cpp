@@ -28,6 +28,21 @@ TEST_CASE("chi-square quantiles match the chi-square table", "[reference][statis
   CHECK_THAT(chi_square_upper_quantile(0.05, 100), WithinAbs(124.342, 5e-4));
 }
 
+TEST_CASE("F and t quantiles match the F and t tables", "[reference][statistics]") {
+  // NIST/SEMATECH e-Handbook, 1.3.6.7.3 (upper critical values of the F
+  // distribution, alpha = 0.05) and 1.3.6.7.2 (upper critical values of
+  // Student's t): F(1, 10) = 4.965, F(3, 10) = 3.708, F(5, 20) = 2.711,
+  // t(0.975, 10) = 2.228, t(0.975, 5) = 2.571 (3-decimal table values,
+  // recalled from memory of the tables; F(1, n) = t(0.975, n)^2 ties them).
+  CHECK_THAT(fisher_upper_quantile(0.05, 1, 10), WithinAbs(4.965, 5e-4));
+  CHECK_THAT(fisher_upper_quantile(0.05, 3, 10), WithinAbs(3.708, 5e-4));
+  CHECK_THAT(fisher_upper_quantile(0.05, 5, 20), WithinAbs(2.711, 5e-4));
+  CHECK_THAT(student_t_quantile(0.975, 10), WithinAbs(2.228, 5e-4));
+  CHECK_THAT(student_t_quantile(0.975, 5), WithinAbs(2.571, 5e-4));
+  const double t = student_t_quantile(0.975, 10);
+  CHECK_THAT(fisher_upper_quantile(0.05, 1, 10), WithinAbs(t * t, 1e-9));
+}
+
 TEST_CASE("Baarda's non-centrality for alpha0 = 0.1 %, beta0 = 80 %", "[reference][statistics]") {
   // Baarda (1968), Publications on Geodesy 2(5), Netherlands Geodetic
   // Commission: lambda0 = 17.075 for the one-dimensional test with these
