@@ -23,6 +23,7 @@ struct Site {
                    "W1,2022-01-01,9.800,EPSG:5703,0.002,casing-cut\n"
                    "W2,2020-01-01,8.000,site-1998,0.002,survey\n";
   std::string levels;
+  std::string monitored;  // heights_by_epoch.csv, when not empty
   HeadOptions options;
   ReferenceSet references;
 
@@ -45,7 +46,12 @@ struct Site {
     write("levels.csv", levels);
     const WellSet w = read_wells(read_table(tmp.path() / "wells.csv"));
     const auto records = read_measuring_points(read_table(tmp.path() / "mp.csv"), w);
-    compute_heads(w, records, {}, references, ProjSettings{}, options, tmp.path() / "levels.csv",
+    MonitoredHeights moving;
+    if (!monitored.empty()) {
+      write("monitored.csv", monitored);
+      moving = read_monitored_heights(read_table(tmp.path() / "monitored.csv"));
+    }
+    compute_heads(w, records, {}, moving, references, ProjSettings{}, options, tmp.path() / "levels.csv",
                   TableOptions{}, tmp.path() / "out", true);
     return read_table(tmp.path() / "out" / "heads.csv");
   }
@@ -241,4 +247,33 @@ TEST_CASE("a head off its well's own trend goes on the re-measure list", "[heads
   bool listed = false;
   for (std::size_t r = 0; r < rm.row_count(); ++r) listed = listed || rm.cell(r, 0) == "W1";
   CHECK(listed);
+}
+
+TEST_CASE("measuring points on monitored points follow the levelling epochs", "[heads][epochs]") {
+  // Invented: mark PW1 sank 10 mm between two epochs a leap year apart.
+  // W1 is levelled on PW1 itself; W2 has its own survey (site datum, 95.25 m
+  // below EPSG:5703) and moves with PW1. By hand: on 2024-07-02 (183 of 366
+  // days) PW1 is at 9.995; on 2025-07-02 (182 days past the last epoch) the
+  // nearest two epochs give 10 - 0.010 * 548 / 366 = 9.98503 (flagged).
+  Site site;
+  site.monitored = "point,epoch,time,height,sigma,reference\n"
+                   "PW1,E1,2024-01-01T00:00:00Z,10.00000,0.00100,EPSG:5703\n"
+                   "PW1,E2,2025-01-01T00:00:00Z,9.99000,0.00100,EPSG:5703\n";
+  site.mp = "well,valid_from,point,height,datum,sigma,moves_with\n"
+            "W1,2024-01-01,PW1,,,,\n"
+            "W2,2024-01-01,,8.000,site-1998,0.002,PW1\n";
+  site.levels = "well,time,depth\nW1,2024-07-02,2.000\nW1,2025-07-02,2.000\nW2,2025-01-01,3.000\n";
+  const Table t = site.run();
+  CHECK_THAT(head(t, 0), WithinAbs(7.995, 5e-4));
+  CHECK_THAT(head(t, 1), WithinAbs(9.98503 - 2.0, 5e-4));
+  CHECK_THAT(flags(t, 1), Contains("mp-motion-extrapolated"));
+  CHECK_THAT(flags(t, 0), !Contains("mp-motion-extrapolated"));
+  CHECK_THAT(head(t, 2), WithinAbs(8.000 + 95.25 - 0.010 - 3.0, 5e-4));
+  CHECK_THAT(std::string(t.cell(2, *t.find_column("mp_source"))), Contains("moving with monitored:PW1"));
+
+  SECTION("a moves_with point that is not monitored is named") {
+    site.mp = "well,valid_from,height,datum,sigma,moves_with\nW1,2024-01-01,10.0,EPSG:5703,0.002,PX\n";
+    site.levels = "well,time,depth\nW1,2024-07-02,2.000\n";
+    CHECK_THROWS_WITH(site.run(), Contains("PX") && Contains("moves_with"));
+  }
 }

@@ -3,7 +3,8 @@
 //
 // In:  wells and measuring-point histories (wells.hpp), optionally the
 //      adjusted heights of a levelling network (heights.csv of `adjust`) for
-//      records that name a network point, the references needed to bring
+//      records that name a network point, the heights of monitored points
+//      by epoch (MonitoredHeights below), the references needed to bring
 //      every measuring point into the target reference, and readings:
 //      well, time (ISO 8601; see time.hpp for zones), depth (m below the
 //      measuring point; negative: water above it), optional status, sigma,
@@ -68,12 +69,45 @@ using NetworkHeights = std::unordered_map<std::string, NetworkHeight>;
 // heights.csv of `levelhead adjust`: id, height, sigma, reference.
 NetworkHeights read_network_heights(const Table& table);
 
+// Heights of monitored points per levelling epoch (heights_by_epoch.csv of
+// `levelhead epochs`: point, time, height, sigma, reference). A measuring
+// point whose record names such a point (column `point`) takes its height at
+// each reading's time from the epochs, linearly between them; one whose
+// record names it in `moves_with` keeps its own surveyed height and follows
+// the point's movement since valid_from. Beyond the first or last epoch the
+// nearest two epochs are extrapolated and the head is flagged
+// mp-motion-extrapolated.
+struct MonitoredEpoch {
+  double time = 0.0;   // s, UTC
+  double height = 0.0, sigma = 0.0;  // m
+};
+struct MonitoredSeries {
+  std::vector<MonitoredEpoch> epochs;  // by time
+  std::string reference;
+};
+using MonitoredHeights = std::unordered_map<std::string, MonitoredSeries>;
+
+// Throws InputError naming the row for a bad time or height, or a point with
+// epochs in two references.
+MonitoredHeights read_monitored_heights(const Table& table);
+
+// Height (m) and sigma (m) of a monitored point at `time`, and whether the
+// time lies outside its epochs.
+struct MonitoredValue {
+  double height = 0.0, sigma = 0.0;
+  bool extrapolated = false;
+};
+MonitoredValue monitored_at(const MonitoredSeries& series, double time);
+
 // A measuring-point record brought into the target reference.
 struct MeasuringPointElevation {
   double height = 0.0;  // m, target reference
   double sigma = 0.0;   // m
   bool sigma_known = true;
-  std::string source;   // "network:ID" or the record's datum
+  std::string source;   // "network:ID", "monitored:ID" or the record's datum
+  const MonitoredSeries* motion = nullptr;  // the monitored point it moves with
+  bool follows_point = false;  // the record is the monitored point itself
+  MonitoredValue motion_base;  // the monitored point at valid_from
   std::string transform;
   std::vector<std::string> flags;
 };
@@ -98,7 +132,8 @@ class HeadWriter;  // defined in heads.cpp
 // event.csv (one head per well, neighbour checks; event_qa.hpp), nests.csv
 // (vertical differences in piezometer nests) and remeasure.csv.
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
-                           const NetworkHeights& network, const ReferenceSet& references,
+                           const NetworkHeights& network, const MonitoredHeights& monitored,
+                           const ReferenceSet& references,
                            const ProjSettings& settings, const HeadOptions& options,
                            const std::filesystem::path& levels, const TableOptions& levels_table,
                            const std::filesystem::path& folder, bool geopackage);

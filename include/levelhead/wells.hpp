@@ -9,7 +9,8 @@
 // (m), datum (a reference), sigma (m), optional point (a point id of the
 // adjusted network: height, sigma and reference are then taken from it),
 // source, method (levelled, gnss, hand-level, ...), reason (survey, resurvey,
-// casing-cut, repair, replaced).
+// casing-cut, repair, replaced), moves_with (a monitored point whose movement
+// since valid_from the measuring point follows: see heads.hpp).
 // Errors: InputError naming the row for a bad cell, an unknown well, a
 // record with neither height nor point, two records of a well from the same
 // time.
@@ -44,6 +45,7 @@ struct MeasuringPointRecord {
   std::optional<double> sigma;   // m
   std::string point;             // network point id
   std::string source, method, reason;
+  std::string moves_with;        // monitored point id, or empty
   std::size_t row = 0;
 
   // A casing cut, repair or replacement breaks the series: never interpolate across it.

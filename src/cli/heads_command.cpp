@@ -14,7 +14,7 @@ namespace levelhead::cli {
 
 namespace {
 struct HeadArguments {
-  std::string wells, mp, levels, out, adjusted, event, unit = "m";
+  std::string wells, mp, levels, out, adjusted, monitored, event, unit = "m";
   ReferenceInputs refs;
   HeadOptions options;
   bool no_geopackage = false, strict = false, quiet = false;
@@ -36,6 +36,9 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_option("--out", a->out, "Output folder")->required();
   c->add_option("--adjusted", a->adjusted,
                 "heights.csv of levelhead adjust, for measuring points that name a network point");
+  c->add_option("--monitored", a->monitored,
+                "heights_by_epoch.csv of levelhead epochs: measuring points that name a monitored "
+                "point (point or moves_with) follow its movement");
   add_reference_options(*c, a->refs);
   c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
   c->add_flag("--interpolate", o.interpolate,
@@ -80,7 +83,9 @@ CommandRunner add_heads_command(CLI::App& app) {
         a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
     const ReferenceSet references = a->refs.load();
     const ProjSettings settings = a->refs.settings();
-    const HeadsSummary s = compute_heads(wells, records, network, references, settings, options,
+    const MonitoredHeights monitored =
+        a->monitored.empty() ? MonitoredHeights{} : read_monitored_heights(read_table(a->monitored));
+    const HeadsSummary s = compute_heads(wells, records, network, monitored, references, settings, options,
                                          a->levels, table_options, a->out, !a->no_geopackage);
     if (!a->quiet) {
       out << fmt::format("{} readings of {} wells: {} heads in {}, {} states carried (not "

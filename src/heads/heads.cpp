@@ -66,6 +66,57 @@ NetworkHeights read_network_heights(const Table& t) {
   return out;
 }
 
+MonitoredHeights read_monitored_heights(const Table& t) {
+  const std::size_t point = t.require_column("point"), time = t.require_column("time");
+  const std::size_t height = t.require_column("height"), reference = t.require_column("reference");
+  const auto sigma = t.find_column("sigma");
+  MonitoredHeights out;
+  for (std::size_t r = 0; r < t.row_count(); ++r) {
+    const std::string id(t.cell(r, point));
+    const auto when = parse_iso8601(t.cell(r, time));
+    if (!when) {
+      throw InputError(t.location(r, time), std::string(t.cell(r, time)),
+                       "expected an ISO 8601 time, as heights_by_epoch.csv of `levelhead epochs` has");
+    }
+    const auto h = t.length(r, height);
+    if (!h) throw InputError(t.location(r, height), "", "every epoch height needs a value");
+    MonitoredSeries& series = out[id];
+    const std::string ref(t.cell(r, reference));
+    if (series.epochs.empty()) {
+      series.reference = ref;
+    } else if (series.reference != ref) {
+      throw InputError(t.location(r, reference), ref,
+                       fmt::format("point '{}' has epochs in '{}' and '{}'; one reference per point",
+                                   id, series.reference, ref));
+    }
+    series.epochs.push_back({when->seconds, *h, sigma ? t.length(r, *sigma).value_or(0.0) : 0.0});
+  }
+  for (auto& [id, series] : out) {
+    std::stable_sort(series.epochs.begin(), series.epochs.end(),
+                     [](const MonitoredEpoch& a, const MonitoredEpoch& b) { return a.time < b.time; });
+  }
+  return out;
+}
+
+// Linear in time between the two epochs around `time`, or through the
+// nearest two beyond them (flagged); sigma interpolated alike, and the
+// nearest epoch's beyond them (an extrapolation is less certain than that).
+MonitoredValue monitored_at(const MonitoredSeries& series, double time) {
+  const auto& e = series.epochs;
+  if (e.size() == 1) return {e[0].height, e[0].sigma, std::abs(time - e[0].time) > 0.5};
+  const bool before = time < e.front().time, after = time > e.back().time;
+  std::size_t i = 1;
+  while (i + 1 < e.size() && e[i].time < time) ++i;
+  const MonitoredEpoch& a = e[i - 1];
+  const MonitoredEpoch& b = e[i];
+  const double f = (time - a.time) / (b.time - a.time);
+  MonitoredValue v;
+  v.height = a.height + f * (b.height - a.height);
+  v.sigma = before ? a.sigma : after ? b.sigma : a.sigma + f * (b.sigma - a.sigma);
+  v.extrapolated = before || after;
+  return v;
+}
+
 namespace {
 
 // The states a reading can carry instead of a depth; the one list for
@@ -113,7 +164,8 @@ struct WellState {
 }  // namespace
 
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
-                           const NetworkHeights& network, const ReferenceSet& references,
+                           const NetworkHeights& network, const MonitoredHeights& monitored,
+                           const ReferenceSet& references,
                            const ProjSettings& settings, const HeadOptions& options,
                            const std::filesystem::path& levels, const TableOptions& levels_table,
                            const std::filesystem::path& folder, bool geopackage) {
@@ -127,7 +179,32 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   for (std::size_t k = 0; k < records.size(); ++k) {
     const MeasuringPointRecord& m = records[k];
     std::string datum = m.datum;
-    if (!m.point.empty()) {
+    const auto monitored_point = m.point.empty() ? monitored.end() : monitored.find(m.point);
+    if (!m.moves_with.empty()) {
+      const auto it = monitored.find(m.moves_with);
+      if (it == monitored.end()) {
+        throw InputError(CellLocation{"measuring points", m.row, "moves_with"}, m.moves_with,
+                         "this point is not among the monitored heights (--monitored, "
+                         "heights_by_epoch.csv of `levelhead epochs`)");
+      }
+      elevation[k].motion = &it->second;
+      elevation[k].motion_base = monitored_at(it->second, m.valid_from.seconds);
+    }
+    if (monitored_point != monitored.end()) {
+      const MonitoredValue at_survey = monitored_at(monitored_point->second, m.valid_from.seconds);
+      given[k] = at_survey.height;
+      given_sigma[k] = at_survey.sigma;
+      datum = monitored_point->second.reference;
+      elevation[k].source = "monitored:" + m.point;
+      elevation[k].motion = &monitored_point->second;
+      elevation[k].follows_point = true;
+      elevation[k].motion_base = at_survey;
+      if (!m.moves_with.empty()) {
+        throw InputError(CellLocation{"measuring points", m.row, "moves_with"}, m.moves_with,
+                         "a record that names a monitored point already moves with it; leave "
+                         "moves_with empty");
+      }
+    } else if (!m.point.empty()) {
       const auto it = network.find(m.point);
       if (it == network.end()) {
         throw InputError(CellLocation{"measuring points", m.row, "point"}, m.point,
@@ -153,6 +230,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
       elevation[k].source = m.source.empty() ? m.datum : m.source;
     }
+    if (!m.moves_with.empty()) elevation[k].source += ", moving with monitored:" + m.moves_with;
     by_datum[datum].push_back(k);
   }
   for (const auto& [datum, indices] : by_datum) {
@@ -402,7 +480,15 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
       double mp = elevation[k].height;
       double mp_sigma = elevation[k].sigma;
-      if (options.interpolate && after != h.records.begin() && after != h.records.end() &&
+      if (const MeasuringPointElevation& e = elevation[k]; e.motion) {
+        // Ground movement from the levelling epochs (heads.hpp).
+        const MonitoredValue now = monitored_at(*e.motion, time);
+        mp += now.height - e.motion_base.height;
+        const double kept = e.follows_point ? std::max(mp_sigma * mp_sigma - e.motion_base.sigma * e.motion_base.sigma, 0.0)
+                                            : mp_sigma * mp_sigma;
+        mp_sigma = std::sqrt(kept + now.sigma * now.sigma);
+        if (now.extrapolated) flags.push_back("mp-motion-extrapolated");
+      } else if (options.interpolate && after != h.records.begin() && after != h.records.end() &&
           !records[*after].starts_new_series()) {
         const std::size_t next = *after;
         const double t0 = records[k].valid_from.seconds, t1 = records[next].valid_from.seconds;

@@ -48,7 +48,7 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
   const auto height = t.find_column("height"), datum = t.find_column("datum");
   const auto sigma = t.find_column("sigma"), point = t.find_column("point");
   const auto source = t.find_column("source"), method = t.find_column("method");
-  const auto reason = t.find_column("reason");
+  const auto reason = t.find_column("reason"), moves_with = t.find_column("moves_with");
   if (!height && !point) {
     throw InputError(t.source(), "the measuring-point table needs a 'height' column (with "
                                  "'datum') or a 'point' column naming adjusted network points");
@@ -78,6 +78,7 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
     m.source = text(r, source);
     m.method = text(r, method);
     m.reason = text(r, reason);
+    m.moves_with = text(r, moves_with);
     if (!m.height && m.point.empty()) {
       throw InputError(t.location(r, height ? *height : well), "",
                        "a measuring-point record needs a height (with its datum) or a network point");

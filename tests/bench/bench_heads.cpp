@@ -29,7 +29,7 @@ double run(const WellSet& wells, const std::vector<MeasuringPointRecord>& record
            const HeadOptions& options, const std::filesystem::path& levels,
            const std::filesystem::path& out, bool geopackage, std::size_t& readings) {
   const auto start = Clock::now();
-  const HeadsSummary s = compute_heads(wells, records, {}, ReferenceSet{}, ProjSettings{}, options,
+  const HeadsSummary s = compute_heads(wells, records, {}, {}, ReferenceSet{}, ProjSettings{}, options,
                                        levels, TableOptions{}, out, geopackage);
   readings = s.readings;
   return std::chrono::duration<double>(Clock::now() - start).count();
