@@ -91,6 +91,7 @@ class ReferenceSet {
 
   const ReferenceDefinition* find(const std::string& name) const;
   bool empty() const { return definitions_.empty(); }
+  const std::map<std::string, ReferenceDefinition>& definitions() const { return definitions_; }
 
  private:
   std::map<std::string, ReferenceDefinition> definitions_;

@@ -136,5 +136,7 @@ std::string proj_version_text();
 
 // SHA-256 of a file as lowercase hex (for grid provenance).
 std::string file_sha256(const std::filesystem::path& path);
+// SHA-256 of a text as lowercase hex.
+std::string text_sha256(const std::string& text);
 
 }  // namespace levelhead

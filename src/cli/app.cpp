@@ -1,5 +1,6 @@
 #include "cli/app.hpp"
 
+#include <optional>
 #include <sstream>
 #include <utility>
 
@@ -9,14 +10,14 @@
 
 namespace levelhead::cli {
 
-int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
-  CLI::App app{"levelhead: levelling adjustment and vertical datum reconciliation for well "
-               "measuring points and groundwater heads",
-               "levelhead"};
+namespace {
+
+using CommandList = std::vector<std::pair<std::string, CommandRunner>>;
+
+CommandList add_commands(CLI::App& app) {
   app.require_subcommand(1);
   app.set_version_flag("--version", version_string());
-
-  const std::vector<std::pair<std::string, CommandRunner>> commands = {
+  return {
       {"reduce", add_reduce_command(app)},
       {"loops", add_loops_command(app)},
       {"adjust", add_adjust_command(app)},
@@ -26,8 +27,48 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
       {"gnss-check", add_gnss_check_command(app)},
       {"heads", add_heads_command(app)},
       {"flow", add_flow_command(app)},
+      {"run", add_run_command(app)},
       {"demo", add_demo_command(app)},
   };
+}
+
+const char* const description =
+    "levelhead: levelling adjustment and vertical datum reconciliation for well measuring points "
+    "and groundwater heads";
+
+}  // namespace
+
+std::vector<OptionInfo> command_options(const std::string& command) {
+  CLI::App app{description, "levelhead"};
+  add_commands(app);
+  std::vector<OptionInfo> out;
+  for (const CLI::Option* o : app.get_subcommand(command)->get_options()) {
+    if (o->get_lnames().empty()) continue;  // positionals and --help's short form only
+    OptionInfo info;
+    info.flag = "--" + o->get_lnames().front();
+    info.is_flag = o->get_expected_max() == 0;
+    info.default_text = o->get_default_str();
+    info.values = o->get_expected_max() > 1 ? 2 : 1;
+    if (info.flag != "--help") out.push_back(std::move(info));
+  }
+  return out;
+}
+
+std::optional<std::string> usage_error(const std::vector<std::string>& args) {
+  CLI::App app{description, "levelhead"};
+  add_commands(app);
+  std::vector<std::string> reversed(args.rbegin(), args.rend() - (args.empty() ? 0 : 1));
+  try {
+    app.parse(reversed);
+  } catch (const CLI::ParseError& e) {
+    return std::string(e.what());
+  }
+  return std::nullopt;
+}
+
+int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
+  CLI::App app{description, "levelhead"};
+  const CommandList commands = add_commands(app);
 
   // CLI11 takes the arguments reversed and without the program name.
   std::vector<std::string> reversed(args.rbegin(), args.rend() - (args.empty() ? 0 : 1));

@@ -3,6 +3,7 @@
 // Exit status: 0 done; 1 bad input or failed computation; 2 usage error;
 // 3 with --strict when the work finished but a statistical test failed.
 
+#include <optional>
 #include <ostream>
 #include <string>
 #include <vector>
@@ -10,6 +11,20 @@
 namespace levelhead::cli {
 
 enum ExitCode : int { exit_ok = 0, exit_failure = 1, exit_usage = 2, exit_checks_failed = 3 };
+
+// An option of a command, as the project file sees it.
+struct OptionInfo {
+  std::string flag;          // "--mm-per-sqrt-km"
+  bool is_flag = false;      // takes no value
+  std::size_t values = 1;    // 1, or 2 and more (a range, a list)
+  std::string default_text;  // as the command's help shows it; empty when none
+};
+
+// The long options of `command` (e.g. "adjust"), in the order they are declared.
+std::vector<OptionInfo> command_options(const std::string& command);
+
+// The parse error of a command line (args[0] the program name), without running it.
+std::optional<std::string> usage_error(const std::vector<std::string>& args);
 
 // args[0] is the program name, as in argv.
 int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err);

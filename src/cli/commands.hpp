@@ -20,5 +20,6 @@ CommandRunner add_gnss_check_command(CLI::App& app);
 CommandRunner add_heads_command(CLI::App& app);
 CommandRunner add_flow_command(CLI::App& app);
 CommandRunner add_epochs_command(CLI::App& app);
+CommandRunner add_run_command(CLI::App& app);
 
 }  // namespace levelhead::cli

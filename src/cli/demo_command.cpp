@@ -1,8 +1,6 @@
-// `levelhead demo`: writes the built-in demo site's tables and runs the
-// chain on them with the same commands a user would type: field book ->
-// sections -> loops -> adjustment (with iterative data snooping) -> heads of
-// wells whose tops were surveyed on an old site datum and by the network ->
-// gradient and flow for the October 2026 round.
+// `levelhead demo`: writes the built-in demo site's tables and its project
+// file into DIR/inputs, then runs the chain on it exactly as
+// `levelhead run DIR/inputs/project.toml --out DIR` would.
 
 #include <fmt/format.h>
 #include <memory>
@@ -30,30 +28,7 @@ CommandRunner add_demo_command(CLI::App& app) {
       files.commit();
     }
     out << fmt::format("Demo inputs written to {}\n", inputs.string());
-    const std::string points = (inputs / "points.csv").string();
-    const std::string sections = (folder / "reduce" / "sections.csv").string();
-    const std::vector<std::vector<std::string>> stages = {
-        {"reduce", (inputs / "fieldbook.csv").string()},
-        {"loops", "--points", points, "--sections", sections},
-        {"adjust", "--points", points, "--sections", sections, "--snoop"},
-        {"heads", "--wells", (inputs / "wells.csv").string(), "--mp",
-         (inputs / "measuring_points.csv").string(), "--levels", (inputs / "levels.csv").string(),
-         "--references", (inputs / "references.toml").string(), "--adjusted",
-         (folder / "adjust" / "heights.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613",
-         "--event", "2026-10-11T12:00-06:00", "--synoptic-window", "72"},
-        {"flow", "--heads", (folder / "heads" / "event.csv").string(), "--wells",
-         (inputs / "wells.csv").string(), "--conductivity", "1e-5", "1e-3", "--porosity", "0.15",
-         "0.30", "--distance", "500"},
-    };
-    for (const auto& stage : stages) {
-      out << fmt::format("\n== levelhead {} ==\n", fmt::join(stage, " "));
-      std::vector<std::string> args = {"levelhead"};
-      args.insert(args.end(), stage.begin(), stage.end());
-      args.insert(args.end(), {"--out", (folder / stage.front()).string()});
-      const int code = run(args, out, err);
-      if (code != exit_ok) return code;
-    }
-    return static_cast<int>(exit_ok);
+    return run({"levelhead", "run", (inputs / "project.toml").string(), "--out", folder.string()}, out, err);
   };
 }
 

@@ -8,6 +8,7 @@
 #include <sstream>
 
 #include "levelhead/errors.hpp"
+#include "util/text.hpp"
 
 namespace levelhead {
 
@@ -44,21 +45,6 @@ bool OffsetRelation::inside_hull(double x, double y) const {
 
 namespace {
 
-std::size_t edit_distance(const std::string& a, const std::string& b) {
-  std::vector<std::size_t> row(b.size() + 1);
-  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
-  for (std::size_t i = 1; i <= a.size(); ++i) {
-    std::size_t diagonal = row[0];
-    row[0] = i;
-    for (std::size_t j = 1; j <= b.size(); ++j) {
-      const std::size_t above = row[j];
-      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] != b[j - 1])});
-      diagonal = above;
-    }
-  }
-  return row[b.size()];
-}
-
 std::string where(const std::string& file, const toml::node& node) {
   return fmt::format("{}, line {}", file, node.source().begin.line);
 }
@@ -68,12 +54,8 @@ void check_keys(const std::string& file, const toml::table& table,
   for (const auto& [key, node] : table) {
     const std::string name(key.str());
     if (std::find(allowed.begin(), allowed.end(), name) != allowed.end()) continue;
-    std::string nearest = allowed.front();
-    for (const auto& candidate : allowed) {
-      if (edit_distance(name, candidate) < edit_distance(name, nearest)) nearest = candidate;
-    }
     throw InputError(where(file, node), fmt::format("unknown key '{}' (did you mean '{}'?)", name,
-                                                    nearest));
+                                                    util::nearest_name(name, allowed)));
   }
 }
 

@@ -5,6 +5,7 @@
 #include <cctype>
 #include <string>
 #include <string_view>
+#include <vector>
 
 namespace levelhead::util {
 
@@ -27,6 +28,31 @@ inline bool iequals(std::string_view a, std::string_view b) {
            return std::tolower(static_cast<unsigned char>(x)) ==
                   std::tolower(static_cast<unsigned char>(y));
          });
+}
+
+// Levenshtein edit distance (Wagner-Fischer, one row).
+inline std::size_t edit_distance(std::string_view a, std::string_view b) {
+  std::vector<std::size_t> row(b.size() + 1);
+  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
+  for (std::size_t i = 1; i <= a.size(); ++i) {
+    std::size_t diagonal = row[0];
+    row[0] = i;
+    for (std::size_t j = 1; j <= b.size(); ++j) {
+      const std::size_t above = row[j];
+      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] != b[j - 1])});
+      diagonal = above;
+    }
+  }
+  return row[b.size()];
+}
+
+// The entry of `allowed` (not empty) closest to `name`, for "did you mean" hints.
+inline std::string nearest_name(std::string_view name, const std::vector<std::string>& allowed) {
+  std::string nearest = allowed.front();
+  for (const auto& candidate : allowed) {
+    if (edit_distance(name, candidate) < edit_distance(name, nearest)) nearest = candidate;
+  }
+  return nearest;
 }
 
 }  // namespace levelhead::util

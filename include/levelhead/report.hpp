@@ -1,0 +1,50 @@
+#pragma once
+// The report of a chain run and its audit record.
+//
+// In:  the output folder of `levelhead run` with the stage folders that ran
+//      (reduce/, loops/, adjust/, epochs/, heads/, flow/), and what the run
+//      knows: the site, the inputs with their checksums, the settings that
+//      differ from their defaults.
+// Out: report.html (self-contained: inline SVG and CSS, no external
+//      request), report.md (figures as SVG files in figures/), and run.json
+//      (audit: inputs with SHA-256, settings, configuration hash, PROJ, GDAL
+//      and EPSG database versions, grids with checksums). Only the report's
+//      one run-time line differs between two runs on the same inputs.
+// Errors: InputError when a stage output cannot be read; OutputError when a
+//      file cannot be written (nothing half-written is left).
+
+#include <filesystem>
+#include <string>
+#include <vector>
+
+namespace levelhead {
+
+struct ReportInput {
+  std::string role;     // points, levels, ...
+  std::string path;     // as written in the project
+  std::filesystem::path resolved;
+};
+
+struct ReportSetting {
+  std::string name;     // "adjustment.alpha"
+  std::string value, default_value;
+  bool chain_default = false;
+};
+
+struct ReportContext {
+  std::string title, site, prepared_for, prepared_by;
+  std::string crs, target;
+  std::vector<ReportInput> inputs;
+  std::vector<ReportSetting> settings;  // differing from the commands' defaults
+  std::vector<std::string> stages;      // that ran, in order
+  std::vector<std::filesystem::path> grids;  // grid files named by the references
+  std::string run_time;                 // the one line that changes run to run
+};
+
+// SHA-256 of the configuration: the settings and the inputs' checksums, in
+// a fixed order, so two runs agree exactly when their configuration does.
+std::string configuration_hash(const ReportContext& context);
+
+void write_report(const ReportContext& context, const std::filesystem::path& folder);
+
+}  // namespace levelhead

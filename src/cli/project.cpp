@@ -1,0 +1,311 @@
+#include "cli/project.hpp"
+
+#include <fmt/format.h>
+#include <toml++/toml.h>
+
+#include <algorithm>
+#include <set>
+
+#include "cli/app.hpp"
+#include "levelhead/errors.hpp"
+#include "util/text.hpp"
+
+namespace levelhead::cli {
+
+namespace fs = std::filesystem;
+
+const ProjectInput* Project::input(const std::string& role) const {
+  for (const ProjectInput& i : inputs) {
+    if (i.role == role) return &i;
+  }
+  return nullptr;
+}
+
+std::vector<const ProjectInput*> Project::inputs_of(const std::string& role) const {
+  std::vector<const ProjectInput*> out;
+  for (const ProjectInput& i : inputs) {
+    if (i.role == role) out.push_back(&i);
+  }
+  return out;
+}
+
+namespace {
+
+// Project sections that configure a command, in chain order.
+const std::vector<std::pair<std::string, std::string>>& stage_sections() {
+  static const std::vector<std::pair<std::string, std::string>> sections = {
+      {"fieldbook", "reduce"}, {"loops", "loops"}, {"adjustment", "adjust"},
+      {"epochs", "epochs"},    {"heads", "heads"}, {"flow", "flow"}};
+  return sections;
+}
+
+// Options the chain sets itself (inputs, outputs, the site's settings).
+bool wired_by_chain(const std::string& key) {
+  static const std::set<std::string> wired = {
+      "out",      "strict",     "quiet", "unit", "points", "sections", "references", "grid_path",
+      "network",  "wells",      "mp",    "levels", "to",   "crs",      "adjusted",   "monitored",
+      "heads"};
+  return wired.count(key) > 0;
+}
+
+// Settings where the chain's default differs from the command's: a chain
+// run unattended should remove a blunder and say so rather than stop.
+const std::vector<ProjectSetting>& chain_defaults() {
+  static const std::vector<ProjectSetting> defaults = {
+      {"adjustment", "snoop", {"true"}, "false", 0, true, true}};
+  return defaults;
+}
+
+std::string where(const Project& p, const toml::node& node) {
+  return fmt::format("{}, line {}", p.file.string(), node.source().begin.line);
+}
+
+[[noreturn]] void unknown_key(const Project& p, const toml::node& node, const std::string& section,
+                              const std::string& key, const std::vector<std::string>& allowed) {
+  throw InputError(where(p, node),
+                   fmt::format("unknown key '{}' in [{}] (did you mean '{}'?)", key, section,
+                               util::nearest_name(key, allowed)));
+}
+
+std::string text_value(const Project& p, const toml::node& node, const std::string& name) {
+  if (auto v = node.value<std::string>()) return *v;
+  throw InputError(where(p, node), fmt::format("'{}' must be a string (in quotes)", name));
+}
+
+// One path or a list of paths.
+std::vector<std::string> path_values(const Project& p, const toml::node& node, const std::string& name) {
+  if (const toml::array* list = node.as_array()) {
+    std::vector<std::string> out;
+    for (const toml::node& item : *list) out.push_back(text_value(p, item, name));
+    return out;
+  }
+  return {text_value(p, node, name)};
+}
+
+std::string scalar_text(const Project& p, const toml::node& node, const std::string& name) {
+  if (auto v = node.value_exact<std::string>()) return *v;
+  if (auto v = node.value_exact<int64_t>()) return std::to_string(*v);
+  if (auto v = node.value_exact<double>()) return fmt::format("{}", *v);
+  throw InputError(where(p, node), fmt::format("'{}' must be a number or a string", name));
+}
+
+fs::path resolve(const Project& p, const std::string& path) {
+  const fs::path given(path);
+  return given.is_absolute() ? given : p.folder / given;
+}
+
+void read_site(Project& p, const toml::table& site) {
+  const std::vector<std::string> allowed = {"name", "crs", "target", "unit", "references", "grid_path"};
+  for (const auto& [k, node] : site) {
+    const std::string key(k.str());
+    if (key == "name") p.name = text_value(p, node, key);
+    else if (key == "crs") p.crs = text_value(p, node, key);
+    else if (key == "target") p.target = text_value(p, node, key);
+    else if (key == "unit") p.unit = text_value(p, node, key);
+    else if (key == "references") p.references = resolve(p, text_value(p, node, key));
+    else if (key == "grid_path") {
+      for (const std::string& g : path_values(p, node, key)) p.grid_paths.push_back(resolve(p, g));
+    } else {
+      unknown_key(p, node, "site", key, allowed);
+    }
+  }
+}
+
+void read_inputs(Project& p, const toml::table& inputs) {
+  const std::vector<std::string> allowed = {"fieldbook", "sections", "points", "epochs",
+                                            "wells",     "measuring_points", "levels"};
+  for (const auto& [k, node] : inputs) {
+    const std::string key(k.str());
+    if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
+      unknown_key(p, node, "inputs", key, allowed);
+    }
+    const auto values = key == "epochs" ? path_values(p, node, key)
+                                        : std::vector<std::string>{text_value(p, node, key)};
+    for (const std::string& v : values) {
+      const fs::path path = resolve(p, v);
+      if (!fs::exists(path)) {
+        throw InputError(where(p, node), fmt::format("[inputs] {}: file '{}' not found (paths are "
+                                                     "relative to the project file)",
+                                                     key, v));
+      }
+      p.inputs.push_back({key, path, v});
+    }
+  }
+  if (p.input("fieldbook") && p.input("sections")) {
+    throw InputError(p.file.string(), "[inputs] gives both 'fieldbook' and 'sections': the sections "
+                                      "come from the field book; give one of them");
+  }
+}
+
+void read_stage(Project& p, const std::string& section, const std::string& command,
+                const toml::table& table) {
+  std::vector<OptionInfo> options = command_options(command);
+  std::vector<std::string> allowed;
+  for (const OptionInfo& o : options) {
+    std::string key = o.flag.substr(2);
+    std::replace(key.begin(), key.end(), '-', '_');
+    if (!wired_by_chain(key)) allowed.push_back(key);
+  }
+  for (const auto& [k, node] : table) {
+    const std::string key(k.str());
+    const auto it = std::find(allowed.begin(), allowed.end(), key);
+    if (it == allowed.end()) unknown_key(p, node, section, key, allowed);
+    std::string flag = key;
+    std::replace(flag.begin(), flag.end(), '_', '-');
+    const OptionInfo& option = *std::find_if(options.begin(), options.end(),
+                                             [&](const OptionInfo& o) { return o.flag == "--" + flag; });
+    ProjectSetting s{section, key, {}, option.default_text, node.source().begin.line, option.is_flag, false};
+    if (option.is_flag) {
+      const auto on = node.value_exact<bool>();
+      if (!on) throw InputError(where(p, node), fmt::format("'{}' is true or false", key));
+      s.values = {*on ? "true" : "false"};
+      s.default_text = "false";
+    } else if (const toml::array* list = node.as_array()) {
+      for (const toml::node& item : *list) s.values.push_back(scalar_text(p, item, key));
+    } else {
+      s.values = {scalar_text(p, node, key)};
+    }
+    std::erase_if(p.settings, [&](const ProjectSetting& d) { return d.section == section && d.key == key; });
+    p.settings.push_back(std::move(s));
+  }
+}
+
+void add_setting_args(const Project& p, const std::string& section, std::vector<std::string>& args) {
+  for (const ProjectSetting& s : p.settings) {
+    if (s.section != section) continue;
+    std::string flag = "--" + s.key;
+    std::replace(flag.begin(), flag.end(), '_', '-');
+    if (s.is_flag) {
+      if (s.values[0] == "true") args.push_back(flag);
+      continue;
+    }
+    args.push_back(flag);
+    args.insert(args.end(), s.values.begin(), s.values.end());
+  }
+}
+
+bool has_setting(const Project& p, const std::string& section, const std::string& key) {
+  return std::any_of(p.settings.begin(), p.settings.end(), [&](const ProjectSetting& s) {
+    return s.section == section && s.key == key && !s.chain_default;
+  });
+}
+
+}  // namespace
+
+Project load_project(const fs::path& file) {
+  Project p;
+  p.file = file;
+  p.folder = file.has_parent_path() ? file.parent_path() : fs::path(".");
+  if (!fs::exists(file)) throw InputError(file.string(), "project file not found");
+  toml::table root;
+  try {
+    root = toml::parse_file(file.string());
+  } catch (const toml::parse_error& e) {
+    throw InputError(fmt::format("{}, line {}", file.string(), e.source().begin.line),
+                     std::string(e.description()));
+  }
+  p.settings = chain_defaults();
+  std::vector<std::string> sections = {"site", "inputs", "report"};
+  for (const auto& [section, command] : stage_sections()) sections.push_back(section);
+  for (const auto& [k, node] : root) {
+    const std::string name(k.str());
+    if (std::find(sections.begin(), sections.end(), name) == sections.end()) {
+      throw InputError(where(p, node), fmt::format("unknown section [{}] (did you mean [{}]?)", name,
+                                                   util::nearest_name(name, sections)));
+    }
+    const toml::table* table = node.as_table();
+    if (!table) throw InputError(where(p, node), fmt::format("'{}' must be a section [{}]", name, name));
+    if (name == "site") {
+      read_site(p, *table);
+    } else if (name == "inputs") {
+      read_inputs(p, *table);
+    } else if (name == "report") {
+      const std::vector<std::string> allowed = {"title", "prepared_for", "prepared_by"};
+      for (const auto& [rk, rnode] : *table) {
+        const std::string key(rk.str());
+        if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
+          unknown_key(p, rnode, "report", key, allowed);
+        }
+        p.report[key] = text_value(p, rnode, key);
+      }
+    } else {
+      for (const auto& [section, command] : stage_sections()) {
+        if (section == name) read_stage(p, section, command, *table);
+      }
+    }
+  }
+  return p;
+}
+
+std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
+  std::vector<Stage> stages;
+  const auto add = [&](Stage stage) {
+    add_setting_args(p, stage.section, stage.args);
+    stage.args.insert(stage.args.end(), {"--out", (out / stage.name).string()});
+    stages.push_back(std::move(stage));
+  };
+  const auto path = [&](const std::string& role) { return p.input(role)->path.string(); };
+  const auto require = [&](const std::string& key, const std::string& value, const std::string& why) {
+    if (value.empty()) {
+      throw InputError(p.file.string(), fmt::format("[site] needs '{}' {}", key, why));
+    }
+  };
+
+  std::string sections;
+  if (p.input("fieldbook")) {
+    add({"reduce", "fieldbook", {"reduce", path("fieldbook"), "--unit", p.unit}, {"fieldbook"}});
+    sections = (out / "reduce" / "sections.csv").string();
+  } else if (p.input("sections")) {
+    sections = path("sections");
+  }
+  const bool network = p.input("points") && !sections.empty();
+  if (network) {
+    const std::vector<std::string> in = {"points", p.input("fieldbook") ? "fieldbook" : "sections"};
+    add({"loops", "loops", {"loops", "--points", path("points"), "--sections", sections, "--unit", p.unit}, in});
+    add({"adjust", "adjustment",
+         {"adjust", "--points", path("points"), "--sections", sections, "--unit", p.unit}, in});
+  }
+  const auto epoch_files = p.inputs_of("epochs");
+  if (!epoch_files.empty()) {
+    if (!p.input("points")) {
+      throw InputError(p.file.string(), "[inputs] epochs needs 'points' (the marks and points levelled)");
+    }
+    Stage e{"epochs", "epochs", {"epochs", "--points", path("points"), "--unit", p.unit}, {"points", "epochs"}};
+    for (const ProjectInput* f : epoch_files) e.args.insert(e.args.end(), {"--sections", f->path.string()});
+    add(std::move(e));
+  }
+  const bool wells = p.input("wells") && p.input("measuring_points") && p.input("levels");
+  if (wells) {
+    require("target", p.target, "(the vertical reference of the heads, e.g. \"EPSG:5703\")");
+    require("crs", p.crs, "(the horizontal CRS of the wells' x and y, e.g. \"EPSG:32613\")");
+    Stage h{"heads", "heads",
+            {"heads", "--wells", path("wells"), "--mp", path("measuring_points"), "--levels", path("levels"),
+             "--to", p.target, "--crs", p.crs, "--unit", p.unit},
+            {"wells", "measuring_points", "levels"}};
+    if (!p.references.empty()) h.args.insert(h.args.end(), {"--references", p.references.string()});
+    for (const fs::path& g : p.grid_paths) h.args.insert(h.args.end(), {"--grid-path", g.string()});
+    if (network) h.args.insert(h.args.end(), {"--adjusted", (out / "adjust" / "heights.csv").string()});
+    if (!epoch_files.empty()) {
+      h.args.insert(h.args.end(), {"--monitored", (out / "epochs" / "heights_by_epoch.csv").string()});
+    }
+    add(std::move(h));
+  } else if (p.input("wells") || p.input("measuring_points") || p.input("levels")) {
+    throw InputError(p.file.string(), "heads need all three of [inputs] wells, measuring_points and levels");
+  }
+  if (wells && has_setting(p, "heads", "event")) {
+    add({"flow", "flow", {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells")},
+         {"heads", "wells"}});
+  } else if (std::any_of(p.settings.begin(), p.settings.end(),
+                         [](const ProjectSetting& s) { return s.section == "flow"; })) {
+    throw InputError(p.file.string(), "[flow] needs one head per well: set [heads] event (the date "
+                                      "of the synoptic round) and the wells' inputs");
+  }
+  if (stages.empty()) {
+    throw InputError(p.file.string(), "the project has nothing to run: give [inputs] (a field book or "
+                                      "sections with points, epochs, or wells with measuring points "
+                                      "and levels)");
+  }
+  return stages;
+}
+
+}  // namespace levelhead::cli

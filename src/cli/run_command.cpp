@@ -1,0 +1,115 @@
+// `levelhead run PROJECT.toml --out DIR`: the whole chain from a project file.
+
+#include <fmt/format.h>
+#include <unistd.h>
+
+#include <chrono>
+#include <ctime>
+#include <memory>
+
+#include "cli/app.hpp"
+#include "cli/commands.hpp"
+#include "cli/project.hpp"
+#include "levelhead/errors.hpp"
+#include "levelhead/references_file.hpp"
+#include "levelhead/report.hpp"
+
+namespace levelhead::cli {
+
+namespace {
+
+struct RunArguments {
+  std::string project, out;
+  bool quiet = false, verbose = false;
+};
+
+ReportContext report_context(const Project& p, const std::vector<Stage>& stages) {
+  ReportContext c;
+  c.site = p.name;
+  c.title = p.report.count("title") ? p.report.at("title") : (p.name.empty() ? "Site" : p.name);
+  if (p.report.count("prepared_for")) c.prepared_for = p.report.at("prepared_for");
+  if (p.report.count("prepared_by")) c.prepared_by = p.report.at("prepared_by");
+  c.crs = p.crs;
+  c.target = p.target;
+  for (const ProjectInput& i : p.inputs) c.inputs.push_back({i.role, i.as_written, i.path});
+  if (!p.references.empty()) {
+    c.inputs.push_back({"references", p.references.lexically_relative(p.folder).string(), p.references});
+    const ReferenceSet references = ReferenceSet::load(p.references);
+    for (const auto& [name, definition] : references.definitions()) {
+      if (!definition.grid.empty()) c.grids.push_back(definition.grid);
+    }
+  }
+  for (const ProjectSetting& s : p.settings) {
+    std::string value = fmt::format("{}", fmt::join(s.values, " "));
+    if (value == s.default_text) continue;
+    c.settings.push_back({s.section + "." + s.key, value, s.default_text, s.chain_default});
+  }
+  for (const Stage& s : stages) c.stages.push_back(s.name);
+  return c;
+}
+
+std::string local_run_time() {
+  const std::time_t now = std::chrono::system_clock::to_time_t(std::chrono::system_clock::now());
+  std::tm utc{};
+  gmtime_r(&now, &utc);
+  char text[32];
+  std::strftime(text, sizeof text, "%Y-%m-%dT%H:%M:%SZ", &utc);
+  return text;
+}
+
+int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
+  const Project project = load_project(a.project);
+  const std::filesystem::path folder(a.out);
+  const std::vector<Stage> stages = plan_stages(project, folder);
+  // Every stage's options are checked before the first one runs.
+  for (const Stage& stage : stages) {
+    std::vector<std::string> args = {"levelhead"};
+    args.insert(args.end(), stage.args.begin(), stage.args.end());
+    if (const auto problem = usage_error(args)) {
+      throw OptionError(fmt::format("{} [{}]: {}", project.file.string(), stage.section, *problem));
+    }
+  }
+  const bool progress = !a.quiet && isatty(STDERR_FILENO);
+  std::ostream quiet_sink(nullptr);
+  std::ostream& stage_out = a.quiet ? quiet_sink : out;
+  for (std::size_t i = 0; i < stages.size(); ++i) {
+    const Stage& stage = stages[i];
+    if (progress) err << fmt::format("[{}/{}] {}\n", i + 1, stages.size() + 1, stage.name);
+    if (!a.quiet) out << fmt::format("\n== {} ==\n", stage.name);
+    if (a.verbose) out << fmt::format("levelhead {}\n", fmt::join(stage.args, " "));
+    std::vector<std::string> args = {"levelhead"};
+    args.insert(args.end(), stage.args.begin(), stage.args.end());
+    const int code = run(args, stage_out, err);
+    if (code != exit_ok) {
+      err << fmt::format(
+          "levelhead run: stopped at stage '{}' (reading {}). The stages before it finished and "
+          "their outputs in {} are complete; this stage left no output.\n",
+          stage.name, fmt::join(stage.inputs, ", "), folder.string());
+      return code;
+    }
+  }
+  if (progress) err << fmt::format("[{}/{}] report\n", stages.size() + 1, stages.size() + 1);
+  ReportContext context = report_context(project, stages);
+  context.run_time = local_run_time();
+  write_report(context, folder);
+  if (!a.quiet) {
+    out << fmt::format("\nReport: {} (also report.md); audit record: run.json\n",
+                       (folder / "report.html").string());
+  }
+  return exit_ok;
+}
+
+}  // namespace
+
+CommandRunner add_run_command(CLI::App& app) {
+  auto a = std::make_shared<RunArguments>();
+  CLI::App* c = app.add_subcommand("run", "Run the whole chain described by a project file");
+  c->add_option("PROJECT", a->project, "Project file (TOML; see docs/project-file.md)")->required();
+  c->add_option("--out", a->out, "Output folder: one folder per stage, the report and run.json")
+      ->required();
+  c->add_flag("--quiet", a->quiet, "Print nothing but errors");
+  c->add_flag("--verbose", a->verbose, "Also print each stage's command line");
+  return [a](std::ostream& out, std::ostream& err) { return run_project(*a, out, err); };
+}
+
+}  // namespace levelhead::cli

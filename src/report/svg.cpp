@@ -1,0 +1,123 @@
+#include "report/svg.hpp"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+
+namespace levelhead::report {
+
+std::string escape_xml(const std::string& text) {
+  std::string out;
+  out.reserve(text.size());
+  for (char c : text) {
+    switch (c) {
+      case '&': out += "&amp;"; break;
+      case '<': out += "&lt;"; break;
+      case '>': out += "&gt;"; break;
+      case '"': out += "&quot;"; break;
+      default: out += c;
+    }
+  }
+  return out;
+}
+
+namespace {
+std::string stroke_attributes(const Stroke& s) {
+  std::string a = fmt::format(R"( stroke="{}" stroke-width="{:.2f}")", s.colour, s.width);
+  if (!s.dash.empty()) a += fmt::format(R"( stroke-dasharray="{}")", s.dash);
+  return a;
+}
+}  // namespace
+
+Svg::Svg(double width, double height, std::string title)
+    : width_(width), height_(height), title_(std::move(title)) {}
+
+void Svg::line(double x1, double y1, double x2, double y2, const Stroke& stroke) {
+  body_ += fmt::format(R"(<line x1="{:.1f}" y1="{:.1f}" x2="{:.1f}" y2="{:.1f}"{}/>)", x1, y1, x2,
+                       y2, stroke_attributes(stroke));
+  body_ += '\n';
+}
+
+void Svg::polyline(const std::vector<std::pair<double, double>>& points, const Stroke& stroke,
+                   const std::string& fill) {
+  std::string list;
+  for (const auto& [x, y] : points) list += fmt::format("{:.1f},{:.1f} ", x, y);
+  body_ += fmt::format(R"(<polyline points="{}" fill="{}"{}/>)", list, fill, stroke_attributes(stroke));
+  body_ += '\n';
+}
+
+void Svg::circle(double x, double y, double r, const std::string& fill, const Stroke& stroke) {
+  body_ += fmt::format(R"(<circle cx="{:.1f}" cy="{:.1f}" r="{:.1f}" fill="{}"{}/>)", x, y, r, fill,
+                       stroke_attributes(stroke));
+  body_ += '\n';
+}
+
+void Svg::rect(double x, double y, double w, double h, const std::string& fill, const Stroke& stroke) {
+  body_ += fmt::format(R"(<rect x="{:.1f}" y="{:.1f}" width="{:.1f}" height="{:.1f}" fill="{}"{}/>)", x,
+                       y, std::max(w, 0.0), std::max(h, 0.0), fill, stroke_attributes(stroke));
+  body_ += '\n';
+}
+
+void Svg::text(double x, double y, const std::string& text, double size, const std::string& anchor,
+               const std::string& colour, bool bold) {
+  body_ += fmt::format(R"(<text x="{:.1f}" y="{:.1f}" font-size="{:.1f}" text-anchor="{}" fill="{}"{}>{}</text>)",
+                       x, y, size, anchor, colour, bold ? R"( font-weight="bold")" : "", escape_xml(text));
+  body_ += '\n';
+}
+
+std::string Svg::str() const {
+  return fmt::format(
+      R"(<svg xmlns="http://www.w3.org/2000/svg" width="{:.0f}" height="{:.0f}" viewBox="0 0 {:.0f} {:.0f}" role="img" font-family="sans-serif">)"
+      "\n<title>{}</title>\n{}</svg>\n",
+      width_, height_, width_, height_, escape_xml(title_), body_);
+}
+
+MapFrame::MapFrame(double min_x, double min_y, double max_x, double max_y, double left, double top,
+                   double width, double height)
+    : min_x_(min_x), min_y_(min_y), left_(left), top_(top), height_(height) {
+  const double span_x = std::max(max_x - min_x, 1.0), span_y = std::max(max_y - min_y, 1.0);
+  scale_ = std::min(width / span_x, height / span_y);
+  // Centre the drawing in the frame.
+  left_ += 0.5 * (width - span_x * scale_);
+  top_ += 0.5 * (height - span_y * scale_);
+  height_ = span_y * scale_;
+}
+
+double MapFrame::x(double world_x) const { return left_ + (world_x - min_x_) * scale_; }
+double MapFrame::y(double world_y) const { return top_ + height_ - (world_y - min_y_) * scale_; }
+
+void north_arrow(Svg& svg, double x, double y) {
+  svg.polyline({{x, y}, {x - 7, y + 22}, {x, y + 16}, {x + 7, y + 22}, {x, y}}, Stroke{"#222222", 1.2},
+               "#222222");
+  svg.text(x, y - 4, "N", 12, "middle", "#222222", true);
+}
+
+void scale_bar(Svg& svg, const MapFrame& frame, double x, double y, double max_pixels) {
+  const double target = 0.2 * max_pixels / frame.scale();
+  const double power = std::pow(10.0, std::floor(std::log10(target)));
+  double length = power;
+  for (double m : {1.0, 2.0, 5.0}) {
+    if (m * power <= target) length = m * power;
+  }
+  const double pixels = length * frame.scale();
+  svg.rect(x, y, pixels / 2, 5, "#222222", Stroke{"#222222", 1});
+  svg.rect(x + pixels / 2, y, pixels / 2, 5, "#ffffff", Stroke{"#222222", 1});
+  svg.text(x, y + 17, "0", 10, "middle");
+  svg.text(x + pixels, y + 17, length >= 1000 ? fmt::format("{:g} km", length / 1000) : fmt::format("{:g} m", length),
+           10, "middle");
+}
+
+std::string ramp_colour(double value, double low, double high) {
+  // Indigo -> teal -> ochre: readable on white, distinct in greyscale by lightness.
+  static const double stops[3][3] = {{44, 52, 122}, {47, 143, 131}, {226, 190, 74}};
+  double f = high > low ? (value - low) / (high - low) : 0.5;
+  f = std::clamp(f, 0.0, 1.0) * 2.0;
+  const int i = std::min(static_cast<int>(f), 1);
+  const double t = f - i;
+  int rgb[3];
+  for (int c = 0; c < 3; ++c) rgb[c] = static_cast<int>(std::lround(stops[i][c] + t * (stops[i + 1][c] - stops[i][c])));
+  return fmt::format("#{:02x}{:02x}{:02x}", rgb[0], rgb[1], rgb[2]);
+}
+
+}  // namespace levelhead::report

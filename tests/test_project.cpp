@@ -1,0 +1,163 @@
+// `levelhead run` and `levelhead demo`: the project file, the chain, the
+// report and the audit record.
+
+#include <catch2/catch.hpp>
+#include <nlohmann/json.hpp>
+
+#include <filesystem>
+#include <fstream>
+#include <regex>
+#include <sstream>
+
+#include "cli/app.hpp"
+#include "support/temp_folder.hpp"
+
+using Catch::Matchers::Contains;
+namespace fs = std::filesystem;
+
+namespace {
+
+struct Run {
+  int code;
+  std::string out, err;
+};
+
+Run cli(std::vector<std::string> args) {
+  args.insert(args.begin(), "levelhead");
+  std::ostringstream out, err;
+  const int code = levelhead::cli::run(args, out, err);
+  return {code, out.str(), err.str()};
+}
+
+std::string read(const fs::path& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream s;
+  s << in.rdbuf();
+  return s.str();
+}
+
+// The demo's inputs and project file, copied to `folder`.
+fs::path demo_project(const fs::path& folder) {
+  const Run demo = cli({"demo", "--out", (folder / "seed").string()});
+  REQUIRE(demo.code == 0);
+  fs::copy(folder / "seed" / "inputs", folder / "project");
+  return folder / "project" / "project.toml";
+}
+
+void replace_in(const fs::path& file, const std::string& from, const std::string& to) {
+  std::string text = read(file);
+  const auto at = text.find(from);
+  REQUIRE(at != std::string::npos);
+  text.replace(at, from.size(), to);
+  std::ofstream(file, std::ios::binary) << text;
+}
+
+}  // namespace
+
+TEST_CASE("the demo runs every stage and writes the report and audit record", "[project][demo]") {
+  levelhead::testing::TempFolder tmp;
+  const Run run = cli({"demo", "--out", tmp.path().string()});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  for (const char* stage : {"reduce", "loops", "adjust", "heads"}) {
+    CHECK(fs::exists(tmp.path() / stage / "summary.json"));
+  }
+  CHECK(fs::exists(tmp.path() / "flow" / "flow.json"));
+  const std::string html = read(tmp.path() / "report.html");
+  for (const char* section : {"Findings", "Levelling network", "Loop misclosures", "Adjustment",
+                              "Measuring points", "Heads", "QA flags and re-measure list", "What went in",
+                              "Cautions"}) {
+    CHECK_THAT(html, Contains(std::string(">") + section + "</h"));
+  }
+  for (const char* figure : {"fig-network", "fig-loops", "fig-heads", "fig-hydrographs"}) {
+    CHECK_THAT(html, Contains(figure));
+  }
+  // Self-contained: no resource is fetched (the SVG namespace is a name, not a request).
+  for (const char* request : {"src=", "href=", "url(", "@import", "<link", "<script"}) {
+    CHECK_THAT(html, !Contains(request));
+  }
+  CHECK_THAT(html, Contains("SBM-B -&gt; MW-04"));   // the planted blunder is a finding
+  CHECK_THAT(html, Contains("95.250 m too low"));     // and the datum mix-up it avoided
+  CHECK_THAT(read(tmp.path() / "report.md"), Contains("![Levelling network"));
+  CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
+
+  std::ifstream record_file(tmp.path() / "run.json");
+  const auto record = nlohmann::json::parse(record_file);
+  CHECK(record["configuration_sha256"].get<std::string>().size() == 64);
+  CHECK(record["inputs"].size() == 6);
+  CHECK_THAT(record["proj_version"].get<std::string>(), Contains("PROJ"));
+  CHECK(record["stages"].size() == 5);
+}
+
+TEST_CASE("two runs of the demo agree apart from the report's run-time line", "[project][demo]") {
+  levelhead::testing::TempFolder tmp;
+  // Same output folder both times (stage summaries name their inputs' paths).
+  REQUIRE(cli({"demo", "--out", (tmp.path() / "b").string()}).code == 0);
+  fs::rename(tmp.path() / "b", tmp.path() / "a");
+  REQUIRE(cli({"demo", "--out", (tmp.path() / "b").string()}).code == 0);
+  const std::regex run_time("Computed with [^\n<]*");
+  std::size_t compared = 0;
+  for (const auto& entry : fs::recursive_directory_iterator(tmp.path() / "a")) {
+    if (!entry.is_regular_file()) continue;
+    const fs::path relative = fs::relative(entry.path(), tmp.path() / "a");
+    if (relative.extension() == ".gpkg") continue;  // GDAL writes its own file identifiers
+    std::string a = read(entry.path()), b = read(tmp.path() / "b" / relative);
+    if (relative.filename().string().rfind("report.", 0) == 0) {
+      a = std::regex_replace(a, run_time, "");
+      b = std::regex_replace(b, run_time, "");
+    }
+    INFO(relative.string());
+    CHECK(a == b);
+    ++compared;
+  }
+  CHECK(compared > 20);
+}
+
+TEST_CASE("project files: unknown keys suggest the nearest, bad values name the section", "[project]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  const fs::path out = tmp.path() / "out";
+
+  SECTION("a misspelt key") {
+    replace_in(project, "snoop = true", "snop = true");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Contains("unknown key 'snop' in [adjustment] (did you mean 'snoop'?)"));
+    CHECK_THAT(run.err, Contains("line"));
+    CHECK_FALSE(fs::exists(out));
+  }
+  SECTION("a misspelt section") {
+    replace_in(project, "[heads]", "[head]");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Contains("unknown section [head] (did you mean [heads]?)"));
+  }
+  SECTION("a value the command refuses") {
+    replace_in(project, "synoptic_window = 72", "synoptic_window = \"three days\"");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 2);
+    CHECK_THAT(run.err, Contains("[heads]"));
+    CHECK_FALSE(fs::exists(out));  // checked before any stage ran
+  }
+  SECTION("a missing input file") {
+    replace_in(project, "levels = \"levels.csv\"", "levels = \"levels-2026.csv\"");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Contains("levels-2026.csv"));
+  }
+}
+
+TEST_CASE("a failing stage stops the chain and keeps the finished stages", "[project]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  std::ofstream(project.parent_path() / "levels.csv", std::ios::app) << "MW-01,2026-10-12T09:00,deep,\n";
+  const fs::path out = tmp.path() / "out";
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+  CHECK(run.code == 1);
+  CHECK(run.out.empty());
+  CHECK_THAT(run.err, Contains("stopped at stage 'heads'"));
+  CHECK_THAT(run.err, Contains("levels.csv"));
+  CHECK(fs::exists(out / "adjust" / "heights.csv"));
+  CHECK_FALSE(fs::exists(out / "heads" / "heads.csv"));
+  CHECK_FALSE(fs::exists(out / "report.html"));
+}
