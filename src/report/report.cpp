@@ -193,8 +193,8 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
   if (points.size() < 2 || !fs::exists(run / "adjust" / "residuals.csv")) return std::nullopt;
   Bounds b;
   for (const auto& [id, p] : points) b.add(p.x, p.y);
-  Svg svg(760, 520, "Levelling network: sections by normalised residual |w|");
-  const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 40, 30, 560, 450);
+  Svg svg(800, 520, "Levelling network: sections by normalised residual |w|");
+  const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 30, 30, 540, 450);
   const Csv residuals(run / "adjust" / "residuals.csv");
   if (fs::exists(run / "loops" / "loops.csv")) {
     const Csv loops(run / "loops" / "loops.csv");
@@ -205,7 +205,7 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
         const auto it = points.find(id);
         if (it != points.end()) ring.emplace_back(frame.x(it->second.x), frame.y(it->second.y));
       }
-      if (ring.size() >= 3) svg.polyline(ring, Stroke{"#8a3fa0", 6, "2 4"}, "#f3e6f7");
+      if (ring.size() >= 3) svg.polyline(ring, Stroke{"#d9bfe4", 10, ""}, "#f7f0fa");
     }
   }
   for (std::size_t r = 0; r < residuals.rows(); ++r) {
@@ -214,7 +214,7 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
     const auto w = residuals.number(r, "w");
     Stroke s{"#7d8b8f", 1.5, ""};
     if (!residuals.get(r, "removed_step").empty()) {
-      s = Stroke{"#b2352b", 2.5, "1 4"};
+      s = Stroke{"#b2352b", 3, "2 4"};
     } else if (w && std::abs(*w) > 3.29) {
       s = Stroke{"#b2352b", 3, "8 3"};
     } else if (w && std::abs(*w) > 1.96) {
@@ -229,22 +229,22 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
     svg.text(frame.x(p.x) + 6, frame.y(p.y) - 6, id, 10);
   }
   // Legend.
-  const double lx = 615;
+  const double lx = 630;
   double ly = 60;
   const std::vector<std::pair<Stroke, std::string>> legend = {
       {{"#7d8b8f", 1.5, ""}, "|w| <= 1.96"},
       {{"#d08c1a", 2.5, "4 2"}, "1.96 < |w| <= 3.29"},
       {{"#b2352b", 3, "8 3"}, "|w| > 3.29 (suspect)"},
-      {{"#b2352b", 2.5, "1 4"}, "removed by snooping"},
+      {{"#b2352b", 3, "2 4"}, "removed by snooping"},
       {{"#444444", 1.2, "1 2"}, "no check (r = 0)"},
-      {{"#8a3fa0", 6, "2 4"}, "failed loop"}};
+      {{"#d9bfe4", 10, ""}, "failed loop (band)"}};
   for (const auto& [stroke, label] : legend) {
     svg.line(lx, ly, lx + 30, ly, stroke);
     svg.text(lx + 36, ly + 4, label, 10);
     ly += 20;
   }
   north_arrow(svg, 700, 330);
-  scale_bar(svg, frame, 615, 420, 560);
+  scale_bar(svg, frame, 630, 420, 540);
   return svg;
 }
 
@@ -342,13 +342,19 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
 
 // Heads over time per well, measuring-point changes as vertical lines.
 std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
-  std::map<std::string, std::vector<std::pair<double, double>>> series;
+  struct Reading {
+    double time, head;
+    bool excluded;  // kept out of contouring for a reason other than the window
+    bool operator<(const Reading& o) const { return time < o.time; }
+  };
+  std::map<std::string, std::vector<Reading>> series;
   double t0 = INFINITY, t1 = -INFINITY;
   for (std::size_t r = 0; r < heads.rows(); ++r) {
     const auto h = heads.number(r, "head");
     const auto when = parse_iso8601(heads.get(r, "time_utc"));
     if (!h || !when) continue;
-    series[heads.get(r, "well")].emplace_back(when->seconds, *h);
+    const std::string reason = heads.get(r, "reason");
+    series[heads.get(r, "well")].push_back({when->seconds, *h, !reason.empty() && reason != "outside-synoptic-window"});
     t0 = std::min(t0, when->seconds);
     t1 = std::max(t1, when->seconds);
   }
@@ -367,9 +373,9 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
     std::sort(points.begin(), points.end());
     const double ox = 10 + static_cast<double>(i % columns) * cell_w, oy = 5 + static_cast<double>(i / columns) * cell_h;
     double lo = INFINITY, hi = -INFINITY;
-    for (const auto& [t, h] : points) {
-      lo = std::min(lo, h);
-      hi = std::max(hi, h);
+    for (const Reading& p : points) {
+      lo = std::min(lo, p.head);
+      hi = std::max(hi, p.head);
     }
     if (hi - lo < 0.1) {
       const double mid = 0.5 * (hi + lo);
@@ -387,13 +393,18 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
       if (c > t0 && c < t1) svg.line(X(c), py, X(c), py + ph, Stroke{"#b2352b", 1, "3 2"});
     }
     std::vector<std::pair<double, double>> line;
-    for (const auto& [t, h] : points) line.emplace_back(X(t), Y(h));
+    for (const Reading& p : points) {
+      if (!p.excluded) line.emplace_back(X(p.time), Y(p.head));
+    }
     svg.polyline(line, Stroke{"#2c347a", 1.3});
-    for (const auto& [x, y] : line) svg.circle(x, y, 1.6, "#2c347a", Stroke{"#2c347a", 0.5});
+    for (const Reading& p : points) {
+      svg.circle(X(p.time), Y(p.head), p.excluded ? 2.6 : 1.6, p.excluded ? "#ffffff" : "#2c347a",
+                 Stroke{p.excluded ? "#b2352b" : "#2c347a", p.excluded ? 1.2 : 0.5});
+    }
     ++i;
   }
   svg.text(10, static_cast<double>(rows) * cell_h + 5,
-           fmt::format("{} to {}; dashed: measuring point changed", format_utc(t0).substr(0, 10),
+           fmt::format("{} to {}; dashed: measuring point changed; open red: not for contouring (pumping, ...)", format_utc(t0).substr(0, 10),
                        format_utc(t1).substr(0, 10)),
            9);
   return svg;
