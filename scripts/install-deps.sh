@@ -1,6 +1,8 @@
 #!/usr/bin/env bash
 # Installs the Debian 12 / Ubuntu packages levelhead builds and tests with,
 # only those that are missing. Safe to run again. Needs root or sudo.
+# --browser also installs Chromium for the test that opens the report in a
+# real headless browser.
 set -euo pipefail
 
 packages=(
@@ -19,6 +21,7 @@ packages=(
   catch2
   python3 python3-numpy
 )
+if [ "${1:-}" = "--browser" ]; then packages+=(chromium); fi
 
 missing=()
 for p in "${packages[@]}"; do
