@@ -6,7 +6,8 @@
 //      knows: the site, the inputs with their checksums, the settings that
 //      differ from their defaults.
 // Out: report.html (self-contained: inline SVG and CSS, no external
-//      request), report.md (figures as SVG files in figures/), and run.json
+//      request), report.md (figures as SVG files in figures/), contours.gpkg
+//      (quick-look contours of the synoptic heads, contours.hpp), and run.json
 //      (audit: inputs with SHA-256, settings, configuration hash, PROJ, GDAL
 //      and EPSG database versions, grids with checksums). Only the report's
 //      one run-time line differs between two runs on the same inputs.
@@ -14,6 +15,7 @@
 //      file cannot be written (nothing half-written is left).
 
 #include <filesystem>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -38,6 +40,7 @@ struct ReportContext {
   std::vector<ReportSetting> settings;  // differing from the commands' defaults
   std::vector<std::string> stages;      // that ran, in order
   std::vector<std::filesystem::path> grids;  // grid files named by the references
+  std::optional<double> contour_interval;  // m; default: about eight levels over the heads
   std::string run_time;                 // the one line that changes run to run
 };
 

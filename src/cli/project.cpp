@@ -220,13 +220,19 @@ Project load_project(const fs::path& file) {
     } else if (name == "inputs") {
       read_inputs(p, *table);
     } else if (name == "report") {
-      const std::vector<std::string> allowed = {"title", "prepared_for", "prepared_by"};
+      const std::vector<std::string> allowed = {"title", "prepared_for", "prepared_by", "contour_interval"};
       for (const auto& [rk, rnode] : *table) {
         const std::string key(rk.str());
         if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
           unknown_key(p, rnode, "report", key, allowed);
         }
-        p.report[key] = text_value(p, rnode, key);
+        if (key == "contour_interval") {
+          const auto v = rnode.value<double>();
+          if (!v || !(*v > 0.0)) throw InputError(where(p, rnode), "'contour_interval' must be a number of metres > 0");
+          p.contour_interval = *v;
+        } else {
+          p.report[key] = text_value(p, rnode, key);
+        }
       }
     } else {
       for (const auto& [section, command] : stage_sections()) {

@@ -18,6 +18,7 @@
 
 #include <filesystem>
 #include <map>
+#include <optional>
 #include <string>
 #include <vector>
 
@@ -45,6 +46,7 @@ struct Project {
   std::filesystem::path references;  // empty when none
   std::vector<std::filesystem::path> grid_paths;
   std::map<std::string, std::string> report;  // title, prepared_for, prepared_by
+  std::optional<double> contour_interval;     // m, [report] contour_interval
   std::vector<ProjectSetting> settings;       // stage options given (and chain defaults)
 
   const ProjectInput* input(const std::string& role) const;

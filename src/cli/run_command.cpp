@@ -30,6 +30,7 @@ ReportContext report_context(const Project& p, const std::vector<Stage>& stages)
   if (p.report.count("prepared_for")) c.prepared_for = p.report.at("prepared_for");
   if (p.report.count("prepared_by")) c.prepared_by = p.report.at("prepared_by");
   c.crs = p.crs;
+  c.contour_interval = p.contour_interval;
   c.target = p.target;
   for (const ProjectInput& i : p.inputs) c.inputs.push_back({i.role, i.as_written, i.path});
   if (!p.references.empty()) {

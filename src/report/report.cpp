@@ -11,6 +11,7 @@
 #include <nlohmann/json.hpp>
 #include <set>
 
+#include "levelhead/contours.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/table.hpp"
@@ -275,8 +276,10 @@ Svg loop_chart(const Csv& loops) {
   return svg;
 }
 
-// Heads of the contouring round: wells coloured by head, the flow arrow.
-std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json) {
+// Heads of the contouring round: wells coloured by head, quick-look
+// contours, the flow arrow.
+std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json,
+                            std::optional<double> interval, std::optional<QuickContours>& contours) {
   std::map<std::string, PlacedPoint> placed;
   for (std::size_t r = 0; r < wells.rows(); ++r) {
     const auto x = wells.number(r, "x"), y = wells.number(r, "y");
@@ -304,6 +307,18 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
   }
   Svg svg(760, 520, "Heads of the contouring round");
   const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 50, 40, 540, 430);
+  std::vector<HeadAtWell> at_wells;
+  for (const Shown& s : shown) at_wells.push_back({s.at.x, s.at.y, s.head});
+  contours = quick_contours(at_wells, interval);
+  if (contours) {
+    for (const ContourLine& line : contours->lines) {
+      std::vector<std::pair<double, double>> path;
+      for (const auto& [x, y] : line.vertices) path.emplace_back(frame.x(x), frame.y(y));
+      svg.polyline(path, Stroke{"#5d6d7e", 1.0, "5 2"});
+      const auto& [lx, ly] = path[path.size() / 2];
+      svg.text(lx, ly - 2, fixed(line.level, contours->interval < 0.1 ? 2 : 1), 8.5, "middle", "#3d4b5a");
+    }
+  }
   if (fs::exists(flow_json)) {
     const nlohmann::json flow = read_json(flow_json);
     const double azimuth = flow["azimuth"]["value"].get<double>() * M_PI / 180.0;
@@ -335,6 +350,10 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
   svg.text(665, 95, fixed(high, 2) + " m", 10);
   svg.text(665, 295, fixed(low, 2) + " m", 10);
   svg.text(640, 70, "head", 10, "start", "#222222", true);
+  if (contours) {
+    svg.line(640, 315, 670, 315, Stroke{"#5d6d7e", 1.0, "5 2"});
+    svg.text(675, 319, fmt::format("contours, {:g} m", contours->interval), 10);
+  }
   north_arrow(svg, 700, 350);
   scale_bar(svg, frame, 620, 440, 540);
   return svg;
@@ -598,7 +617,8 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
   for (const auto& w : s["warnings"]) findings.items.push_back("Monitoring: " + w.get<std::string>());
 }
 
-void heads_section(Document& doc, Findings& findings, const ReportContext& c, const fs::path& run) {
+void heads_section(Document& doc, Findings& findings, const ReportContext& c, const fs::path& run,
+                   std::optional<QuickContours>& contours) {
   if (!fs::exists(run / "heads" / "summary.json")) return;
   const nlohmann::json s = read_json(run / "heads" / "summary.json");
   const Csv mps(run / "heads" / "measuring_points.csv");
@@ -645,10 +665,11 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
     const Csv event(run / "heads" / "event.csv");
     if (const ReportInput* w = input(c, "wells")) {
       const Csv wells(w->resolved);
-      if (auto map = head_map(event, wells, run / "flow" / "flow.json")) {
+      if (auto map = head_map(event, wells, run / "flow" / "flow.json", c.contour_interval, contours)) {
         doc.figure("heads", *map,
-                   "Heads of the synoptic round, one per well (colour), and the flow direction from the "
-                   "planar fit (arrow). A quick look, not a contour map for decisions.");
+                   "Heads of the synoptic round, one per well (colour), quick-look contours (dashed; "
+                   "linear between wells, also in contours.gpkg) and the flow direction from the planar "
+                   "fit (arrow). A quick look, not a contour map for decisions.");
       }
     }
   }
@@ -780,7 +801,8 @@ void write_report(const ReportContext& c, const fs::path& folder) {
   Findings findings;
   levelling_section(body, findings, c, folder);
   monitoring_section(body, findings, folder);
-  heads_section(body, findings, c, folder);
+  std::optional<QuickContours> contours;
+  heads_section(body, findings, c, folder, contours);
   inputs_section(body, c, hash);
   body.heading(2, "Cautions");
   body.bullets(cautions());
@@ -812,6 +834,7 @@ void write_report(const ReportContext& c, const fs::path& folder) {
                           << css << "</style>\n</head>\n<body>\n"
                           << head.html() << body.html() << "</body>\n</html>\n";
   out.open("run.json") << run_record(c, hash).dump(2) << '\n';
+  if (contours && !c.crs.empty()) write_contours_geopackage(*contours, c.crs, c.target, out.reserve("contours.gpkg"));
   out.commit();
 }
 
