@@ -2,6 +2,7 @@
 // report and the audit record.
 
 #include <catch2/catch.hpp>
+#include <fmt/format.h>
 #include <nlohmann/json.hpp>
 
 #include <filesystem>
@@ -160,4 +161,48 @@ TEST_CASE("a failing stage stops the chain and keeps the finished stages", "[pro
   CHECK(fs::exists(out / "adjust" / "heights.csv"));
   CHECK_FALSE(fs::exists(out / "heads" / "heads.csv"));
   CHECK_FALSE(fs::exists(out / "report.html"));
+}
+
+TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  const fs::path before = tmp.path() / "before", after = tmp.path() / "after";
+  REQUIRE(cli({"run", project.string(), "--out", before.string(), "--quiet"}).code == 0);
+
+  SECTION("the same run twice") {
+    const Run same = cli({"diff", before.string(), before.string()});
+    CHECK(same.code == 0);
+    CHECK_THAT(same.out, Contains("The runs agree"));
+  }
+  SECTION("a re-surveyed measuring point") {
+    // MW-03's casing-cut survey raised by 0.100 m: the heads of MW-03 from
+    // then until its next survey move by exactly that, no other well's do.
+    const fs::path mp = project.parent_path() / "measuring_points.csv";
+    std::string text = read(mp);
+    const std::string old_row = "MW-03,2026-03-10,";
+    const auto at = text.find(old_row);
+    REQUIRE(at != std::string::npos);
+    const auto end = text.find(',', at + old_row.size());
+    const double height = std::stod(text.substr(at + old_row.size(), end - at - old_row.size()));
+    text.replace(at + old_row.size(), end - at - old_row.size(), fmt::format("{:.4f}", height + 0.100));
+    std::ofstream(mp, std::ios::binary) << text;
+    REQUIRE(cli({"run", project.string(), "--out", after.string(), "--quiet"}).code == 0);
+    const fs::path json = tmp.path() / "diff.json";
+    const Run diff = cli({"diff", before.string(), after.string(), "--json", json.string()});
+    INFO(diff.out << diff.err);
+    CHECK(diff.code == 0);
+    CHECK_THAT(diff.out, Contains("input measuring_points"));
+    std::ifstream json_file(json);
+    const auto d = nlohmann::json::parse(json_file);
+    REQUIRE(d["wells"].size() == 1);
+    CHECK(d["wells"][0]["well"] == "MW-03");
+    CHECK_THAT(d["wells"][0]["largest"].get<double>(), Catch::Matchers::WithinAbs(0.100, 0.0011));  // heads to 1 mm
+    CHECK_THAT(d["wells"][0]["causes"][0].get<std::string>(), Contains("measuring-point surveys"));
+    CHECK(d["heights"].empty());  // the levelling did not change
+  }
+  SECTION("a folder that is not a run") {
+    const Run bad = cli({"diff", before.string(), tmp.path().string()});
+    CHECK(bad.code == 1);
+    CHECK_THAT(bad.err, Contains("no run.json"));
+  }
 }

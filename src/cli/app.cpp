@@ -28,6 +28,7 @@ CommandList add_commands(CLI::App& app) {
       {"heads", add_heads_command(app)},
       {"flow", add_flow_command(app)},
       {"run", add_run_command(app)},
+      {"diff", add_diff_command(app)},
       {"demo", add_demo_command(app)},
   };
 }

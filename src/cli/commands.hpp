@@ -21,5 +21,6 @@ CommandRunner add_heads_command(CLI::App& app);
 CommandRunner add_flow_command(CLI::App& app);
 CommandRunner add_epochs_command(CLI::App& app);
 CommandRunner add_run_command(CLI::App& app);
+CommandRunner add_diff_command(CLI::App& app);
 
 }  // namespace levelhead::cli
