@@ -25,6 +25,7 @@ CommandList add_commands(CLI::App& app) {
       {"convert", add_convert_command(app)},
       {"tie", add_tie_command(app)},
       {"gnss-check", add_gnss_check_command(app)},
+      {"transducer", add_transducer_command(app)},
       {"heads", add_heads_command(app)},
       {"flow", add_flow_command(app)},
       {"run", add_run_command(app)},

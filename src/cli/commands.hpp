@@ -18,6 +18,7 @@ CommandRunner add_convert_command(CLI::App& app);
 CommandRunner add_tie_command(CLI::App& app);
 CommandRunner add_gnss_check_command(CLI::App& app);
 CommandRunner add_heads_command(CLI::App& app);
+CommandRunner add_transducer_command(CLI::App& app);
 CommandRunner add_flow_command(CLI::App& app);
 CommandRunner add_epochs_command(CLI::App& app);
 CommandRunner add_run_command(CLI::App& app);

@@ -35,7 +35,7 @@ namespace {
 const std::vector<std::pair<std::string, std::string>>& stage_sections() {
   static const std::vector<std::pair<std::string, std::string>> sections = {
       {"fieldbook", "reduce"}, {"loops", "loops"}, {"adjustment", "adjust"},
-      {"epochs", "epochs"},    {"heads", "heads"}, {"flow", "flow"}};
+      {"epochs", "epochs"},    {"transducer", "transducer"}, {"heads", "heads"}, {"flow", "flow"}};
   return sections;
 }
 
@@ -44,7 +44,7 @@ bool wired_by_chain(const std::string& key) {
   static const std::set<std::string> wired = {
       "out",      "strict",     "quiet", "unit", "points", "sections", "references", "grid_path",
       "network",  "wells",      "mp",    "levels", "to",   "crs",      "adjusted",   "monitored",
-      "heads"};
+      "heads",    "sensors",    "records"};
   return wired.count(key) > 0;
 }
 
@@ -112,8 +112,8 @@ void read_site(Project& p, const toml::table& site) {
 }
 
 void read_inputs(Project& p, const toml::table& inputs) {
-  const std::vector<std::string> allowed = {"fieldbook", "sections", "points", "epochs",
-                                            "wells",     "measuring_points", "levels"};
+  const std::vector<std::string> allowed = {"fieldbook", "sections", "points",  "epochs", "wells",
+                                            "measuring_points", "levels", "sensors", "records"};
   for (const auto& [k, node] : inputs) {
     const std::string key(k.str());
     if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
@@ -281,11 +281,23 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     add(std::move(e));
   }
   const bool wells = p.input("wells") && p.input("measuring_points") && p.input("levels");
+  std::string levels = p.input("levels") ? path("levels") : std::string();
+  if (p.input("sensors") || p.input("records")) {
+    if (!(p.input("sensors") && p.input("records") && p.input("wells") && p.input("levels"))) {
+      throw InputError(p.file.string(), "transducer records need all of [inputs] sensors, records, wells and "
+                                        "levels (the tape readings that check them)");
+    }
+    add({"transducer", "transducer",
+         {"transducer", "--wells", path("wells"), "--sensors", path("sensors"), "--records", path("records"),
+          "--levels", path("levels"), "--unit", p.unit},
+         {"sensors", "records", "levels"}});
+    levels = (out / "transducer" / "levels.csv").string();
+  }
   if (wells) {
     require("target", p.target, "(the vertical reference of the heads, e.g. \"EPSG:5703\")");
     require("crs", p.crs, "(the horizontal CRS of the wells' x and y, e.g. \"EPSG:32613\")");
     Stage h{"heads", "heads",
-            {"heads", "--wells", path("wells"), "--mp", path("measuring_points"), "--levels", path("levels"),
+            {"heads", "--wells", path("wells"), "--mp", path("measuring_points"), "--levels", levels,
              "--to", p.target, "--crs", p.crs, "--unit", p.unit},
             {"wells", "measuring_points", "levels"}};
     if (!p.references.empty()) h.args.insert(h.args.end(), {"--references", p.references.string()});

@@ -394,6 +394,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     const auto density_col = t.find_column("density");
     const auto temperature_col = t.find_column("temperature");
     const auto salinity_col = t.find_column("salinity");
+    const auto flags_col = t.find_column("flags");  // carried from an earlier stage (transducer)
     const double unit = metres_per_unit(t.length_unit());
     for (std::size_t r = 0; r < t.row_count(); ++r) {
       ++summary.readings;
@@ -411,6 +412,15 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
       const double time = when->seconds;
       std::vector<std::string> flags;
+      if (flags_col) {
+        std::string_view given = util::trim(t.cell(r, *flags_col));
+        while (!given.empty()) {
+          const std::size_t space = given.find(' ');
+          const std::string_view flag = given.substr(0, space);
+          if (!flag.empty()) flags.emplace_back(flag);
+          given = space == std::string_view::npos ? std::string_view() : util::trim(given.substr(space));
+        }
+      }
 
       // Depth or state.
       std::optional<double> depth;
@@ -574,6 +584,10 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
             reason = excluded;
             break;
           }
+        }
+        // An earlier stage rejected the reading (e.g. transducer-drift-rejected).
+        for (const std::string& f : flags) {
+          if (reason.empty() && f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0) reason = f;
         }
       }
       const bool contour = reason.empty();

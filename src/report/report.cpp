@@ -617,6 +617,40 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
   for (const auto& w : s["warnings"]) findings.items.push_back("Monitoring: " + w.get<std::string>());
 }
 
+void transducer_section(Document& doc, Findings& findings, const fs::path& run) {
+  if (!fs::exists(run / "transducer" / "summary.json")) return;
+  const nlohmann::json s = read_json(run / "transducer" / "summary.json");
+  doc.heading(2, "Pressure transducers");
+  doc.paragraph(fmt::format("Depth to water = hung depth - water pressure / (rho g) + offset from the tape "
+                            "checks, linear in time between checks; g = {} m/s^2.",
+                            s["options"]["gravity_m_s2"].get<double>()));
+  std::vector<std::vector<std::string>> rows;
+  for (const auto& sensor : s["sensors"]) {
+    std::size_t rejected = 0;
+    std::vector<std::string> flags;
+    for (const auto& [flag, count] : sensor["flags"].items()) {
+      flags.push_back(fmt::format("{} {}", flag, count.get<long>()));
+      if (flag.find("-rejected") != std::string::npos || flag == "baro-gap") rejected += count.get<std::size_t>();
+    }
+    const auto& be = sensor["barometric_efficiency"];
+    rows.push_back({sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(),
+                    sensor["kind"].get<std::string>(), std::to_string(sensor["written"].get<long>()),
+                    std::to_string(sensor["checks"].get<long>()),
+                    fixed(1000 * sensor["largest_drift_m"].get<double>(), 1),
+                    be.is_null() ? "-" : fmt::format("{:.2f} +- {:.2f}", be["value"].get<double>(), be["sigma"].get<double>()),
+                    fmt::format("{:g}", sensor["density_kg_m3"].get<double>()),
+                    fmt::format("{}", fmt::join(flags, ", "))});
+    if (rejected > 0) {
+      findings.items.push_back(fmt::format("Transducer {} in {}: {} reading(s) rejected or left uncomputed "
+                                           "(transducer/qa.csv).",
+                                           sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(), rejected));
+    }
+  }
+  doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)", "barometric efficiency",
+             "rho (kg/m^3)", "flags"},
+            rows);
+}
+
 void heads_section(Document& doc, Findings& findings, const ReportContext& c, const fs::path& run,
                    std::optional<QuickContours>& contours) {
   if (!fs::exists(run / "heads" / "summary.json")) return;
@@ -801,6 +835,7 @@ void write_report(const ReportContext& c, const fs::path& folder) {
   Findings findings;
   levelling_section(body, findings, c, folder);
   monitoring_section(body, findings, folder);
+  transducer_section(body, findings, folder);
   std::optional<QuickContours> contours;
   heads_section(body, findings, c, folder, contours);
   inputs_section(body, c, hash);

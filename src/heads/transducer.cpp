@@ -1,0 +1,464 @@
+#include "levelhead/transducer.hpp"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <charconv>
+#include <cmath>
+#include <nlohmann/json.hpp>
+#include <unordered_map>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/time.hpp"
+#include "levelhead/units.hpp"
+#include "levelhead/version.hpp"
+#include "util/text.hpp"
+
+namespace levelhead {
+
+void TransducerOptions::validate() const {
+  const auto positive = [](double v, const char* name, const char* unit) {
+    if (!(v > 0.0) || !std::isfinite(v)) throw OptionError(fmt::format("{} = {} must be positive ({})", name, v, unit));
+  };
+  positive(density, "density", "kg/m^3");
+  positive(gravity, "gravity", "m/s^2");
+  positive(max_baro_distance, "max-baro-distance", "m");
+  positive(max_baro_elevation_difference, "max-baro-elevation-difference", "m");
+  positive(max_baro_gap_hours, "max-baro-gap", "hours");
+  positive(max_check_gap_hours, "max-check-gap", "hours");
+  positive(drift_limit, "drift-limit", "m");
+  positive(sensor_sigma, "sensor-sigma", "m");
+  if (!(manual_window_hours >= 0.0)) throw OptionError("manual-window must be 0 or more (hours)");
+  if (min_efficiency_pairs < 2) throw OptionError("min-efficiency-pairs must be at least 2");
+}
+
+// h = p / (rho g), p in kPa (SI: 1 kPa = 1000 N/m^2).
+double water_column(double pressure_kpa, double density, double gravity) {
+  return pressure_kpa * 1000.0 / (density * gravity);
+}
+
+// Least squares through the origin on first differences (see the header).
+std::optional<BarometricEfficiency> barometric_efficiency(const std::vector<double>& dd,
+                                                          const std::vector<double>& db,
+                                                          std::size_t min_pairs) {
+  if (dd.size() != db.size() || dd.size() < min_pairs) return std::nullopt;
+  double sxx = 0.0, sxy = 0.0;
+  for (std::size_t i = 0; i < dd.size(); ++i) {
+    sxx += db[i] * db[i];
+    sxy += db[i] * dd[i];
+  }
+  // Barometric changes below 0.1 mm of water in all: nothing to regress on.
+  if (!(sxx > 1e-8)) return std::nullopt;
+  BarometricEfficiency be;
+  be.value = sxy / sxx;
+  double ss = 0.0;
+  for (std::size_t i = 0; i < dd.size(); ++i) ss += std::pow(dd[i] - be.value * db[i], 2);
+  be.sigma = std::sqrt(ss / static_cast<double>(dd.size() - 1) / sxx);
+  be.pairs = dd.size();
+  return be;
+}
+
+namespace {
+
+struct Sample {
+  double time = 0.0, pressure = 0.0;
+  std::size_t row = 0;
+};
+
+struct Sensor {
+  std::string id, kind, well, barometer, utc_offset_text;
+  std::optional<double> hung_depth, range_kpa, sigma, x, y, elevation;
+  double utc_offset = 0.0;  // s
+  std::size_t row = 0;
+  std::vector<Sample> samples;
+};
+
+std::optional<double> parse_offset(std::string_view text) {
+  text = util::trim(text);
+  if (text.empty() || text == "Z" || text == "z") return 0.0;
+  const auto zoned = parse_iso8601(fmt::format("2000-01-01T00:00{}", text));
+  if (!zoned || !zoned->had_zone) return std::nullopt;
+  const auto plain = parse_iso8601("2000-01-01T00:00");
+  return plain->seconds - zoned->seconds;  // local = UTC + offset
+}
+
+std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells) {
+  const std::size_t id = t.require_column("sensor"), kind = t.require_column("kind");
+  const auto well = t.find_column("well"), baro = t.find_column("barometer"), hung = t.find_column("hung_depth");
+  const auto range = t.find_column("range_kpa"), sigma = t.find_column("sigma"), offset = t.find_column("utc_offset");
+  const auto x = t.find_column("x"), y = t.find_column("y"), elevation = t.find_column("elevation");
+  std::map<std::string, Sensor> out;
+  for (std::size_t r = 0; r < t.row_count(); ++r) {
+    Sensor s;
+    s.row = t.source_row(r);
+    s.id = std::string(t.cell(r, id));
+    s.kind = util::to_lower(t.cell(r, kind));
+    if (s.kind != "vented" && s.kind != "absolute" && s.kind != "barometer") {
+      throw InputError(t.location(r, kind), s.kind, "kind is vented, absolute or barometer");
+    }
+    if (well) s.well = std::string(t.cell(r, *well));
+    if (baro) s.barometer = std::string(t.cell(r, *baro));
+    if (hung) s.hung_depth = t.length(r, *hung);
+    if (range) s.range_kpa = t.number(r, *range);
+    if (sigma) s.sigma = t.length(r, *sigma);
+    if (x) s.x = t.number(r, *x);
+    if (y) s.y = t.number(r, *y);
+    if (elevation) s.elevation = t.length(r, *elevation);
+    if (offset) {
+      s.utc_offset_text = std::string(t.cell(r, *offset));
+      const auto o = parse_offset(s.utc_offset_text);
+      if (!o) throw InputError(t.location(r, *offset), s.utc_offset_text, "expected a zone like -06:00, +01:00 or Z");
+      s.utc_offset = *o;
+    }
+    if (s.kind == "barometer") {
+      if (!s.x || !s.y || !s.elevation) {
+        throw InputError(t.location(r, id), s.id, "a barometer needs x, y and elevation (m) to be matched to wells");
+      }
+    } else {
+      if (!wells.index.count(s.well)) {
+        throw InputError(t.location(r, well ? *well : id), s.well, "this sensor's well is not in the wells table");
+      }
+      if (s.kind == "absolute" && s.barometer.empty()) {
+        throw InputError(t.location(r, baro ? *baro : id), "",
+                         "an absolute sensor needs a barometer to subtract the air pressure");
+      }
+    }
+    if (!out.emplace(s.id, s).second) throw InputError(t.location(r, id), s.id, "two sensors of this id");
+  }
+  for (auto& [sid, s] : out) {
+    if (s.barometer.empty()) continue;
+    const auto b = out.find(s.barometer);
+    if (b == out.end() || b->second.kind != "barometer") {
+      throw InputError(CellLocation{t.source(), s.row, "barometer"}, s.barometer,
+                       "no barometer of this id in the sensors table");
+    }
+  }
+  return out;
+}
+
+void read_records(const Table& t, std::map<std::string, Sensor>& sensors) {
+  const std::size_t sensor = t.require_column("sensor"), time = t.require_column("time");
+  const std::size_t pressure = t.require_column("pressure");
+  for (std::size_t r = 0; r < t.row_count(); ++r) {
+    const std::string id(t.cell(r, sensor));
+    const auto it = sensors.find(id);
+    if (it == sensors.end()) throw InputError(t.location(r, sensor), id, "this sensor is not in the sensors table");
+    const auto when = parse_iso8601(t.cell(r, time));
+    if (!when) throw InputError(t.location(r, time), std::string(t.cell(r, time)), "expected an ISO 8601 time");
+    const auto p = t.number(r, pressure);
+    if (!p) throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
+    // Logger clocks kept in a local zone are brought to UTC.
+    const double utc = when->had_zone ? when->seconds : when->seconds - it->second.utc_offset;
+    it->second.samples.push_back({utc, *p, t.source_row(r)});
+  }
+  for (auto& [id, s] : sensors) {
+    std::stable_sort(s.samples.begin(), s.samples.end(), [](const Sample& a, const Sample& b) { return a.time < b.time; });
+  }
+}
+
+// Linear between the two samples around `time` when they are at most `gap` apart.
+std::optional<double> interpolate(const std::vector<Sample>& samples, double time, double gap) {
+  const auto after = std::lower_bound(samples.begin(), samples.end(), time,
+                                      [](const Sample& s, double t) { return s.time < t; });
+  if (after != samples.end() && std::abs(after->time - time) < 0.5) return after->pressure;
+  if (after == samples.begin() || after == samples.end()) return std::nullopt;
+  const Sample& a = *(after - 1);
+  const Sample& b = *after;
+  if (b.time - a.time > gap) return std::nullopt;
+  return a.pressure + (time - a.time) / (b.time - a.time) * (b.pressure - a.pressure);
+}
+
+struct ManualReading {
+  double time = 0.0;
+  std::optional<double> depth;
+};
+
+struct OutputRow {
+  std::string well;
+  double time = 0.0;
+  std::string line;
+};
+
+struct Check {
+  double time = 0.0, manual = 0.0, transducer = 0.0, offset = 0.0;
+};
+
+}  // namespace
+
+TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table, const Table& records,
+                                     const Table& manual, const TransducerOptions& options,
+                                     const std::filesystem::path& folder) {
+  options.validate();
+  std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
+  read_records(records, sensors);
+
+  // Manual readings: passed through as they are, and the checks.
+  const std::size_t well_col = manual.require_column("well"), time_col = manual.require_column("time");
+  const std::size_t depth_col = manual.require_column("depth");
+  std::vector<std::string> columns = manual.column_names();
+  for (const char* extra : {"sigma", "method", "flags"}) {
+    if (std::find(columns.begin(), columns.end(), extra) == columns.end()) columns.emplace_back(extra);
+  }
+  std::unordered_map<std::string, std::vector<ManualReading>> by_well;
+  std::vector<OutputRow> rows;
+  for (std::size_t r = 0; r < manual.row_count(); ++r) {
+    const std::string well(manual.cell(r, well_col));
+    const auto when = parse_iso8601(manual.cell(r, time_col));
+    if (!when) {
+      throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)), "expected an ISO 8601 time");
+    }
+    double depth = 0.0;
+    const std::string_view depth_text = util::trim(manual.cell(r, depth_col));
+    const auto [end, ec] = std::from_chars(depth_text.data(), depth_text.data() + depth_text.size(), depth);
+    ManualReading m{when->seconds, std::nullopt};
+    if (ec == std::errc() && end == depth_text.data() + depth_text.size()) m.depth = depth * metres_per_unit(manual.length_unit());
+    by_well[well].push_back(m);
+    std::string line;
+    for (std::size_t c = 0; c < columns.size(); ++c) {
+      if (c) line += ',';
+      const auto column = manual.find_column(columns[c]);
+      if (column) append_csv_cell(line, manual.cell(r, *column));
+    }
+    rows.push_back({well, when->seconds, std::move(line)});
+  }
+  for (auto& [w, list] : by_well) {
+    std::sort(list.begin(), list.end(), [](const ManualReading& a, const ManualReading& b) { return a.time < b.time; });
+  }
+
+  OutputSet out(folder);
+  std::ostream& checks_csv = out.open("checks.csv");
+  checks_csv << "sensor,well,time,manual_depth,transducer_depth,offset,drift,rejected_until_next\n";
+  std::ostream& qa_csv = out.open("qa.csv");
+  qa_csv << "sensor,well,time,row,flag,detail\n";
+
+  TransducerSummary summary;
+  summary.manual = manual.row_count();
+  const double baro_gap = options.max_baro_gap_hours * 3600.0, check_gap = options.max_check_gap_hours * 3600.0;
+  const double window = options.manual_window_hours * 3600.0;
+  const std::size_t depth_index = static_cast<std::size_t>(
+      std::find(columns.begin(), columns.end(), manual.column_names()[depth_col]) - columns.begin());
+  const auto index_of = [&](const char* name) {
+    return static_cast<std::size_t>(std::find(columns.begin(), columns.end(), name) - columns.begin());
+  };
+  const std::size_t well_index = index_of(manual.column_names()[well_col].c_str());
+  const std::size_t time_index = index_of(manual.column_names()[time_col].c_str());
+  const std::size_t sigma_index = index_of("sigma"), method_index = index_of("method"), flags_index = index_of("flags");
+
+  for (auto& [id, sensor] : sensors) {
+    if (sensor.kind == "barometer") continue;
+    SensorSummary s;
+    s.sensor = id;
+    s.well = sensor.well;
+    s.kind = sensor.kind;
+    s.barometer = sensor.barometer;
+    s.records = sensor.samples.size();
+    const Well& well = wells.wells[wells.index.at(sensor.well)];
+    s.density = well.density.value_or(options.density);
+    s.gravity = options.gravity;
+    const Sensor* baro = sensor.barometer.empty() ? nullptr : &sensors.at(sensor.barometer);
+    if (baro) {
+      const double distance = std::hypot(*baro->x - well.x, *baro->y - well.y);
+      if (distance > options.max_baro_distance) {
+        throw InputError(CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
+                         fmt::format("barometer '{}' is {:.0f} m from well '{}', beyond --max-baro-distance "
+                                     "({:.0f} m): its air pressure may not be the well's",
+                                     baro->id, distance, well.id, options.max_baro_distance));
+      }
+      if (!well.ground) {
+        ++s.flags["baro-elevation-unchecked"];
+      } else if (std::abs(*baro->elevation - *well.ground) > options.max_baro_elevation_difference) {
+        throw InputError(CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
+                         fmt::format("barometer '{}' stands {:.0f} m above or below well '{}', beyond "
+                                     "--max-baro-elevation-difference ({:.0f} m)",
+                                     baro->id, std::abs(*baro->elevation - *well.ground), well.id,
+                                     options.max_baro_elevation_difference));
+      }
+    }
+
+    // Raw depths (with the hung depth, or 0 until calibrated).
+    struct Reading {
+      double time, raw, baro_m;
+      bool has_baro, rejected;
+      std::vector<std::string> flags;
+      std::size_t row;
+    };
+    std::vector<Reading> readings;
+    const double hung = sensor.hung_depth.value_or(0.0);
+    for (const Sample& sample : sensor.samples) {
+      std::optional<double> air;
+      if (baro) air = interpolate(baro->samples, sample.time, baro_gap);
+      if (sensor.kind == "absolute" && !air) {
+        qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(sample.time) << ',' << sample.row
+               << ",baro-gap,no barometer sample within " << options.max_baro_gap_hours << " h on each side\n";
+        ++s.flags["baro-gap"];
+        continue;
+      }
+      const double water = sensor.kind == "absolute" ? sample.pressure - *air : sample.pressure;
+      Reading reading{sample.time, hung - water_column(water, s.density, s.gravity),
+                      air ? water_column(*air, s.density, s.gravity) : 0.0, air.has_value(), false, {}, sample.row};
+      if (sensor.range_kpa && (sample.pressure < 0.0 || sample.pressure > *sensor.range_kpa)) {
+        reading.flags.emplace_back("transducer-range-rejected");
+      } else if (water < 0.0) {
+        reading.flags.emplace_back("transducer-dry-rejected");
+      }
+      reading.rejected = !reading.flags.empty();
+      readings.push_back(std::move(reading));
+    }
+
+    // Offsets at the manual checks: manual depth minus the nearest valid raw depth.
+    std::vector<Check> checks;
+    for (const ManualReading& m : by_well[sensor.well]) {
+      if (!m.depth) continue;
+      const Reading* nearest = nullptr;
+      for (const Reading& r : readings) {
+        if (!r.rejected && std::abs(r.time - m.time) <= check_gap &&
+            (!nearest || std::abs(r.time - m.time) < std::abs(nearest->time - m.time))) {
+          nearest = &r;
+        }
+      }
+      if (nearest) checks.push_back({m.time, *m.depth, nearest->raw, *m.depth - nearest->raw});
+    }
+    s.checks = checks.size();
+    if (!sensor.hung_depth) {
+      if (checks.empty()) {
+        throw InputError(CellLocation{sensors_table.source(), sensor.row, "hung_depth"}, "",
+                         fmt::format("sensor '{}' has no hung depth and no manual reading of well '{}' within "
+                                     "{} h of a record to calibrate it on; give hung_depth or a tape reading",
+                                     id, sensor.well, options.max_check_gap_hours));
+      }
+      s.calibrated = true;
+      s.hung_depth = checks.front().offset;
+    } else {
+      s.hung_depth = sensor.hung_depth;
+    }
+    std::vector<bool> rejected_after(checks.size(), false);
+    for (std::size_t i = 0; i < checks.size(); ++i) {
+      const double drift = i ? checks[i].offset - checks[i - 1].offset : 0.0;
+      if (i && std::abs(drift) > options.drift_limit) rejected_after[i - 1] = true;
+      s.largest_drift = std::max(s.largest_drift, std::abs(drift));
+    }
+    for (std::size_t i = 0; i < checks.size(); ++i) {
+      const double drift = i ? checks[i].offset - checks[i - 1].offset : 0.0;
+      checks_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(checks[i].time) << ','
+                 << fmt::format("{:.4f},{:.4f},{:.4f},{}", checks[i].manual, checks[i].transducer + (s.calibrated ? *s.hung_depth : 0.0),
+                                checks[i].offset - (s.calibrated ? *s.hung_depth : 0.0), i ? fmt::format("{:+.4f}", drift) : "")
+                 << ',' << (rejected_after[i] ? "yes" : "no") << '\n';
+    }
+
+    // Corrected depths, the flags, and the readings written.
+    std::vector<double> depth_changes, baro_changes;
+    const Reading* previous = nullptr;
+    double previous_depth = 0.0;
+    const auto& manual_times = by_well[sensor.well];
+    for (Reading& r : readings) {
+      double correction = 0.0;
+      if (checks.empty()) {
+        r.flags.emplace_back("transducer-unchecked");
+      } else if (r.time <= checks.front().time) {
+        correction = checks.front().offset;
+        if (r.time < checks.front().time - check_gap) r.flags.emplace_back("transducer-beyond-checks");
+      } else if (r.time >= checks.back().time) {
+        correction = checks.back().offset;
+        if (r.time > checks.back().time + check_gap) r.flags.emplace_back("transducer-beyond-checks");
+      } else {
+        std::size_t i = 0;
+        while (checks[i + 1].time < r.time) ++i;
+        if (rejected_after[i]) {
+          correction = checks[i].offset;
+          r.flags.emplace_back("transducer-drift-rejected");
+          r.rejected = true;
+        } else {
+          const double f = (r.time - checks[i].time) / (checks[i + 1].time - checks[i].time);
+          correction = checks[i].offset + f * (checks[i + 1].offset - checks[i].offset);
+        }
+      }
+      const double depth = r.raw + correction;
+      if (previous && !previous->rejected && !r.rejected && r.has_baro && previous->has_baro &&
+          r.time - previous->time <= baro_gap) {
+        depth_changes.push_back(depth - previous_depth);
+        baro_changes.push_back(r.baro_m - previous->baro_m);
+      }
+      previous = &r;
+      previous_depth = depth;
+      const bool near_manual = std::any_of(manual_times.begin(), manual_times.end(),
+                                           [&](const ManualReading& m) { return std::abs(m.time - r.time) <= window; });
+      if (near_manual) {
+        ++s.near_manual;
+        continue;
+      }
+      for (const std::string& f : r.flags) {
+        ++s.flags[f];
+        if (f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0) {
+          qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ',' << r.row << ','
+                 << f << ",not contoured\n";
+        }
+      }
+      std::vector<std::string> cells(columns.size());
+      cells[well_index] = sensor.well;
+      cells[time_index] = format_utc(r.time);
+      // In the manual table's unit, which heads reads the whole table in.
+      const double unit = metres_per_unit(manual.length_unit());
+      cells[depth_index] = fmt::format("{:.4f}", depth / unit);
+      cells[sigma_index] = fmt::format("{:.4f}", sensor.sigma.value_or(options.sensor_sigma) / unit);
+      cells[method_index] = "transducer";
+      cells[flags_index] = fmt::format("{}", fmt::join(r.flags, " "));
+      std::string line;
+      for (std::size_t c = 0; c < cells.size(); ++c) {
+        if (c) line += ',';
+        append_csv_cell(line, cells[c]);
+      }
+      rows.push_back({sensor.well, r.time, std::move(line)});
+      ++s.written;
+    }
+    if (baro) s.efficiency = barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
+    summary.written += s.written;
+    summary.sensors.push_back(std::move(s));
+  }
+
+  // One table for `heads`, by well and time, so readings arrive in order.
+  std::stable_sort(rows.begin(), rows.end(), [](const OutputRow& a, const OutputRow& b) {
+    return a.well != b.well ? a.well < b.well : a.time < b.time;
+  });
+  std::ostream& levels = out.open("levels.csv");
+  for (std::size_t c = 0; c < columns.size(); ++c) levels << (c ? "," : "") << csv_cell(columns[c]);
+  levels << '\n';
+  for (const OutputRow& r : rows) levels << r.line << '\n';
+
+  nlohmann::json json;
+  json["levelhead_version"] = version_string();
+  json["command"] = "transducer";
+  json["manual_readings"] = summary.manual;
+  json["transducer_readings_written"] = summary.written;
+  json["options"] = {{"density_kg_m3", options.density},
+                     {"gravity_m_s2", options.gravity},
+                     {"max_baro_distance_m", options.max_baro_distance},
+                     {"max_baro_elevation_difference_m", options.max_baro_elevation_difference},
+                     {"max_baro_gap_hours", options.max_baro_gap_hours},
+                     {"max_check_gap_hours", options.max_check_gap_hours},
+                     {"drift_limit_m", options.drift_limit},
+                     {"manual_window_hours", options.manual_window_hours}};
+  json["head_rule"] = "depth = hung_depth - p_water / (rho g) + offset(t); p in Pa, rho in kg/m^3, g in m/s^2";
+  nlohmann::json list = nlohmann::json::array();
+  for (const SensorSummary& s : summary.sensors) {
+    nlohmann::json j = {{"sensor", s.sensor},       {"well", s.well},
+                        {"kind", s.kind},           {"barometer", s.barometer},
+                        {"records", s.records},     {"written", s.written},
+                        {"near_manual", s.near_manual}, {"flags", s.flags},
+                        {"density_kg_m3", s.density}, {"gravity_m_s2", s.gravity},
+                        {"hung_depth_m", s.hung_depth ? nlohmann::json(*s.hung_depth) : nlohmann::json(nullptr)},
+                        {"hung_depth_calibrated", s.calibrated}, {"checks", s.checks},
+                        {"largest_drift_m", s.largest_drift}};
+    j["barometric_efficiency"] = s.efficiency ? nlohmann::json{{"value", s.efficiency->value},
+                                                               {"sigma", s.efficiency->sigma},
+                                                               {"pairs", s.efficiency->pairs}}
+                                              : nlohmann::json(nullptr);
+    list.push_back(std::move(j));
+  }
+  json["sensors"] = std::move(list);
+  out.open("summary.json") << json.dump(2) << '\n';
+  out.commit();
+  return summary;
+}
+
+}  // namespace levelhead
