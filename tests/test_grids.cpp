@@ -112,3 +112,31 @@ TEST_CASE("a grid reference needs the points' CRS and an existing file", "[grids
   CHECK_THROWS_WITH(HeightConverter("site-geoid", "EPSG:4979", "", grid_reference(path), ProjSettings{}),
                     Contains("--crs"));
 }
+
+TEST_CASE("a named grid is found in PROJ's folders, and a multiplier of -1 reduces ellipsoidal heights",
+          "[grids]") {
+  // gnss (ellipsoidal h) -> egm96-here (H = h - N, egm96_15.gtx from
+  // proj-data, multiplier -1) -> EPSG:5703 (+0.412 m, an invented tie). The
+  // geoid part must agree with PROJ's own EPSG:4979 -> EGM96 height
+  // operation on the same grid (an independent path through PROJ's
+  // database).
+  testing::TempFolder tmp;
+  std::ofstream(tmp.path() / "refs.toml")
+      << "[references.gnss]\nkind = \"grid\"\nbase = \"egm96-here\"\ngrid = \"egm96_15.gtx\"\nmultiplier = -1\n"
+         "sigma = 0.05\n[references.egm96-here]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffset = 0.412\n";
+  const ReferenceSet set = ReferenceSet::load(tmp.path() / "refs.toml");
+  REQUIRE(std::filesystem::exists(set.find("gnss")->grid));
+  HeightConverter chain("gnss", "EPSG:5703", "EPSG:32613", set, ProjSettings{});
+  CHECK(chain.proj() == nullptr);
+  VerticalTransformer proj("EPSG:4979", "EPSG:4326+5773", "EPSG:32613", ProjSettings{});
+  const std::vector<PlanePoint> points = {{512450.0, 4409480.0}, {530000.0, 4420000.0}};
+  const auto ours = chain.convert(points, {1650.0, 1700.0});
+  const auto theirs = proj.convert(points, {1650.0, 1700.0});
+  for (std::size_t i = 0; i < points.size(); ++i) {
+    REQUIRE(ours[i].height);
+    REQUIRE(theirs[i].height);
+    // Both bilinear on the same float32 grid: agreement to 1 mm.
+    CHECK_THAT(*ours[i].height, WithinAbs(*theirs[i].height + 0.412, 0.001));
+  }
+  CHECK_THAT(chain.step_descriptions().front(), Contains("x -1"));
+}

@@ -34,15 +34,19 @@
 //   kind = "grid"                   # a geoid or offset grid over a base
 //   base = "EPSG:4979"
 //   grid = "grids/site_geoid.tif"   # GTX, GeoTIFF or any raster GDAL reads;
-//                                   # geographic lon/lat; relative to this file
+//                                   # geographic lon/lat; relative to this file,
+//                                   # else found in PROJ's grid folders by name
+//   multiplier = 1.0                # scales the grid's values (-1: the grid holds
+//                                   # the base's surface above this one)
 //   sigma = 0.02                    # m, of the grid values (optional)
 //
 // Sign convention of an offset reference (heights H of this reference):
 //   H_base = H + offset + slope_x (x - x0) + slope_y (y - y0)
 // i.e. `offset` is the height, in the base reference, of this reference's zero.
 // A grid reference holds, at each node, the height of this reference's
-// surface above the base's: H_base = H + G(lon, lat) (for a geoid over an
-// ellipsoid, h = H + N). Bilinear between nodes at pixel centres (PROJ).
+// surface above the base's: H_base = H + m G(lon, lat) with m the multiplier
+// (for a geoid over an ellipsoid, h = H + N; ellipsoidal heights over
+// orthometric ones take the geoid grid with m = -1: H = h - N). Bilinear between nodes at pixel centres (PROJ).
 // Errors: InputError naming the file, line and key; unknown keys are errors
 // with the nearest valid key suggested.
 
@@ -77,6 +81,7 @@ struct ReferenceDefinition {
   std::string definition;  // kind crs: the PROJ CRS
   std::string base;        // kinds offset and grid
   std::filesystem::path grid;  // kind grid: absolute path of the grid file
+  double grid_multiplier = 1.0;  // kind grid: the grid's values are scaled by this (e.g. -1)
   VerticalOffsetSlope offset_slope;  // kind vertoffset (EPSG 1046)
   OffsetRelation relation;
   std::string source;

@@ -44,8 +44,9 @@ std::string describe(const ReferenceDefinition& d, int direction) {
                        d.offset_slope.offset, d.source.empty() ? "" : " (" + d.source + ")");
   }
   if (d.kind == ReferenceDefinition::Kind::grid) {
-    return fmt::format("{} -> {}: grid {}{}", direction > 0 ? d.name : d.base,
+    return fmt::format("{} -> {}: grid {}{}{}", direction > 0 ? d.name : d.base,
                        direction > 0 ? d.base : d.name, d.grid.filename().string(),
+                       std::abs(d.grid_multiplier - 1.0) < 1e-12 ? "" : fmt::format(" x {:g}", d.grid_multiplier),
                        d.source.empty() ? "" : " (" + d.source + ")");
   }
   const bool sloped = std::abs(r.slope_x) > 0.0 || std::abs(r.slope_y) > 0.0;
@@ -133,7 +134,8 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
             }
             continue;
           }
-          current[i] += s.direction * *grid_values[i];
+          const double scale = s.definition.kind == ReferenceDefinition::Kind::grid ? s.definition.grid_multiplier : 1.0;
+          current[i] += s.direction * scale * *grid_values[i];
         } else {
           current[i] += s.direction * r.shift(points[i].x, points[i].y);
         }

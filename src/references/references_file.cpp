@@ -1,5 +1,6 @@
 #include "levelhead/references_file.hpp"
 
+#include <proj.h>
 #include <toml++/toml.h>
 
 #include <algorithm>
@@ -44,6 +45,22 @@ bool OffsetRelation::inside_hull(double x, double y) const {
 }
 
 namespace {
+
+// A relative grid path: beside the references file, else a grid of that
+// name in PROJ's search paths (where proj-data installs egm96_15.gtx).
+std::filesystem::path locate_grid(const std::filesystem::path& folder, const std::filesystem::path& grid) {
+  const std::filesystem::path beside = folder / grid;
+  if (std::filesystem::exists(beside)) return beside;
+  const std::string paths = proj_info().searchpath ? proj_info().searchpath : "";
+  std::size_t start = 0;
+  while (start <= paths.size()) {
+    const std::size_t end = std::min(paths.find(':', start), paths.size());
+    const std::filesystem::path candidate = std::filesystem::path(paths.substr(start, end - start)) / grid;
+    if (end > start && std::filesystem::exists(candidate)) return candidate;
+    start = end + 1;
+  }
+  return beside;  // missing: the converter reports it with the paths searched
+}
 
 std::string where(const std::string& file, const toml::node& node) {
   return fmt::format("{}, line {}", file, node.source().begin.line);
@@ -165,12 +182,16 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       if (!ellipsoid.empty()) v.ellipsoid = ellipsoid;
       if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
     } else if (kind == "grid") {
-      check_keys(file, *t, {"kind", "base", "grid", "sigma", "source"});
+      check_keys(file, *t, {"kind", "base", "grid", "multiplier", "sigma", "source"});
       d.kind = ReferenceDefinition::Kind::grid;
       d.base = text(file, *t, "base", true, name);
       std::filesystem::path grid = text(file, *t, "grid", true, name);
-      if (grid.is_relative()) grid = path.parent_path() / grid;
+      if (grid.is_relative()) grid = locate_grid(path.parent_path(), grid);
       d.grid = std::filesystem::absolute(grid).lexically_normal();
+      d.grid_multiplier = number(file, *t, "multiplier", 1.0);
+      if (!(std::abs(d.grid_multiplier) > 0.0)) {
+        throw InputError(where(file, *t->get("multiplier")), "'multiplier' must not be 0");
+      }
       if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
     } else {
       throw InputError(where(file, node), fmt::format("reference '{}': kind '{}' is not 'crs', "
