@@ -34,7 +34,7 @@ namespace {
 // Project sections that configure a command, in chain order.
 const std::vector<std::pair<std::string, std::string>>& stage_sections() {
   static const std::vector<std::pair<std::string, std::string>> sections = {
-      {"fieldbook", "reduce"}, {"loops", "loops"}, {"adjustment", "adjust"},
+      {"fieldbook", "reduce"}, {"loops", "loops"}, {"adjustment", "adjust"}, {"gnss", "gnss-check"},
       {"epochs", "epochs"},    {"transducer", "transducer"}, {"heads", "heads"}, {"flow", "flow"}};
   return sections;
 }
@@ -44,7 +44,7 @@ bool wired_by_chain(const std::string& key) {
   static const std::set<std::string> wired = {
       "out",      "strict",     "quiet", "unit", "points", "sections", "references", "grid_path",
       "network",  "wells",      "mp",    "levels", "to",   "crs",      "adjusted",   "monitored",
-      "heads",    "sensors",    "records"};
+      "heads",    "sensors",    "records", "levelled", "levelled_ref", "gnss"};
   return wired.count(key) > 0;
 }
 
@@ -113,7 +113,7 @@ void read_site(Project& p, const toml::table& site) {
 
 void read_inputs(Project& p, const toml::table& inputs) {
   const std::vector<std::string> allowed = {"fieldbook", "sections", "points",  "epochs", "wells",
-                                            "measuring_points", "levels", "sensors", "records"};
+                                            "measuring_points", "levels", "sensors", "records", "gnss"};
   for (const auto& [k, node] : inputs) {
     const std::string key(k.str());
     if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
@@ -270,6 +270,18 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     add({"loops", "loops", {"loops", "--points", path("points"), "--sections", sections, "--unit", p.unit}, in});
     add({"adjust", "adjustment",
          {"adjust", "--points", path("points"), "--sections", sections, "--unit", p.unit}, in});
+  }
+  if (p.input("gnss")) {
+    if (!network) throw InputError(p.file.string(), "[inputs] gnss is checked against the levelling: give points and sections (or a field book)");
+    require("target", p.target, "(the reference of the levelled heights, e.g. \"EPSG:5703\")");
+    require("crs", p.crs, "(the horizontal CRS of the GNSS table's x and y)");
+    Stage g{"gnss-check", "gnss",
+            {"gnss-check", "--levelled", (out / "adjust" / "heights.csv").string(), "--levelled-ref", p.target,
+             "--gnss", path("gnss"), "--crs", p.crs, "--unit", p.unit},
+            {"gnss", "points"}};
+    if (!p.references.empty()) g.args.insert(g.args.end(), {"--references", p.references.string()});
+    for (const fs::path& grid : p.grid_paths) g.args.insert(g.args.end(), {"--grid-path", grid.string()});
+    add(std::move(g));
   }
   const auto epoch_files = p.inputs_of("epochs");
   if (!epoch_files.empty()) {

@@ -569,6 +569,30 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
   doc.table({"point", "height", "sigma", "control"}, rows);
 }
 
+void gnss_section(Document& doc, Findings& findings, const fs::path& run) {
+  if (!fs::exists(run / "gnss-check" / "gnss_check.csv")) return;
+  const nlohmann::json s = read_json(run / "gnss-check" / "summary.json");
+  const Csv marks(run / "gnss-check" / "gnss_check.csv");
+  doc.heading(2, "GNSS heights against the levelling");
+  doc.paragraph(fmt::format("GNSS heights ({}) brought into {} through the references, against the adjusted "
+                            "heights of the same marks; the differences are the residuals of the tie.",
+                            s["gnss_reference"].get<std::string>(), s["levelled_reference"].get<std::string>()));
+  std::vector<std::vector<std::string>> rows;
+  std::size_t failing = 0;
+  for (std::size_t r = 0; r < marks.rows(); ++r) {
+    const std::string verdict = marks.get(r, "verdict");
+    failing += verdict != "consistent";
+    rows.push_back({marks.get(r, "id"), marks.get(r, "levelled"), marks.get(r, "gnss_converted"),
+                    fixed(1000 * marks.number(r, "difference").value_or(0), 1),
+                    fixed(1000 * marks.number(r, "sigma").value_or(0), 1), verdict});
+  }
+  doc.table({"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)", "verdict"}, rows);
+  if (failing > 0) {
+    findings.items.push_back(fmt::format("{} of {} marks disagree between GNSS and levelling (gnss-check).", failing,
+                                         marks.rows()));
+  }
+}
+
 void monitoring_section(Document& doc, Findings& findings, const fs::path& run) {
   if (!fs::exists(run / "epochs" / "summary.json")) return;
   const nlohmann::json s = read_json(run / "epochs" / "summary.json");
@@ -834,6 +858,7 @@ void write_report(const ReportContext& c, const fs::path& folder) {
   Document body;
   Findings findings;
   levelling_section(body, findings, c, folder);
+  gnss_section(body, findings, folder);
   monitoring_section(body, findings, folder);
   transducer_section(body, findings, folder);
   std::optional<QuickContours> contours;
