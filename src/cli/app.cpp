@@ -14,7 +14,7 @@ namespace {
 
 using CommandList = std::vector<std::pair<std::string, CommandRunner>>;
 
-CommandList add_commands(CLI::App& app) {
+[[nodiscard]] CommandList add_commands(CLI::App& app) {
   app.require_subcommand(1);
   app.set_version_flag("--version", version_string());
   return {
@@ -42,7 +42,8 @@ const char* const description =
 
 std::vector<OptionInfo> command_options(const std::string& command) {
   CLI::App app{description, "levelhead"};
-  add_commands(app);
+  // The runners own the variables the options write into: keep them alive.
+  const CommandList commands = add_commands(app);
   std::vector<OptionInfo> out;
   for (const CLI::Option* o : app.get_subcommand(command)->get_options()) {
     if (o->get_lnames().empty()) continue;  // positionals and --help's short form only
@@ -58,7 +59,8 @@ std::vector<OptionInfo> command_options(const std::string& command) {
 
 std::optional<std::string> usage_error(const std::vector<std::string>& args) {
   CLI::App app{description, "levelhead"};
-  add_commands(app);
+  // The runners own the variables the options write into: keep them alive.
+  const CommandList commands = add_commands(app);
   std::vector<std::string> reversed(args.rbegin(), args.rend() - (args.empty() ? 0 : 1));
   try {
     app.parse(reversed);
