@@ -60,17 +60,18 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   const Run run = cli({"demo", "--out", tmp.path().string()});
   INFO(run.err);
   REQUIRE(run.code == 0);
-  for (const char* stage : {"reduce", "loops", "adjust", "heads"}) {
+  for (const char* stage : {"reduce", "loops", "adjust", "gnss-check", "epochs", "transducer", "heads"}) {
     CHECK(fs::exists(tmp.path() / stage / "summary.json"));
   }
   CHECK(fs::exists(tmp.path() / "flow" / "flow.json"));
   const std::string html = read(tmp.path() / "report.html");
   for (const char* section : {"Findings", "Levelling network", "Loop misclosures", "Adjustment",
+                              "GNSS heights against the levelling", "Monitoring epochs", "Pressure transducers",
                               "Measuring points", "Heads", "QA flags and re-measure list", "What went in",
                               "Cautions"}) {
     CHECK_THAT(html, Contains(std::string(">") + section + "</h"));
   }
-  for (const char* figure : {"fig-network", "fig-loops", "fig-heads", "fig-hydrographs"}) {
+  for (const char* figure : {"fig-network", "fig-loops", "fig-displacements", "fig-heads", "fig-hydrographs"}) {
     CHECK_THAT(html, Contains(figure));
   }
   // Self-contained: no resource is fetched (the SVG namespace is a name, not a request).
@@ -78,16 +79,21 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
     CHECK_THAT(html, !Contains(request));
   }
   CHECK_THAT(html, Contains("SBM-B -&gt; MW-04"));   // the planted blunder is a finding
-  CHECK_THAT(html, Contains("95.250 m too low"));     // and the datum mix-up it avoided
+  CHECK_THAT(html, Contains("95.250 m too low"));     // and the datum mix-ups it avoided
+  CHECK_THAT(html, Contains("'gnss-2024'"));
+  CHECK_THAT(html, Contains("Reference mark SBM-B is moving"));  // the sinking benchmark
+  CHECK_THAT(html, Contains("transducer-drift-rejected"));       // the knocked logger
   CHECK_THAT(read(tmp.path() / "report.md"), Contains("![Levelling network"));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
 
   std::ifstream record_file(tmp.path() / "run.json");
   const auto record = nlohmann::json::parse(record_file);
   CHECK(record["configuration_sha256"].get<std::string>().size() == 64);
-  CHECK(record["inputs"].size() == 6);
+  // Ten inputs: the nine tables and the references file.
+  CHECK(record["inputs"].size() == 10);
   CHECK_THAT(record["proj_version"].get<std::string>(), Contains("PROJ"));
-  CHECK(record["stages"].size() == 5);
+  CHECK(record["stages"] == nlohmann::json({"reduce", "loops", "adjust", "gnss-check", "epochs", "transducer",
+                                           "heads", "flow"}));
 }
 
 TEST_CASE("two runs of the demo agree apart from the report's run-time line", "[project][demo]") {

@@ -139,9 +139,19 @@ TEST_CASE("readings outside the sensor's range or out of the water are rejected"
   b.records += "T1," + b.at(0) + "," + std::to_string(kpa(8.0)) + "\nT1," + b.at(1) + ",120.0\nT1," + b.at(2) + ",-1.5\n";
   const TransducerSummary s = b.run();
   const Table levels = b.output("levels.csv");
-  CHECK_THAT(flags_at(levels, b.at(1)), Contains("transducer-range-rejected"));
-  CHECK_THAT(flags_at(levels, b.at(2)), Contains("transducer-range-rejected"));
+  CHECK(levels.row_count() == 1);  // no depth is written for the two bad readings
   CHECK(s.sensors[0].flags.at("transducer-range-rejected") == 2);
+  const Table qa = b.output("qa.csv");
+  REQUIRE(qa.row_count() == 2);
+  CHECK(qa.cell(0, *qa.find_column("flag")) == "transducer-range-rejected");
+  CHECK(qa.cell(0, *qa.find_column("row")) == "3");  // the records table's row
+
+  SECTION("without a range, a negative water pressure means the sensor is out of the water") {
+    b.sensors = "sensor,kind,well,hung_depth\nT1,vented,W1,20.0\n";
+    const TransducerSummary dry = b.run();
+    CHECK(dry.sensors[0].flags.at("transducer-dry-rejected") == 1);
+    CHECK(b.output("levels.csv").row_count() == 2);
+  }
 }
 
 TEST_CASE("logger clocks in a local zone are brought to UTC", "[transducer]") {

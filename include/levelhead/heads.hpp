@@ -72,7 +72,8 @@ NetworkHeights read_network_heights(const Table& table);
 // Heights of monitored points per levelling epoch (heights_by_epoch.csv of
 // `levelhead epochs`: point, time, height, sigma, reference). A measuring
 // point whose record names such a point (column `point`) takes its height at
-// each reading's time from the epochs, linearly between them; one whose
+// each reading's time from the epochs, linearly between them (a point seen
+// in a single epoch shows no movement: its network height is used); one whose
 // record names it in `moves_with` keeps its own surveyed height and follows
 // the point's movement since valid_from. Beyond the first or last epoch the
 // nearest two epochs are extrapolated and the head is flagged

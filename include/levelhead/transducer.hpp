@@ -30,9 +30,10 @@
 // Flags, never silent corrections: transducer-drift-rejected (the offset
 //      changed by more than drift_limit between two checks: the readings
 //      between them keep the earlier offset and are not contoured),
-//      transducer-range-rejected (pressure outside 0..range_kpa),
+//      transducer-range-rejected (pressure outside 0..range_kpa) and
 //      transducer-dry-rejected (water pressure below zero: the sensor is out
-//      of the water), transducer-beyond-checks (before the first or after the
+//      of the water): no depth is written, qa.csv lists them;
+//      transducer-beyond-checks (before the first or after the
 //      last check: the nearest offset is used). A reading without a
 //      barometer sample within max_baro_gap on each side is not computed:
 //      qa.csv lists it as baro-gap.
@@ -78,7 +79,8 @@ struct BarometricEfficiency {
 
 // Barometric efficiency by least squares on first differences: the change
 // of depth to water against the change of barometric pressure as water
-// height, dd = BE db, fitted through the origin (Rasmussen and Crawford
+// height between successive readings at most a day apart, dd = BE db,
+// fitted through the origin (Rasmussen and Crawford
 // 1997, Ground Water 35(3); the first differences remove slow trends).
 // nullopt with fewer than min_pairs pairs or no barometric variation.
 std::optional<BarometricEfficiency> barometric_efficiency(const std::vector<double>& depth_changes,

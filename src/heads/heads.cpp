@@ -179,7 +179,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   for (std::size_t k = 0; k < records.size(); ++k) {
     const MeasuringPointRecord& m = records[k];
     std::string datum = m.datum;
-    const auto monitored_point = m.point.empty() ? monitored.end() : monitored.find(m.point);
+    // A point seen in one epoch only shows no movement: the network's height is used.
+    auto monitored_point = m.point.empty() ? monitored.end() : monitored.find(m.point);
+    if (monitored_point != monitored.end() && monitored_point->second.epochs.size() < 2) monitored_point = monitored.end();
     if (!m.moves_with.empty()) {
       const auto it = monitored.find(m.moves_with);
       if (it == monitored.end()) {

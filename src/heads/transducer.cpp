@@ -374,8 +374,10 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
         }
       }
       const double depth = r.raw + correction;
+      // Pairs of successive readings at most a day apart: longer steps mix
+      // in the aquifer's own changes.
       if (previous && !previous->rejected && !r.rejected && r.has_baro && previous->has_baro &&
-          r.time - previous->time <= baro_gap) {
+          r.time - previous->time <= 86400.0) {
         depth_changes.push_back(depth - previous_depth);
         baro_changes.push_back(r.baro_m - previous->baro_m);
       }
@@ -387,13 +389,19 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
         ++s.near_manual;
         continue;
       }
+      // A pressure outside the sensor's range or below the water gives no
+      // depth at all: listed, not written.
+      const bool no_depth = std::any_of(r.flags.begin(), r.flags.end(), [](const std::string& f) {
+        return f == "transducer-range-rejected" || f == "transducer-dry-rejected";
+      });
       for (const std::string& f : r.flags) {
         ++s.flags[f];
         if (f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0) {
           qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ',' << r.row << ','
-                 << f << ",not contoured\n";
+                 << f << (no_depth ? ",no depth written\n" : ",not contoured\n");
         }
       }
+      if (no_depth) continue;
       std::vector<std::string> cells(columns.size());
       cells[well_index] = sensor.well;
       cells[time_index] = format_utc(r.time);
