@@ -290,13 +290,17 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
     double head;
     std::string well;
   };
-  std::vector<Shown> shown;
+  // One aquifer is contoured: the one the flow fit used, when it names one.
+  std::string aquifer;
+  if (fs::exists(flow_json)) aquifer = read_json(flow_json).value("aquifer", std::string());
+  std::vector<Shown> shown, other_aquifers;
   Bounds b;
   for (std::size_t r = 0; r < event.rows(); ++r) {
     const auto it = placed.find(event.get(r, "well"));
     const auto h = event.number(r, "head");
     if (it == placed.end() || !h) continue;
-    shown.push_back({it->second, *h, it->first});
+    auto& list = aquifer.empty() || event.get(r, "aquifer") == aquifer ? shown : other_aquifers;
+    list.push_back({it->second, *h, it->first});
     b.add(it->second.x, it->second.y);
   }
   if (shown.size() < 2) return std::nullopt;
@@ -336,6 +340,11 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
                                                           flow["gradient"]["value"].get<double>()),
              11, "start", "#b2352b", true);
   }
+  for (const Shown& s : other_aquifers) {
+    const double x = frame.x(s.at.x), y = frame.y(s.at.y);
+    svg.rect(x - 4, y - 4, 8, 8, "#ffffff", Stroke{"#777777", 1});
+    svg.text(x + 7, y + 12, s.well, 8, "start", "#777777");
+  }
   for (const Shown& s : shown) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
     svg.circle(x, y, 7, report::ramp_colour(s.head, low, high), Stroke{"#111111", 1});
@@ -353,6 +362,11 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
   if (contours) {
     svg.line(640, 315, 670, 315, Stroke{"#5d6d7e", 1.0, "5 2"});
     svg.text(675, 319, fmt::format("contours, {:g} m", contours->interval), 10);
+  }
+  if (!aquifer.empty()) svg.text(640, 50, aquifer, 10, "start", "#222222", true);
+  if (!other_aquifers.empty()) {
+    svg.rect(641, 326, 8, 8, "#ffffff", Stroke{"#777777", 1});
+    svg.text(655, 334, "other aquifers", 10);
   }
   north_arrow(svg, 700, 350);
   scale_bar(svg, frame, 620, 440, 540);
@@ -725,9 +739,10 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
       const Csv wells(w->resolved);
       if (auto map = head_map(event, wells, run / "flow" / "flow.json", c.contour_interval, contours)) {
         doc.figure("heads", *map,
-                   "Heads of the synoptic round, one per well (colour), quick-look contours (dashed; "
-                   "linear between wells, also in contours.gpkg) and the flow direction from the planar "
-                   "fit (arrow). A quick look, not a contour map for decisions.");
+                   "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
+                   "used, quick-look contours (dashed; linear between wells, also in contours.gpkg) and "
+                   "the flow direction from the planar fit (arrow); squares: wells of other aquifers, "
+                   "not contoured. A quick look, not a contour map for decisions.");
       }
     }
   }
