@@ -205,6 +205,17 @@ TEST_CASE("saline wells get a freshwater head at their screen", "[heads][density
   // W2: h = 100.000, screen at 104 - 10 = 94: h_f = 1.027675 * 100 - 0.027675 * 94.
   const double rho = 1027.67547 / 1000.0;
   CHECK_THAT(*t.number(1, fresh), WithinAbs(rho * 100.0 - (rho - 1.0) * 94.0, 1e-3));
+  CHECK(t.cell(0, *t.find_column("environmental_head")).empty());  // no reference elevation given
+
+  SECTION("with a reference elevation and the column's mean density: environmental-water heads") {
+    site.wells = "id,x,y,ground,screen_top,screen_bottom,density,column_density\n"
+                 "W1,500000,4400000,12.0,28,32,1025,1010\nW2,500100,4400050,104.0,5,15,,\n";
+    site.options.environmental_reference = 0.0;
+    const Table e = site.run();
+    // W1: h_n = 8.65 - 0.010 * (0 - (-18)) = 8.47 (by hand); W2 has no column density.
+    CHECK_THAT(*e.number(0, *e.find_column("environmental_head")), WithinAbs(8.470, 1e-9));
+    CHECK(e.cell(1, *e.find_column("environmental_head")).empty());
+  }
 }
 
 TEST_CASE("measuring points without sigma take one from their method", "[heads]") {

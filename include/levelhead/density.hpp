@@ -25,4 +25,15 @@ double water_density_eos80(double salinity, double temperature_c);
 double freshwater_head(double point_water_head, double density, double screen_elevation,
                        double fresh_density = 1000.0);
 
+// Environmental-water head (Lusczynski 1961; Post, Kooi and Simmons 2007,
+// "Using hydraulic head measurements in variable-density ground water flow
+// analyses", Ground Water 45(6), 664-671): the freshwater head corrected for
+// the mean density rho_a of the water between the screen (z_i) and a chosen
+// reference elevation z_r,
+//   h_n = h_f - ((rho_a - rho_f) / rho_f) (z_r - z_i)   (m).
+// Differences of h_n between points on one vertical give the vertical flow.
+// It follows from p_i = rho_f g (h_f - z_i) = rho_f g (h_n - z_r) + rho_a g (z_r - z_i).
+double environmental_head(double freshwater_head, double mean_density, double screen_elevation,
+                          double reference_elevation, double fresh_density = 1000.0);
+
 }  // namespace levelhead

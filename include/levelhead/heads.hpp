@@ -50,6 +50,7 @@ struct HeadOptions {
   double max_depth = 1000.0;            // m; deeper readings are errors (a unit mix-up)
   std::optional<double> map_contour_interval;  // m, for measuring points read from a map
   double history_tolerance = 0.30;      // m, smallest departure from a well's own trend flagged
+  std::optional<double> environmental_reference;  // m, z_r of environmental-water heads (target reference)
   void validate() const;
 };
 

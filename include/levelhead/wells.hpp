@@ -4,7 +4,9 @@
 // Wells table: id, x, y (project CRS), optional ground (ground elevation, m,
 // in the reference named by ground_datum, default the target reference),
 // screen_top and screen_bottom (depth below ground, m), nest, aquifer,
-// density (kg/m^3, for saline wells).
+// density (kg/m^3, for saline wells), column_density (kg/m^3, the mean
+// density of the water between the environmental-head reference elevation
+// and the screen).
 // Measuring-point table: well, valid_from (ISO 8601 date or time), height
 // (m), datum (a reference), sigma (m), optional point (a point id of the
 // adjusted network: height, sigma and reference are then taken from it),
@@ -33,6 +35,7 @@ struct Well {
   std::optional<double> screen_top, screen_bottom;  // m below ground
   std::string nest, aquifer;
   std::optional<double> density;                    // kg/m^3 of the water in the well
+  std::optional<double> column_density;  // kg/m^3, mean between the environmental reference and the screen
   std::size_t row = 0;
 };
 

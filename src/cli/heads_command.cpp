@@ -64,6 +64,9 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_option("--history-tolerance", o.history_tolerance,
                 "Smallest departure of a head from its well's own trend that is flagged (m)")
       ->capture_default_str();
+  c->add_option("--environmental-reference", o.environmental_reference,
+                "Reference elevation z_r of environmental-water heads (m, target reference); wells "
+                "need column_density");
   c->add_flag("--no-gpkg", a->no_geopackage, "Do not write heads.gpkg");
   c->add_flag("--strict", a->strict, "Exit with status 3 when any reading is flagged");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");

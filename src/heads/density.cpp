@@ -27,4 +27,8 @@ double freshwater_head(double h, double rho, double z, double rho_f) {
   return (rho / rho_f) * h - ((rho - rho_f) / rho_f) * z;
 }
 
+double environmental_head(double h_f, double rho_a, double z_i, double z_r, double rho_f) {
+  return h_f - ((rho_a - rho_f) / rho_f) * (z_r - z_i);
+}
+
 }  // namespace levelhead

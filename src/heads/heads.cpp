@@ -32,6 +32,9 @@ void HeadOptions::validate() const {
   util::require_positive(history_tolerance, "history tolerance", "m");
   if (map_contour_interval) util::require_positive(*map_contour_interval, "map contour interval", "m");
   if (target.empty()) throw OptionError("a target reference is needed (--to)");
+  if (environmental_reference && !std::isfinite(*environmental_reference)) {
+    throw OptionError("the environmental-head reference elevation must be a number (m)");
+  }
 }
 
 std::optional<double> method_sigma(const std::string& method, std::optional<double> contour_interval) {
@@ -374,7 +377,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
 
   std::ostream& heads_csv = out.open("heads.csv");
   heads_csv << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
-               "flags,contour,reason,transform,density,freshwater_head\n";
+               "flags,contour,reason,transform,density,freshwater_head,environmental_head\n";
 
   // 4. Readings, streamed.
   HeadsSummary summary;
@@ -530,11 +533,14 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         if (tc && sal) density = water_density_eos80(*sal, *tc);
       }
       if (!density) density = well.density;
-      std::optional<double> fresh_head;
+      std::optional<double> fresh_head, environmental;
       if (density && head) {
         if (well.ground && well.screen_top && well.screen_bottom) {
           const double screen = *well.ground - 0.5 * (*well.screen_top + *well.screen_bottom);
           fresh_head = freshwater_head(*head, *density, screen);
+          if (options.environmental_reference && well.column_density) {
+            environmental = environmental_head(*fresh_head, *well.column_density, screen, *options.environmental_reference);
+          }
         } else {
           flags.push_back("freshwater-head-needs-screen");
         }
@@ -652,6 +658,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       if (density) fmt::format_to(to, "{:.2f}", *density);
       row += ',';
       if (fresh_head) fmt::format_to(to, "{:.{}f}", *fresh_head, dp);
+      row += ',';
+      if (environmental) fmt::format_to(to, "{:.{}f}", *environmental, dp);
       row += '\n';
       heads_csv.write(row.data(), static_cast<std::streamsize>(row.size()));
       if (layer) {

@@ -17,7 +17,7 @@ WellSet read_wells(const Table& t) {
   const auto ground = t.find_column("ground"), ground_datum = t.find_column("ground_datum");
   const auto top = t.find_column("screen_top"), bottom = t.find_column("screen_bottom");
   const auto nest = t.find_column("nest"), aquifer = t.find_column("aquifer");
-  const auto density = t.find_column("density");
+  const auto density = t.find_column("density"), column_density = t.find_column("column_density");
   WellSet set{t.source(), {}, {}};
   for (std::size_t r = 0; r < t.row_count(); ++r) {
     Well w;
@@ -34,6 +34,7 @@ WellSet read_wells(const Table& t) {
     if (nest) w.nest = std::string(t.cell(r, *nest));
     if (aquifer) w.aquifer = std::string(t.cell(r, *aquifer));
     if (density) w.density = t.number(r, *density);
+    if (column_density) w.column_density = t.number(r, *column_density);
     w.row = t.source_row(r);
     if (!set.index.emplace(w.id, set.wells.size()).second) {
       throw InputError(t.location(r, id), w.id, "this well id appears twice; ids must be unique");

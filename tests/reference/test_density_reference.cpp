@@ -28,3 +28,15 @@ TEST_CASE("freshwater head of a saline well, worked by hand", "[reference][densi
   // The pressure at the screen is the same either way: rho g (h - z) = rho_f g (h_f - z).
   CHECK_THAT(1025.0 * (10.0 + 20.0), WithinAbs(1000.0 * (10.75 + 20.0), 1e-9));
 }
+
+TEST_CASE("environmental-water head of the same well, worked by hand", "[reference][density]") {
+  // Freshwater head 10.75 m at a screen at -20 m; reference elevation 0 m;
+  // mean density of the water between them 1012.5 kg/m^3 (invented):
+  // h_n = 10.75 - 0.0125 * (0 - (-20)) = 10.75 - 0.25 = 10.50 m
+  // (definition of Lusczynski 1961, as written by Post et al. 2007).
+  CHECK_THAT(environmental_head(10.75, 1012.5, -20.0, 0.0), WithinAbs(10.50, 1e-12));
+  // The screen's pressure holds: rho_f (h_f - z_i) = rho_f (h_n - z_r) + rho_a (z_r - z_i).
+  CHECK_THAT(1000.0 * (10.75 + 20.0), WithinAbs(1000.0 * (10.50 - 0.0) + 1012.5 * 20.0, 1e-9));
+  // At the reference elevation itself, environmental and freshwater heads agree.
+  CHECK_THAT(environmental_head(10.75, 1012.5, 0.0, 0.0), WithinAbs(10.75, 1e-12));
+}
