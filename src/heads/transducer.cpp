@@ -13,14 +13,13 @@
 #include "levelhead/time.hpp"
 #include "levelhead/units.hpp"
 #include "levelhead/version.hpp"
+#include "util/option_checks.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
 
 void TransducerOptions::validate() const {
-  const auto positive = [](double v, const char* name, const char* unit) {
-    if (!(v > 0.0) || !std::isfinite(v)) throw OptionError(fmt::format("{} = {} must be positive ({})", name, v, unit));
-  };
+  const auto positive = util::require_positive;
   positive(density, "density", "kg/m^3");
   positive(gravity, "gravity", "m/s^2");
   positive(max_baro_distance, "max-baro-distance", "m");
