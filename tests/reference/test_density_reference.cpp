@@ -25,6 +25,11 @@ TEST_CASE("freshwater head of a saline well, worked by hand", "[reference][densi
   CHECK_THAT(freshwater_head(10.0, 1025.0, -20.0), WithinAbs(10.75, 1e-12));
   // Fresh water: no change.
   CHECK_THAT(freshwater_head(10.0, 1000.0, -20.0), WithinAbs(10.0, 1e-12));
+  // The inverse conversion of Guo and Langevin (2002, SEAWAT, USGS TWRI
+  // 6-A7): h = (rho_f / rho) h_f + ((rho - rho_f) / rho) Z gives the
+  // point-water head back.
+  const double h_f = freshwater_head(10.0, 1025.0, -20.0);
+  CHECK_THAT(1000.0 / 1025.0 * h_f + 25.0 / 1025.0 * -20.0, WithinAbs(10.0, 1e-12));
   // The pressure at the screen is the same either way: rho g (h - z) = rho_f g (h_f - z).
   CHECK_THAT(1025.0 * (10.0 + 20.0), WithinAbs(1000.0 * (10.75 + 20.0), 1e-9));
 }
