@@ -212,3 +212,19 @@ TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
     CHECK_THAT(bad.err, Contains("no run.json"));
   }
 }
+
+TEST_CASE("project column maps reach every stage that reads the table", "[project]") {
+  // The wells table and the readings under the names of another program.
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  replace_in(project.parent_path() / "wells.csv", "id,x,y,", "Well,East,North,");
+  replace_in(project.parent_path() / "levels.csv", "well,time,depth,", "Well,When,DTW,");
+  replace_in(project, "[report]", "[columns]\nwells = \"id=Well,x=East,y=North\"\nlevels = \"well=Well,time=When,depth=DTW\"\n\n[report]");
+  const fs::path out = tmp.path() / "out";
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  CHECK_THAT(read(out / "transducer" / "levels.csv").substr(0, 16), Contains("well,time,depth"));
+  CHECK_THAT(read(out / "report.html"), Contains("fig-heads"));
+  CHECK(fs::exists(out / "flow" / "flow.json"));
+}

@@ -25,6 +25,7 @@ struct ReportInput {
   std::string role;     // points, levels, ...
   std::string path;     // as written in the project
   std::filesystem::path resolved;
+  std::string columns;  // its column map, as in the project ("height=Elev,...")
 };
 
 struct ReportSetting {

@@ -19,7 +19,7 @@ namespace levelhead::cli {
 
 namespace {
 struct FlowArguments {
-  std::string heads, wells, aquifer, out;
+  std::string heads, wells, wells_columns, aquifer, out;
   std::vector<double> conductivity, porosity;
   std::optional<double> distance;
   bool quiet = false;
@@ -45,6 +45,7 @@ CommandRunner add_flow_command(CLI::App& app) {
                                            "(one per well), with Darcy velocity ranges");
   c->add_option("--heads", a->heads, "Heads, one per well (event.csv of heads --event)")->required();
   c->add_option("--wells", a->wells, "Wells table (id, x, y, aquifer)")->required();
+  c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
   c->add_option("--aquifer", a->aquifer, "Use only wells of this aquifer");
   c->add_option("--out", a->out, "Output folder")->required();
   c->add_option("--conductivity", a->conductivity, "Hydraulic conductivity range LOW HIGH (m/s)")
@@ -57,7 +58,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
     options.distance = a->distance;
-    const WellSet wells = read_wells(read_table(a->wells));
+    const WellSet wells = read_wells(read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}}));
     const Table heads = read_table(a->heads);
     const std::size_t well_col = heads.require_column("well"), head_col = heads.require_column("head");
     const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");

@@ -15,6 +15,7 @@ namespace levelhead::cli {
 namespace {
 struct HeadArguments {
   std::string wells, mp, levels, out, adjusted, monitored, event, unit = "m";
+  std::string wells_columns, mp_columns, levels_columns;
   ReferenceInputs refs;
   HeadOptions options;
   bool no_geopackage = false, strict = false, quiet = false;
@@ -41,6 +42,9 @@ CommandRunner add_heads_command(CLI::App& app) {
                 "point (point or moves_with) follow its movement");
   add_reference_options(*c, a->refs);
   c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
+  c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table, e.g. id=Well,x=East");
+  c->add_option("--mp-columns", a->mp_columns, "Column map for the measuring-point table");
+  c->add_option("--levels-columns", a->levels_columns, "Column map for the readings, e.g. depth=DTW");
   c->add_flag("--interpolate", o.interpolate,
               "Interpolate the measuring point linearly between surveys (moving ground)");
   c->add_flag("--allow-before-first", o.allow_before_first,
@@ -79,9 +83,10 @@ CommandRunner add_heads_command(CLI::App& app) {
     }
     options.validate();
     const LengthUnit unit = parse_length_unit(a->unit);
-    const TableOptions table_options{{}, unit, {}};
-    const WellSet wells = read_wells(read_table(a->wells, table_options));
-    const auto records = read_measuring_points(read_table(a->mp, table_options), wells);
+    const TableOptions table_options{parse_column_map(a->levels_columns), unit, {}};
+    const WellSet wells = read_wells(read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}}));
+    const auto records =
+        read_measuring_points(read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}}), wells);
     const NetworkHeights network =
         a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
     const ReferenceSet references = a->refs.load();

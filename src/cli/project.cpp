@@ -44,7 +44,8 @@ bool wired_by_chain(const std::string& key) {
   static const std::set<std::string> wired = {
       "out",      "strict",     "quiet", "unit", "points", "sections", "references", "grid_path",
       "network",  "wells",      "mp",    "levels", "to",   "crs",      "adjusted",   "monitored",
-      "heads",    "sensors",    "records", "levelled", "levelled_ref", "gnss"};
+      "heads",    "sensors",    "records", "levelled", "levelled_ref", "gnss", "columns",
+      "points_columns", "sections_columns", "wells_columns", "mp_columns", "levels_columns"};
   return wired.count(key) > 0;
 }
 
@@ -184,6 +185,12 @@ void add_setting_args(const Project& p, const std::string& section, std::vector<
   }
 }
 
+// `flag MAP` when the project maps the columns of `role`.
+void add_columns(const Project& p, const std::string& role, const char* flag, std::vector<std::string>& args) {
+  const auto it = p.columns.find(role);
+  if (it != p.columns.end()) args.insert(args.end(), {flag, it->second});
+}
+
 bool has_setting(const Project& p, const std::string& section, const std::string& key) {
   return std::any_of(p.settings.begin(), p.settings.end(), [&](const ProjectSetting& s) {
     return s.section == section && s.key == key && !s.chain_default;
@@ -205,7 +212,7 @@ Project load_project(const fs::path& file) {
                      std::string(e.description()));
   }
   p.settings = chain_defaults();
-  std::vector<std::string> sections = {"site", "inputs", "report"};
+  std::vector<std::string> sections = {"site", "inputs", "report", "columns"};
   for (const auto& [section, command] : stage_sections()) sections.push_back(section);
   for (const auto& [k, node] : root) {
     const std::string name(k.str());
@@ -217,6 +224,14 @@ Project load_project(const fs::path& file) {
     if (!table) throw InputError(where(p, node), fmt::format("'{}' must be a section [{}]", name, name));
     if (name == "site") {
       read_site(p, *table);
+    } else if (name == "columns") {
+      const std::vector<std::string> allowed = {"points", "sections", "fieldbook", "epochs",
+                                                "wells",  "measuring_points", "levels"};
+      for (const auto& [ck, cnode] : *table) {
+        const std::string key(ck.str());
+        if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) unknown_key(p, cnode, "columns", key, allowed);
+        p.columns[key] = text_value(p, cnode, key);
+      }
     } else if (name == "inputs") {
       read_inputs(p, *table);
     } else if (name == "report") {
@@ -259,7 +274,9 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
 
   std::string sections;
   if (p.input("fieldbook")) {
-    add({"reduce", "fieldbook", {"reduce", path("fieldbook"), "--unit", p.unit}, {"fieldbook"}});
+    Stage r{"reduce", "fieldbook", {"reduce", path("fieldbook"), "--unit", p.unit}, {"fieldbook"}};
+    add_columns(p, "fieldbook", "--columns", r.args);
+    add(std::move(r));
     sections = (out / "reduce" / "sections.csv").string();
   } else if (p.input("sections")) {
     sections = path("sections");
@@ -267,9 +284,12 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
   const bool network = p.input("points") && !sections.empty();
   if (network) {
     const std::vector<std::string> in = {"points", p.input("fieldbook") ? "fieldbook" : "sections"};
-    add({"loops", "loops", {"loops", "--points", path("points"), "--sections", sections, "--unit", p.unit}, in});
-    add({"adjust", "adjustment",
-         {"adjust", "--points", path("points"), "--sections", sections, "--unit", p.unit}, in});
+    for (const auto& [name, section] : {std::pair{"loops", "loops"}, std::pair{"adjust", "adjustment"}}) {
+      Stage s{name, section, {name, "--points", path("points"), "--sections", sections, "--unit", p.unit}, in};
+      add_columns(p, "points", "--points-columns", s.args);
+      if (!p.input("fieldbook")) add_columns(p, "sections", "--sections-columns", s.args);  // reduce writes ours
+      add(std::move(s));
+    }
   }
   if (p.input("gnss")) {
     if (!network) throw InputError(p.file.string(), "[inputs] gnss is checked against the levelling: give points and sections (or a field book)");
@@ -290,6 +310,8 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     }
     Stage e{"epochs", "epochs", {"epochs", "--points", path("points"), "--unit", p.unit}, {"points", "epochs"}};
     for (const ProjectInput* f : epoch_files) e.args.insert(e.args.end(), {"--sections", f->path.string()});
+    add_columns(p, "points", "--points-columns", e.args);
+    add_columns(p, "epochs", "--sections-columns", e.args);
     add(std::move(e));
   }
   const bool wells = p.input("wells") && p.input("measuring_points") && p.input("levels");
@@ -299,10 +321,13 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
       throw InputError(p.file.string(), "transducer records need all of [inputs] sensors, records, wells and "
                                         "levels (the tape readings that check them)");
     }
-    add({"transducer", "transducer",
-         {"transducer", "--wells", path("wells"), "--sensors", path("sensors"), "--records", path("records"),
-          "--levels", path("levels"), "--unit", p.unit},
-         {"sensors", "records", "levels"}});
+    Stage t{"transducer", "transducer",
+            {"transducer", "--wells", path("wells"), "--sensors", path("sensors"), "--records", path("records"),
+             "--levels", path("levels"), "--unit", p.unit},
+            {"sensors", "records", "levels"}};
+    add_columns(p, "wells", "--wells-columns", t.args);
+    add_columns(p, "levels", "--levels-columns", t.args);  // its levels.csv has our names
+    add(std::move(t));
     levels = (out / "transducer" / "levels.csv").string();
   }
   if (wells) {
@@ -314,6 +339,9 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
             {"wells", "measuring_points", "levels"}};
     if (!p.references.empty()) h.args.insert(h.args.end(), {"--references", p.references.string()});
     for (const fs::path& g : p.grid_paths) h.args.insert(h.args.end(), {"--grid-path", g.string()});
+    add_columns(p, "wells", "--wells-columns", h.args);
+    add_columns(p, "measuring_points", "--mp-columns", h.args);
+    if (!p.input("sensors")) add_columns(p, "levels", "--levels-columns", h.args);
     if (network) h.args.insert(h.args.end(), {"--adjusted", (out / "adjust" / "heights.csv").string()});
     if (!epoch_files.empty()) {
       h.args.insert(h.args.end(), {"--monitored", (out / "epochs" / "heights_by_epoch.csv").string()});
@@ -323,8 +351,10 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     throw InputError(p.file.string(), "heads need all three of [inputs] wells, measuring_points and levels");
   }
   if (wells && has_setting(p, "heads", "event")) {
-    add({"flow", "flow", {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells")},
-         {"heads", "wells"}});
+    Stage f{"flow", "flow", {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells")},
+            {"heads", "wells"}};
+    add_columns(p, "wells", "--wells-columns", f.args);
+    add(std::move(f));
   } else if (std::any_of(p.settings.begin(), p.settings.end(),
                          [](const ProjectSetting& s) { return s.section == "flow"; })) {
     throw InputError(p.file.string(), "[flow] needs one head per well: set [heads] event (the date "

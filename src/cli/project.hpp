@@ -7,8 +7,10 @@
 //      measuring_points, levels), one section per stage whose keys are that
 //      command's options with '_' for '-' ([fieldbook] -> reduce, [loops],
 //      [adjustment] -> adjust, [epochs], [heads], [flow]), and [report]
-//      (title, prepared_for, prepared_by). Relative paths are relative to
-//      the project file.
+//      (title, prepared_for, prepared_by, contour_interval) and [columns]
+//      (a column map per input table: points, sections, fieldbook, epochs,
+//      wells, measuring_points, levels). Relative paths are relative to the
+//      project file.
 // Out: the stages in chain order, each a command line of the same commands
 //      a user would type, writing into its own folder of the output folder.
 // Errors: InputError naming the file and line for an unknown section or key
@@ -47,6 +49,7 @@ struct Project {
   std::vector<std::filesystem::path> grid_paths;
   std::map<std::string, std::string> report;  // title, prepared_for, prepared_by
   std::optional<double> contour_interval;     // m, [report] contour_interval
+  std::map<std::string, std::string> columns;  // [columns]: input role -> column map
   std::vector<ProjectSetting> settings;       // stage options given (and chain defaults)
 
   const ProjectInput* input(const std::string& role) const;

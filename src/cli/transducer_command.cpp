@@ -17,6 +17,7 @@ namespace levelhead::cli {
 namespace {
 struct TransducerArguments {
   std::string wells, sensors, records, levels, out, unit = "m";
+  std::string wells_columns, levels_columns;
   TransducerOptions options;
   bool strict = false, quiet = false;
 };
@@ -36,6 +37,9 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_option("--levels", a->levels, "Manual water-level readings (the checks; passed through)")->required();
   c->add_option("--out", a->out, "Output folder")->required();
   c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
+  c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
+  c->add_option("--levels-columns", a->levels_columns,
+                "Column map for the manual readings (levels.csv is written with levelhead's names)");
   c->add_option("--density", o.density, "Water density for wells that give none (kg/m^3)")->capture_default_str();
   c->add_option("--gravity", o.gravity, "Acceleration of gravity (m/s^2; default standard gravity)")
       ->capture_default_str();
@@ -63,9 +67,10 @@ CommandRunner add_transducer_command(CLI::App& app) {
   return [a](std::ostream& out, std::ostream&) {
     a->options.validate();
     const TableOptions table{{}, parse_length_unit(a->unit), {}};
-    const WellSet wells = read_wells(read_table(a->wells, table));
+    const WellSet wells = read_wells(read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}}));
+    const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}};
     const TransducerSummary s = reduce_transducers(wells, read_table(a->sensors, table), read_table(a->records),
-                                                   read_table(a->levels, table), a->options, a->out);
+                                                   read_table(a->levels, levels), a->options, a->out);
     bool problems = false;
     if (!a->quiet) {
       out << fmt::format("{} manual readings passed through, {} transducer readings written\n", s.manual, s.written);

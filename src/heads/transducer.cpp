@@ -195,7 +195,12 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   // Manual readings: passed through as they are, and the checks.
   const std::size_t well_col = manual.require_column("well"), time_col = manual.require_column("time");
   const std::size_t depth_col = manual.require_column("depth");
+  // The output speaks levelhead's column names, whatever the column map.
   std::vector<std::string> columns = manual.column_names();
+  for (const char* ours : {"well", "time", "depth", "status", "sigma", "method", "flags", "above", "density",
+                           "temperature", "salinity"}) {
+    if (const auto c = manual.find_column(ours)) columns[*c] = ours;
+  }
   for (const char* extra : {"sigma", "method", "flags"}) {
     if (std::find(columns.begin(), columns.end(), extra) == columns.end()) columns.emplace_back(extra);
   }
@@ -216,8 +221,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     std::string line;
     for (std::size_t c = 0; c < columns.size(); ++c) {
       if (c) line += ',';
-      const auto column = manual.find_column(columns[c]);
-      if (column) append_csv_cell(line, manual.cell(r, *column));
+      if (c < manual.column_names().size()) append_csv_cell(line, manual.cell(r, c));
     }
     rows.push_back({well, when->seconds, std::move(line)});
   }
@@ -235,13 +239,10 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   summary.manual = manual.row_count();
   const double baro_gap = options.max_baro_gap_hours * 3600.0, check_gap = options.max_check_gap_hours * 3600.0;
   const double window = options.manual_window_hours * 3600.0;
-  const std::size_t depth_index = static_cast<std::size_t>(
-      std::find(columns.begin(), columns.end(), manual.column_names()[depth_col]) - columns.begin());
   const auto index_of = [&](const char* name) {
     return static_cast<std::size_t>(std::find(columns.begin(), columns.end(), name) - columns.begin());
   };
-  const std::size_t well_index = index_of(manual.column_names()[well_col].c_str());
-  const std::size_t time_index = index_of(manual.column_names()[time_col].c_str());
+  const std::size_t depth_index = index_of("depth"), well_index = index_of("well"), time_index = index_of("time");
   const std::size_t sigma_index = index_of("sigma"), method_index = index_of("method"), flags_index = index_of("flags");
 
   for (auto& [id, sensor] : sensors) {

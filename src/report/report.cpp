@@ -35,6 +35,8 @@ namespace {
 class Csv {
  public:
   explicit Csv(const fs::path& path) : table_(read_table(path)) {}
+  // An input of the project, read with its column map.
+  explicit Csv(const ReportInput& input) : table_(read_table(input.resolved, TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}})) {}
   std::size_t rows() const { return table_.row_count(); }
   bool has(const std::string& column) const { return table_.find_column(column).has_value(); }
   std::string get(std::size_t row, const std::string& column) const {
@@ -490,7 +492,7 @@ std::map<std::string, PlacedPoint> read_points(const ReportContext& c) {
   std::map<std::string, PlacedPoint> points;
   for (const ReportInput& i : c.inputs) {
     if (i.role != "points") continue;
-    const Csv t(i.resolved);
+    const Csv t(i);
     for (std::size_t r = 0; r < t.rows(); ++r) {
       const auto x = t.number(r, "x"), y = t.number(r, "y");
       if (x && y) points[t.get(r, "id")] = {*x, *y};
@@ -705,7 +707,7 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
 
   // The datum mix-up a naive merge would have made.
   if (const ReportInput* given = input(c, "measuring_points")) {
-    const Csv original(given->resolved);
+    const Csv original(*given);
     std::map<std::string, std::pair<double, std::set<std::string>>> shift_by_datum;
     for (std::size_t r = 0; r < mps.rows(); ++r) {
       const auto row = mps.number(r, "row");
@@ -736,7 +738,7 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
   if (fs::exists(run / "heads" / "event.csv")) {
     const Csv event(run / "heads" / "event.csv");
     if (const ReportInput* w = input(c, "wells")) {
-      const Csv wells(w->resolved);
+      const Csv wells(*w);
       if (auto map = head_map(event, wells, run / "flow" / "flow.json", c.contour_interval, contours)) {
         doc.figure("heads", *map,
                    "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
