@@ -337,21 +337,43 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
     svg.polyline({{hx, hy}, {hx - 14 * ux - 7 * uy, hy - 14 * uy + 7 * ux},
                   {hx - 14 * ux + 7 * uy, hy - 14 * uy - 7 * ux}, {hx, hy}},
                  Stroke{"#b2352b", 1}, "#b2352b");
-    svg.text(cx + dx / 2 + 8, cy + dy / 2, fmt::format("flow {:.0f}°, i = {:.2g}",
-                                                          flow["azimuth"]["value"].get<double>(),
-                                                          flow["gradient"]["value"].get<double>()),
-             11, "start", "#b2352b", true);
+    // Its label in the key, clear of the wells' labels.
+    svg.line(640, 396, 668, 396, arrow);
+    svg.text(674, 392, fmt::format("flow {:.0f}°", flow["azimuth"]["value"].get<double>()), 10, "start",
+             "#b2352b", true);
+    svg.text(674, 405, fmt::format("i = {:.2g}", flow["gradient"]["value"].get<double>()), 10, "start", "#b2352b");
   }
   for (const Shown& s : other_aquifers) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
     svg.rect(x - 4, y - 4, 8, 8, "#ffffff", Stroke{"#777777", 1});
     svg.text(x + 7, y + 12, s.well, 8, "start", "#777777");
   }
+  // Labels beside their well: right, left, below right or above left,
+  // whichever first misses the labels already placed (boxes of about
+  // 55 x 24 px, kept by their left edge and baseline).
+  std::vector<std::pair<double, double>> placed_labels;
   for (const Shown& s : shown) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
     svg.circle(x, y, 7, report::ramp_colour(s.head, low, high), Stroke{"#111111", 1});
-    svg.text(x + 9, y - 3, s.well, 10);
-    svg.text(x + 9, y + 9, fixed(s.head, 2), 9, "start", "#333333");
+    const auto clashes = [&](double left_edge, double baseline) {
+      return std::any_of(placed_labels.begin(), placed_labels.end(), [&](const auto& o) {
+        return std::abs(o.first - left_edge) < 55 && std::abs(o.second - baseline) < 24;
+      });
+    };
+    struct Spot { double dx, dy; bool to_left; };
+    const Spot spots[] = {{9, 0, false}, {-9, 0, true}, {9, 24, false}, {-9, -24, true}};
+    Spot chosen = spots[0];
+    for (const Spot& spot : spots) {
+      if (!clashes(x + spot.dx - (spot.to_left ? 55 : 0), y + spot.dy)) {
+        chosen = spot;
+        break;
+      }
+    }
+    const double lx = x + chosen.dx, ly = y + chosen.dy;
+    const std::string anchor = chosen.to_left ? "end" : "start";
+    svg.text(lx, ly - 3, s.well, 10, anchor);
+    svg.text(lx, ly + 9, fixed(s.head, 2), 9, anchor, "#333333");
+    placed_labels.emplace_back(chosen.to_left ? lx - 55 : lx, ly);
   }
   // Colour key.
   for (int i = 0; i <= 10; ++i) {
@@ -370,7 +392,7 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
     svg.rect(641, 326, 8, 8, "#ffffff", Stroke{"#777777", 1});
     svg.text(655, 334, "other aquifers", 10);
   }
-  north_arrow(svg, 700, 350);
+  north_arrow(svg, 700, 354);
   scale_bar(svg, frame, 620, 440, 540);
   return svg;
 }
