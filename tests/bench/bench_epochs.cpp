@@ -1,0 +1,74 @@
+// Benchmark of the monitoring analysis: three epochs of a mesh-like
+// monitoring network of N points, four reference marks at the corners.
+// Prints the time of analyse_epochs (per-epoch adjustments, congruence
+// tests, the dense joint adjustment and its cofactors) against one sparse
+// adjustment of one epoch in the same process, and the ratio.
+// Usage: bench_epochs [N ...]   (default 100 400 1000)
+
+#include <fmt/format.h>
+
+#include <chrono>
+#include <cstdlib>
+#include <unordered_map>
+#include <vector>
+
+#include "levelhead/adjustment.hpp"
+#include "levelhead/epochs.hpp"
+#include "support/synthetic_networks.hpp"
+
+using namespace levelhead;
+using Clock = std::chrono::steady_clock;
+
+namespace {
+double seconds_since(Clock::time_point start) {
+  return std::chrono::duration<double>(Clock::now() - start).count();
+}
+}  // namespace
+
+int main(int argc, char** argv) {
+  std::vector<std::size_t> sizes = {100, 400, 1000};
+  if (argc > 1) {
+    sizes.clear();
+    for (int i = 1; i < argc; ++i) sizes.push_back(std::strtoul(argv[i], nullptr, 10));
+  }
+  fmt::print("{:>8} {:>10} {:>12} {:>12} {:>8}\n", "points", "unknowns", "adjust (s)", "epochs (s)", "ratio");
+  for (std::size_t n : sizes) {
+    testing::SyntheticNetwork net = testing::mesh_network(n, 7);
+    const std::size_t side = static_cast<std::size_t>(std::sqrt(static_cast<double>(net.points.size())));
+    const std::vector<std::string> marks = {net.points[0].id, net.points[side - 1].id,
+                                            net.points[side * (side - 1)].id, net.points.back().id};
+    std::unordered_map<std::string, std::size_t> index;
+    for (std::size_t i = 0; i < net.points.size(); ++i) index[net.points[i].id] = i;
+    std::mt19937_64 rng(99);
+    std::vector<EpochSections> epochs;
+    const char* dates[] = {"2024-10-01", "2025-10-01", "2026-10-01"};
+    for (int k = 0; k < 3; ++k) {
+      SectionTable table{"epoch", {}};
+      for (const Section& s : net.sections) {
+        Section e = testing::noisy_section(net, index.at(s.from), index.at(s.to), rng);
+        e.date = dates[k];
+        table.sections.push_back(std::move(e));
+      }
+      epochs.push_back({fmt::format("E{}", k + 1), std::move(table)});
+    }
+    std::vector<Point> points = net.points;
+    for (Point& p : points) p.height.reset();
+    points[0].height = net.true_height[0];
+
+    const auto start_adjust = Clock::now();
+    AdjustmentOptions one;
+    one.free_point = marks.front();
+    const AdjustmentResult single =
+        adjust(make_network(std::vector<Point>(points), std::vector<Section>(epochs[0].sections.sections)), one);
+    const double t_adjust = seconds_since(start_adjust);
+
+    const auto start_epochs = Clock::now();
+    const EpochAnalysis a = analyse_epochs(PointTable{"points", points}, epochs, marks, EpochOptions{});
+    const double t_epochs = seconds_since(start_epochs);
+    // Joint unknowns: three epochs of the points that are not marks, the
+    // four shared marks, less the one held.
+    fmt::print("{:>8} {:>10} {:>12.4f} {:>12.4f} {:>8.1f}   (congruence {}, dof {})\n", net.points.size(),
+               3 * (net.points.size() - 4) + 3, t_adjust, t_epochs, t_epochs / t_adjust,
+               a.tests.back().passed ? "passed" : "failed", single.dof);
+  }
+}
