@@ -25,8 +25,8 @@ struct HeadArguments {
 CommandRunner add_heads_command(CLI::App& app) {
   auto a = std::make_shared<HeadArguments>();
   HeadOptions& o = a->options;
-  CLI::App* c = app.add_subcommand("heads", "Heads from water levels, measuring-point histories and "
-                                            "vertical with QA before contouring");
+  CLI::App* c = app.add_subcommand("heads", "Heads from water levels and measuring-point histories in one "
+                                            "vertical reference, with QA before contouring");
   c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, screen_top, screen_bottom, ...)")
       ->required();
   c->add_option("--mp", a->mp, "Measuring-point history (well, valid_from, height, datum, sigma, ...)")
