@@ -1,10 +1,9 @@
 // The CLI driven in process: exit codes, messages, and all-or-nothing output.
 
 #include <catch2/catch.hpp>
-#include <nlohmann/json.hpp>
-
 #include <filesystem>
 #include <fstream>
+#include <nlohmann/json.hpp>
 #include <sstream>
 
 #include "cli/app.hpp"
@@ -91,9 +90,11 @@ TEST_CASE("bad input exits 1 naming the problem and leaves no output", "[cli][er
 TEST_CASE("usage errors exit 2", "[cli]") {
   CHECK(run_cli({}).code == 2);
   CHECK(run_cli({"adjust", "--points", "p.csv"}).code == 2);
-  CHECK(run_cli({"adjust", "--points", "p", "--sections", "s", "--out", "o", "--alpha", "x"}).code == 2);
-  const CliRun unit = run_cli({"adjust", "--points", "p", "--sections", "s", "--out", "o",
-                               "--unit", "yard"});
+  CHECK(
+      run_cli({"adjust", "--points", "p", "--sections", "s", "--out", "o", "--alpha", "x"}).code ==
+      2);
+  const CliRun unit =
+      run_cli({"adjust", "--points", "p", "--sections", "s", "--out", "o", "--unit", "yard"});
   CHECK(unit.code == 2);
   CHECK_THAT(unit.err, Contains("yard"));
   CHECK(run_cli({"--help"}).code == 0);
@@ -103,9 +104,14 @@ TEST_CASE("strict mode exits 3 when a check fails, 0 otherwise", "[cli]") {
   levelhead::testing::TempFolder tmp;
   // The good corpus misclosure is 1 mm in 530 m of levelling; at 0.1 mm/sqrt(km)
   // that is far beyond expectation, so the global test fails.
-  const std::vector<std::string> base = {"adjust", "--points", (bad / "points.csv").string(),
-                                         "--sections", (bad / "sections.csv").string(),
-                                         "--out", (tmp.path() / "o").string(), "--strict"};
+  const std::vector<std::string> base = {"adjust",
+                                         "--points",
+                                         (bad / "points.csv").string(),
+                                         "--sections",
+                                         (bad / "sections.csv").string(),
+                                         "--out",
+                                         (tmp.path() / "o").string(),
+                                         "--strict"};
   std::vector<std::string> tight = base;
   tight.insert(tight.end(), {"--mm-per-sqrt-km", "0.1"});
   CHECK(run_cli(tight).code == 3);
@@ -126,7 +132,8 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
   const auto flow = nlohmann::json::parse(std::ifstream(tmp.path() / "flow" / "flow.json"));
   // The invented water table falls 1.2 mm/m east and 0.8 mm/m north: 1.44e-3
   // towards atan2(1.2, 0.8) = 56.3 degrees; 3 mm noise on 7 wells allows a degree.
-  CHECK_THAT(flow["gradient"]["value"].get<double>(), Catch::Matchers::WithinAbs(1.442e-3, 0.05e-3));
+  CHECK_THAT(flow["gradient"]["value"].get<double>(),
+             Catch::Matchers::WithinAbs(1.442e-3, 0.05e-3));
   CHECK_THAT(flow["azimuth"]["value"].get<double>(), Catch::Matchers::WithinAbs(56.3, 1.5));
   // The demo field book holds a 20 mm misreading on SBM-B -> MW-04: the loops
   // through it fail, and data snooping removes it before the final adjustment.
@@ -136,9 +143,14 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
 
 TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "[cli][loops]") {
   levelhead::testing::TempFolder tmp;
-  const std::vector<std::string> base = {"loops", "--points", (bad / "points.csv").string(),
-                                         "--sections", (bad / "sections.csv").string(),
-                                         "--out", (tmp.path() / "o").string(), "--strict"};
+  const std::vector<std::string> base = {"loops",
+                                         "--points",
+                                         (bad / "points.csv").string(),
+                                         "--sections",
+                                         (bad / "sections.csv").string(),
+                                         "--out",
+                                         (tmp.path() / "o").string(),
+                                         "--strict"};
   const CliRun ok = run_cli(base);
   INFO(ok.err);
   REQUIRE(ok.code == 0);
@@ -162,7 +174,8 @@ TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "
   CHECK_THAT(r.err, Contains("fgcc-second-ii"));
 }
 
-TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1", "[cli][fieldbook]") {
+TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1",
+          "[cli][fieldbook]") {
   levelhead::testing::TempFolder tmp;
   const fs::path book = fs::path(LEVELHEAD_FIXTURES_DIR) / "fieldbook" / "hand_worked.csv";
   const CliRun ok = run_cli({"reduce", book.string(), "--out", (tmp.path() / "r").string()});
@@ -178,10 +191,10 @@ TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1",
     const char* file;
     std::vector<const char*> names;
   };
-  for (const Case& c : std::vector<Case>{
-           {"fieldbook_missing_fore.csv", {"setup 1", "row 2", "no fore sight"}},
-           {"fieldbook_text_reading.csv", {"row 3", "column 'reading'", "'1.6OO0'"}},
-           {"fieldbook_open_run.csv", {"row 5", "must close on a named point"}}}) {
+  for (const Case& c :
+       std::vector<Case>{{"fieldbook_missing_fore.csv", {"setup 1", "row 2", "no fore sight"}},
+                         {"fieldbook_text_reading.csv", {"row 3", "column 'reading'", "'1.6OO0'"}},
+                         {"fieldbook_open_run.csv", {"row 5", "must close on a named point"}}}) {
     const fs::path out = tmp.path() / c.file;
     const CliRun r = run_cli({"reduce", (bad / c.file).string(), "--out", out.string()});
     INFO(c.file << ": " << r.err);
@@ -190,7 +203,8 @@ TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1",
     CHECK(files_in(out).empty());
   }
   CHECK(run_cli({"reduce", book.string(), "--out", "x", "--collimation-mm-per-m", "0.1",
-                 "--collimation-arcsec", "2"}).code == 2);
+                 "--collimation-arcsec", "2"})
+            .code == 2);
 }
 
 TEST_CASE("convert refuses a missing grid and writes nothing", "[cli][proj]") {
@@ -214,7 +228,8 @@ TEST_CASE("convert refuses a missing grid and writes nothing", "[cli][proj]") {
   std::getline(table, first);
   CHECK(header == "id,x,y,height,sigma,reference,transform,flags");
   CHECK_THAT(first, Contains("EPSG:4326+5773") && Contains("EGM96"));
-  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "out" / "converted.summary.json"));
+  const auto summary =
+      nlohmann::json::parse(std::ifstream(tmp.path() / "out" / "converted.summary.json"));
   CHECK(summary["operations"][0]["grids"][0]["sha256"].get<std::string>().size() == 64);
   CHECK(summary["counts"]["converted"] == 2);
 }
@@ -233,9 +248,9 @@ TEST_CASE("tie writes a reference that convert then uses", "[cli][tie]") {
   INFO(tie.err);
   REQUIRE(tie.code == 0);
   CHECK(fs::exists(tmp.path() / "refs" / "site-1998.ties.csv"));
-  const CliRun conv = run_cli({"convert", "--from", "site-1998", "--to", "EPSG:5703", "--references",
-                               refs.string(), "--in", (tmp.path() / "site.csv").string(), "--out",
-                               (tmp.path() / "converted.csv").string()});
+  const CliRun conv = run_cli(
+      {"convert", "--from", "site-1998", "--to", "EPSG:5703", "--references", refs.string(), "--in",
+       (tmp.path() / "site.csv").string(), "--out", (tmp.path() / "converted.csv").string()});
   INFO(conv.err);
   REQUIRE(conv.code == 0);
   std::ifstream table(tmp.path() / "converted.csv");
@@ -246,10 +261,11 @@ TEST_CASE("tie writes a reference that convert then uses", "[cli][tie]") {
   CHECK_THAT(last, Contains("W,50,50,104.2500"));
 }
 
-TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict", "[cli][epochs]") {
+TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict",
+          "[cli][epochs]") {
   levelhead::testing::TempFolder tmp;
-  std::ofstream(tmp.path() / "points.csv")
-      << "id,height,datum,kind\nA,50.000,EPSG:5703,benchmark\nB,,,benchmark\nC,,,benchmark\nP,,,well\n";
+  std::ofstream(tmp.path() / "points.csv") << "id,height,datum,kind\nA,50.000,EPSG:5703,"
+                                              "benchmark\nB,,,benchmark\nC,,,benchmark\nP,,,well\n";
   // Invented: C rises 6 mm between the epochs, P sinks 5 mm; 1 mm sections.
   std::ofstream(tmp.path() / "sections.csv")
       << "epoch,from,to,dh,sigma,date\n"
@@ -261,8 +277,13 @@ TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict
          "2026,P,C,-0.5889,0.001,2026-05-05\n";
   const fs::path out = tmp.path() / "out";
   const auto args = [&](bool strict) {
-    std::vector<std::string> a = {"epochs", "--points", (tmp.path() / "points.csv").string(), "--sections",
-                                  (tmp.path() / "sections.csv").string(), "--out", out.string()};
+    std::vector<std::string> a = {"epochs",
+                                  "--points",
+                                  (tmp.path() / "points.csv").string(),
+                                  "--sections",
+                                  (tmp.path() / "sections.csv").string(),
+                                  "--out",
+                                  out.string()};
     if (strict) a.push_back("--strict");
     return a;
   };
@@ -270,8 +291,8 @@ TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict
   INFO(run.out << run.err);
   REQUIRE(run.code == 0);
   CHECK_THAT(run.out, Contains("C            moving (step 1)"));
-  for (const char* name : {"epochs.csv", "reference_stability.csv", "displacements.csv", "rates.csv",
-                           "heights_by_epoch.csv", "summary.json"}) {
+  for (const char* name : {"epochs.csv", "reference_stability.csv", "displacements.csv",
+                           "rates.csv", "heights_by_epoch.csv", "summary.json"}) {
     CHECK(fs::exists(out / name));
   }
   std::ifstream summary_file(out / "summary.json");
@@ -287,9 +308,10 @@ TEST_CASE("epochs: a mark missing from the points table is a clear error", "[cli
   std::ofstream(tmp.path() / "points.csv") << "id\nA\nB\n";
   std::ofstream(tmp.path() / "e1.csv") << "from,to,dh,sigma,date\nA,B,1.0,0.001,2025-05-02\n";
   std::ofstream(tmp.path() / "e2.csv") << "from,to,dh,sigma,date\nA,B,1.0,0.001,2026-05-02\n";
-  const CliRun run = run_cli({"epochs", "--points", (tmp.path() / "points.csv").string(), "--sections",
-                              (tmp.path() / "e1.csv").string(), "--sections", (tmp.path() / "e2.csv").string(),
-                              "--marks", "A,X", "--out", (tmp.path() / "out").string()});
+  const CliRun run =
+      run_cli({"epochs", "--points", (tmp.path() / "points.csv").string(), "--sections",
+               (tmp.path() / "e1.csv").string(), "--sections", (tmp.path() / "e2.csv").string(),
+               "--marks", "A,X", "--out", (tmp.path() / "out").string()});
   CHECK(run.code == 1);
   CHECK_THAT(run.err, Contains("'X' is not in the points table"));
   CHECK_FALSE(fs::exists(tmp.path() / "out" / "summary.json"));
@@ -303,13 +325,21 @@ TEST_CASE("bad epochs, transducer and project inputs exit 1 naming the place", "
     std::vector<std::string> named;
   };
   const auto transducer = [&](const char* sensors) {
-    return std::vector<std::string>{"transducer", "--wells", (bad / "wells_transducer.csv").string(), "--sensors",
-                                    (bad / sensors).string(), "--records", (bad / "records_transducer.csv").string(),
-                                    "--levels", (bad / "levels_transducer.csv").string(), "--out", out.string()};
+    return std::vector<std::string>{"transducer",
+                                    "--wells",
+                                    (bad / "wells_transducer.csv").string(),
+                                    "--sensors",
+                                    (bad / sensors).string(),
+                                    "--records",
+                                    (bad / "records_transducer.csv").string(),
+                                    "--levels",
+                                    (bad / "levels_transducer.csv").string(),
+                                    "--out",
+                                    out.string()};
   };
   const std::vector<Case> cases = {
-      {{"epochs", "--points", (bad / "points.csv").string(), "--sections", (bad / "epochs_missing_date.csv").string(),
-        "--marks", "BM1,A", "--out", out.string()},
+      {{"epochs", "--points", (bad / "points.csv").string(), "--sections",
+        (bad / "epochs_missing_date.csv").string(), "--marks", "BM1,A", "--out", out.string()},
        {"epochs_missing_date.csv", "row 6", "date"}},
       {transducer("sensors_no_barometer.csv"), {"sensors_no_barometer.csv", "row 2", "barometer"}},
       {transducer("sensors_far_barometer.csv"), {"sensors_far_barometer.csv", "row 2", "60000 m"}},

@@ -1,7 +1,6 @@
 // Quick-look contours: GDAL gridding and contouring of heads.
 
 #include <catch2/catch.hpp>
-
 #include <cmath>
 
 #include "levelhead/contours.hpp"
@@ -16,11 +15,13 @@ TEST_CASE("contours of a plane lie on the plane, in every direction of slope", "
   // plane is the plane, so every contour vertex must satisfy it. A flipped
   // grid or a half-cell shift would put vertices off by up to gradient x
   // extent or gradient x cell / 2.
-  for (const auto& [gx, gy] : std::vector<std::pair<double, double>>{{0.002, 0.0}, {0.0, -0.003}, {-0.001, 0.0015}}) {
+  for (const auto& [gx, gy] :
+       std::vector<std::pair<double, double>>{{0.002, 0.0}, {0.0, -0.003}, {-0.001, 0.0015}}) {
     std::vector<HeadAtWell> wells;
     const double xs[] = {500000, 500800, 500100, 500900, 500450, 500300};
     const double ys[] = {4400000, 4400050, 4400700, 4400650, 4400350, 4400200};
-    for (int i = 0; i < 6; ++i) wells.push_back({xs[i], ys[i], 100.0 + gx * (xs[i] - 500000) + gy * (ys[i] - 4400000)});
+    for (int i = 0; i < 6; ++i)
+      wells.push_back({xs[i], ys[i], 100.0 + gx * (xs[i] - 500000) + gy * (ys[i] - 4400000)});
     const auto contours = quick_contours(wells, 0.25);
     REQUIRE(contours);
     REQUIRE_FALSE(contours->lines.empty());
@@ -54,7 +55,8 @@ TEST_CASE("contours need an area and a positive interval", "[contours]") {
 
 TEST_CASE("contours are written to a GeoPackage layer", "[contours]") {
   levelhead::testing::TempFolder tmp;
-  const auto contours = quick_contours({{500000, 4400000, 10.0}, {500100, 4400000, 10.8}, {500000, 4400100, 11.6}});
+  const auto contours =
+      quick_contours({{500000, 4400000, 10.0}, {500100, 4400000, 10.8}, {500000, 4400100, 11.6}});
   REQUIRE(contours);
   write_contours_geopackage(*contours, "EPSG:32613", "EPSG:5703", tmp.path() / "contours.gpkg");
   CHECK(std::filesystem::file_size(tmp.path() / "contours.gpkg") > 0);

@@ -1,10 +1,9 @@
 // Repeated levelling epochs: congruence of the reference marks, stepwise
 // identification of moving marks, displacements and rates.
 
-#include <catch2/catch.hpp>
-
 #include <fmt/format.h>
 
+#include <catch2/catch.hpp>
 #include <cmath>
 #include <fstream>
 #include <random>
@@ -70,8 +69,8 @@ const MarkVerdict& verdict(const EpochAnalysis& a, const std::string& mark) {
   throw std::logic_error("unreachable");
 }
 
-const Displacement& displacement(const EpochAnalysis& a, const std::string& point, bool against_first,
-                                 std::size_t to_epoch) {
+const Displacement& displacement(const EpochAnalysis& a, const std::string& point,
+                                 bool against_first, std::size_t to_epoch) {
   for (const Displacement& d : a.displacements) {
     if (d.point == point && d.against_first == against_first && d.to_epoch == to_epoch) return d;
   }
@@ -95,7 +94,8 @@ TEST_CASE("a reference mark sinking 8 mm among four is found and left out", "[ep
     truth[5] -= 0.005 * k;
     epochs.push_back(site.make(fmt::format("E{}", k + 1), dates[k], truth, random));
   }
-  const EpochAnalysis a = analyse_epochs(site.points(), std::move(epochs), four_marks, EpochOptions{});
+  const EpochAnalysis a =
+      analyse_epochs(site.points(), std::move(epochs), four_marks, EpochOptions{});
 
   REQUIRE(a.tests.size() == 2);
   CHECK_FALSE(a.tests[0].passed);
@@ -104,7 +104,8 @@ TEST_CASE("a reference mark sinking 8 mm among four is found and left out", "[ep
   CHECK(a.tests[1].marks == std::vector<std::string>{"A", "B", "C"});
   CHECK(verdict(a, "D").kind == MarkVerdict::Kind::moving);
   CHECK(verdict(a, "D").step == 1u);
-  for (const char* mark : {"A", "B", "C"}) CHECK(verdict(a, mark).kind == MarkVerdict::Kind::stable);
+  for (const char* mark : {"A", "B", "C"})
+    CHECK(verdict(a, mark).kind == MarkVerdict::Kind::stable);
   CHECK(a.held_mark == "A");
   CHECK(a.reference == "EPSG:5703");
 
@@ -136,7 +137,8 @@ TEST_CASE("with no movement no mark is named", "[epochs]") {
   std::vector<EpochSections> epochs;
   epochs.push_back(site.make("spring", "2025-04-15", base, random));
   epochs.push_back(site.make("autumn", "2025-10-15", base, random));
-  const EpochAnalysis a = analyse_epochs(site.points(), std::move(epochs), four_marks, EpochOptions{});
+  const EpochAnalysis a =
+      analyse_epochs(site.points(), std::move(epochs), four_marks, EpochOptions{});
   REQUIRE(a.tests.size() == 1);
   CHECK(a.tests[0].passed);
   for (const MarkVerdict& v : a.marks) CHECK(v.kind == MarkVerdict::Kind::stable);
@@ -157,7 +159,8 @@ TEST_CASE("the congruence test's false-alarm rate is close to alpha", "[epochs]"
     std::vector<EpochSections> epochs;
     epochs.push_back(site.make("E1", "2025-04-15", base, random));
     epochs.push_back(site.make("E2", "2026-04-15", base, random));
-    const EpochAnalysis a = analyse_epochs(site.points(), std::move(epochs), four_marks, EpochOptions{});
+    const EpochAnalysis a =
+        analyse_epochs(site.points(), std::move(epochs), four_marks, EpochOptions{});
     alarms += a.tests[0].passed ? 0 : 1;
   }
   const double rate = static_cast<double>(alarms) / runs;
@@ -174,14 +177,16 @@ TEST_CASE("three-point case: displacement, interval and test by hand", "[epochs]
   // normal table, NIST/SEMATECH e-Handbook 1.3.6.7.1).
   const double s = 0.001;
   std::vector<EpochSections> epochs;
-  epochs.push_back(epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
-                                dated("P", "A", -1.500, s, "2026-03-01")}));
-  epochs.push_back(epoch("E2", {dated("A", "B", 1.000, s, "2026-09-01"), dated("B", "P", 0.495, s, "2026-09-01"),
-                                dated("P", "A", -1.495, s, "2026-09-01")}));
+  epochs.push_back(
+      epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
+                   dated("P", "A", -1.500, s, "2026-03-01")}));
+  epochs.push_back(
+      epoch("E2", {dated("A", "B", 1.000, s, "2026-09-01"), dated("B", "P", 0.495, s, "2026-09-01"),
+                   dated("P", "A", -1.495, s, "2026-09-01")}));
   EpochOptions options;
   options.variance = VarianceFactor::apriori;
-  const EpochAnalysis a =
-      analyse_epochs(point_table({point("A", 50.0), point("B"), point("P")}), std::move(epochs), {"A", "B"}, options);
+  const EpochAnalysis a = analyse_epochs(point_table({point("A", 50.0), point("B"), point("P")}),
+                                         std::move(epochs), {"A", "B"}, options);
   REQUIRE(a.tests.size() == 1);
   CHECK(a.tests[0].passed);
   CHECK_THAT(a.tests[0].omega, WithinAbs(0.0, 1e-9));
@@ -206,14 +211,16 @@ TEST_CASE("congruence statistic of two marks by hand", "[epochs]") {
   // fails, and with only two marks the test cannot tell which moved.
   const double s = 0.001;
   std::vector<EpochSections> epochs;
-  epochs.push_back(epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
-                                dated("P", "A", -1.500, s, "2026-03-01")}));
-  epochs.push_back(epoch("E2", {dated("A", "B", 1.004, s, "2026-09-01"), dated("B", "P", 0.491, s, "2026-09-01"),
-                                dated("P", "A", -1.495, s, "2026-09-01")}));
+  epochs.push_back(
+      epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
+                   dated("P", "A", -1.500, s, "2026-03-01")}));
+  epochs.push_back(
+      epoch("E2", {dated("A", "B", 1.004, s, "2026-09-01"), dated("B", "P", 0.491, s, "2026-09-01"),
+                   dated("P", "A", -1.495, s, "2026-09-01")}));
   EpochOptions options;
   options.variance = VarianceFactor::apriori;
-  const EpochAnalysis a =
-      analyse_epochs(point_table({point("A"), point("B"), point("P")}), std::move(epochs), {"A", "B"}, options);
+  const EpochAnalysis a = analyse_epochs(point_table({point("A"), point("B"), point("P")}),
+                                         std::move(epochs), {"A", "B"}, options);
   REQUIRE(a.tests.size() == 1);
   CHECK(a.tests[0].h == 1);
   CHECK_THAT(a.tests[0].omega, WithinAbs(12.0, 1e-6));  // weight units: mm^2 / (1 mm)^2
@@ -231,16 +238,19 @@ TEST_CASE("rates from three epochs match a weighted straight-line fit", "[epochs
   // heights and their sigmas. Invented noisy observations, unequal sigmas
   // and intervals.
   std::vector<EpochSections> epochs;
-  epochs.push_back(epoch("E1", {dated("A", "P", 0.8003, 0.001, "2024-05-01"), dated("P", "Q", 0.4001, 0.001, "2024-05-01"),
+  epochs.push_back(epoch("E1", {dated("A", "P", 0.8003, 0.001, "2024-05-01"),
+                                dated("P", "Q", 0.4001, 0.001, "2024-05-01"),
                                 dated("Q", "A", -1.2009, 0.001, "2024-05-01")}));
-  epochs.push_back(epoch("E2", {dated("A", "P", 0.7951, 0.002, "2025-05-01"), dated("P", "Q", 0.4012, 0.002, "2025-05-01"),
+  epochs.push_back(epoch("E2", {dated("A", "P", 0.7951, 0.002, "2025-05-01"),
+                                dated("P", "Q", 0.4012, 0.002, "2025-05-01"),
                                 dated("Q", "A", -1.1938, 0.002, "2025-05-01")}));
-  epochs.push_back(epoch("E3", {dated("A", "P", 0.7849, 0.0015, "2027-05-01"), dated("P", "Q", 0.3996, 0.0015, "2027-05-01"),
+  epochs.push_back(epoch("E3", {dated("A", "P", 0.7849, 0.0015, "2027-05-01"),
+                                dated("P", "Q", 0.3996, 0.0015, "2027-05-01"),
                                 dated("Q", "A", -1.1851, 0.0015, "2027-05-01")}));
   EpochOptions options;
   options.variance = VarianceFactor::apriori;
-  const EpochAnalysis a =
-      analyse_epochs(point_table({point("A"), point("P"), point("Q")}), std::move(epochs), {"A"}, options);
+  const EpochAnalysis a = analyse_epochs(point_table({point("A"), point("P"), point("Q")}),
+                                         std::move(epochs), {"A"}, options);
   std::size_t p = 0;
   while (a.points[p] != "P") ++p;
   double S = 0, Sx = 0, Sy = 0, Sxx = 0, Sxy = 0;
@@ -264,7 +274,8 @@ TEST_CASE("rates from three epochs match a weighted straight-line fit", "[epochs
   CHECK_THAT(rate->sigma, WithinAbs(std::sqrt(S / delta), 1e-10));
   // Intervals of one and two years.
   bool unequal = false;
-  for (const std::string& w : a.warnings) unequal = unequal || w.find("unequal intervals") != std::string::npos;
+  for (const std::string& w : a.warnings)
+    unequal = unequal || w.find("unequal intervals") != std::string::npos;
   CHECK(unequal);
 }
 
@@ -273,8 +284,10 @@ TEST_CASE("bad epoch input is refused with the place to fix it", "[epochs]") {
   const PointTable points = point_table({point("A"), point("B"), point("P")});
   const auto two = [&](std::string second_date) {
     std::vector<EpochSections> e;
-    e.push_back(epoch("E1", {dated("A", "B", 1.0, s, "2026-03-01"), dated("B", "P", 0.5, s, "2026-03-01")}));
-    e.push_back(epoch("E2", {dated("A", "B", 1.0, s, "2026-09-01"), dated("B", "P", 0.5, s, second_date)}));
+    e.push_back(epoch(
+        "E1", {dated("A", "B", 1.0, s, "2026-03-01"), dated("B", "P", 0.5, s, "2026-03-01")}));
+    e.push_back(
+        epoch("E2", {dated("A", "B", 1.0, s, "2026-09-01"), dated("B", "P", 0.5, s, second_date)}));
     return e;
   };
   SECTION("a section without a date") {
@@ -306,6 +319,7 @@ TEST_CASE("bad epoch input is refused with the place to fix it", "[epochs]") {
   SECTION("two epochs of one name") {
     auto e = two("2026-09-01");
     e[1].name = "E1";
-    CHECK_THROWS_WITH(analyse_epochs(points, std::move(e), {"A"}, EpochOptions{}), Catch::Contains("two epochs"));
+    CHECK_THROWS_WITH(analyse_epochs(points, std::move(e), {"A"}, EpochOptions{}),
+                      Catch::Contains("two epochs"));
   }
 }

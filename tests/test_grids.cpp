@@ -2,10 +2,10 @@
 // checked exactly: bilinear interpolation reproduces a plane exactly, so any
 // error in the node convention (pixel centres) or the sign would show.
 
-#include <catch2/catch.hpp>
 #include <gdal.h>
 #include <gdal_utils.h>
 
+#include <catch2/catch.hpp>
 #include <fstream>
 
 #include "levelhead/errors.hpp"
@@ -30,8 +30,10 @@ void write_grid(const std::filesystem::path& path, const char* driver_name, bool
   GDALDatasetH ds = GDALCreate(mem, "", nx, ny, 1, GDT_Float32, nullptr);
   double transform[6] = {9.0 - step / 2, step, 0.0, 46.0 + step / 2, 0.0, -step};
   GDALSetGeoTransform(ds, transform);
-  GDALSetProjection(ds, "GEOGCS[\"WGS 84\",DATUM[\"WGS_1984\",SPHEROID[\"WGS 84\",6378137,298.257223563]],"
-                        "PRIMEM[\"Greenwich\",0],UNIT[\"degree\",0.0174532925199433]]");
+  GDALSetProjection(
+      ds,
+      "GEOGCS[\"WGS 84\",DATUM[\"WGS_1984\",SPHEROID[\"WGS 84\",6378137,298.257223563]],"
+      "PRIMEM[\"Greenwich\",0],UNIT[\"degree\",0.0174532925199433]]");
   std::vector<float> values(nx * ny);
   for (int r = 0; r < ny; ++r) {
     for (int c = 0; c < nx; ++c) {
@@ -69,7 +71,7 @@ TEST_CASE("a tilted-plane grid interpolates exactly, in GeoTIFF, GTX and GDAL-on
     INFO(driver);
     const std::string extension = std::string(driver) == "GTiff" ? ".tif"
                                   : std::string(driver) == "GTX" ? ".gtx"
-                                                                   : ".asc";
+                                                                 : ".asc";
     const auto path = tmp.path() / (std::string("plane") + extension);
     write_grid(path, driver, false);
     SurfaceShift grid(path, "EPSG:4326", ProjSettings{});
@@ -98,7 +100,8 @@ TEST_CASE("a grid reference converts heights and names points outside it", "[gri
   CHECK_FALSE(r[1].height);
   CHECK_THAT(r[1].failure, Contains("outside grid constant.gtx"));
   // And back the other way.
-  HeightConverter back("EPSG:4979", "site-geoid", "EPSG:4326", grid_reference(path), ProjSettings{});
+  HeightConverter back("EPSG:4979", "site-geoid", "EPSG:4326", grid_reference(path),
+                       ProjSettings{});
   CHECK_THAT(*back.convert({{10.0, 45.0}}, {101.5})[0].height, WithinAbs(100.0, 1e-6));
 }
 
@@ -109,12 +112,14 @@ TEST_CASE("a grid reference needs the points' CRS and an existing file", "[grids
                     Contains("does not exist"));
   const auto path = tmp.path() / "g.tif";
   write_grid(path, "GTiff", true);
-  CHECK_THROWS_WITH(HeightConverter("site-geoid", "EPSG:4979", "", grid_reference(path), ProjSettings{}),
-                    Contains("--crs"));
+  CHECK_THROWS_WITH(
+      HeightConverter("site-geoid", "EPSG:4979", "", grid_reference(path), ProjSettings{}),
+      Contains("--crs"));
 }
 
-TEST_CASE("a named grid is found in PROJ's folders, and a multiplier of -1 reduces ellipsoidal heights",
-          "[grids]") {
+TEST_CASE(
+    "a named grid is found in PROJ's folders, and a multiplier of -1 reduces ellipsoidal heights",
+    "[grids]") {
   // gnss (ellipsoidal h) -> egm96-here (H = h - N, egm96_15.gtx from
   // proj-data, multiplier -1) -> EPSG:5703 (+0.412 m, an invented tie). The
   // geoid part must agree with PROJ's own EPSG:4979 -> EGM96 height
@@ -122,8 +127,10 @@ TEST_CASE("a named grid is found in PROJ's folders, and a multiplier of -1 reduc
   // database).
   testing::TempFolder tmp;
   std::ofstream(tmp.path() / "refs.toml")
-      << "[references.gnss]\nkind = \"grid\"\nbase = \"egm96-here\"\ngrid = \"egm96_15.gtx\"\nmultiplier = -1\n"
-         "sigma = 0.05\n[references.egm96-here]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffset = 0.412\n";
+      << "[references.gnss]\nkind = \"grid\"\nbase = \"egm96-here\"\ngrid = "
+         "\"egm96_15.gtx\"\nmultiplier = -1\n"
+         "sigma = 0.05\n[references.egm96-here]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffset = "
+         "0.412\n";
   const ReferenceSet set = ReferenceSet::load(tmp.path() / "refs.toml");
   REQUIRE(std::filesystem::exists(set.find("gnss")->grid));
   HeightConverter chain("gnss", "EPSG:5703", "EPSG:32613", set, ProjSettings{});

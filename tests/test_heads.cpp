@@ -1,8 +1,8 @@
 // Heads from water levels: hand-worked cases (invented wells) and every QA flag.
 
-#include <catch2/catch.hpp>
-
 #include <fmt/format.h>
+
+#include <catch2/catch.hpp>
 #include <fstream>
 
 #include "levelhead/errors.hpp"
@@ -17,11 +17,13 @@ namespace {
 
 struct Site {
   testing::TempFolder tmp;
-  std::string wells = "id,x,y,ground,screen_bottom\nW1,500000,4400000,12.0,20\nW2,500100,4400050,104.0,15\n";
-  std::string mp = "well,valid_from,height,datum,sigma,reason\n"
-                   "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
-                   "W1,2022-01-01,9.800,EPSG:5703,0.002,casing-cut\n"
-                   "W2,2020-01-01,8.000,site-1998,0.002,survey\n";
+  std::string wells =
+      "id,x,y,ground,screen_bottom\nW1,500000,4400000,12.0,20\nW2,500100,4400050,104.0,15\n";
+  std::string mp =
+      "well,valid_from,height,datum,sigma,reason\n"
+      "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
+      "W1,2022-01-01,9.800,EPSG:5703,0.002,casing-cut\n"
+      "W2,2020-01-01,8.000,site-1998,0.002,survey\n";
   std::string levels;
   std::string monitored;  // heights_by_epoch.csv, when not empty
   HeadOptions options;
@@ -51,11 +53,13 @@ struct Site {
       write("monitored.csv", monitored);
       moving = read_monitored_heights(read_table(tmp.path() / "monitored.csv"));
     }
-    compute_heads(w, records, {}, moving, references, ProjSettings{}, options, tmp.path() / "levels.csv",
-                  TableOptions{}, tmp.path() / "out", true);
+    compute_heads(w, records, {}, moving, references, ProjSettings{}, options,
+                  tmp.path() / "levels.csv", TableOptions{}, tmp.path() / "out", true);
     return read_table(tmp.path() / "out" / "heads.csv");
   }
-  void write(const char* name, const std::string& text) { std::ofstream(tmp.path() / name) << text; }
+  void write(const char* name, const std::string& text) {
+    std::ofstream(tmp.path() / name) << text;
+  }
   Table qa() { return read_table(tmp.path() / "out" / "qa.csv"); }
 };
 
@@ -68,10 +72,11 @@ std::string flags(const Table& t, std::size_t row) {
 
 TEST_CASE("heads across a casing cut and across a change of reference", "[heads]") {
   Site site;
-  site.levels = "well,time,depth\n"
-                "W1,2021-06-01T09:00Z,3.000\n"   // before the cut: 10.000 - 3.000
-                "W1,2022-06-01T09:00Z,2.850\n"   // after the cut:   9.800 - 2.850
-                "W2,2021-06-01T10:00Z,3.250\n";  // site datum: 8.000 + 95.25 - 3.25
+  site.levels =
+      "well,time,depth\n"
+      "W1,2021-06-01T09:00Z,3.000\n"   // before the cut: 10.000 - 3.000
+      "W1,2022-06-01T09:00Z,2.850\n"   // after the cut:   9.800 - 2.850
+      "W2,2021-06-01T10:00Z,3.250\n";  // site datum: 8.000 + 95.25 - 3.25
   const Table t = site.run();
   REQUIRE(t.row_count() == 3);
   CHECK_THAT(head(t, 0), WithinAbs(7.000, 1e-9));
@@ -87,14 +92,16 @@ TEST_CASE("heads across a casing cut and across a change of reference", "[heads]
   const Table qa = site.qa();
   REQUIRE(qa.row_count() >= 1);
   CHECK(qa.cell(0, *qa.find_column("flag")) == "mp-changed");
-  CHECK_THAT(std::string(qa.cell(0, *qa.find_column("detail"))), Contains("-0.200") && Contains("casing-cut"));
+  CHECK_THAT(std::string(qa.cell(0, *qa.find_column("detail"))),
+             Contains("-0.200") && Contains("casing-cut"));
 }
 
 TEST_CASE("a subsiding well interpolates its measuring point between surveys", "[heads]") {
   Site site;
-  site.mp = "well,valid_from,height,datum,sigma,reason\n"
-            "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
-            "W1,2021-01-01,9.900,EPSG:5703,0.002,resurvey\n";
+  site.mp =
+      "well,valid_from,height,datum,sigma,reason\n"
+      "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
+      "W1,2021-01-01,9.900,EPSG:5703,0.002,resurvey\n";
   // 2020 is a leap year: 2020-07-02T00:00 is exactly half of its 366 days.
   site.levels = "well,time,depth\nW1,2020-07-02T00:00Z,2.000\n";
   CHECK_THAT(head(site.run(), 0), WithinAbs(8.000, 1e-9));  // step: the 2020 survey holds
@@ -103,9 +110,10 @@ TEST_CASE("a subsiding well interpolates its measuring point between surveys", "
   CHECK_THAT(head(t, 0), WithinAbs(7.950, 1e-9));  // 9.950 - 2.000
   CHECK_THAT(flags(t, 0), Contains("mp-interpolated"));
   // Never across a casing cut.
-  site.mp = "well,valid_from,height,datum,sigma,reason\n"
-            "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
-            "W1,2021-01-01,9.900,EPSG:5703,0.002,casing-cut\n";
+  site.mp =
+      "well,valid_from,height,datum,sigma,reason\n"
+      "W1,2020-01-01,10.000,EPSG:5703,0.002,survey\n"
+      "W1,2021-01-01,9.900,EPSG:5703,0.002,casing-cut\n";
   CHECK_THAT(head(site.run(), 0), WithinAbs(8.000, 1e-9));
 }
 
@@ -121,12 +129,13 @@ TEST_CASE("a measuring point with no path to the target reference is an error, n
 
 TEST_CASE("readings that are not numbers are carried and kept out of contouring", "[heads]") {
   Site site;
-  site.levels = "well,time,depth,above,status\n"
-                "W1,2021-06-01,dry,,\n"
-                "W1,2021-06-02,>15.2,,\n"
-                "W1,2021-06-03,Frozen,,\n"
-                "W1,2021-06-04,,0.40,flowing\n"
-                "W1,2021-06-05,3.1,,recently pumped\n";
+  site.levels =
+      "well,time,depth,above,status\n"
+      "W1,2021-06-01,dry,,\n"
+      "W1,2021-06-02,>15.2,,\n"
+      "W1,2021-06-03,Frozen,,\n"
+      "W1,2021-06-04,,0.40,flowing\n"
+      "W1,2021-06-05,3.1,,recently pumped\n";
   const Table t = site.run();
   const std::size_t state = *t.find_column("state"), contour = *t.find_column("contour");
   CHECK(t.cell(0, state) == "dry");
@@ -143,16 +152,17 @@ TEST_CASE("readings that are not numbers are carried and kept out of contouring"
 TEST_CASE("each QA flag is raised when it applies and not otherwise", "[heads][qa]") {
   Site site;
   site.options.event = parse_iso8601("2021-06-10T12:00Z")->seconds;
-  site.levels = "well,time,depth\n"
-                "W1,2021-06-10T08:00Z,3.000\n"    // 0 clean
-                "W1,2021-06-10T08:05Z,3.001\n"    // 1 repeat within 3 mm: clean
-                "W1,2021-06-10T08:10Z,3.010\n"    // 2 repeat 10 mm off: repeat-disagrees
-                "W1,2021-06-10T08:10Z,3.010\n"    // 3 duplicate
-                "W1,2021-06-10T07:00Z,3.000\n"    // 4 out-of-order
-                "W1,2021-06-20T08:00Z,3.000\n"    // 5 outside the 48 h window
-                "W1,2021-06-11T08:00Z,-0.100\n"   // 6 water above the MP, not marked flowing
-                "W2,2021-06-10T10:00Z,-1.0\n"     // 7 head 104.25 above ground at 104.0
-                "W2,2021-06-10T14:00Z,95.0\n";    // 8 head 8.25, below the screen bottom at 89.0
+  site.levels =
+      "well,time,depth\n"
+      "W1,2021-06-10T08:00Z,3.000\n"   // 0 clean
+      "W1,2021-06-10T08:05Z,3.001\n"   // 1 repeat within 3 mm: clean
+      "W1,2021-06-10T08:10Z,3.010\n"   // 2 repeat 10 mm off: repeat-disagrees
+      "W1,2021-06-10T08:10Z,3.010\n"   // 3 duplicate
+      "W1,2021-06-10T07:00Z,3.000\n"   // 4 out-of-order
+      "W1,2021-06-20T08:00Z,3.000\n"   // 5 outside the 48 h window
+      "W1,2021-06-11T08:00Z,-0.100\n"  // 6 water above the MP, not marked flowing
+      "W2,2021-06-10T10:00Z,-1.0\n"    // 7 head 104.25 above ground at 104.0
+      "W2,2021-06-10T14:00Z,95.0\n";   // 8 head 8.25, below the screen bottom at 89.0
   const Table t = site.run();
   CHECK(flags(t, 0).empty());
   CHECK(flags(t, 1).empty());
@@ -193,11 +203,13 @@ TEST_CASE("bad reading tables name the row", "[heads][errors]") {
 
 TEST_CASE("saline wells get a freshwater head at their screen", "[heads][density]") {
   Site site;
-  site.wells = "id,x,y,ground,screen_top,screen_bottom,density\n"
-               "W1,500000,4400000,12.0,28,32,1025\nW2,500100,4400050,104.0,5,15,\n";
-  site.levels = "well,time,depth,temperature,salinity\n"
-                "W1,2021-06-01,2.000,,\n"        // well density 1025
-                "W2,2021-06-01,3.250,5,35\n";    // EOS-80: 1027.675 kg/m^3
+  site.wells =
+      "id,x,y,ground,screen_top,screen_bottom,density\n"
+      "W1,500000,4400000,12.0,28,32,1025\nW2,500100,4400050,104.0,5,15,\n";
+  site.levels =
+      "well,time,depth,temperature,salinity\n"
+      "W1,2021-06-01,2.000,,\n"      // well density 1025
+      "W2,2021-06-01,3.250,5,35\n";  // EOS-80: 1027.675 kg/m^3
   const Table t = site.run();
   const std::size_t fresh = *t.find_column("freshwater_head");
   // W1: h = 8.000, screen at 12 - 30 = -18: h_f = 1.025 * 8 + 0.025 * 18 = 8.65 (by hand).
@@ -208,8 +220,9 @@ TEST_CASE("saline wells get a freshwater head at their screen", "[heads][density
   CHECK(t.cell(0, *t.find_column("environmental_head")).empty());  // no reference elevation given
 
   SECTION("with a reference elevation and the column's mean density: environmental-water heads") {
-    site.wells = "id,x,y,ground,screen_top,screen_bottom,density,column_density\n"
-                 "W1,500000,4400000,12.0,28,32,1025,1010\nW2,500100,4400050,104.0,5,15,,\n";
+    site.wells =
+        "id,x,y,ground,screen_top,screen_bottom,density,column_density\n"
+        "W1,500000,4400000,12.0,28,32,1025,1010\nW2,500100,4400050,104.0,5,15,,\n";
     site.options.environmental_reference = 0.0;
     const Table e = site.run();
     // W1: h_n = 8.65 - 0.010 * (0 - (-18)) = 8.47 (by hand); W2 has no column density.
@@ -220,8 +233,9 @@ TEST_CASE("saline wells get a freshwater head at their screen", "[heads][density
 
 TEST_CASE("measuring points without sigma take one from their method", "[heads]") {
   Site site;
-  site.mp = "well,valid_from,height,datum,method\nW1,2020-01-01,10.000,EPSG:5703,gnss\n"
-            "W2,2020-01-01,8.000,site-1998,map\n";
+  site.mp =
+      "well,valid_from,height,datum,method\nW1,2020-01-01,10.000,EPSG:5703,gnss\n"
+      "W2,2020-01-01,8.000,site-1998,map\n";
   site.levels = "well,time,depth\nW1,2021-06-01,3.0\n";
   CHECK_THROWS_WITH(site.run(), Contains("--map-contour-interval"));
   site.options.map_contour_interval = 1.0;
@@ -267,12 +281,14 @@ TEST_CASE("measuring points on monitored points follow the levelling epochs", "[
   // days) PW1 is at 9.995; on 2025-07-02 (182 days past the last epoch) the
   // nearest two epochs give 10 - 0.010 * 548 / 366 = 9.98503 (flagged).
   Site site;
-  site.monitored = "point,epoch,time,height,sigma,reference\n"
-                   "PW1,E1,2024-01-01T00:00:00Z,10.00000,0.00100,EPSG:5703\n"
-                   "PW1,E2,2025-01-01T00:00:00Z,9.99000,0.00100,EPSG:5703\n";
-  site.mp = "well,valid_from,point,height,datum,sigma,moves_with\n"
-            "W1,2024-01-01,PW1,,,,\n"
-            "W2,2024-01-01,,8.000,site-1998,0.002,PW1\n";
+  site.monitored =
+      "point,epoch,time,height,sigma,reference\n"
+      "PW1,E1,2024-01-01T00:00:00Z,10.00000,0.00100,EPSG:5703\n"
+      "PW1,E2,2025-01-01T00:00:00Z,9.99000,0.00100,EPSG:5703\n";
+  site.mp =
+      "well,valid_from,point,height,datum,sigma,moves_with\n"
+      "W1,2024-01-01,PW1,,,,\n"
+      "W2,2024-01-01,,8.000,site-1998,0.002,PW1\n";
   site.levels = "well,time,depth\nW1,2024-07-02,2.000\nW1,2025-07-02,2.000\nW2,2025-01-01,3.000\n";
   const Table t = site.run();
   CHECK_THAT(head(t, 0), WithinAbs(7.995, 5e-4));
@@ -280,10 +296,12 @@ TEST_CASE("measuring points on monitored points follow the levelling epochs", "[
   CHECK_THAT(flags(t, 1), Contains("mp-motion-extrapolated"));
   CHECK_THAT(flags(t, 0), !Contains("mp-motion-extrapolated"));
   CHECK_THAT(head(t, 2), WithinAbs(8.000 + 95.25 - 0.010 - 3.0, 5e-4));
-  CHECK_THAT(std::string(t.cell(2, *t.find_column("mp_source"))), Contains("moving with monitored:PW1"));
+  CHECK_THAT(std::string(t.cell(2, *t.find_column("mp_source"))),
+             Contains("moving with monitored:PW1"));
 
   SECTION("a moves_with point that is not monitored is named") {
-    site.mp = "well,valid_from,height,datum,sigma,moves_with\nW1,2024-01-01,10.0,EPSG:5703,0.002,PX\n";
+    site.mp =
+        "well,valid_from,height,datum,sigma,moves_with\nW1,2024-01-01,10.0,EPSG:5703,0.002,PX\n";
     site.levels = "well,time,depth\nW1,2024-07-02,2.000\n";
     CHECK_THROWS_WITH(site.run(), Contains("PX") && Contains("moves_with"));
   }

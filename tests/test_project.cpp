@@ -1,12 +1,12 @@
 // `levelhead run` and `levelhead demo`: the project file, the chain, the
 // report and the audit record.
 
-#include <catch2/catch.hpp>
 #include <fmt/format.h>
-#include <nlohmann/json.hpp>
 
+#include <catch2/catch.hpp>
 #include <filesystem>
 #include <fstream>
+#include <nlohmann/json.hpp>
 #include <regex>
 #include <sstream>
 
@@ -60,26 +60,28 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   const Run run = cli({"demo", "--out", tmp.path().string()});
   INFO(run.err);
   REQUIRE(run.code == 0);
-  for (const char* stage : {"reduce", "loops", "adjust", "gnss-check", "epochs", "transducer", "heads"}) {
+  for (const char* stage :
+       {"reduce", "loops", "adjust", "gnss-check", "epochs", "transducer", "heads"}) {
     CHECK(fs::exists(tmp.path() / stage / "summary.json"));
   }
   CHECK(fs::exists(tmp.path() / "flow" / "flow.json"));
   const std::string html = read(tmp.path() / "report.html");
-  for (const char* section : {"Findings", "Levelling network", "Loop misclosures", "Adjustment",
-                              "GNSS heights against the levelling", "Monitoring epochs", "Pressure transducers",
-                              "Measuring points", "Heads", "QA flags and re-measure list", "What went in",
-                              "Cautions"}) {
+  for (const char* section :
+       {"Findings", "Levelling network", "Loop misclosures", "Adjustment",
+        "GNSS heights against the levelling", "Monitoring epochs", "Pressure transducers",
+        "Measuring points", "Heads", "QA flags and re-measure list", "What went in", "Cautions"}) {
     CHECK_THAT(html, Contains(std::string(">") + section + "</h"));
   }
-  for (const char* figure : {"fig-network", "fig-loops", "fig-displacements", "fig-heads", "fig-hydrographs"}) {
+  for (const char* figure :
+       {"fig-network", "fig-loops", "fig-displacements", "fig-heads", "fig-hydrographs"}) {
     CHECK_THAT(html, Contains(figure));
   }
   // Self-contained: no resource is fetched (the SVG namespace is a name, not a request).
   for (const char* request : {"src=", "href=", "url(", "@import", "<link", "<script"}) {
     CHECK_THAT(html, !Contains(request));
   }
-  CHECK_THAT(html, Contains("SBM-B -&gt; MW-04"));   // the planted blunder is a finding
-  CHECK_THAT(html, Contains("95.250 m too low"));     // and the datum mix-ups it avoided
+  CHECK_THAT(html, Contains("SBM-B -&gt; MW-04"));  // the planted blunder is a finding
+  CHECK_THAT(html, Contains("95.250 m too low"));   // and the datum mix-ups it avoided
   CHECK_THAT(html, Contains("'gnss-2024'"));
   CHECK_THAT(html, Contains("Reference mark SBM-B is moving"));  // the sinking benchmark
   CHECK_THAT(html, Contains("transducer-drift-rejected"));       // the knocked logger
@@ -92,8 +94,8 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   // Ten inputs: the nine tables and the references file.
   CHECK(record["inputs"].size() == 10);
   CHECK_THAT(record["proj_version"].get<std::string>(), Contains("PROJ"));
-  CHECK(record["stages"] == nlohmann::json({"reduce", "loops", "adjust", "gnss-check", "epochs", "transducer",
-                                           "heads", "flow"}));
+  CHECK(record["stages"] == nlohmann::json({"reduce", "loops", "adjust", "gnss-check", "epochs",
+                                            "transducer", "heads", "flow"}));
 }
 
 TEST_CASE("two runs of the demo agree apart from the report's run-time line", "[project][demo]") {
@@ -120,7 +122,8 @@ TEST_CASE("two runs of the demo agree apart from the report's run-time line", "[
   CHECK(compared > 20);
 }
 
-TEST_CASE("project files: unknown keys suggest the nearest, bad values name the section", "[project]") {
+TEST_CASE("project files: unknown keys suggest the nearest, bad values name the section",
+          "[project]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());
   const fs::path out = tmp.path() / "out";
@@ -157,7 +160,8 @@ TEST_CASE("project files: unknown keys suggest the nearest, bad values name the 
 TEST_CASE("a failing stage stops the chain and keeps the finished stages", "[project]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());
-  std::ofstream(project.parent_path() / "levels.csv", std::ios::app) << "MW-01,2026-10-12T09:00,deep,\n";
+  std::ofstream(project.parent_path() / "levels.csv", std::ios::app)
+      << "MW-01,2026-10-12T09:00,deep,\n";
   const fs::path out = tmp.path() / "out";
   const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
   CHECK(run.code == 1);
@@ -190,7 +194,8 @@ TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
     REQUIRE(at != std::string::npos);
     const auto end = text.find(',', at + old_row.size());
     const double height = std::stod(text.substr(at + old_row.size(), end - at - old_row.size()));
-    text.replace(at + old_row.size(), end - at - old_row.size(), fmt::format("{:.4f}", height + 0.100));
+    text.replace(at + old_row.size(), end - at - old_row.size(),
+                 fmt::format("{:.4f}", height + 0.100));
     std::ofstream(mp, std::ios::binary) << text;
     REQUIRE(cli({"run", project.string(), "--out", after.string(), "--quiet"}).code == 0);
     const fs::path json = tmp.path() / "diff.json";
@@ -202,7 +207,8 @@ TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
     const auto d = nlohmann::json::parse(json_file);
     REQUIRE(d["wells"].size() == 1);
     CHECK(d["wells"][0]["well"] == "MW-03");
-    CHECK_THAT(d["wells"][0]["largest"].get<double>(), Catch::Matchers::WithinAbs(0.100, 0.0011));  // heads to 1 mm
+    CHECK_THAT(d["wells"][0]["largest"].get<double>(),
+               Catch::Matchers::WithinAbs(0.100, 0.0011));  // heads to 1 mm
     CHECK_THAT(d["wells"][0]["causes"][0].get<std::string>(), Contains("measuring-point surveys"));
     CHECK(d["heights"].empty());  // the levelling did not change
   }
@@ -219,7 +225,9 @@ TEST_CASE("project column maps reach every stage that reads the table", "[projec
   const fs::path project = demo_project(tmp.path());
   replace_in(project.parent_path() / "wells.csv", "id,x,y,", "Well,East,North,");
   replace_in(project.parent_path() / "levels.csv", "well,time,depth,", "Well,When,DTW,");
-  replace_in(project, "[report]", "[columns]\nwells = \"id=Well,x=East,y=North\"\nlevels = \"well=Well,time=When,depth=DTW\"\n\n[report]");
+  replace_in(project, "[report]",
+             "[columns]\nwells = \"id=Well,x=East,y=North\"\nlevels = "
+             "\"well=Well,time=When,depth=DTW\"\n\n[report]");
   const fs::path out = tmp.path() / "out";
   const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
   INFO(run.err);

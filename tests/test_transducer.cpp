@@ -1,12 +1,12 @@
 // Pressure transducers: compensation, checks, drift, rejections, clocks,
 // barometric efficiency. Invented wells and records.
 
-#include <catch2/catch.hpp>
 #include <fmt/format.h>
-#include <nlohmann/json.hpp>
 
+#include <catch2/catch.hpp>
 #include <cmath>
 #include <fstream>
+#include <nlohmann/json.hpp>
 #include <sstream>
 
 #include "cli/app.hpp"
@@ -37,16 +37,20 @@ struct Bench {
     write("sensors.csv", sensors);
     write("records.csv", records);
     write("levels.csv", levels);
-    return reduce_transducers(read_wells(read_table(tmp.path() / "wells.csv")), read_table(tmp.path() / "sensors.csv"),
-                              read_table(tmp.path() / "records.csv"), read_table(tmp.path() / "levels.csv"), options,
-                              tmp.path() / "out");
+    return reduce_transducers(read_wells(read_table(tmp.path() / "wells.csv")),
+                              read_table(tmp.path() / "sensors.csv"),
+                              read_table(tmp.path() / "records.csv"),
+                              read_table(tmp.path() / "levels.csv"), options, tmp.path() / "out");
   }
-  void write(const char* name, const std::string& text) { std::ofstream(tmp.path() / name) << text; }
+  void write(const char* name, const std::string& text) {
+    std::ofstream(tmp.path() / name) << text;
+  }
   Table output(const char* name) { return read_table(tmp.path() / "out" / name); }
   // Hourly records of one sensor over `hours`, pressure from `p(hour)`.
   template <class F>
   void hourly(const std::string& sensor, int hours, F p) {
-    for (int h = 0; h < hours; ++h) records += fmt::format("{},{},{:.6f}\n", sensor, format_utc(1.7e9 + h * 3600.0), p(h));
+    for (int h = 0; h < hours; ++h)
+      records += fmt::format("{},{},{:.6f}\n", sensor, format_utc(1.7e9 + h * 3600.0), p(h));
   }
   std::string at(double hour) { return format_utc(1.7e9 + hour * 3600.0); }
 };
@@ -60,14 +64,16 @@ double depth_at(const Table& t, const std::string& time) {
 }
 std::string flags_at(const Table& t, const std::string& time) {
   for (std::size_t r = 0; r < t.row_count(); ++r) {
-    if (t.cell(r, *t.find_column("time")) == time) return std::string(t.cell(r, *t.find_column("flags")));
+    if (t.cell(r, *t.find_column("time")) == time)
+      return std::string(t.cell(r, *t.find_column("flags")));
   }
   return "?";
 }
 
 }  // namespace
 
-TEST_CASE("a vented sensor: depth from hung depth and pressure, drift corrected between checks", "[transducer]") {
+TEST_CASE("a vented sensor: depth from hung depth and pressure, drift corrected between checks",
+          "[transducer]") {
   // Sensor hung 20 m below the measuring point under a steady 8 m of water:
   // depth 12 m. The tape says 12.000 at hour 0 and 12.010 at hour 100 (the
   // sensor drifted 10 mm): the offset runs linearly from 0 to +0.010.
@@ -80,7 +86,8 @@ TEST_CASE("a vented sensor: depth from hung depth and pressure, drift corrected 
   CHECK(s.sensors[0].checks == 2);
   CHECK_THAT(s.sensors[0].largest_drift, WithinAbs(0.010, 1e-9));
   const Table levels = b.output("levels.csv");
-  CHECK(levels.row_count() == 2 + 99);  // the two manual readings, the samples at their times left out
+  CHECK(levels.row_count() ==
+        2 + 99);  // the two manual readings, the samples at their times left out
   CHECK_THAT(depth_at(levels, b.at(50)), WithinAbs(12.005, 1e-6));
   CHECK_THAT(depth_at(levels, b.at(25)), WithinAbs(12.0025, 1e-6));
   CHECK(flags_at(levels, b.at(50)).empty());
@@ -93,7 +100,8 @@ TEST_CASE("drift beyond the limit is flagged and left uncorrected", "[transducer
   b.levels += "W1," + b.at(0) + ",12.000\nW1," + b.at(100) + ",12.050\n";  // 50 mm > 30 mm
   b.run();
   const Table levels = b.output("levels.csv");
-  CHECK_THAT(depth_at(levels, b.at(50)), WithinAbs(12.000, 1e-6));  // the earlier offset, not a guess
+  CHECK_THAT(depth_at(levels, b.at(50)),
+             WithinAbs(12.000, 1e-6));  // the earlier offset, not a guess
   CHECK_THAT(flags_at(levels, b.at(50)), Contains("transducer-drift-rejected"));
   const Table checks = b.output("checks.csv");
   CHECK(checks.cell(0, *checks.find_column("rejected_until_next")) == "yes");
@@ -103,8 +111,9 @@ TEST_CASE("an absolute sensor is compensated by its barometer; a gap is a flag",
   // Air 101.3 kPa, rising 0.1 kPa an hour; the absolute sensor reads air +
   // 8 m of water. The barometer misses hours 40-49 (a gap of 11 h).
   Bench b;
-  b.sensors = "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,absolute,W1,20.0,B1,,,\n"
-              "B1,barometer,,,,500500,4400500,110.0\n";
+  b.sensors =
+      "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,absolute,W1,20.0,B1,,,\n"
+      "B1,barometer,,,,500500,4400500,110.0\n";
   b.hourly("T1", 100, [](int h) { return 101.3 + 0.1 * h + kpa(8.0); });
   for (int h = 0; h < 100; ++h) {
     if (h < 40 || h >= 50) b.records += fmt::format("B1,{},{:.6f}\n", b.at(h), 101.3 + 0.1 * h);
@@ -122,13 +131,15 @@ TEST_CASE("a barometer too far or too high is refused, naming the sensor row", "
   Bench b;
   b.hourly("T1", 3, [](int) { return 110.0; });
   SECTION("distance") {
-    b.sensors = "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,absolute,W1,20.0,B1,,,\n"
-                "B1,barometer,,,,530000,4400000,100.0\n";
+    b.sensors =
+        "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,absolute,W1,20.0,B1,,,\n"
+        "B1,barometer,,,,530000,4400000,100.0\n";
     CHECK_THROWS_WITH(b.run(), Contains("sensors.csv") && Contains("row 2") && Contains("30000 m"));
   }
   SECTION("elevation") {
-    b.sensors = "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,absolute,W1,20.0,B1,,,\n"
-                "B1,barometer,,,,500100,4400000,450.0\n";
+    b.sensors =
+        "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,absolute,W1,20.0,B1,,,\n"
+        "B1,barometer,,,,500100,4400000,450.0\n";
     CHECK_THROWS_WITH(b.run(), Contains("350 m above or below"));
   }
 }
@@ -136,7 +147,8 @@ TEST_CASE("a barometer too far or too high is refused, naming the sensor row", "
 TEST_CASE("readings outside the sensor's range or out of the water are rejected", "[transducer]") {
   Bench b;
   b.sensors = "sensor,kind,well,hung_depth,range_kpa\nT1,vented,W1,20.0,100\n";
-  b.records += "T1," + b.at(0) + "," + std::to_string(kpa(8.0)) + "\nT1," + b.at(1) + ",120.0\nT1," + b.at(2) + ",-1.5\n";
+  b.records += "T1," + b.at(0) + "," + std::to_string(kpa(8.0)) + "\nT1," + b.at(1) +
+               ",120.0\nT1," + b.at(2) + ",-1.5\n";
   const TransducerSummary s = b.run();
   const Table levels = b.output("levels.csv");
   CHECK(levels.row_count() == 1);  // no depth is written for the two bad readings
@@ -182,9 +194,12 @@ TEST_CASE("barometric efficiency from paired changes", "[transducer]") {
   // Invented confined well: the depth to water follows 0.6 of the
   // barometric change (as water height) plus a slow decline.
   Bench b;
-  b.sensors = "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,vented,W1,20.0,B1,,,\n"
-              "B1,barometer,,,,500100,4400000,100.0\n";
-  const auto air = [](int h) { return 101.3 + 0.8 * std::sin(h * 0.26) + 0.3 * std::sin(h * 0.07); };
+  b.sensors =
+      "sensor,kind,well,hung_depth,barometer,x,y,elevation\nT1,vented,W1,20.0,B1,,,\n"
+      "B1,barometer,,,,500100,4400000,100.0\n";
+  const auto air = [](int h) {
+    return 101.3 + 0.8 * std::sin(h * 0.26) + 0.3 * std::sin(h * 0.07);
+  };
   b.hourly("B1", 200, air);
   b.hourly("T1", 200, [&](int h) {
     const double baro_m = (air(h) - 101.3) * 1000.0 / (1000.0 * 9.80665);
@@ -196,7 +211,8 @@ TEST_CASE("barometric efficiency from paired changes", "[transducer]") {
   CHECK(s.sensors[0].efficiency->pairs == 199);
 }
 
-TEST_CASE("transducer levels feed heads: rejected readings are not contoured", "[transducer][cli]") {
+TEST_CASE("transducer levels feed heads: rejected readings are not contoured",
+          "[transducer][cli]") {
   Bench b;
   b.sensors = "sensor,kind,well,hung_depth\nT1,vented,W1,20.0\n";
   b.hourly("T1", 101, [](int) { return kpa(8.0); });
@@ -204,11 +220,12 @@ TEST_CASE("transducer levels feed heads: rejected readings are not contoured", "
   b.run();
   b.write("mp.csv", "well,valid_from,height,datum,sigma\nW1,2020-01-01,101.000,EPSG:5703,0.003\n");
   std::ostringstream out, err;
-  const int code = levelhead::cli::run({"levelhead", "heads", "--wells", (b.tmp.path() / "wells.csv").string(), "--mp",
-                                        (b.tmp.path() / "mp.csv").string(), "--levels",
-                                        (b.tmp.path() / "out" / "levels.csv").string(), "--to", "EPSG:5703", "--crs",
-                                        "EPSG:32613", "--out", (b.tmp.path() / "heads").string(), "--no-gpkg"},
-                                       out, err);
+  const int code = levelhead::cli::run(
+      {"levelhead", "heads", "--wells", (b.tmp.path() / "wells.csv").string(), "--mp",
+       (b.tmp.path() / "mp.csv").string(), "--levels",
+       (b.tmp.path() / "out" / "levels.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613",
+       "--out", (b.tmp.path() / "heads").string(), "--no-gpkg"},
+      out, err);
   INFO(err.str());
   REQUIRE(code == 0);
   const Table heads = read_table(b.tmp.path() / "heads" / "heads.csv");

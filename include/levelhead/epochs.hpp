@@ -66,13 +66,17 @@ struct EpochSections {
 
 struct EpochQuality {
   std::string name;
-  double time = 0.0;             // mid-time of its sections (s, UTC)
+  double time = 0.0;  // mid-time of its sections (s, UTC)
   std::string first_date, last_date;
   std::size_t points = 0, sections = 0, dof = 0;
   double vtpv = 0.0;
   std::optional<double> sigma0;
   std::optional<GlobalTest> global_test;
-  struct Flagged { std::string from, to; double w = 0.0; std::size_t row = 0; };
+  struct Flagged {
+    std::string from, to;
+    double w = 0.0;
+    std::size_t row = 0;
+  };
   std::vector<Flagged> suspects;  // observation suspects, worst first
   std::vector<Flagged> removed;   // removed by data snooping (with remove_suspects)
 };
@@ -81,9 +85,9 @@ struct CongruenceTest {
   std::vector<std::string> marks;  // the marks tested together
   double omega = 0.0;              // m^2 in weight units
   std::size_t h = 0;
-  double statistic = 0.0;          // T (F) or Omega (chi-square)
+  double statistic = 0.0;  // T (F) or Omega (chi-square)
   double critical = 0.0;
-  std::string distribution;        // e.g. "F(3, 12)" or "chi2(3)"
+  std::string distribution;  // e.g. "F(3, 12)" or "chi2(3)"
   bool passed = true;
 };
 
@@ -104,35 +108,35 @@ struct EpochHeight {
 struct Displacement {
   std::string point;
   std::size_t from_epoch = 0, to_epoch = 0;
-  bool against_first = false;        // false: against the previous epoch
+  bool against_first = false;  // false: against the previous epoch
   double years = 0.0;
-  double value = 0.0, sigma = 0.0;   // m
+  double value = 0.0, sigma = 0.0;  // m
   double ci_low = 0.0, ci_high = 0.0;
-  double statistic = 0.0;            // |d| / sigma
+  double statistic = 0.0;  // |d| / sigma
   bool significant = false;
-  double mdd = 0.0;                  // m, minimal detectable displacement
-  bool datum_mark = false;           // a stable mark: zero by definition
+  double mdd = 0.0;         // m, minimal detectable displacement
+  bool datum_mark = false;  // a stable mark: zero by definition
 };
 
 struct Rate {
   std::string point;
   std::size_t epochs = 0;
-  double rate = 0.0, sigma = 0.0;    // m per year
+  double rate = 0.0, sigma = 0.0;  // m per year
   bool significant = false;
 };
 
 struct EpochAnalysis {
   std::vector<EpochQuality> epochs;  // in time order
   std::vector<std::string> candidates;
-  std::vector<CongruenceTest> tests; // first: all candidates; then after each removal
+  std::vector<CongruenceTest> tests;  // first: all candidates; then after each removal
   std::vector<MarkVerdict> marks;
-  std::string held_mark;             // the mark held in the final adjustment
-  std::string reference;             // the reference of the heights
-  double s0 = 1.0;                   // variance factor used (sqrt)
+  std::string held_mark;  // the mark held in the final adjustment
+  std::string reference;  // the reference of the heights
+  double s0 = 1.0;        // variance factor used (sqrt)
   std::size_t pooled_dof = 0;
-  double test_critical = 0.0;        // critical value of |d| / sigma
-  std::string test_distribution;     // "t(12)" or "normal"
-  std::vector<std::string> points;   // every point observed in some epoch
+  double test_critical = 0.0;                     // critical value of |d| / sigma
+  std::string test_distribution;                  // "t(12)" or "normal"
+  std::vector<std::string> points;                // every point observed in some epoch
   std::vector<std::vector<EpochHeight>> heights;  // per point, in epoch order
   std::vector<Displacement> displacements;
   std::vector<Rate> rates;

@@ -49,8 +49,9 @@ struct HeadOptions {
   double synoptic_window_hours = 48.0;  // the event's window (centred on it)
   double max_depth = 1000.0;            // m; deeper readings are errors (a unit mix-up)
   std::optional<double> map_contour_interval;  // m, for measuring points read from a map
-  double history_tolerance = 0.30;      // m, smallest departure from a well's own trend flagged
-  std::optional<double> environmental_reference;  // m, z_r of environmental-water heads (target reference)
+  double history_tolerance = 0.30;  // m, smallest departure from a well's own trend flagged
+  std::optional<double>
+      environmental_reference;  // m, z_r of environmental-water heads (target reference)
   void validate() const;
 };
 
@@ -58,7 +59,8 @@ struct HeadOptions {
 // records that give none (common practice, from memory): levelled 0.005 m,
 // gnss 0.03 m, hand-level 0.02 m, altimeter 1.0 m, map half the contour
 // interval. nullopt for an unknown method (the head is then flagged).
-std::optional<double> method_sigma(const std::string& method, std::optional<double> contour_interval);
+std::optional<double> method_sigma(const std::string& method,
+                                   std::optional<double> contour_interval);
 
 struct NetworkHeight {
   double height = 0.0;
@@ -80,7 +82,7 @@ NetworkHeights read_network_heights(const Table& table);
 // nearest two epochs are extrapolated and the head is flagged
 // mp-motion-extrapolated.
 struct MonitoredEpoch {
-  double time = 0.0;   // s, UTC
+  double time = 0.0;                 // s, UTC
   double height = 0.0, sigma = 0.0;  // m
 };
 struct MonitoredSeries {
@@ -106,10 +108,10 @@ struct MeasuringPointElevation {
   double height = 0.0;  // m, target reference
   double sigma = 0.0;   // m
   bool sigma_known = true;
-  std::string source;   // "network:ID", "monitored:ID" or the record's datum
+  std::string source;                       // "network:ID", "monitored:ID" or the record's datum
   const MonitoredSeries* motion = nullptr;  // the monitored point it moves with
-  bool follows_point = false;  // the record is the monitored point itself
-  MonitoredValue motion_base;  // the monitored point at valid_from
+  bool follows_point = false;               // the record is the monitored point itself
+  MonitoredValue motion_base;               // the monitored point at valid_from
   std::string transform;
   std::vector<std::string> flags;
 };
@@ -122,8 +124,8 @@ struct QaEntry {
 
 struct HeadsSummary {
   std::size_t readings = 0, heads = 0, states = 0, contourable = 0;
-  std::size_t remeasure = 0;  // wells on the re-measure list (with an event)
-  std::map<std::string, std::size_t> flags;   // flag -> count
+  std::size_t remeasure = 0;                 // wells on the re-measure list (with an event)
+  std::map<std::string, std::size_t> flags;  // flag -> count
   std::map<std::string, std::size_t> states_by_kind;
 };
 
@@ -135,9 +137,9 @@ class HeadWriter;  // defined in heads.cpp
 // (vertical differences in piezometer nests) and remeasure.csv.
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
                            const NetworkHeights& network, const MonitoredHeights& monitored,
-                           const ReferenceSet& references,
-                           const ProjSettings& settings, const HeadOptions& options,
-                           const std::filesystem::path& levels, const TableOptions& levels_table,
-                           const std::filesystem::path& folder, bool geopackage);
+                           const ReferenceSet& references, const ProjSettings& settings,
+                           const HeadOptions& options, const std::filesystem::path& levels,
+                           const TableOptions& levels_table, const std::filesystem::path& folder,
+                           bool geopackage);
 
 }  // namespace levelhead

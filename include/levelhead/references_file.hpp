@@ -46,9 +46,9 @@
 // A grid reference holds, at each node, the height of this reference's
 // surface above the base's: H_base = H + m G(lon, lat) with m the multiplier
 // (for a geoid over an ellipsoid, h = H + N; ellipsoidal heights over
-// orthometric ones take the geoid grid with m = -1: H = h - N). Bilinear between nodes at pixel centres (PROJ).
-// Errors: InputError naming the file, line and key; unknown keys are errors
-// with the nearest valid key suggested.
+// orthometric ones take the geoid grid with m = -1: H = h - N). Bilinear between nodes at pixel
+// centres (PROJ). Errors: InputError naming the file, line and key; unknown keys are errors with
+// the nearest valid key suggested.
 
 #include <array>
 #include <filesystem>
@@ -64,10 +64,10 @@ namespace levelhead {
 struct OffsetRelation {
   double offset = 0.0, slope_x = 0.0, slope_y = 0.0;  // m, m/m, m/m
   double x0 = 0.0, y0 = 0.0;
-  std::string crs;                                   // of x0, y0; empty: the points' CRS
-  std::optional<double> sigma;                       // m
+  std::string crs;              // of x0, y0; empty: the points' CRS
+  std::optional<double> sigma;  // m
   std::optional<std::array<std::array<double, 3>, 3>> covariance;  // (offset, slope_x, slope_y)
-  std::vector<std::array<double, 2>> hull;           // tie outline (extrapolation check)
+  std::vector<std::array<double, 2>> hull;  // tie outline (extrapolation check)
 
   // H_base - H at (x, y), and its variance (nullopt when neither sigma nor covariance is known).
   double shift(double x, double y) const;
@@ -78,10 +78,10 @@ struct OffsetRelation {
 struct ReferenceDefinition {
   std::string name;
   enum class Kind { crs, offset, grid, vertoffset } kind = Kind::crs;
-  std::string definition;  // kind crs: the PROJ CRS
-  std::string base;        // kinds offset and grid
-  std::filesystem::path grid;  // kind grid: absolute path of the grid file
-  double grid_multiplier = 1.0;  // kind grid: the grid's values are scaled by this (e.g. -1)
+  std::string definition;            // kind crs: the PROJ CRS
+  std::string base;                  // kinds offset and grid
+  std::filesystem::path grid;        // kind grid: absolute path of the grid file
+  double grid_multiplier = 1.0;      // kind grid: the grid's values are scaled by this (e.g. -1)
   VerticalOffsetSlope offset_slope;  // kind vertoffset (EPSG 1046)
   OffsetRelation relation;
   std::string source;

@@ -22,14 +22,14 @@
 namespace levelhead {
 
 struct ReportInput {
-  std::string role;     // points, levels, ...
-  std::string path;     // as written in the project
+  std::string role;  // points, levels, ...
+  std::string path;  // as written in the project
   std::filesystem::path resolved;
   std::string columns;  // its column map, as in the project ("height=Elev,...")
 };
 
 struct ReportSetting {
-  std::string name;     // "adjustment.alpha"
+  std::string name;  // "adjustment.alpha"
   std::string value, default_value;
   bool chain_default = false;
 };
@@ -38,11 +38,11 @@ struct ReportContext {
   std::string title, site, prepared_for, prepared_by;
   std::string crs, target;
   std::vector<ReportInput> inputs;
-  std::vector<ReportSetting> settings;  // differing from the commands' defaults
-  std::vector<std::string> stages;      // that ran, in order
+  std::vector<ReportSetting> settings;       // differing from the commands' defaults
+  std::vector<std::string> stages;           // that ran, in order
   std::vector<std::filesystem::path> grids;  // grid files named by the references
-  std::optional<double> contour_interval;  // m; default: about eight levels over the heads
-  std::string run_time;                 // the one line that changes run to run
+  std::optional<double> contour_interval;    // m; default: about eight levels over the heads
+  std::string run_time;                      // the one line that changes run to run
 };
 
 // SHA-256 of the configuration: the settings and the inputs' checksums, in

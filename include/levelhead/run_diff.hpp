@@ -18,13 +18,13 @@
 namespace levelhead {
 
 struct ConfigurationChange {
-  std::string kind;   // input, setting, grid, software
-  std::string name;   // role, setting name, grid file, program
+  std::string kind;           // input, setting, grid, software
+  std::string name;           // role, setting name, grid file, program
   std::string before, after;  // checksum or value; empty when absent
 };
 
 struct ValueChange {
-  std::string key;     // point id, or well and time
+  std::string key;                   // point id, or well and time
   double before = 0.0, after = 0.0;  // m
 };
 
@@ -37,9 +37,9 @@ struct WellHeadChanges {
 
 struct RunDifference {
   std::vector<ConfigurationChange> configuration;
-  std::vector<ValueChange> heights;            // adjust/heights.csv
-  std::vector<ValueChange> measuring_points;   // heads/measuring_points.csv (well valid_from)
-  std::vector<WellHeadChanges> wells;          // heads/heads.csv, wells with a change
+  std::vector<ValueChange> heights;           // adjust/heights.csv
+  std::vector<ValueChange> measuring_points;  // heads/measuring_points.csv (well valid_from)
+  std::vector<WellHeadChanges> wells;         // heads/heads.csv, wells with a change
   std::size_t heads_compared = 0;
   bool identical() const {
     return configuration.empty() && heights.empty() && measuring_points.empty() && wells.empty();

@@ -56,16 +56,17 @@
 namespace levelhead {
 
 struct TransducerOptions {
-  double density = 1000.0;        // kg/m^3, for wells that give none
-  double gravity = 9.80665;       // m/s^2, standard gravity (3rd CGPM, 1901)
-  double max_baro_distance = 15000.0;           // m between a well and its barometer
+  double density = 1000.0;                       // kg/m^3, for wells that give none
+  double gravity = 9.80665;                      // m/s^2, standard gravity (3rd CGPM, 1901)
+  double max_baro_distance = 15000.0;            // m between a well and its barometer
   double max_baro_elevation_difference = 100.0;  // m
-  double max_baro_gap_hours = 2.0;   // longest gap between barometer samples bridged
-  double max_check_gap_hours = 1.0;  // a manual check needs a record sample this close
-  double drift_limit = 0.03;         // m, largest change of offset between two checks
-  double sensor_sigma = 0.01;        // m, for sensors that give none
+  double max_baro_gap_hours = 2.0;               // longest gap between barometer samples bridged
+  double max_check_gap_hours = 1.0;              // a manual check needs a record sample this close
+  double drift_limit = 0.03;                     // m, largest change of offset between two checks
+  double sensor_sigma = 0.01;                    // m, for sensors that give none
   double manual_window_hours = 0.25;  // record samples this close to a manual reading are left out
-  std::size_t min_efficiency_pairs = 48;  // paired changes needed to estimate a barometric efficiency
+  std::size_t min_efficiency_pairs =
+      48;  // paired changes needed to estimate a barometric efficiency
   void validate() const;
 };
 
@@ -92,10 +93,10 @@ struct SensorSummary {
   std::size_t records = 0, written = 0, near_manual = 0;
   std::map<std::string, std::size_t> flags;  // flag -> readings
   double density = 0.0, gravity = 0.0;
-  std::optional<double> hung_depth;          // m, as given or calibrated
-  bool calibrated = false;                   // hung depth from the first check
+  std::optional<double> hung_depth;  // m, as given or calibrated
+  bool calibrated = false;           // hung depth from the first check
   std::size_t checks = 0;
-  double largest_drift = 0.0;                // m between two checks
+  double largest_drift = 0.0;  // m between two checks
   std::optional<BarometricEfficiency> efficiency;
 };
 
@@ -104,8 +105,9 @@ struct TransducerSummary {
   std::size_t manual = 0, written = 0;
 };
 
-TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors, const Table& records,
-                                     const Table& manual_levels, const TransducerOptions& options,
+TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors,
+                                     const Table& records, const Table& manual_levels,
+                                     const TransducerOptions& options,
                                      const std::filesystem::path& folder);
 
 }  // namespace levelhead

@@ -32,17 +32,17 @@ struct ProjSettings {
 };
 
 struct GridUse {
-  std::string name;       // as PROJ names it
-  std::string path;       // where it was found; empty if missing
-  std::string sha256;     // of the file, when found
+  std::string name;    // as PROJ names it
+  std::string path;    // where it was found; empty if missing
+  std::string sha256;  // of the file, when found
 };
 
 struct OperationRecord {
   std::string name;
-  std::string pipeline;               // PROJ string
-  std::optional<double> accuracy;     // m, when PROJ knows it
+  std::string pipeline;            // PROJ string
+  std::optional<double> accuracy;  // m, when PROJ knows it
   std::vector<GridUse> grids;
-  std::size_t points = 0;             // points converted with it
+  std::size_t points = 0;  // points converted with it
 };
 
 struct ReferenceInfo {
@@ -58,9 +58,9 @@ struct PlanePoint {
 };
 
 struct PointConversion {
-  std::optional<double> height;         // m, in the target reference
+  std::optional<double> height;          // m, in the target reference
   std::optional<std::size_t> operation;  // index into operations()
-  std::string failure;                  // why not, when height is empty
+  std::string failure;                   // why not, when height is empty
 };
 
 class VerticalTransformer {
@@ -97,10 +97,10 @@ class VerticalTransformer {
 // with rho0, nu0 the meridian and prime-vertical radii at lat0 and slopes in
 // arc seconds (converted to radians).
 struct VerticalOffsetSlope {
-  double offset = 0.0;                           // m
-  double slope_lat = 0.0, slope_lon = 0.0;       // arc seconds
-  double lat0 = 0.0, lon0 = 0.0;                 // degrees
-  std::string ellipsoid = "GRS80";               // a PROJ ellipsoid name
+  double offset = 0.0;                      // m
+  double slope_lat = 0.0, slope_lon = 0.0;  // arc seconds
+  double lat0 = 0.0, lon0 = 0.0;            // degrees
+  std::string ellipsoid = "GRS80";          // a PROJ ellipsoid name
 };
 
 // A height surface over longitude and latitude evaluated at points: a grid

@@ -30,12 +30,13 @@ namespace levelhead {
 struct Well {
   std::string id;
   double x = 0.0, y = 0.0;
-  std::optional<double> ground;                     // m
+  std::optional<double> ground;  // m
   std::string ground_datum;
   std::optional<double> screen_top, screen_bottom;  // m below ground
   std::string nest, aquifer;
-  std::optional<double> density;                    // kg/m^3 of the water in the well
-  std::optional<double> column_density;  // kg/m^3, mean between the environmental reference and the screen
+  std::optional<double> density;  // kg/m^3 of the water in the well
+  std::optional<double>
+      column_density;  // kg/m^3, mean between the environmental reference and the screen
   std::size_t row = 0;
 };
 
@@ -45,10 +46,10 @@ struct MeasuringPointRecord {
   std::string valid_from_text;
   std::optional<double> height;  // m, in `datum`
   std::string datum;
-  std::optional<double> sigma;   // m
-  std::string point;             // network point id
+  std::optional<double> sigma;  // m
+  std::string point;            // network point id
   std::string source, method, reason;
-  std::string moves_with;        // monitored point id, or empty
+  std::string moves_with;  // monitored point id, or empty
   std::size_t row = 0;
 
   // A casing cut, repair or replacement breaks the series: never interpolate across it.

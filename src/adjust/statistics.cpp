@@ -1,10 +1,11 @@
 #include "levelhead/statistics.hpp"
 
+#include <fmt/format.h>
+
 #include <boost/math/distributions/chi_squared.hpp>
 #include <boost/math/distributions/fisher_f.hpp>
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/students_t.hpp>
-#include <fmt/format.h>
 
 #include "levelhead/errors.hpp"
 

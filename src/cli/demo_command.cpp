@@ -3,6 +3,7 @@
 // `levelhead run DIR/inputs/project.toml --out DIR` would.
 
 #include <fmt/format.h>
+
 #include <memory>
 
 #include "cli/app.hpp"
@@ -28,7 +29,8 @@ CommandRunner add_demo_command(CLI::App& app) {
       files.commit();
     }
     out << fmt::format("Demo inputs written to {}\n", inputs.string());
-    return run({"levelhead", "run", (inputs / "project.toml").string(), "--out", folder.string()}, out, err);
+    return run({"levelhead", "run", (inputs / "project.toml").string(), "--out", folder.string()},
+               out, err);
   };
 }
 

@@ -25,17 +25,24 @@ nlohmann::json as_json(const RunDifference& d) {
   out["identical"] = d.identical();
   out["configuration"] = nlohmann::json::array();
   for (const ConfigurationChange& c : d.configuration) {
-    out["configuration"].push_back({{"kind", c.kind}, {"name", c.name}, {"before", c.before}, {"after", c.after}});
+    out["configuration"].push_back(
+        {{"kind", c.kind}, {"name", c.name}, {"before", c.before}, {"after", c.after}});
   }
-  for (const auto& [name, list] : {std::pair{"heights", &d.heights}, std::pair{"measuring_points", &d.measuring_points}}) {
+  for (const auto& [name, list] :
+       {std::pair{"heights", &d.heights}, std::pair{"measuring_points", &d.measuring_points}}) {
     out[name] = nlohmann::json::array();
-    for (const ValueChange& v : *list) out[name].push_back({{"key", v.key}, {"before", v.before}, {"after", v.after}});
+    for (const ValueChange& v : *list)
+      out[name].push_back({{"key", v.key}, {"before", v.before}, {"after", v.after}});
   }
   out["heads_compared"] = d.heads_compared;
   out["wells"] = nlohmann::json::array();
   for (const WellHeadChanges& w : d.wells) {
-    out["wells"].push_back({{"well", w.well}, {"moved", w.moved}, {"added", w.added}, {"dropped", w.dropped},
-                            {"largest", w.largest}, {"causes", w.causes}});
+    out["wells"].push_back({{"well", w.well},
+                            {"moved", w.moved},
+                            {"added", w.added},
+                            {"dropped", w.dropped},
+                            {"largest", w.largest},
+                            {"causes", w.causes}});
   }
   return out;
 }

@@ -29,7 +29,8 @@ struct EpochArguments {
 std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit) {
   std::vector<EpochSections> epochs;
   for (const std::string& file : a.sections) {
-    const Table table = read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}});
+    const Table table =
+        read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}});
     SectionTable sections = read_sections(table);
     std::vector<std::string> names;
     if (const auto column = table.find_column("epoch")) {
@@ -39,7 +40,8 @@ std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit)
     } else {
       names.assign(sections.sections.size(), std::filesystem::path(file).stem().string());
     }
-    for (EpochSections& e : split_by_epoch(std::move(sections), names)) epochs.push_back(std::move(e));
+    for (EpochSections& e : split_by_epoch(std::move(sections), names))
+      epochs.push_back(std::move(e));
   }
   return epochs;
 }
@@ -56,9 +58,10 @@ std::vector<std::string> candidate_marks(const EpochArguments& a, const PointTab
     if (kind == "benchmark" || kind == "reference") marks.push_back(p.id);
   }
   if (marks.empty()) {
-    throw OptionError(fmt::format("no candidate reference marks: name them with --marks A,B,C, or "
-                                  "give them kind 'benchmark' in {}",
-                                  a.points));
+    throw OptionError(
+        fmt::format("no candidate reference marks: name them with --marks A,B,C, or "
+                    "give them kind 'benchmark' in {}",
+                    a.points));
   }
   return marks;
 }
@@ -81,9 +84,10 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
   write_epoch_outputs(analysis, options, EpochInputs{a.points, a.sections}, a.out);
   if (!a.quiet) {
     out << epoch_summary_text(analysis);
-    out << fmt::format("Wrote epochs.csv, reference_stability.csv, displacements.csv, rates.csv, "
-                       "heights_by_epoch.csv and summary.json in {}\n",
-                       a.out);
+    out << fmt::format(
+        "Wrote epochs.csv, reference_stability.csv, displacements.csv, rates.csv, "
+        "heights_by_epoch.csv and summary.json in {}\n",
+        a.out);
   }
   return a.strict && epochs_have_failed_checks(analysis) ? exit_checks_failed : exit_ok;
 }
@@ -93,42 +97,52 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
 CommandRunner add_epochs_command(CLI::App& app) {
   auto a = std::make_shared<EpochArguments>();
   CLI::App* command = app.add_subcommand(
-      "epochs", "Repeated levelling epochs: stability of the reference marks, displacements, rates");
+      "epochs",
+      "Repeated levelling epochs: stability of the reference marks, displacements, rates");
   command->add_option("--points", a->points, "Points table (id, height, datum, kind)")->required();
-  command->add_option("--sections", a->sections,
-                      "Sections table(s): an epoch column, or one table per epoch (named by file)")
+  command
+      ->add_option("--sections", a->sections,
+                   "Sections table(s): an epoch column, or one table per epoch (named by file)")
       ->required();
   command->add_option("--out", a->out, "Output folder")->required();
-  command->add_option("--marks", a->marks,
-                      "Candidate reference marks, e.g. BM1,BM2,BM3 (default: points of kind "
-                      "benchmark)")
+  command
+      ->add_option("--marks", a->marks,
+                   "Candidate reference marks, e.g. BM1,BM2,BM3 (default: points of kind "
+                   "benchmark)")
       ->delimiter(',');
-  command->add_option("--alpha", a->options.alpha,
-                      "Significance level of the congruence and displacement tests")
+  command
+      ->add_option("--alpha", a->options.alpha,
+                   "Significance level of the congruence and displacement tests")
       ->capture_default_str();
   command->add_option("--power", a->options.beta, "Power for the minimal detectable displacement")
       ->capture_default_str();
-  command->add_option("--variance", a->variance,
-                      "Variance factor: pooled (from the epochs' residuals) or apriori")
+  command
+      ->add_option("--variance", a->variance,
+                   "Variance factor: pooled (from the epochs' residuals) or apriori")
       ->capture_default_str();
   command->add_flag("--snoop", a->options.remove_suspects,
                     "Iterative data snooping in each epoch before movement is judged");
-  command->add_option("--mm-per-sqrt-km", a->options.adjustment.mm_per_sqrt_km,
-                      "Sigma of a section without a sigma, per square root of km (mm)")
+  command
+      ->add_option("--mm-per-sqrt-km", a->options.adjustment.mm_per_sqrt_km,
+                   "Sigma of a section without a sigma, per square root of km (mm)")
       ->capture_default_str();
-  command->add_option("--mm-per-setup", a->options.adjustment.mm_per_setup,
-                      "Sigma per setup for sections with neither sigma nor length (mm)")
+  command
+      ->add_option("--mm-per-setup", a->options.adjustment.mm_per_setup,
+                   "Sigma per setup for sections with neither sigma nor length (mm)")
       ->capture_default_str();
-  command->add_option("--alpha0", a->options.adjustment.alpha0,
-                      "Significance level of data snooping in each epoch")
+  command
+      ->add_option("--alpha0", a->options.adjustment.alpha0,
+                   "Significance level of data snooping in each epoch")
       ->capture_default_str();
-  command->add_option("--max-unknowns", a->options.max_unknowns,
-                      "Largest joint adjustment analysed (dense: 8 u^2 bytes)")
+  command
+      ->add_option("--max-unknowns", a->options.max_unknowns,
+                   "Largest joint adjustment analysed (dense: 8 u^2 bytes)")
       ->capture_default_str();
   command->add_option("--unit", a->unit, "Length unit of the input tables: m, ft, us-ft")
       ->capture_default_str();
   command->add_option("--points-columns", a->points_columns, "Column map for the points table");
-  command->add_option("--sections-columns", a->sections_columns, "Column map for the sections tables");
+  command->add_option("--sections-columns", a->sections_columns,
+                      "Column map for the sections tables");
   command->add_flag("--strict", a->strict,
                     "Exit with status 3 when an epoch fails its test or a mark moved");
   command->add_flag("--quiet", a->quiet, "Print nothing on success");

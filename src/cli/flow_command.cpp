@@ -1,7 +1,8 @@
 // `levelhead flow`: hydraulic gradient, flow direction and Darcy ranges.
 
-#include <cmath>
 #include <fmt/format.h>
+
+#include <cmath>
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <set>
@@ -41,9 +42,11 @@ nlohmann::json range_json(const std::optional<Range>& r) {
 
 CommandRunner add_flow_command(CLI::App& app) {
   auto a = std::make_shared<FlowArguments>();
-  CLI::App* c = app.add_subcommand("flow", "Hydraulic gradient and flow direction from heads "
-                                           "(one per well), with Darcy velocity ranges");
-  c->add_option("--heads", a->heads, "Heads, one per well (event.csv of heads --event)")->required();
+  CLI::App* c = app.add_subcommand("flow",
+                                   "Hydraulic gradient and flow direction from heads "
+                                   "(one per well), with Darcy velocity ranges");
+  c->add_option("--heads", a->heads, "Heads, one per well (event.csv of heads --event)")
+      ->required();
   c->add_option("--wells", a->wells, "Wells table (id, x, y, aquifer)")->required();
   c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
   c->add_option("--aquifer", a->aquifer, "Use only wells of this aquifer");
@@ -58,9 +61,11 @@ CommandRunner add_flow_command(CLI::App& app) {
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
     options.distance = a->distance;
-    const WellSet wells = read_wells(read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}}));
+    const WellSet wells = read_wells(read_table(
+        a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}}));
     const Table heads = read_table(a->heads);
-    const std::size_t well_col = heads.require_column("well"), head_col = heads.require_column("head");
+    const std::size_t well_col = heads.require_column("well"),
+                      head_col = heads.require_column("head");
     const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
     std::vector<FlowWell> used;
     std::set<std::string> seen;
@@ -90,8 +95,8 @@ CommandRunner add_flow_command(CLI::App& app) {
     csv << "well,x,y,head,sigma,residual\n";
     for (std::size_t i = 0; i < used.size(); ++i) {
       csv << csv_cell(used[i].id)
-          << fmt::format(",{:.3f},{:.3f},{:.4f},{:.4f},{:+.4f}\n", used[i].x, used[i].y, used[i].head,
-                         used[i].sigma, f.residuals[i]);
+          << fmt::format(",{:.3f},{:.3f},{:.4f},{:.4f},{:+.4f}\n", used[i].x, used[i].y,
+                         used[i].head, used[i].sigma, f.residuals[i]);
     }
     nlohmann::json j;
     j["levelhead_version"] = version_string();
@@ -99,10 +104,14 @@ CommandRunner add_flow_command(CLI::App& app) {
     j["wells"] = used.size();
     j["aquifer"] = a->aquifer;
     j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}, {"unit", "m/m"}};
-    j["azimuth"] = {{"value", f.azimuth}, {"sigma", f.azimuth_sigma},
+    j["azimuth"] = {{"value", f.azimuth},
+                    {"sigma", f.azimuth_sigma},
                     {"unit", "degrees clockwise from grid north, direction of flow"}};
-    j["plane"] = {{"dh_dx", f.dh_dx}, {"dh_dy", f.dh_dy}, {"head_at_centroid", f.intercept},
-                  {"x0", f.x0}, {"y0", f.y0},
+    j["plane"] = {{"dh_dx", f.dh_dx},
+                  {"dh_dy", f.dh_dy},
+                  {"head_at_centroid", f.intercept},
+                  {"x0", f.x0},
+                  {"y0", f.y0},
                   {"covariance", {{f.cov_xx, f.cov_xy}, {f.cov_xy, f.cov_yy}}}};
     j["dof"] = f.dof;
     j["sigma0"] = f.sigma0 ? nlohmann::json(*f.sigma0) : nlohmann::json(nullptr);
@@ -111,19 +120,22 @@ CommandRunner add_flow_command(CLI::App& app) {
                   {"porosity", range_json(options.porosity)},
                   {"specific_discharge_m_per_s", range_json(f.specific_discharge)},
                   {"velocity_m_per_s", range_json(f.velocity)},
-                  {"distance_m", options.distance ? nlohmann::json(*options.distance) : nlohmann::json(nullptr)},
+                  {"distance_m",
+                   options.distance ? nlohmann::json(*options.distance) : nlohmann::json(nullptr)},
                   {"travel_time_s", range_json(f.travel_time)}};
     files.open("flow.json") << j.dump(2) << '\n';
     files.commit();
     if (!a->quiet) {
-      out << fmt::format("{} wells: gradient {:.2e} +- {:.1e} m/m, flow towards {:.1f} +- {:.1f} "
-                         "degrees from grid north\n",
-                         used.size(), f.gradient, f.gradient_sigma, f.azimuth, f.azimuth_sigma);
-      if (f.nearly_collinear) out << "Warning: the wells lie nearly on a line; the direction is weak\n";
+      out << fmt::format(
+          "{} wells: gradient {:.2e} +- {:.1e} m/m, flow towards {:.1f} +- {:.1f} "
+          "degrees from grid north\n",
+          used.size(), f.gradient, f.gradient_sigma, f.azimuth, f.azimuth_sigma);
+      if (f.nearly_collinear)
+        out << "Warning: the wells lie nearly on a line; the direction is weak\n";
       if (f.velocity) {
-        out << fmt::format("  average linear velocity {:.2e} .. {:.2e} m/s ({:.3g} .. {:.3g} m/day)\n",
-                           f.velocity->low, f.velocity->high, f.velocity->low * 86400,
-                           f.velocity->high * 86400);
+        out << fmt::format(
+            "  average linear velocity {:.2e} .. {:.2e} m/s ({:.3g} .. {:.3g} m/day)\n",
+            f.velocity->low, f.velocity->high, f.velocity->low * 86400, f.velocity->high * 86400);
       }
       if (f.travel_time) {
         out << fmt::format("  travel time over {} m: {:.3g} .. {:.3g} days\n", *options.distance,

@@ -1,6 +1,7 @@
 // `levelhead heads`: water levels to heads in one reference, with QA.
 
 #include <fmt/format.h>
+
 #include <memory>
 
 #include "cli/app.hpp"
@@ -25,11 +26,14 @@ struct HeadArguments {
 CommandRunner add_heads_command(CLI::App& app) {
   auto a = std::make_shared<HeadArguments>();
   HeadOptions& o = a->options;
-  CLI::App* c = app.add_subcommand("heads", "Heads from water levels and measuring-point histories in one "
-                                            "vertical reference, with QA before contouring");
-  c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, screen_top, screen_bottom, ...)")
+  CLI::App* c = app.add_subcommand("heads",
+                                   "Heads from water levels and measuring-point histories in one "
+                                   "vertical reference, with QA before contouring");
+  c->add_option("--wells", a->wells,
+                "Wells table (id, x, y, ground, screen_top, screen_bottom, ...)")
       ->required();
-  c->add_option("--mp", a->mp, "Measuring-point history (well, valid_from, height, datum, sigma, ...)")
+  c->add_option("--mp", a->mp,
+                "Measuring-point history (well, valid_from, height, datum, sigma, ...)")
       ->required();
   c->add_option("--levels", a->levels, "Water-level readings (well, time, depth, ...)")->required();
   c->add_option("--to", o.target, "Target vertical reference of the heads")->required();
@@ -41,10 +45,13 @@ CommandRunner add_heads_command(CLI::App& app) {
                 "heights_by_epoch.csv of levelhead epochs: measuring points that name a monitored "
                 "point (point or moves_with) follow its movement");
   add_reference_options(*c, a->refs);
-  c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
-  c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table, e.g. id=Well,x=East");
+  c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")
+      ->capture_default_str();
+  c->add_option("--wells-columns", a->wells_columns,
+                "Column map for the wells table, e.g. id=Well,x=East");
   c->add_option("--mp-columns", a->mp_columns, "Column map for the measuring-point table");
-  c->add_option("--levels-columns", a->levels_columns, "Column map for the readings, e.g. depth=DTW");
+  c->add_option("--levels-columns", a->levels_columns,
+                "Column map for the readings, e.g. depth=DTW");
   c->add_flag("--interpolate", o.interpolate,
               "Interpolate the measuring point linearly between surveys (moving ground)");
   c->add_flag("--allow-before-first", o.allow_before_first,
@@ -84,22 +91,25 @@ CommandRunner add_heads_command(CLI::App& app) {
     options.validate();
     const LengthUnit unit = parse_length_unit(a->unit);
     const TableOptions table_options{parse_column_map(a->levels_columns), unit, {}};
-    const WellSet wells = read_wells(read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}}));
-    const auto records =
-        read_measuring_points(read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}}), wells);
+    const WellSet wells = read_wells(
+        read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}}));
+    const auto records = read_measuring_points(
+        read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}}), wells);
     const NetworkHeights network =
         a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
     const ReferenceSet references = a->refs.load();
     const ProjSettings settings = a->refs.settings();
-    const MonitoredHeights monitored =
-        a->monitored.empty() ? MonitoredHeights{} : read_monitored_heights(read_table(a->monitored));
-    const HeadsSummary s = compute_heads(wells, records, network, monitored, references, settings, options,
-                                         a->levels, table_options, a->out, !a->no_geopackage);
+    const MonitoredHeights monitored = a->monitored.empty()
+                                           ? MonitoredHeights{}
+                                           : read_monitored_heights(read_table(a->monitored));
+    const HeadsSummary s =
+        compute_heads(wells, records, network, monitored, references, settings, options, a->levels,
+                      table_options, a->out, !a->no_geopackage);
     if (!a->quiet) {
-      out << fmt::format("{} readings of {} wells: {} heads in {}, {} states carried (not "
-                         "numbers), {} ready for contouring\n",
-                         s.readings, wells.wells.size(), s.heads, options.target, s.states,
-                         s.contourable);
+      out << fmt::format(
+          "{} readings of {} wells: {} heads in {}, {} states carried (not "
+          "numbers), {} ready for contouring\n",
+          s.readings, wells.wells.size(), s.heads, options.target, s.states, s.contourable);
       for (const auto& [flag, count] : s.flags) out << fmt::format("  {}: {}\n", flag, count);
       if (options.event) {
         out << fmt::format("{} well(s) on the re-measure list (remeasure.csv)\n", s.remeasure);

@@ -34,18 +34,42 @@ namespace {
 // Project sections that configure a command, in chain order.
 const std::vector<std::pair<std::string, std::string>>& stage_sections() {
   static const std::vector<std::pair<std::string, std::string>> sections = {
-      {"fieldbook", "reduce"}, {"loops", "loops"}, {"adjustment", "adjust"}, {"gnss", "gnss-check"},
-      {"epochs", "epochs"},    {"transducer", "transducer"}, {"heads", "heads"}, {"flow", "flow"}};
+      {"fieldbook", "reduce"}, {"loops", "loops"},   {"adjustment", "adjust"},
+      {"gnss", "gnss-check"},  {"epochs", "epochs"}, {"transducer", "transducer"},
+      {"heads", "heads"},      {"flow", "flow"}};
   return sections;
 }
 
 // Options the chain sets itself (inputs, outputs, the site's settings).
 bool wired_by_chain(const std::string& key) {
-  static const std::set<std::string> wired = {
-      "out",      "strict",     "quiet", "unit", "points", "sections", "references", "grid_path",
-      "network",  "wells",      "mp",    "levels", "to",   "crs",      "adjusted",   "monitored",
-      "heads",    "sensors",    "records", "levelled", "levelled_ref", "gnss", "columns",
-      "points_columns", "sections_columns", "wells_columns", "mp_columns", "levels_columns"};
+  static const std::set<std::string> wired = {"out",
+                                              "strict",
+                                              "quiet",
+                                              "unit",
+                                              "points",
+                                              "sections",
+                                              "references",
+                                              "grid_path",
+                                              "network",
+                                              "wells",
+                                              "mp",
+                                              "levels",
+                                              "to",
+                                              "crs",
+                                              "adjusted",
+                                              "monitored",
+                                              "heads",
+                                              "sensors",
+                                              "records",
+                                              "levelled",
+                                              "levelled_ref",
+                                              "gnss",
+                                              "columns",
+                                              "points_columns",
+                                              "sections_columns",
+                                              "wells_columns",
+                                              "mp_columns",
+                                              "levels_columns"};
   return wired.count(key) > 0;
 }
 
@@ -63,9 +87,8 @@ std::string where(const Project& p, const toml::node& node) {
 
 [[noreturn]] void unknown_key(const Project& p, const toml::node& node, const std::string& section,
                               const std::string& key, const std::vector<std::string>& allowed) {
-  throw InputError(where(p, node),
-                   fmt::format("unknown key '{}' in [{}] (did you mean '{}'?)", key, section,
-                               util::nearest_name(key, allowed)));
+  throw InputError(where(p, node), fmt::format("unknown key '{}' in [{}] (did you mean '{}'?)", key,
+                                               section, util::nearest_name(key, allowed)));
 }
 
 std::string text_value(const Project& p, const toml::node& node, const std::string& name) {
@@ -74,7 +97,8 @@ std::string text_value(const Project& p, const toml::node& node, const std::stri
 }
 
 // One path or a list of paths.
-std::vector<std::string> path_values(const Project& p, const toml::node& node, const std::string& name) {
+std::vector<std::string> path_values(const Project& p, const toml::node& node,
+                                     const std::string& name) {
   if (const toml::array* list = node.as_array()) {
     std::vector<std::string> out;
     for (const toml::node& item : *list) out.push_back(text_value(p, item, name));
@@ -96,14 +120,20 @@ fs::path resolve(const Project& p, const std::string& path) {
 }
 
 void read_site(Project& p, const toml::table& site) {
-  const std::vector<std::string> allowed = {"name", "crs", "target", "unit", "references", "grid_path"};
+  const std::vector<std::string> allowed = {"name", "crs",        "target",
+                                            "unit", "references", "grid_path"};
   for (const auto& [k, node] : site) {
     const std::string key(k.str());
-    if (key == "name") p.name = text_value(p, node, key);
-    else if (key == "crs") p.crs = text_value(p, node, key);
-    else if (key == "target") p.target = text_value(p, node, key);
-    else if (key == "unit") p.unit = text_value(p, node, key);
-    else if (key == "references") p.references = resolve(p, text_value(p, node, key));
+    if (key == "name")
+      p.name = text_value(p, node, key);
+    else if (key == "crs")
+      p.crs = text_value(p, node, key);
+    else if (key == "target")
+      p.target = text_value(p, node, key);
+    else if (key == "unit")
+      p.unit = text_value(p, node, key);
+    else if (key == "references")
+      p.references = resolve(p, text_value(p, node, key));
     else if (key == "grid_path") {
       for (const std::string& g : path_values(p, node, key)) p.grid_paths.push_back(resolve(p, g));
     } else {
@@ -113,8 +143,9 @@ void read_site(Project& p, const toml::table& site) {
 }
 
 void read_inputs(Project& p, const toml::table& inputs) {
-  const std::vector<std::string> allowed = {"fieldbook", "sections", "points",  "epochs", "wells",
-                                            "measuring_points", "levels", "sensors", "records", "gnss"};
+  const std::vector<std::string> allowed = {
+      "fieldbook",        "sections", "points",  "epochs",  "wells",
+      "measuring_points", "levels",   "sensors", "records", "gnss"};
   for (const auto& [k, node] : inputs) {
     const std::string key(k.str());
     if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
@@ -133,8 +164,9 @@ void read_inputs(Project& p, const toml::table& inputs) {
     }
   }
   if (p.input("fieldbook") && p.input("sections")) {
-    throw InputError(p.file.string(), "[inputs] gives both 'fieldbook' and 'sections': the sections "
-                                      "come from the field book; give one of them");
+    throw InputError(p.file.string(),
+                     "[inputs] gives both 'fieldbook' and 'sections': the sections "
+                     "come from the field book; give one of them");
   }
 }
 
@@ -153,9 +185,10 @@ void read_stage(Project& p, const std::string& section, const std::string& comma
     if (it == allowed.end()) unknown_key(p, node, section, key, allowed);
     std::string flag = key;
     std::replace(flag.begin(), flag.end(), '_', '-');
-    const OptionInfo& option = *std::find_if(options.begin(), options.end(),
-                                             [&](const OptionInfo& o) { return o.flag == "--" + flag; });
-    ProjectSetting s{section, key, {}, option.default_text, node.source().begin.line, option.is_flag, false};
+    const OptionInfo& option = *std::find_if(
+        options.begin(), options.end(), [&](const OptionInfo& o) { return o.flag == "--" + flag; });
+    ProjectSetting s{section,        key,  {}, option.default_text, node.source().begin.line,
+                     option.is_flag, false};
     if (option.is_flag) {
       const auto on = node.value_exact<bool>();
       if (!on) throw InputError(where(p, node), fmt::format("'{}' is true or false", key));
@@ -166,12 +199,14 @@ void read_stage(Project& p, const std::string& section, const std::string& comma
     } else {
       s.values = {scalar_text(p, node, key)};
     }
-    std::erase_if(p.settings, [&](const ProjectSetting& d) { return d.section == section && d.key == key; });
+    std::erase_if(p.settings,
+                  [&](const ProjectSetting& d) { return d.section == section && d.key == key; });
     p.settings.push_back(std::move(s));
   }
 }
 
-void add_setting_args(const Project& p, const std::string& section, std::vector<std::string>& args) {
+void add_setting_args(const Project& p, const std::string& section,
+                      std::vector<std::string>& args) {
   for (const ProjectSetting& s : p.settings) {
     if (s.section != section) continue;
     std::string flag = "--" + s.key;
@@ -186,7 +221,8 @@ void add_setting_args(const Project& p, const std::string& section, std::vector<
 }
 
 // `flag MAP` when the project maps the columns of `role`.
-void add_columns(const Project& p, const std::string& role, const char* flag, std::vector<std::string>& args) {
+void add_columns(const Project& p, const std::string& role, const char* flag,
+                 std::vector<std::string>& args) {
   const auto it = p.columns.find(role);
   if (it != p.columns.end()) args.insert(args.end(), {flag, it->second});
 }
@@ -217,25 +253,28 @@ Project load_project(const fs::path& file) {
   for (const auto& [k, node] : root) {
     const std::string name(k.str());
     if (std::find(sections.begin(), sections.end(), name) == sections.end()) {
-      throw InputError(where(p, node), fmt::format("unknown section [{}] (did you mean [{}]?)", name,
-                                                   util::nearest_name(name, sections)));
+      throw InputError(where(p, node), fmt::format("unknown section [{}] (did you mean [{}]?)",
+                                                   name, util::nearest_name(name, sections)));
     }
     const toml::table* table = node.as_table();
-    if (!table) throw InputError(where(p, node), fmt::format("'{}' must be a section [{}]", name, name));
+    if (!table)
+      throw InputError(where(p, node), fmt::format("'{}' must be a section [{}]", name, name));
     if (name == "site") {
       read_site(p, *table);
     } else if (name == "columns") {
-      const std::vector<std::string> allowed = {"points", "sections", "fieldbook", "epochs",
+      const std::vector<std::string> allowed = {"points", "sections",         "fieldbook", "epochs",
                                                 "wells",  "measuring_points", "levels"};
       for (const auto& [ck, cnode] : *table) {
         const std::string key(ck.str());
-        if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) unknown_key(p, cnode, "columns", key, allowed);
+        if (std::find(allowed.begin(), allowed.end(), key) == allowed.end())
+          unknown_key(p, cnode, "columns", key, allowed);
         p.columns[key] = text_value(p, cnode, key);
       }
     } else if (name == "inputs") {
       read_inputs(p, *table);
     } else if (name == "report") {
-      const std::vector<std::string> allowed = {"title", "prepared_for", "prepared_by", "contour_interval"};
+      const std::vector<std::string> allowed = {"title", "prepared_for", "prepared_by",
+                                                "contour_interval"};
       for (const auto& [rk, rnode] : *table) {
         const std::string key(rk.str());
         if (std::find(allowed.begin(), allowed.end(), key) == allowed.end()) {
@@ -243,7 +282,8 @@ Project load_project(const fs::path& file) {
         }
         if (key == "contour_interval") {
           const auto v = rnode.value<double>();
-          if (!v || !(*v > 0.0)) throw InputError(where(p, rnode), "'contour_interval' must be a number of metres > 0");
+          if (!v || !(*v > 0.0))
+            throw InputError(where(p, rnode), "'contour_interval' must be a number of metres > 0");
           p.contour_interval = *v;
         } else {
           p.report[key] = text_value(p, rnode, key);
@@ -266,7 +306,8 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     stages.push_back(std::move(stage));
   };
   const auto path = [&](const std::string& role) { return p.input(role)->path.string(); };
-  const auto require = [&](const std::string& key, const std::string& value, const std::string& why) {
+  const auto require = [&](const std::string& key, const std::string& value,
+                           const std::string& why) {
     if (value.empty()) {
       throw InputError(p.file.string(), fmt::format("[site] needs '{}' {}", key, why));
     }
@@ -284,32 +325,47 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
   const bool network = p.input("points") && !sections.empty();
   if (network) {
     const std::vector<std::string> in = {"points", p.input("fieldbook") ? "fieldbook" : "sections"};
-    for (const auto& [name, section] : {std::pair{"loops", "loops"}, std::pair{"adjust", "adjustment"}}) {
-      Stage s{name, section, {name, "--points", path("points"), "--sections", sections, "--unit", p.unit}, in};
+    for (const auto& [name, section] :
+         {std::pair{"loops", "loops"}, std::pair{"adjust", "adjustment"}}) {
+      Stage s{name,
+              section,
+              {name, "--points", path("points"), "--sections", sections, "--unit", p.unit},
+              in};
       add_columns(p, "points", "--points-columns", s.args);
-      if (!p.input("fieldbook")) add_columns(p, "sections", "--sections-columns", s.args);  // reduce writes ours
+      if (!p.input("fieldbook"))
+        add_columns(p, "sections", "--sections-columns", s.args);  // reduce writes ours
       add(std::move(s));
     }
   }
   if (p.input("gnss")) {
-    if (!network) throw InputError(p.file.string(), "[inputs] gnss is checked against the levelling: give points and sections (or a field book)");
+    if (!network)
+      throw InputError(p.file.string(),
+                       "[inputs] gnss is checked against the levelling: give points and sections "
+                       "(or a field book)");
     require("target", p.target, "(the reference of the levelled heights, e.g. \"EPSG:5703\")");
     require("crs", p.crs, "(the horizontal CRS of the GNSS table's x and y)");
-    Stage g{"gnss-check", "gnss",
-            {"gnss-check", "--levelled", (out / "adjust" / "heights.csv").string(), "--levelled-ref", p.target,
-             "--gnss", path("gnss"), "--crs", p.crs, "--unit", p.unit},
+    Stage g{"gnss-check",
+            "gnss",
+            {"gnss-check", "--levelled", (out / "adjust" / "heights.csv").string(),
+             "--levelled-ref", p.target, "--gnss", path("gnss"), "--crs", p.crs, "--unit", p.unit},
             {"gnss", "points"}};
     if (!p.references.empty()) g.args.insert(g.args.end(), {"--references", p.references.string()});
-    for (const fs::path& grid : p.grid_paths) g.args.insert(g.args.end(), {"--grid-path", grid.string()});
+    for (const fs::path& grid : p.grid_paths)
+      g.args.insert(g.args.end(), {"--grid-path", grid.string()});
     add(std::move(g));
   }
   const auto epoch_files = p.inputs_of("epochs");
   if (!epoch_files.empty()) {
     if (!p.input("points")) {
-      throw InputError(p.file.string(), "[inputs] epochs needs 'points' (the marks and points levelled)");
+      throw InputError(p.file.string(),
+                       "[inputs] epochs needs 'points' (the marks and points levelled)");
     }
-    Stage e{"epochs", "epochs", {"epochs", "--points", path("points"), "--unit", p.unit}, {"points", "epochs"}};
-    for (const ProjectInput* f : epoch_files) e.args.insert(e.args.end(), {"--sections", f->path.string()});
+    Stage e{"epochs",
+            "epochs",
+            {"epochs", "--points", path("points"), "--unit", p.unit},
+            {"points", "epochs"}};
+    for (const ProjectInput* f : epoch_files)
+      e.args.insert(e.args.end(), {"--sections", f->path.string()});
     add_columns(p, "points", "--points-columns", e.args);
     add_columns(p, "epochs", "--sections-columns", e.args);
     add(std::move(e));
@@ -318,12 +374,14 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
   std::string levels = p.input("levels") ? path("levels") : std::string();
   if (p.input("sensors") || p.input("records")) {
     if (!(p.input("sensors") && p.input("records") && p.input("wells") && p.input("levels"))) {
-      throw InputError(p.file.string(), "transducer records need all of [inputs] sensors, records, wells and "
-                                        "levels (the tape readings that check them)");
+      throw InputError(p.file.string(),
+                       "transducer records need all of [inputs] sensors, records, wells and "
+                       "levels (the tape readings that check them)");
     }
-    Stage t{"transducer", "transducer",
-            {"transducer", "--wells", path("wells"), "--sensors", path("sensors"), "--records", path("records"),
-             "--levels", path("levels"), "--unit", p.unit},
+    Stage t{"transducer",
+            "transducer",
+            {"transducer", "--wells", path("wells"), "--sensors", path("sensors"), "--records",
+             path("records"), "--levels", path("levels"), "--unit", p.unit},
             {"sensors", "records", "levels"}};
     add_columns(p, "wells", "--wells-columns", t.args);
     add_columns(p, "levels", "--levels-columns", t.args);  // its levels.csv has our names
@@ -333,37 +391,45 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
   if (wells) {
     require("target", p.target, "(the vertical reference of the heads, e.g. \"EPSG:5703\")");
     require("crs", p.crs, "(the horizontal CRS of the wells' x and y, e.g. \"EPSG:32613\")");
-    Stage h{"heads", "heads",
-            {"heads", "--wells", path("wells"), "--mp", path("measuring_points"), "--levels", levels,
-             "--to", p.target, "--crs", p.crs, "--unit", p.unit},
+    Stage h{"heads",
+            "heads",
+            {"heads", "--wells", path("wells"), "--mp", path("measuring_points"), "--levels",
+             levels, "--to", p.target, "--crs", p.crs, "--unit", p.unit},
             {"wells", "measuring_points", "levels"}};
     if (!p.references.empty()) h.args.insert(h.args.end(), {"--references", p.references.string()});
     for (const fs::path& g : p.grid_paths) h.args.insert(h.args.end(), {"--grid-path", g.string()});
     add_columns(p, "wells", "--wells-columns", h.args);
     add_columns(p, "measuring_points", "--mp-columns", h.args);
     if (!p.input("sensors")) add_columns(p, "levels", "--levels-columns", h.args);
-    if (network) h.args.insert(h.args.end(), {"--adjusted", (out / "adjust" / "heights.csv").string()});
+    if (network)
+      h.args.insert(h.args.end(), {"--adjusted", (out / "adjust" / "heights.csv").string()});
     if (!epoch_files.empty()) {
-      h.args.insert(h.args.end(), {"--monitored", (out / "epochs" / "heights_by_epoch.csv").string()});
+      h.args.insert(h.args.end(),
+                    {"--monitored", (out / "epochs" / "heights_by_epoch.csv").string()});
     }
     add(std::move(h));
   } else if (p.input("wells") || p.input("measuring_points") || p.input("levels")) {
-    throw InputError(p.file.string(), "heads need all three of [inputs] wells, measuring_points and levels");
+    throw InputError(p.file.string(),
+                     "heads need all three of [inputs] wells, measuring_points and levels");
   }
   if (wells && has_setting(p, "heads", "event")) {
-    Stage f{"flow", "flow", {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells")},
+    Stage f{"flow",
+            "flow",
+            {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells")},
             {"heads", "wells"}};
     add_columns(p, "wells", "--wells-columns", f.args);
     add(std::move(f));
   } else if (std::any_of(p.settings.begin(), p.settings.end(),
                          [](const ProjectSetting& s) { return s.section == "flow"; })) {
-    throw InputError(p.file.string(), "[flow] needs one head per well: set [heads] event (the date "
-                                      "of the synoptic round) and the wells' inputs");
+    throw InputError(p.file.string(),
+                     "[flow] needs one head per well: set [heads] event (the date "
+                     "of the synoptic round) and the wells' inputs");
   }
   if (stages.empty()) {
-    throw InputError(p.file.string(), "the project has nothing to run: give [inputs] (a field book or "
-                                      "sections with points, epochs, or wells with measuring points "
-                                      "and levels)");
+    throw InputError(p.file.string(),
+                     "the project has nothing to run: give [inputs] (a field book or "
+                     "sections with points, epochs, or wells with measuring points "
+                     "and levels)");
   }
   return stages;
 }

@@ -27,18 +27,18 @@
 namespace levelhead::cli {
 
 struct ProjectSetting {
-  std::string section, key;  // as written
+  std::string section, key;         // as written
   std::vector<std::string> values;  // the option's values as text ({"true"} for a flag)
-  std::string default_text;  // the command's default, empty when none
+  std::string default_text;         // the command's default, empty when none
   std::size_t line = 0;
   bool is_flag = false;        // an on/off option
   bool chain_default = false;  // not in the file: the chain's own default
 };
 
 struct ProjectInput {
-  std::string role;                 // "points", "levels", ...
-  std::filesystem::path path;       // resolved
-  std::string as_written;           // relative to the project file, as given
+  std::string role;            // "points", "levels", ...
+  std::filesystem::path path;  // resolved
+  std::string as_written;      // relative to the project file, as given
 };
 
 struct Project {
@@ -47,10 +47,10 @@ struct Project {
   std::vector<ProjectInput> inputs;  // in the order of [inputs]
   std::filesystem::path references;  // empty when none
   std::vector<std::filesystem::path> grid_paths;
-  std::map<std::string, std::string> report;  // title, prepared_for, prepared_by
-  std::optional<double> contour_interval;     // m, [report] contour_interval
+  std::map<std::string, std::string> report;   // title, prepared_for, prepared_by
+  std::optional<double> contour_interval;      // m, [report] contour_interval
   std::map<std::string, std::string> columns;  // [columns]: input role -> column map
-  std::vector<ProjectSetting> settings;       // stage options given (and chain defaults)
+  std::vector<ProjectSetting> settings;        // stage options given (and chain defaults)
 
   const ProjectInput* input(const std::string& role) const;
   std::vector<const ProjectInput*> inputs_of(const std::string& role) const;
@@ -59,9 +59,9 @@ struct Project {
 Project load_project(const std::filesystem::path& file);
 
 struct Stage {
-  std::string name;     // folder name and command: reduce, loops, adjust, ...
-  std::string section;  // its project section
-  std::vector<std::string> args;  // without the program name
+  std::string name;                 // folder name and command: reduce, loops, adjust, ...
+  std::string section;              // its project section
+  std::vector<std::string> args;    // without the program name
   std::vector<std::string> inputs;  // roles it reads, for messages
 };
 

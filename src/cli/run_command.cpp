@@ -34,10 +34,12 @@ ReportContext report_context(const Project& p, const std::vector<Stage>& stages)
   c.target = p.target;
   for (const ProjectInput& i : p.inputs) {
     const auto map = p.columns.find(i.role);
-    c.inputs.push_back({i.role, i.as_written, i.path, map == p.columns.end() ? std::string() : map->second});
+    c.inputs.push_back(
+        {i.role, i.as_written, i.path, map == p.columns.end() ? std::string() : map->second});
   }
   if (!p.references.empty()) {
-    c.inputs.push_back({"references", p.references.lexically_relative(p.folder).string(), p.references, ""});
+    c.inputs.push_back(
+        {"references", p.references.lexically_relative(p.folder).string(), p.references, ""});
     const ReferenceSet references = ReferenceSet::load(p.references);
     for (const auto& [name, definition] : references.definitions()) {
       if (!definition.grid.empty()) c.grids.push_back(definition.grid);

@@ -27,28 +27,37 @@ CommandRunner add_transducer_command(CLI::App& app) {
   auto a = std::make_shared<TransducerArguments>();
   TransducerOptions& o = a->options;
   CLI::App* c = app.add_subcommand(
-      "transducer", "Pressure-transducer records to depths to water, checked against tape readings");
+      "transducer",
+      "Pressure-transducer records to depths to water, checked against tape readings");
   c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, density)")->required();
-  c->add_option("--sensors", a->sensors,
-                "Sensors (sensor, kind, well, barometer, hung_depth, range_kpa, sigma, utc_offset, x, y, "
-                "elevation)")
+  c->add_option(
+       "--sensors", a->sensors,
+       "Sensors (sensor, kind, well, barometer, hung_depth, range_kpa, sigma, utc_offset, x, y, "
+       "elevation)")
       ->required();
-  c->add_option("--records", a->records, "Pressure records (sensor, time, pressure in kPa)")->required();
-  c->add_option("--levels", a->levels, "Manual water-level readings (the checks; passed through)")->required();
+  c->add_option("--records", a->records, "Pressure records (sensor, time, pressure in kPa)")
+      ->required();
+  c->add_option("--levels", a->levels, "Manual water-level readings (the checks; passed through)")
+      ->required();
   c->add_option("--out", a->out, "Output folder")->required();
-  c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")->capture_default_str();
+  c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")
+      ->capture_default_str();
   c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
-  c->add_option("--levels-columns", a->levels_columns,
-                "Column map for the manual readings (levels.csv is written with levelhead's names)");
-  c->add_option("--density", o.density, "Water density for wells that give none (kg/m^3)")->capture_default_str();
+  c->add_option(
+      "--levels-columns", a->levels_columns,
+      "Column map for the manual readings (levels.csv is written with levelhead's names)");
+  c->add_option("--density", o.density, "Water density for wells that give none (kg/m^3)")
+      ->capture_default_str();
   c->add_option("--gravity", o.gravity, "Acceleration of gravity (m/s^2; default standard gravity)")
       ->capture_default_str();
-  c->add_option("--max-baro-distance", o.max_baro_distance, "Farthest a barometer may be from its well (m)")
+  c->add_option("--max-baro-distance", o.max_baro_distance,
+                "Farthest a barometer may be from its well (m)")
       ->capture_default_str();
   c->add_option("--max-baro-elevation-difference", o.max_baro_elevation_difference,
                 "Largest elevation difference between a barometer and its well (m)")
       ->capture_default_str();
-  c->add_option("--max-baro-gap", o.max_baro_gap_hours, "Longest gap in a barometer record bridged (h)")
+  c->add_option("--max-baro-gap", o.max_baro_gap_hours,
+                "Longest gap in a barometer record bridged (h)")
       ->capture_default_str();
   c->add_option("--max-check-gap", o.max_check_gap_hours,
                 "A manual check needs a record this close in time (h)")
@@ -62,18 +71,22 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_option("--manual-window", o.manual_window_hours,
                 "Records this close to a manual reading are left out (h)")
       ->capture_default_str();
-  c->add_flag("--strict", a->strict, "Exit with status 3 when a reading is rejected or left uncomputed");
+  c->add_flag("--strict", a->strict,
+              "Exit with status 3 when a reading is rejected or left uncomputed");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream&) {
     a->options.validate();
     const TableOptions table{{}, parse_length_unit(a->unit), {}};
-    const WellSet wells = read_wells(read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}}));
+    const WellSet wells = read_wells(read_table(
+        a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}}));
     const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}};
-    const TransducerSummary s = reduce_transducers(wells, read_table(a->sensors, table), read_table(a->records),
-                                                   read_table(a->levels, levels), a->options, a->out);
+    const TransducerSummary s =
+        reduce_transducers(wells, read_table(a->sensors, table), read_table(a->records),
+                           read_table(a->levels, levels), a->options, a->out);
     bool problems = false;
     if (!a->quiet) {
-      out << fmt::format("{} manual readings passed through, {} transducer readings written\n", s.manual, s.written);
+      out << fmt::format("{} manual readings passed through, {} transducer readings written\n",
+                         s.manual, s.written);
     }
     for (const SensorSummary& sensor : s.sensors) {
       std::size_t flagged = 0;
@@ -84,18 +97,22 @@ CommandRunner add_transducer_command(CLI::App& app) {
       }
       problems = problems || flagged > 0;
       if (a->quiet) continue;
-      out << fmt::format("  {} ({} in {}): {} records, {} written, {} checks, largest drift {:.3f} m, hung depth "
-                         "{:.3f} m{}, rho {:g} kg/m^3, g {:g} m/s^2\n",
-                         sensor.sensor, sensor.kind, sensor.well, sensor.records, sensor.written, sensor.checks,
-                         sensor.largest_drift, sensor.hung_depth.value_or(0.0),
-                         sensor.calibrated ? " (calibrated)" : "", sensor.density, sensor.gravity);
-      for (const auto& [flag, count] : sensor.flags) out << fmt::format("    {}: {}\n", flag, count);
+      out << fmt::format(
+          "  {} ({} in {}): {} records, {} written, {} checks, largest drift {:.3f} m, hung depth "
+          "{:.3f} m{}, rho {:g} kg/m^3, g {:g} m/s^2\n",
+          sensor.sensor, sensor.kind, sensor.well, sensor.records, sensor.written, sensor.checks,
+          sensor.largest_drift, sensor.hung_depth.value_or(0.0),
+          sensor.calibrated ? " (calibrated)" : "", sensor.density, sensor.gravity);
+      for (const auto& [flag, count] : sensor.flags)
+        out << fmt::format("    {}: {}\n", flag, count);
       if (sensor.efficiency) {
         out << fmt::format("    barometric efficiency {:.2f} +- {:.2f} ({} paired changes)\n",
-                           sensor.efficiency->value, sensor.efficiency->sigma, sensor.efficiency->pairs);
+                           sensor.efficiency->value, sensor.efficiency->sigma,
+                           sensor.efficiency->pairs);
       }
     }
-    if (!a->quiet) out << fmt::format("Wrote levels.csv, checks.csv, qa.csv and summary.json in {}\n", a->out);
+    if (!a->quiet)
+      out << fmt::format("Wrote levels.csv, checks.csv, qa.csv and summary.json in {}\n", a->out);
     return a->strict && problems ? exit_checks_failed : exit_ok;
   };
 }

@@ -28,11 +28,14 @@ std::string test_verdict(const EpochQuality& q) {
 
 nlohmann::json flagged_json(const std::vector<EpochQuality::Flagged>& list) {
   nlohmann::json out = nlohmann::json::array();
-  for (const auto& f : list) out.push_back({{"from", f.from}, {"to", f.to}, {"w", f.w}, {"row", f.row}});
+  for (const auto& f : list)
+    out.push_back({{"from", f.from}, {"to", f.to}, {"w", f.w}, {"row", f.row}});
   return out;
 }
 
-std::string variance_name(VarianceFactor v) { return v == VarianceFactor::pooled ? "pooled" : "apriori"; }
+std::string variance_name(VarianceFactor v) {
+  return v == VarianceFactor::pooled ? "pooled" : "apriori";
+}
 
 }  // namespace
 
@@ -49,7 +52,8 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
   OutputSet out(folder);
 
   std::ostream& epochs = out.open("epochs.csv");
-  epochs << "epoch,first_date,last_date,time,points,sections,dof,sigma0,global_test,suspects,removed\n";
+  epochs << "epoch,first_date,last_date,time,points,sections,dof,sigma0,global_test,suspects,"
+            "removed\n";
   for (const EpochQuality& q : a.epochs) {
     epochs << csv_cell(q.name) << ',' << csv_cell(q.first_date) << ',' << csv_cell(q.last_date)
            << ',' << format_utc(q.time) << ',' << q.points << ',' << q.sections << ',' << q.dof
@@ -101,16 +105,22 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
   summary["inputs"] = {{"points", inputs.points_file}, {"sections", inputs.sections_files}};
   nlohmann::json epoch_list = nlohmann::json::array();
   for (const EpochQuality& q : a.epochs) {
-    nlohmann::json e = {{"name", q.name},           {"first_date", q.first_date},
-                        {"last_date", q.last_date}, {"time", format_utc(q.time)},
-                        {"points", q.points},       {"sections", q.sections},
-                        {"dof", q.dof},             {"vtpv", q.vtpv},
+    nlohmann::json e = {{"name", q.name},
+                        {"first_date", q.first_date},
+                        {"last_date", q.last_date},
+                        {"time", format_utc(q.time)},
+                        {"points", q.points},
+                        {"sections", q.sections},
+                        {"dof", q.dof},
+                        {"vtpv", q.vtpv},
                         {"suspects", flagged_json(q.suspects)},
                         {"removed", flagged_json(q.removed)}};
     e["sigma0"] = q.sigma0 ? nlohmann::json(*q.sigma0) : nlohmann::json(nullptr);
     if (q.global_test) {
-      e["global_test"] = {{"statistic", q.global_test->statistic}, {"lower", q.global_test->lower},
-                          {"upper", q.global_test->upper},         {"passed", q.global_test->passed}};
+      e["global_test"] = {{"statistic", q.global_test->statistic},
+                          {"lower", q.global_test->lower},
+                          {"upper", q.global_test->upper},
+                          {"passed", q.global_test->passed}};
     } else {
       e["global_test"] = nullptr;
     }
@@ -120,49 +130,57 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
   summary["candidates"] = a.candidates;
   nlohmann::json tests = nlohmann::json::array();
   for (const CongruenceTest& t : a.tests) {
-    tests.push_back({{"marks", t.marks},         {"omega", t.omega},
-                     {"h", t.h},                 {"statistic", t.statistic},
-                     {"critical", t.critical},   {"distribution", t.distribution},
+    tests.push_back({{"marks", t.marks},
+                     {"omega", t.omega},
+                     {"h", t.h},
+                     {"statistic", t.statistic},
+                     {"critical", t.critical},
+                     {"distribution", t.distribution},
                      {"passed", t.passed}});
   }
   summary["congruence_tests"] = std::move(tests);
   nlohmann::json verdicts = nlohmann::json::array();
   for (const MarkVerdict& v : a.marks) {
-    verdicts.push_back({{"mark", v.mark}, {"verdict", to_string(v.kind)},
+    verdicts.push_back({{"mark", v.mark},
+                        {"verdict", to_string(v.kind)},
                         {"step", v.step ? nlohmann::json(*v.step) : nlohmann::json(nullptr)},
                         {"reason", v.reason}});
   }
   summary["marks"] = std::move(verdicts);
   summary["held_mark"] = a.held_mark;
   summary["reference"] = a.reference;
-  summary["variance_factor"] = {{"kind", variance_name(options.variance)},
-                                {"s0", a.s0}, {"pooled_dof", a.pooled_dof}};
-  summary["displacement_test"] = {{"distribution", a.test_distribution}, {"critical", a.test_critical}};
+  summary["variance_factor"] = {
+      {"kind", variance_name(options.variance)}, {"s0", a.s0}, {"pooled_dof", a.pooled_dof}};
+  summary["displacement_test"] = {{"distribution", a.test_distribution},
+                                  {"critical", a.test_critical}};
   summary["settings"] = {{"alpha", options.alpha},
                          {"power", options.beta},
                          {"remove_suspects", options.remove_suspects},
                          {"mm_per_sqrt_km", options.adjustment.mm_per_sqrt_km},
                          {"mm_per_setup", options.adjustment.mm_per_setup},
                          {"alpha0", options.adjustment.alpha0}};
-  summary["significant_displacements"] = std::count_if(
-      a.displacements.begin(), a.displacements.end(), [](const Displacement& d) { return d.significant; });
+  summary["significant_displacements"] =
+      std::count_if(a.displacements.begin(), a.displacements.end(),
+                    [](const Displacement& d) { return d.significant; });
   summary["warnings"] = a.warnings;
   out.open("summary.json") << summary.dump(2) << '\n';
   out.commit();
 }
 
 std::string epoch_summary_text(const EpochAnalysis& a) {
-  std::string text = fmt::format("{} epochs, {} points, {} candidate reference marks\n", a.epochs.size(),
-                                 a.points.size(), a.candidates.size());
+  std::string text = fmt::format("{} epochs, {} points, {} candidate reference marks\n",
+                                 a.epochs.size(), a.points.size(), a.candidates.size());
   for (const EpochQuality& q : a.epochs) {
-    text += fmt::format("  {:<12} {} .. {}  {} sections, dof {}, sigma0 {}, global test {}{}\n",
-                        q.name, q.first_date, q.last_date, q.sections, q.dof,
-                        q.sigma0 ? fmt::format("{:.2f}", *q.sigma0) : "-", test_verdict(q),
-                        q.suspects.empty() ? "" : fmt::format(", {} suspect(s)", q.suspects.size()));
+    text +=
+        fmt::format("  {:<12} {} .. {}  {} sections, dof {}, sigma0 {}, global test {}{}\n", q.name,
+                    q.first_date, q.last_date, q.sections, q.dof,
+                    q.sigma0 ? fmt::format("{:.2f}", *q.sigma0) : "-", test_verdict(q),
+                    q.suspects.empty() ? "" : fmt::format(", {} suspect(s)", q.suspects.size()));
   }
   const CongruenceTest& first = a.tests.front();
-  text += fmt::format("Congruence of the marks: {} = {:.3f} against {:.3f}: {}\n", first.distribution,
-                      first.statistic, first.critical, first.passed ? "passed" : "failed");
+  text +=
+      fmt::format("Congruence of the marks: {} = {:.3f} against {:.3f}: {}\n", first.distribution,
+                  first.statistic, first.critical, first.passed ? "passed" : "failed");
   for (const MarkVerdict& v : a.marks) {
     text += fmt::format("  {:<12} {}{}\n", v.mark, to_string(v.kind),
                         v.step ? fmt::format(" (step {})", *v.step) : "");
@@ -172,8 +190,9 @@ std::string epoch_summary_text(const EpochAnalysis& a) {
   for (const Displacement& d : a.displacements) {
     if (d.against_first && d.significant) moved.push_back(&d);
   }
-  std::sort(moved.begin(), moved.end(),
-            [](const Displacement* x, const Displacement* y) { return std::abs(x->value) > std::abs(y->value); });
+  std::sort(moved.begin(), moved.end(), [](const Displacement* x, const Displacement* y) {
+    return std::abs(x->value) > std::abs(y->value);
+  });
   text += fmt::format("{} significant displacement(s) since the first epoch\n", moved.size());
   for (std::size_t i = 0; i < moved.size() && i < 10; ++i) {
     const Displacement& d = *moved[i];

@@ -18,9 +18,12 @@ namespace levelhead {
 
 std::string to_string(MarkVerdict::Kind kind) {
   switch (kind) {
-    case MarkVerdict::Kind::stable: return "stable";
-    case MarkVerdict::Kind::moving: return "moving";
-    case MarkVerdict::Kind::unresolved: return "unresolved";
+    case MarkVerdict::Kind::stable:
+      return "stable";
+    case MarkVerdict::Kind::moving:
+      return "moving";
+    case MarkVerdict::Kind::unresolved:
+      return "unresolved";
   }
   return "?";
 }
@@ -28,10 +31,12 @@ std::string to_string(MarkVerdict::Kind kind) {
 void EpochOptions::validate() const {
   adjustment.validate();
   if (!(alpha > 0.0 && alpha < 1.0)) {
-    throw OptionError(fmt::format("alpha = {} must lie strictly between 0 and 1 (e.g. 0.05)", alpha));
+    throw OptionError(
+        fmt::format("alpha = {} must lie strictly between 0 and 1 (e.g. 0.05)", alpha));
   }
   if (!(beta > 0.0 && beta < 1.0)) {
-    throw OptionError(fmt::format("power = {} must lie strictly between 0 and 1 (e.g. 0.80)", beta));
+    throw OptionError(
+        fmt::format("power = {} must lie strictly between 0 and 1 (e.g. 0.80)", beta));
   }
   if (max_unknowns < 2) throw OptionError("max-unknowns must be at least 2");
 }
@@ -234,7 +239,8 @@ EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const 
   EpochQuality q;
   q.name = epoch.name;
   const SectionTable& table = epoch.sections;
-  if (table.sections.empty()) throw NetworkError(fmt::format("epoch '{}' has no sections", epoch.name), {});
+  if (table.sections.empty())
+    throw NetworkError(fmt::format("epoch '{}' has no sections", epoch.name), {});
   double first = std::numeric_limits<double>::infinity(), last = -first;
   for (const Section& s : table.sections) {
     const auto when = parse_iso8601(s.date);
@@ -303,8 +309,8 @@ EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const 
       if (r.sections[s].removed) continue;
       const Section& sec = network.sections[s];
       const double sigma = r.sections[s].sigma;
-      observations.push_back({epoch_index, m.index.at(sec.from), m.index.at(sec.to), sec.dh,
-                              1.0 / (sigma * sigma)});
+      observations.push_back(
+          {epoch_index, m.index.at(sec.from), m.index.at(sec.to), sec.dh, 1.0 / (sigma * sigma)});
     }
   } catch (const NetworkError& e) {
     throw NetworkError(fmt::format("epoch '{}': {}", epoch.name, e.what()), e.point_ids());
@@ -347,9 +353,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   for (std::size_t a = 0; a < epochs.size(); ++a) {
     for (std::size_t b = a + 1; b < epochs.size(); ++b) {
       if (epochs[a].name == epochs[b].name) {
-        throw NetworkError(fmt::format("two epochs are named '{}'; give each its own name",
-                                       epochs[a].name),
-                           {});
+        throw NetworkError(
+            fmt::format("two epochs are named '{}'; give each its own name", epochs[a].name), {});
       }
     }
   }
@@ -358,8 +363,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   m.epochs = epochs.size();
   for (const Point& p : points.points) {
     if (!m.index.emplace(p.id, m.ids.size()).second) {
-      throw NetworkError(fmt::format("point '{}' appears twice in {} (row {})", p.id, points.file, p.row),
-                         {p.id});
+      throw NetworkError(
+          fmt::format("point '{}' appears twice in {} (row {})", p.id, points.file, p.row), {p.id});
     }
     m.ids.push_back(p.id);
     m.known.push_back(p.height);
@@ -370,8 +375,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   for (const std::string& id : candidate_marks) {
     const auto it = m.index.find(id);
     if (it == m.index.end()) {
-      throw NetworkError(fmt::format("reference mark '{}' is not in the points table {}", id, points.file),
-                         {id});
+      throw NetworkError(
+          fmt::format("reference mark '{}' is not in the points table {}", id, points.file), {id});
     }
     if (!candidate[it->second]) out.candidates.push_back(id);
     candidate[it->second] = 1;
@@ -384,8 +389,9 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   }
   std::vector<std::size_t> order(epochs.size());
   std::iota(order.begin(), order.end(), 0);
-  std::stable_sort(order.begin(), order.end(),
-                   [&](std::size_t a, std::size_t b) { return out.epochs[a].time < out.epochs[b].time; });
+  std::stable_sort(order.begin(), order.end(), [&](std::size_t a, std::size_t b) {
+    return out.epochs[a].time < out.epochs[b].time;
+  });
   std::vector<std::size_t> rank(order.size());
   for (std::size_t i = 0; i < order.size(); ++i) rank[order[i]] = i;
   for (Observation& o : m.observations) o.epoch = rank[o.epoch];
@@ -402,7 +408,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
     std::size_t seen = 0;
     for (std::size_t k = 0; k < m.epochs; ++k) seen += m.observed[k][p];
     if (seen == 0) {
-      throw NetworkError(fmt::format("reference mark '{}' is observed in no epoch", m.ids[p]), {m.ids[p]});
+      throw NetworkError(fmt::format("reference mark '{}' is observed in no epoch", m.ids[p]),
+                         {m.ids[p]});
     }
   }
   for (const EpochQuality& q : out.epochs) {
@@ -433,14 +440,17 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
                      settings.separate_vtpv / static_cast<double>(settings.pooled_dof) < 1e-12;
   settings.pooled = options.variance == VarianceFactor::pooled && settings.pooled_dof > 0 && !exact;
   if (options.variance == VarianceFactor::pooled && !settings.pooled) {
-    out.warnings.push_back(settings.pooled_dof == 0
-                               ? "the epochs have no redundancy of their own: the a-priori variance "
-                                 "factor is used"
-                               : "the epochs fit their observations exactly: the a-priori variance "
-                                 "factor is used");
+    out.warnings.push_back(
+        settings.pooled_dof == 0
+            ? "the epochs have no redundancy of their own: the a-priori variance "
+              "factor is used"
+            : "the epochs fit their observations exactly: the a-priori variance "
+              "factor is used");
   }
   out.pooled_dof = settings.pooled_dof;
-  out.s0 = settings.pooled ? std::sqrt(settings.separate_vtpv / static_cast<double>(settings.pooled_dof)) : 1.0;
+  out.s0 = settings.pooled
+               ? std::sqrt(settings.separate_vtpv / static_cast<double>(settings.pooled_dof))
+               : 1.0;
 
   // 3. Congruence of the marks, then stepwise removal of the moving ones.
   std::vector<char> stable = candidate;
@@ -487,13 +497,15 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
     v.mark = m.ids[p];
     if (last.passed) {
       v.kind = MarkVerdict::Kind::stable;
-      v.reason = last.h == 0 ? "held as the datum (no other mark to compare it with)"
-                             : fmt::format("congruent with the other stable marks ({} = {:.3f} <= {:.3f})",
-                                           last.distribution, last.statistic, last.critical);
+      v.reason = last.h == 0
+                     ? "held as the datum (no other mark to compare it with)"
+                     : fmt::format("congruent with the other stable marks ({} = {:.3f} <= {:.3f})",
+                                   last.distribution, last.statistic, last.critical);
     } else {
       v.kind = MarkVerdict::Kind::unresolved;
-      v.reason = "the marks left are not congruent and the test cannot tell which of them moved; "
-                 "level to more marks or check them by other means";
+      v.reason =
+          "the marks left are not congruent and the test cannot tell which of them moved; "
+          "level to more marks or check them by other means";
     }
     out.marks.push_back(std::move(v));
   }
@@ -515,10 +527,10 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   const std::size_t held_point = held.value_or(first_shared(stable));
   out.held_mark = m.ids[held_point];
   const double held_height = held ? *m.known[held_point] : 0.0;
-  out.reference = held ? (m.datum[held_point].empty()
-                              ? fmt::format("as the known height of {}", out.held_mark)
-                              : m.datum[held_point])
-                       : fmt::format("local: {} held at 0 m", out.held_mark);
+  out.reference =
+      held ? (m.datum[held_point].empty() ? fmt::format("as the known height of {}", out.held_mark)
+                                          : m.datum[held_point])
+           : fmt::format("local: {} held at 0 m", out.held_mark);
   const JointSolution final_fit =
       solve_joint(m, stable, held_point, held_height, true, options.max_unknowns);
   const double variance = out.s0 * out.s0;

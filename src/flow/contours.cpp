@@ -34,7 +34,8 @@ bool spans_an_area(const std::vector<HeadAtWell>& p, double extent) {
   for (std::size_t i = 0; i < p.size(); ++i) {
     for (std::size_t j = i + 1; j < p.size(); ++j) {
       for (std::size_t k = j + 1; k < p.size(); ++k) {
-        const double area = std::abs((p[j].x - p[i].x) * (p[k].y - p[i].y) - (p[k].x - p[i].x) * (p[j].y - p[i].y));
+        const double area =
+            std::abs((p[j].x - p[i].x) * (p[k].y - p[i].y) - (p[k].x - p[i].x) * (p[j].y - p[i].y));
         if (area > 1e-6 * extent * extent) return true;
       }
     }
@@ -89,15 +90,17 @@ std::optional<QuickContours> quick_contours(const std::vector<HeadAtWell>& heads
   linear.dfNoDataValue = nodata;
   std::vector<double> grid(static_cast<std::size_t>(nx) * ny);
   CPLErrorReset();
-  if (GDALGridCreate(GGA_Linear, &linear, static_cast<GUInt32>(heads.size()), x.data(), y.data(), z.data(),
-                     x0, x1, y0, y1, nx, ny, GDT_Float64, grid.data(), nullptr, nullptr) != CE_None) {
-    throw ComputationError("gridding the heads for contours failed: " + std::string(CPLGetLastErrorMsg()));
+  if (GDALGridCreate(GGA_Linear, &linear, static_cast<GUInt32>(heads.size()), x.data(), y.data(),
+                     z.data(), x0, x1, y0, y1, nx, ny, GDT_Float64, grid.data(), nullptr,
+                     nullptr) != CE_None) {
+    throw ComputationError("gridding the heads for contours failed: " +
+                           std::string(CPLGetLastErrorMsg()));
   }
 
   // Row j of the grid holds the nodes at y0 + (j + 0.5) cell (south first).
   GDALAllRegister();
-  Dataset raster(GDALCreate(GDALGetDriverByName("MEM"), "", static_cast<int>(nx), static_cast<int>(ny), 1,
-                            GDT_Float64, nullptr));
+  Dataset raster(GDALCreate(GDALGetDriverByName("MEM"), "", static_cast<int>(nx),
+                            static_cast<int>(ny), 1, GDT_Float64, nullptr));
   if (!raster) throw ComputationError("cannot create the in-memory grid for contours");
   double transform[6] = {x0, out.cell, 0.0, y0, 0.0, out.cell};
   GDALSetGeoTransform(raster.get(), transform);
@@ -110,7 +113,8 @@ std::optional<QuickContours> quick_contours(const std::vector<HeadAtWell>& heads
 
   Dataset lines(GDALCreate(GDALGetDriverByName("Memory"), "", 0, 0, 0, GDT_Unknown, nullptr));
   if (!lines) throw ComputationError("cannot create the in-memory contour layer");
-  OGRLayerH layer = GDALDatasetCreateLayer(lines.get(), "contours", nullptr, wkbLineString, nullptr);
+  OGRLayerH layer =
+      GDALDatasetCreateLayer(lines.get(), "contours", nullptr, wkbLineString, nullptr);
   OGRFieldDefnH id_field = OGR_Fld_Create("id", OFTInteger);
   OGRFieldDefnH level_field = OGR_Fld_Create("level", OFTReal);
   OGR_L_CreateField(layer, id_field, TRUE);
@@ -119,8 +123,9 @@ std::optional<QuickContours> quick_contours(const std::vector<HeadAtWell>& heads
   OGR_Fld_Destroy(level_field);
   const std::string interval_option = fmt::format("LEVEL_INTERVAL={}", out.interval);
   const std::string nodata_option = fmt::format("NODATA={}", nodata);
-  const char* options[] = {interval_option.c_str(), "LEVEL_BASE=0", nodata_option.c_str(),
-                           "ID_FIELD=0", "ELEV_FIELD=1", nullptr};
+  const char* options[] = {interval_option.c_str(), "LEVEL_BASE=0",
+                           nodata_option.c_str(),   "ID_FIELD=0",
+                           "ELEV_FIELD=1",          nullptr};
   if (GDALContourGenerateEx(band, layer, options, nullptr, nullptr) != CE_None) {
     throw ComputationError("contouring the heads failed: " + std::string(CPLGetLastErrorMsg()));
   }
@@ -145,7 +150,8 @@ void write_contours_geopackage(const QuickContours& contours, const std::string&
                                const std::string& reference, const std::filesystem::path& path) {
   GDALAllRegister();
   CPLSetThreadLocalConfigOption("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");  // reproducible
-  Dataset gpkg(GDALCreate(GDALGetDriverByName("GPKG"), path.string().c_str(), 0, 0, 0, GDT_Unknown, nullptr));
+  Dataset gpkg(GDALCreate(GDALGetDriverByName("GPKG"), path.string().c_str(), 0, 0, 0, GDT_Unknown,
+                          nullptr));
   if (!gpkg) throw OutputError("cannot create contours.gpkg: " + std::string(CPLGetLastErrorMsg()));
   OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
   if (OSRSetFromUserInput(srs, crs.c_str()) != OGRERR_NONE) {
@@ -154,14 +160,16 @@ void write_contours_geopackage(const QuickContours& contours, const std::string&
   }
   OGRLayerH layer = GDALDatasetCreateLayer(gpkg.get(), "contours", srs, wkbLineString, nullptr);
   OSRDestroySpatialReference(srs);
-  if (!layer) throw OutputError("cannot create the contours layer: " + std::string(CPLGetLastErrorMsg()));
+  if (!layer)
+    throw OutputError("cannot create the contours layer: " + std::string(CPLGetLastErrorMsg()));
   for (const char* name : {"level", "reference"}) {
     OGRFieldDefnH field = OGR_Fld_Create(name, std::string(name) == "level" ? OFTReal : OFTString);
     OGR_L_CreateField(layer, field, TRUE);
     OGR_Fld_Destroy(field);
   }
   GDALSetMetadataItem(gpkg.get(), "VERTICAL_REFERENCE", reference.c_str(), nullptr);
-  GDALSetMetadataItem(gpkg.get(), "CONTOUR_INTERVAL_M", fmt::format("{}", contours.interval).c_str(), nullptr);
+  GDALSetMetadataItem(gpkg.get(), "CONTOUR_INTERVAL_M",
+                      fmt::format("{}", contours.interval).c_str(), nullptr);
   if (OGR_L_StartTransaction(layer) != OGRERR_NONE) {
     throw OutputError("cannot start writing contours.gpkg: " + std::string(CPLGetLastErrorMsg()));
   }

@@ -1,7 +1,8 @@
 #include "levelhead/density.hpp"
 
-#include <cmath>
 #include <fmt/format.h>
+
+#include <cmath>
 
 #include "levelhead/errors.hpp"
 
@@ -11,13 +12,17 @@ namespace levelhead {
 // ocean water (Bigg 1967) plus the salinity terms of Millero and Poisson (1981).
 double water_density_eos80(double s, double t) {
   if (!(s >= 0.0 && s <= 42.0) || !(t >= -2.0 && t <= 40.0)) {
-    throw OptionError(fmt::format("salinity {} and temperature {} degrees C lie outside the range "
-                                  "of the EOS-80 equation of state (0-42, -2..40 degrees C)",
-                                  s, t));
+    throw OptionError(
+        fmt::format("salinity {} and temperature {} degrees C lie outside the range "
+                    "of the EOS-80 equation of state (0-42, -2..40 degrees C)",
+                    s, t));
   }
-  const double rho_w = 999.842594 + t * (6.793952e-2 + t * (-9.095290e-3 + t * (1.001685e-4 +
-                                        t * (-1.120083e-6 + t * 6.536332e-9))));
-  const double a = 8.24493e-1 + t * (-4.0899e-3 + t * (7.6438e-5 + t * (-8.2467e-7 + t * 5.3875e-9)));
+  const double rho_w =
+      999.842594 +
+      t * (6.793952e-2 +
+           t * (-9.095290e-3 + t * (1.001685e-4 + t * (-1.120083e-6 + t * 6.536332e-9))));
+  const double a =
+      8.24493e-1 + t * (-4.0899e-3 + t * (7.6438e-5 + t * (-8.2467e-7 + t * 5.3875e-9)));
   const double b = -5.72466e-3 + t * (1.0227e-4 - t * 1.6546e-6);
   const double c = 4.8314e-4;
   return rho_w + a * s + b * s * std::sqrt(s) + c * s * s;

@@ -1,15 +1,15 @@
 #include "levelhead/heads.hpp"
 
+#include <cpl_conv.h>
+#include <fmt/format.h>
 #include <gdal.h>
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
-#include <cpl_conv.h>
 
 #include <algorithm>
 #include <charconv>
 #include <cmath>
 #include <deque>
-#include <fmt/format.h>
 #include <nlohmann/json.hpp>
 
 #include "levelhead/density.hpp"
@@ -30,14 +30,16 @@ void HeadOptions::validate() const {
   util::require_positive(synoptic_window_hours, "synoptic window", "h");
   util::require_positive(max_depth, "largest plausible depth", "m");
   util::require_positive(history_tolerance, "history tolerance", "m");
-  if (map_contour_interval) util::require_positive(*map_contour_interval, "map contour interval", "m");
+  if (map_contour_interval)
+    util::require_positive(*map_contour_interval, "map contour interval", "m");
   if (target.empty()) throw OptionError("a target reference is needed (--to)");
   if (environmental_reference && !std::isfinite(*environmental_reference)) {
     throw OptionError("the environmental-head reference elevation must be a number (m)");
   }
 }
 
-std::optional<double> method_sigma(const std::string& method, std::optional<double> contour_interval) {
+std::optional<double> method_sigma(const std::string& method,
+                                   std::optional<double> contour_interval) {
   const std::string m = util::to_lower(method);
   if (m == "levelled" || m == "leveled" || m == "levelling") return 0.005;
   if (m == "gnss" || m == "gps" || m == "rtk") return 0.03;
@@ -45,8 +47,9 @@ std::optional<double> method_sigma(const std::string& method, std::optional<doub
   if (m == "altimeter") return 1.0;
   if (m == "map") {
     if (!contour_interval) {
-      throw OptionError("a measuring point read from a map has no sigma: give the map's contour "
-                        "interval (--map-contour-interval) or the record's sigma");
+      throw OptionError(
+          "a measuring point read from a map has no sigma: give the map's contour "
+          "interval (--map-contour-interval) or the record's sigma");
     }
     return 0.5 * *contour_interval;
   }
@@ -78,8 +81,9 @@ MonitoredHeights read_monitored_heights(const Table& t) {
     const std::string id(t.cell(r, point));
     const auto when = parse_iso8601(t.cell(r, time));
     if (!when) {
-      throw InputError(t.location(r, time), std::string(t.cell(r, time)),
-                       "expected an ISO 8601 time, as heights_by_epoch.csv of `levelhead epochs` has");
+      throw InputError(
+          t.location(r, time), std::string(t.cell(r, time)),
+          "expected an ISO 8601 time, as heights_by_epoch.csv of `levelhead epochs` has");
     }
     const auto h = t.length(r, height);
     if (!h) throw InputError(t.location(r, height), "", "every epoch height needs a value");
@@ -88,15 +92,17 @@ MonitoredHeights read_monitored_heights(const Table& t) {
     if (series.epochs.empty()) {
       series.reference = ref;
     } else if (series.reference != ref) {
-      throw InputError(t.location(r, reference), ref,
-                       fmt::format("point '{}' has epochs in '{}' and '{}'; one reference per point",
-                                   id, series.reference, ref));
+      throw InputError(
+          t.location(r, reference), ref,
+          fmt::format("point '{}' has epochs in '{}' and '{}'; one reference per point", id,
+                      series.reference, ref));
     }
     series.epochs.push_back({when->seconds, *h, sigma ? t.length(r, *sigma).value_or(0.0) : 0.0});
   }
   for (auto& [id, series] : out) {
-    std::stable_sort(series.epochs.begin(), series.epochs.end(),
-                     [](const MonitoredEpoch& a, const MonitoredEpoch& b) { return a.time < b.time; });
+    std::stable_sort(
+        series.epochs.begin(), series.epochs.end(),
+        [](const MonitoredEpoch& a, const MonitoredEpoch& b) { return a.time < b.time; });
   }
   return out;
 }
@@ -107,7 +113,7 @@ MonitoredHeights read_monitored_heights(const Table& t) {
 MonitoredValue monitored_at(const MonitoredSeries& series, double time) {
   const auto& e = series.epochs;
   if (e.size() == 1) return {e[0].height, e[0].sigma, std::abs(time - e[0].time) > 0.5};
-  const bool before = time < e.front().time, after = time > e.back().time;
+  const bool before = time<e.front().time, after = time> e.back().time;
   std::size_t i = 1;
   while (i + 1 < e.size() && e[i].time < time) ++i;
   const MonitoredEpoch& a = e[i - 1];
@@ -161,17 +167,17 @@ struct WellState {
   double event_distance = INFINITY;
   bool repeat_problem = false;
   std::vector<std::pair<double, double>> series;  // (time, head) of contourable numeric heads
-  std::deque<std::pair<double, double>> recent;  // (time, head) within the repeat window
+  std::deque<std::pair<double, double>> recent;   // (time, head) within the repeat window
 };
 
 }  // namespace
 
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
                            const NetworkHeights& network, const MonitoredHeights& monitored,
-                           const ReferenceSet& references,
-                           const ProjSettings& settings, const HeadOptions& options,
-                           const std::filesystem::path& levels, const TableOptions& levels_table,
-                           const std::filesystem::path& folder, bool geopackage) {
+                           const ReferenceSet& references, const ProjSettings& settings,
+                           const HeadOptions& options, const std::filesystem::path& levels,
+                           const TableOptions& levels_table, const std::filesystem::path& folder,
+                           bool geopackage) {
   options.validate();
   std::vector<QaEntry> qa;  // measuring-point entries; reading entries are streamed
 
@@ -184,7 +190,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     std::string datum = m.datum;
     // A point seen in one epoch only shows no movement: the network's height is used.
     auto monitored_point = m.point.empty() ? monitored.end() : monitored.find(m.point);
-    if (monitored_point != monitored.end() && monitored_point->second.epochs.size() < 2) monitored_point = monitored.end();
+    if (monitored_point != monitored.end() && monitored_point->second.epochs.size() < 2)
+      monitored_point = monitored.end();
     if (!m.moves_with.empty()) {
       const auto it = monitored.find(m.moves_with);
       if (it == monitored.end()) {
@@ -245,7 +252,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     } catch (const ReferenceError& e) {
       std::vector<std::string> named;
       for (std::size_t k : indices) {
-        if (named.size() < 5) named.push_back(fmt::format("well '{}' (row {})", records[k].well, records[k].row));
+        if (named.size() < 5)
+          named.push_back(fmt::format("well '{}' (row {})", records[k].well, records[k].row));
       }
       throw ReferenceError(fmt::format(
           "measuring points of {}{} are in '{}', which cannot be brought into '{}': {}. Define "
@@ -267,7 +275,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       const std::size_t k = indices[j];
       if (!converted[j].height) {
         throw ReferenceError(fmt::format(
-            "well '{}' (measuring points row {}): its height in '{}' cannot be brought into '{}': {}",
+            "well '{}' (measuring points row {}): its height in '{}' cannot be brought into '{}': "
+            "{}",
             records[k].well, records[k].row, datum, options.target, converted[j].failure));
       }
       MeasuringPointElevation& e = elevation[k];
@@ -346,11 +355,16 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     layer = GDALDatasetCreateLayer(gpkg, "heads", srs, wkbPoint, nullptr);
     OSRDestroySpatialReference(srs);
     for (const auto& [name, type] :
-         std::vector<std::pair<const char*, OGRFieldType>>{{"well", OFTString}, {"time", OFTString},
-                                                           {"time_utc", OFTString}, {"head", OFTReal},
-                                                           {"sigma", OFTReal}, {"datum", OFTString},
-                                                           {"mp_elevation", OFTReal}, {"state", OFTString},
-                                                           {"flags", OFTString}, {"contour", OFTString}}) {
+         std::vector<std::pair<const char*, OGRFieldType>>{{"well", OFTString},
+                                                           {"time", OFTString},
+                                                           {"time_utc", OFTString},
+                                                           {"head", OFTReal},
+                                                           {"sigma", OFTReal},
+                                                           {"datum", OFTString},
+                                                           {"mp_elevation", OFTReal},
+                                                           {"state", OFTString},
+                                                           {"flags", OFTString},
+                                                           {"contour", OFTString}}) {
       OGRFieldDefnH field = OGR_Fld_Create(name, type);
       OGR_L_CreateField(layer, field, 1);
       OGR_Fld_Destroy(field);
@@ -412,8 +426,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       const std::string time_text(t.cell(r, time_col));
       const auto when = parse_iso8601(time_text);
       if (!when) {
-        throw InputError(t.location(r, time_col), time_text,
-                         "expected an ISO 8601 time, e.g. 2026-10-06T08:30 or 2026-10-06T08:30+02:00");
+        throw InputError(
+            t.location(r, time_col), time_text,
+            "expected an ISO 8601 time, e.g. 2026-10-06T08:30 or 2026-10-06T08:30+02:00");
       }
       const double time = when->seconds;
       std::vector<std::string> flags;
@@ -423,7 +438,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
           const std::size_t space = given.find(' ');
           const std::string_view flag = given.substr(0, space);
           if (!flag.empty()) flags.emplace_back(flag);
-          given = space == std::string_view::npos ? std::string_view() : util::trim(given.substr(space));
+          given = space == std::string_view::npos ? std::string_view()
+                                                  : util::trim(given.substr(space));
         }
       }
 
@@ -435,10 +451,11 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       if (parse_number(depth_text, value)) {
         depth = value * unit;
         if (std::abs(*depth) > options.max_depth) {
-          throw InputError(t.location(r, depth_col), std::string(depth_text),
-                           fmt::format("a depth of {:.0f} m is not plausible (largest accepted {:.0f} "
-                                       "m); are the depths in another unit than --unit says?",
-                                       *depth, options.max_depth));
+          throw InputError(
+              t.location(r, depth_col), std::string(depth_text),
+              fmt::format("a depth of {:.0f} m is not plausible (largest accepted {:.0f} "
+                          "m); are the depths in another unit than --unit says?",
+                          *depth, options.max_depth));
         }
       } else if (!depth_text.empty() && (depth_text.front() == '>' || depth_text.front() == '<') &&
                  parse_number(depth_text.substr(1), value)) {
@@ -475,10 +492,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         throw InputError(t.location(r, well_col), well_id,
                          "this well has no measuring-point record; add its survey");
       }
-      auto after = std::upper_bound(h.records.begin(), h.records.end(), time,
-                                    [&](double tt, std::size_t k) {
-                                      return tt < records[k].valid_from.seconds;
-                                    });
+      auto after = std::upper_bound(
+          h.records.begin(), h.records.end(), time,
+          [&](double tt, std::size_t k) { return tt < records[k].valid_from.seconds; });
       std::size_t k;
       if (after == h.records.begin()) {
         if (!options.allow_before_first) {
@@ -499,12 +515,14 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         // Ground movement from the levelling epochs (heads.hpp).
         const MonitoredValue now = monitored_at(*e.motion, time);
         mp += now.height - e.motion_base.height;
-        const double kept = e.follows_point ? std::max(mp_sigma * mp_sigma - e.motion_base.sigma * e.motion_base.sigma, 0.0)
-                                            : mp_sigma * mp_sigma;
+        const double kept =
+            e.follows_point
+                ? std::max(mp_sigma * mp_sigma - e.motion_base.sigma * e.motion_base.sigma, 0.0)
+                : mp_sigma * mp_sigma;
         mp_sigma = std::sqrt(kept + now.sigma * now.sigma);
         if (now.extrapolated) flags.push_back("mp-motion-extrapolated");
       } else if (options.interpolate && after != h.records.begin() && after != h.records.end() &&
-          !records[*after].starts_new_series()) {
+                 !records[*after].starts_new_series()) {
         const std::size_t next = *after;
         const double t0 = records[k].valid_from.seconds, t1 = records[next].valid_from.seconds;
         const double f = (time - t0) / (t1 - t0);
@@ -539,13 +557,15 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
           const double screen = *well.ground - 0.5 * (*well.screen_top + *well.screen_bottom);
           fresh_head = freshwater_head(*head, *density, screen);
           if (options.environmental_reference && well.column_density) {
-            environmental = environmental_head(*fresh_head, *well.column_density, screen, *options.environmental_reference);
+            environmental = environmental_head(*fresh_head, *well.column_density, screen,
+                                               *options.environmental_reference);
           }
         } else {
           flags.push_back("freshwater-head-needs-screen");
         }
       }
-      if (head && well.ground && !flowing && *head > *well.ground) flags.push_back("water-above-ground");
+      if (head && well.ground && !flowing && *head > *well.ground)
+        flags.push_back("water-above-ground");
       if (head && well.ground && well.screen_bottom && *head < *well.ground - *well.screen_bottom) {
         flags.push_back("below-screen-bottom");
       }
@@ -570,9 +590,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
           if (std::abs(other_head - *head) > options.repeat_tolerance) {
             flags.push_back("repeat-disagrees");
             write_qa({well_id, time_text, "repeat-disagrees",
-                          fmt::format("{:+.3f} m against the reading at {}", *head - other_head,
-                                      format_utc(other_time)),
-                          t.source_row(r), "levels"});
+                      fmt::format("{:+.3f} m against the reading at {}", *head - other_head,
+                                  format_utc(other_time)),
+                      t.source_row(r), "levels"});
             break;
           }
         }
@@ -595,16 +615,18 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         }
         // An earlier stage rejected the reading (e.g. transducer-drift-rejected).
         for (const std::string& f : flags) {
-          if (reason.empty() && f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0) reason = f;
+          if (reason.empty() && f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0)
+            reason = f;
         }
       }
       const bool contour = reason.empty();
       if (contour && options.event && std::abs(time - *options.event) < ws.event_distance) {
         ws.event_distance = std::abs(time - *options.event);
         std::optional<double> middle;
-        if (well.screen_top && well.screen_bottom) middle = 0.5 * (*well.screen_top + *well.screen_bottom);
-        ws.event = EventHead{well_id, well.aquifer, well.nest, time_text, well.x, well.y, *head, sigma,
-                             middle};
+        if (well.screen_top && well.screen_bottom)
+          middle = 0.5 * (*well.screen_top + *well.screen_bottom);
+        ws.event = EventHead{well_id, well.aquifer, well.nest, time_text, well.x,
+                             well.y,  *head,        sigma,     middle};
       }
       if (std::find(flags.begin(), flags.end(), "repeat-disagrees") != flags.end()) {
         ws.repeat_problem = true;
@@ -636,8 +658,10 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       row += ',';
       append_csv_cell(row, time_text);
       row += ',';
-      if (head) fmt::format_to(to, "{:.{}f},{:.{}f}", *head, dp, sigma, dp + 1);
-      else row += ',';
+      if (head)
+        fmt::format_to(to, "{:.{}f},{:.{}f}", *head, dp, sigma, dp + 1);
+      else
+        row += ',';
       row += ',';
       row += target_cell;
       row += ',';
@@ -681,7 +705,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         OGR_F_SetGeometryDirectly(f, g);
         const OGRErr err = OGR_L_CreateFeature(layer, f);
         OGR_F_Destroy(f);
-        if (err != OGRERR_NONE) throw OutputError("writing heads.gpkg failed: " + std::string(CPLGetLastErrorMsg()));
+        if (err != OGRERR_NONE)
+          throw OutputError("writing heads.gpkg failed: " + std::string(CPLGetLastErrorMsg()));
       }
     }
   });
@@ -712,12 +737,14 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     std::vector<double> magnitude;
     for (double d : departure) magnitude.push_back(std::abs(d));
     std::nth_element(magnitude.begin(), magnitude.begin() + magnitude.size() / 2, magnitude.end());
-    const double limit = std::max(options.history_tolerance, 5.0 * 1.4826 * magnitude[magnitude.size() / 2]);
+    const double limit =
+        std::max(options.history_tolerance, 5.0 * 1.4826 * magnitude[magnitude.size() / 2]);
     for (std::size_t i = 0; i < series.size(); ++i) {
       if (std::abs(departure[i]) <= limit) continue;
       const std::string when = format_utc(series[i].first);
       write_qa({wells.wells[w].id, when, "departs-from-history",
-                fmt::format("{:+.3f} m from the well's running median", departure[i]), 0, "levels"});
+                fmt::format("{:+.3f} m from the well's running median", departure[i]), 0,
+                "levels"});
       history_departures[wells.wells[w].id].push_back(
           fmt::format("head at {} departs {:+.3f} m from its own trend", when, departure[i]));
       ++summary.flags["departs-from-history"];
@@ -740,21 +767,25 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       const EventCheck& c = e.wells[i];
       const int dp = decimals_for(h.sigma);
       ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
-         << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ',' << csv_cell(h.aquifer)
-         << ',' << csv_cell(h.nest) << ','
+         << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ','
+         << csv_cell(h.aquifer) << ',' << csv_cell(h.nest) << ','
          << (c.prediction ? fmt::format("{:.{}f}", *c.prediction, dp) : "") << ','
          << (c.misfit ? fmt::format("{:+.{}f}", *c.misfit, dp) : "") << ','
          << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
       for (const std::string& f : c.flags) {
         if (f == "neighbour-misfit") {
-          remeasure[h.well].push_back(fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
+          remeasure[h.well].push_back(
+              fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
         }
-        if (f == "mp-sigma-large") remeasure[h.well].push_back("measuring point too uncertain beside its neighbours");
+        if (f == "mp-sigma-large")
+          remeasure[h.well].push_back("measuring point too uncertain beside its neighbours");
       }
     }
     for (std::size_t w = 0; w < wells.wells.size(); ++w) {
-      if (!state[w].event) remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
-      if (state[w].repeat_problem) remeasure[wells.wells[w].id].push_back("repeat readings disagree");
+      if (!state[w].event)
+        remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
+      if (state[w].repeat_problem)
+        remeasure[wells.wells[w].id].push_back("repeat readings disagree");
       for (const std::string& d : history_departures[wells.wells[w].id]) {
         remeasure[wells.wells[w].id].push_back(d);
       }
@@ -769,7 +800,8 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     std::ostream& rm = out.open("remeasure.csv");
     rm << "well,reasons\n";
     for (const auto& [well_id, reasons] : remeasure) {
-      rm << csv_cell(well_id) << ',' << csv_cell(fmt::format("{}", fmt::join(reasons, "; "))) << '\n';
+      rm << csv_cell(well_id) << ',' << csv_cell(fmt::format("{}", fmt::join(reasons, "; ")))
+         << '\n';
     }
     event_summary = {{"centre", format_utc(*options.event)},
                      {"wells_with_reading", event_heads.size()},

@@ -84,8 +84,10 @@ std::optional<double> parse_offset(std::string_view text) {
 
 std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells) {
   const std::size_t id = t.require_column("sensor"), kind = t.require_column("kind");
-  const auto well = t.find_column("well"), baro = t.find_column("barometer"), hung = t.find_column("hung_depth");
-  const auto range = t.find_column("range_kpa"), sigma = t.find_column("sigma"), offset = t.find_column("utc_offset");
+  const auto well = t.find_column("well"), baro = t.find_column("barometer"),
+             hung = t.find_column("hung_depth");
+  const auto range = t.find_column("range_kpa"), sigma = t.find_column("sigma"),
+             offset = t.find_column("utc_offset");
   const auto x = t.find_column("x"), y = t.find_column("y"), elevation = t.find_column("elevation");
   std::map<std::string, Sensor> out;
   for (std::size_t r = 0; r < t.row_count(); ++r) {
@@ -107,23 +109,28 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
     if (offset) {
       s.utc_offset_text = std::string(t.cell(r, *offset));
       const auto o = parse_offset(s.utc_offset_text);
-      if (!o) throw InputError(t.location(r, *offset), s.utc_offset_text, "expected a zone like -06:00, +01:00 or Z");
+      if (!o)
+        throw InputError(t.location(r, *offset), s.utc_offset_text,
+                         "expected a zone like -06:00, +01:00 or Z");
       s.utc_offset = *o;
     }
     if (s.kind == "barometer") {
       if (!s.x || !s.y || !s.elevation) {
-        throw InputError(t.location(r, id), s.id, "a barometer needs x, y and elevation (m) to be matched to wells");
+        throw InputError(t.location(r, id), s.id,
+                         "a barometer needs x, y and elevation (m) to be matched to wells");
       }
     } else {
       if (!wells.index.count(s.well)) {
-        throw InputError(t.location(r, well ? *well : id), s.well, "this sensor's well is not in the wells table");
+        throw InputError(t.location(r, well ? *well : id), s.well,
+                         "this sensor's well is not in the wells table");
       }
       if (s.kind == "absolute" && s.barometer.empty()) {
         throw InputError(t.location(r, baro ? *baro : id), "",
                          "an absolute sensor needs a barometer to subtract the air pressure");
       }
     }
-    if (!out.emplace(s.id, s).second) throw InputError(t.location(r, id), s.id, "two sensors of this id");
+    if (!out.emplace(s.id, s).second)
+      throw InputError(t.location(r, id), s.id, "two sensors of this id");
   }
   for (auto& [sid, s] : out) {
     if (s.barometer.empty()) continue;
@@ -142,9 +149,12 @@ void read_records(const Table& t, std::map<std::string, Sensor>& sensors) {
   for (std::size_t r = 0; r < t.row_count(); ++r) {
     const std::string id(t.cell(r, sensor));
     const auto it = sensors.find(id);
-    if (it == sensors.end()) throw InputError(t.location(r, sensor), id, "this sensor is not in the sensors table");
+    if (it == sensors.end())
+      throw InputError(t.location(r, sensor), id, "this sensor is not in the sensors table");
     const auto when = parse_iso8601(t.cell(r, time));
-    if (!when) throw InputError(t.location(r, time), std::string(t.cell(r, time)), "expected an ISO 8601 time");
+    if (!when)
+      throw InputError(t.location(r, time), std::string(t.cell(r, time)),
+                       "expected an ISO 8601 time");
     const auto p = t.number(r, pressure);
     if (!p) throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
     // Logger clocks kept in a local zone are brought to UTC.
@@ -152,7 +162,8 @@ void read_records(const Table& t, std::map<std::string, Sensor>& sensors) {
     it->second.samples.push_back({utc, *p, t.source_row(r)});
   }
   for (auto& [id, s] : sensors) {
-    std::stable_sort(s.samples.begin(), s.samples.end(), [](const Sample& a, const Sample& b) { return a.time < b.time; });
+    std::stable_sort(s.samples.begin(), s.samples.end(),
+                     [](const Sample& a, const Sample& b) { return a.time < b.time; });
   }
 }
 
@@ -185,24 +196,27 @@ struct Check {
 
 }  // namespace
 
-TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table, const Table& records,
-                                     const Table& manual, const TransducerOptions& options,
+TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table,
+                                     const Table& records, const Table& manual,
+                                     const TransducerOptions& options,
                                      const std::filesystem::path& folder) {
   options.validate();
   std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
   read_records(records, sensors);
 
   // Manual readings: passed through as they are, and the checks.
-  const std::size_t well_col = manual.require_column("well"), time_col = manual.require_column("time");
+  const std::size_t well_col = manual.require_column("well"),
+                    time_col = manual.require_column("time");
   const std::size_t depth_col = manual.require_column("depth");
   // The output speaks levelhead's column names, whatever the column map.
   std::vector<std::string> columns = manual.column_names();
-  for (const char* ours : {"well", "time", "depth", "status", "sigma", "method", "flags", "above", "density",
-                           "temperature", "salinity"}) {
+  for (const char* ours : {"well", "time", "depth", "status", "sigma", "method", "flags", "above",
+                           "density", "temperature", "salinity"}) {
     if (const auto c = manual.find_column(ours)) columns[*c] = ours;
   }
   for (const char* extra : {"sigma", "method", "flags"}) {
-    if (std::find(columns.begin(), columns.end(), extra) == columns.end()) columns.emplace_back(extra);
+    if (std::find(columns.begin(), columns.end(), extra) == columns.end())
+      columns.emplace_back(extra);
   }
   std::unordered_map<std::string, std::vector<ManualReading>> by_well;
   std::vector<OutputRow> rows;
@@ -210,13 +224,16 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     const std::string well(manual.cell(r, well_col));
     const auto when = parse_iso8601(manual.cell(r, time_col));
     if (!when) {
-      throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)), "expected an ISO 8601 time");
+      throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)),
+                       "expected an ISO 8601 time");
     }
     double depth = 0.0;
     const std::string_view depth_text = util::trim(manual.cell(r, depth_col));
-    const auto [end, ec] = std::from_chars(depth_text.data(), depth_text.data() + depth_text.size(), depth);
+    const auto [end, ec] =
+        std::from_chars(depth_text.data(), depth_text.data() + depth_text.size(), depth);
     ManualReading m{when->seconds, std::nullopt};
-    if (ec == std::errc() && end == depth_text.data() + depth_text.size()) m.depth = depth * metres_per_unit(manual.length_unit());
+    if (ec == std::errc() && end == depth_text.data() + depth_text.size())
+      m.depth = depth * metres_per_unit(manual.length_unit());
     by_well[well].push_back(m);
     std::string line;
     for (std::size_t c = 0; c < columns.size(); ++c) {
@@ -226,7 +243,8 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     rows.push_back({well, when->seconds, std::move(line)});
   }
   for (auto& [w, list] : by_well) {
-    std::sort(list.begin(), list.end(), [](const ManualReading& a, const ManualReading& b) { return a.time < b.time; });
+    std::sort(list.begin(), list.end(),
+              [](const ManualReading& a, const ManualReading& b) { return a.time < b.time; });
   }
 
   OutputSet out(folder);
@@ -237,13 +255,17 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
 
   TransducerSummary summary;
   summary.manual = manual.row_count();
-  const double baro_gap = options.max_baro_gap_hours * 3600.0, check_gap = options.max_check_gap_hours * 3600.0;
+  const double baro_gap = options.max_baro_gap_hours * 3600.0,
+               check_gap = options.max_check_gap_hours * 3600.0;
   const double window = options.manual_window_hours * 3600.0;
   const auto index_of = [&](const char* name) {
-    return static_cast<std::size_t>(std::find(columns.begin(), columns.end(), name) - columns.begin());
+    return static_cast<std::size_t>(std::find(columns.begin(), columns.end(), name) -
+                                    columns.begin());
   };
-  const std::size_t depth_index = index_of("depth"), well_index = index_of("well"), time_index = index_of("time");
-  const std::size_t sigma_index = index_of("sigma"), method_index = index_of("method"), flags_index = index_of("flags");
+  const std::size_t depth_index = index_of("depth"), well_index = index_of("well"),
+                    time_index = index_of("time");
+  const std::size_t sigma_index = index_of("sigma"), method_index = index_of("method"),
+                    flags_index = index_of("flags");
 
   for (auto& [id, sensor] : sensors) {
     if (sensor.kind == "barometer") continue;
@@ -260,19 +282,22 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     if (baro) {
       const double distance = std::hypot(*baro->x - well.x, *baro->y - well.y);
       if (distance > options.max_baro_distance) {
-        throw InputError(CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
-                         fmt::format("barometer '{}' is {:.0f} m from well '{}', beyond --max-baro-distance "
-                                     "({:.0f} m): its air pressure may not be the well's",
-                                     baro->id, distance, well.id, options.max_baro_distance));
+        throw InputError(
+            CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
+            fmt::format("barometer '{}' is {:.0f} m from well '{}', beyond --max-baro-distance "
+                        "({:.0f} m): its air pressure may not be the well's",
+                        baro->id, distance, well.id, options.max_baro_distance));
       }
       if (!well.ground) {
         ++s.flags["baro-elevation-unchecked"];
-      } else if (std::abs(*baro->elevation - *well.ground) > options.max_baro_elevation_difference) {
-        throw InputError(CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
-                         fmt::format("barometer '{}' stands {:.0f} m above or below well '{}', beyond "
-                                     "--max-baro-elevation-difference ({:.0f} m)",
-                                     baro->id, std::abs(*baro->elevation - *well.ground), well.id,
-                                     options.max_baro_elevation_difference));
+      } else if (std::abs(*baro->elevation - *well.ground) >
+                 options.max_baro_elevation_difference) {
+        throw InputError(
+            CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
+            fmt::format("barometer '{}' stands {:.0f} m above or below well '{}', beyond "
+                        "--max-baro-elevation-difference ({:.0f} m)",
+                        baro->id, std::abs(*baro->elevation - *well.ground), well.id,
+                        options.max_baro_elevation_difference));
       }
     }
 
@@ -289,14 +314,20 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       std::optional<double> air;
       if (baro) air = interpolate(baro->samples, sample.time, baro_gap);
       if (sensor.kind == "absolute" && !air) {
-        qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(sample.time) << ',' << sample.row
-               << ",baro-gap,no barometer sample within " << options.max_baro_gap_hours << " h on each side\n";
+        qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(sample.time)
+               << ',' << sample.row << ",baro-gap,no barometer sample within "
+               << options.max_baro_gap_hours << " h on each side\n";
         ++s.flags["baro-gap"];
         continue;
       }
       const double water = sensor.kind == "absolute" ? sample.pressure - *air : sample.pressure;
-      Reading reading{sample.time, hung - water_column(water, s.density, s.gravity),
-                      air ? water_column(*air, s.density, s.gravity) : 0.0, air.has_value(), false, {}, sample.row};
+      Reading reading{sample.time,
+                      hung - water_column(water, s.density, s.gravity),
+                      air ? water_column(*air, s.density, s.gravity) : 0.0,
+                      air.has_value(),
+                      false,
+                      {},
+                      sample.row};
       if (sensor.range_kpa && (sample.pressure < 0.0 || sample.pressure > *sensor.range_kpa)) {
         reading.flags.emplace_back("transducer-range-rejected");
       } else if (water < 0.0) {
@@ -322,10 +353,11 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     s.checks = checks.size();
     if (!sensor.hung_depth) {
       if (checks.empty()) {
-        throw InputError(CellLocation{sensors_table.source(), sensor.row, "hung_depth"}, "",
-                         fmt::format("sensor '{}' has no hung depth and no manual reading of well '{}' within "
-                                     "{} h of a record to calibrate it on; give hung_depth or a tape reading",
-                                     id, sensor.well, options.max_check_gap_hours));
+        throw InputError(
+            CellLocation{sensors_table.source(), sensor.row, "hung_depth"}, "",
+            fmt::format("sensor '{}' has no hung depth and no manual reading of well '{}' within "
+                        "{} h of a record to calibrate it on; give hung_depth or a tape reading",
+                        id, sensor.well, options.max_check_gap_hours));
       }
       s.calibrated = true;
       s.hung_depth = checks.front().offset;
@@ -340,9 +372,12 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     }
     for (std::size_t i = 0; i < checks.size(); ++i) {
       const double drift = i ? checks[i].offset - checks[i - 1].offset : 0.0;
-      checks_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(checks[i].time) << ','
-                 << fmt::format("{:.4f},{:.4f},{:.4f},{}", checks[i].manual, checks[i].transducer + (s.calibrated ? *s.hung_depth : 0.0),
-                                checks[i].offset - (s.calibrated ? *s.hung_depth : 0.0), i ? fmt::format("{:+.4f}", drift) : "")
+      checks_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ','
+                 << format_utc(checks[i].time) << ','
+                 << fmt::format("{:.4f},{:.4f},{:.4f},{}", checks[i].manual,
+                                checks[i].transducer + (s.calibrated ? *s.hung_depth : 0.0),
+                                checks[i].offset - (s.calibrated ? *s.hung_depth : 0.0),
+                                i ? fmt::format("{:+.4f}", drift) : "")
                  << ',' << (rejected_after[i] ? "yes" : "no") << '\n';
     }
 
@@ -357,10 +392,12 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
         r.flags.emplace_back("transducer-unchecked");
       } else if (r.time <= checks.front().time) {
         correction = checks.front().offset;
-        if (r.time < checks.front().time - check_gap) r.flags.emplace_back("transducer-beyond-checks");
+        if (r.time < checks.front().time - check_gap)
+          r.flags.emplace_back("transducer-beyond-checks");
       } else if (r.time >= checks.back().time) {
         correction = checks.back().offset;
-        if (r.time > checks.back().time + check_gap) r.flags.emplace_back("transducer-beyond-checks");
+        if (r.time > checks.back().time + check_gap)
+          r.flags.emplace_back("transducer-beyond-checks");
       } else {
         std::size_t i = 0;
         while (checks[i + 1].time < r.time) ++i;
@@ -383,8 +420,9 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       }
       previous = &r;
       previous_depth = depth;
-      const bool near_manual = std::any_of(manual_times.begin(), manual_times.end(),
-                                           [&](const ManualReading& m) { return std::abs(m.time - r.time) <= window; });
+      const bool near_manual =
+          std::any_of(manual_times.begin(), manual_times.end(),
+                      [&](const ManualReading& m) { return std::abs(m.time - r.time) <= window; });
       if (near_manual) {
         ++s.near_manual;
         continue;
@@ -397,8 +435,8 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       for (const std::string& f : r.flags) {
         ++s.flags[f];
         if (f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0) {
-          qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ',' << r.row << ','
-                 << f << (no_depth ? ",no depth written\n" : ",not contoured\n");
+          qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ','
+                 << r.row << ',' << f << (no_depth ? ",no depth written\n" : ",not contoured\n");
         }
       }
       if (no_depth) continue;
@@ -408,7 +446,8 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       // In the manual table's unit, which heads reads the whole table in.
       const double unit = metres_per_unit(manual.length_unit());
       cells[depth_index] = fmt::format("{:.4f}", depth / unit);
-      cells[sigma_index] = fmt::format("{:.4f}", sensor.sigma.value_or(options.sensor_sigma) / unit);
+      cells[sigma_index] =
+          fmt::format("{:.4f}", sensor.sigma.value_or(options.sensor_sigma) / unit);
       cells[method_index] = "transducer";
       cells[flags_index] = fmt::format("{}", fmt::join(r.flags, " "));
       std::string line;
@@ -419,7 +458,9 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       rows.push_back({sensor.well, r.time, std::move(line)});
       ++s.written;
     }
-    if (baro) s.efficiency = barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
+    if (baro)
+      s.efficiency =
+          barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
     summary.written += s.written;
     summary.sensors.push_back(std::move(s));
   }
@@ -446,17 +487,25 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
                      {"max_check_gap_hours", options.max_check_gap_hours},
                      {"drift_limit_m", options.drift_limit},
                      {"manual_window_hours", options.manual_window_hours}};
-  json["head_rule"] = "depth = hung_depth - p_water / (rho g) + offset(t); p in Pa, rho in kg/m^3, g in m/s^2";
+  json["head_rule"] =
+      "depth = hung_depth - p_water / (rho g) + offset(t); p in Pa, rho in kg/m^3, g in m/s^2";
   nlohmann::json list = nlohmann::json::array();
   for (const SensorSummary& s : summary.sensors) {
-    nlohmann::json j = {{"sensor", s.sensor},       {"well", s.well},
-                        {"kind", s.kind},           {"barometer", s.barometer},
-                        {"records", s.records},     {"written", s.written},
-                        {"near_manual", s.near_manual}, {"flags", s.flags},
-                        {"density_kg_m3", s.density}, {"gravity_m_s2", s.gravity},
-                        {"hung_depth_m", s.hung_depth ? nlohmann::json(*s.hung_depth) : nlohmann::json(nullptr)},
-                        {"hung_depth_calibrated", s.calibrated}, {"checks", s.checks},
-                        {"largest_drift_m", s.largest_drift}};
+    nlohmann::json j = {
+        {"sensor", s.sensor},
+        {"well", s.well},
+        {"kind", s.kind},
+        {"barometer", s.barometer},
+        {"records", s.records},
+        {"written", s.written},
+        {"near_manual", s.near_manual},
+        {"flags", s.flags},
+        {"density_kg_m3", s.density},
+        {"gravity_m_s2", s.gravity},
+        {"hung_depth_m", s.hung_depth ? nlohmann::json(*s.hung_depth) : nlohmann::json(nullptr)},
+        {"hung_depth_calibrated", s.calibrated},
+        {"checks", s.checks},
+        {"largest_drift_m", s.largest_drift}};
     j["barometric_efficiency"] = s.efficiency ? nlohmann::json{{"value", s.efficiency->value},
                                                                {"sigma", s.efficiency->sigma},
                                                                {"pairs", s.efficiency->pairs}}

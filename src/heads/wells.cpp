@@ -13,7 +13,8 @@ bool MeasuringPointRecord::starts_new_series() const {
 }
 
 WellSet read_wells(const Table& t) {
-  const std::size_t id = t.require_column("id"), x = t.require_column("x"), y = t.require_column("y");
+  const std::size_t id = t.require_column("id"), x = t.require_column("x"),
+                    y = t.require_column("y");
   const auto ground = t.find_column("ground"), ground_datum = t.find_column("ground_datum");
   const auto top = t.find_column("screen_top"), bottom = t.find_column("screen_bottom");
   const auto nest = t.find_column("nest"), aquifer = t.find_column("aquifer");
@@ -51,8 +52,9 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
   const auto source = t.find_column("source"), method = t.find_column("method");
   const auto reason = t.find_column("reason"), moves_with = t.find_column("moves_with");
   if (!height && !point) {
-    throw InputError(t.source(), "the measuring-point table needs a 'height' column (with "
-                                 "'datum') or a 'point' column naming adjusted network points");
+    throw InputError(t.source(),
+                     "the measuring-point table needs a 'height' column (with "
+                     "'datum') or a 'point' column naming adjusted network points");
   }
   std::vector<MeasuringPointRecord> out;
   const auto text = [&](std::size_t r, std::optional<std::size_t> c) {
@@ -81,8 +83,9 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
     m.reason = text(r, reason);
     m.moves_with = text(r, moves_with);
     if (!m.height && m.point.empty()) {
-      throw InputError(t.location(r, height ? *height : well), "",
-                       "a measuring-point record needs a height (with its datum) or a network point");
+      throw InputError(
+          t.location(r, height ? *height : well), "",
+          "a measuring-point record needs a height (with its datum) or a network point");
     }
     if (m.height && m.datum.empty()) {
       throw InputError(t.location(r, datum ? *datum : *height), "",

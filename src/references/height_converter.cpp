@@ -1,8 +1,9 @@
 #include "levelhead/height_converter.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
-#include <fmt/format.h>
 
 #include "levelhead/errors.hpp"
 
@@ -44,15 +45,16 @@ std::string describe(const ReferenceDefinition& d, int direction) {
                        d.offset_slope.offset, d.source.empty() ? "" : " (" + d.source + ")");
   }
   if (d.kind == ReferenceDefinition::Kind::grid) {
-    return fmt::format("{} -> {}: grid {}{}{}", direction > 0 ? d.name : d.base,
-                       direction > 0 ? d.base : d.name, d.grid.filename().string(),
-                       std::abs(d.grid_multiplier - 1.0) < 1e-12 ? "" : fmt::format(" x {:g}", d.grid_multiplier),
-                       d.source.empty() ? "" : " (" + d.source + ")");
+    return fmt::format(
+        "{} -> {}: grid {}{}{}", direction > 0 ? d.name : d.base, direction > 0 ? d.base : d.name,
+        d.grid.filename().string(),
+        std::abs(d.grid_multiplier - 1.0) < 1e-12 ? "" : fmt::format(" x {:g}", d.grid_multiplier),
+        d.source.empty() ? "" : " (" + d.source + ")");
   }
   const bool sloped = std::abs(r.slope_x) > 0.0 || std::abs(r.slope_y) > 0.0;
-  return fmt::format("{} {} {}: offset {:.4f} m{}{}", direction > 0 ? d.name : d.base,
-                     "->", direction > 0 ? d.base : d.name, r.offset,
-                     sloped ? " with slope" : "", d.source.empty() ? "" : " (" + d.source + ")");
+  return fmt::format("{} {} {}: offset {:.4f} m{}{}", direction > 0 ? d.name : d.base, "->",
+                     direction > 0 ? d.base : d.name, r.offset, sloped ? " with slope" : "",
+                     d.source.empty() ? "" : " (" + d.source + ")");
 }
 
 }  // namespace
@@ -86,9 +88,10 @@ HeightConverter::HeightConverter(const std::string& from, const std::string& to,
     for (const Step& s : *steps) {
       const std::string& crs = s.definition.relation.crs;
       if (!crs.empty() && !horizontal_crs.empty() && crs != horizontal_crs) {
-        throw ReferenceError(fmt::format("reference '{}' ({}) is defined with x, y in {}; give the "
-                                         "points in that CRS (--crs {})",
-                                         s.definition.name, s.definition.file, crs, crs));
+        throw ReferenceError(
+            fmt::format("reference '{}' ({}) is defined with x, y in {}; give the "
+                        "points in that CRS (--crs {})",
+                        s.definition.name, s.definition.file, crs, crs));
       }
     }
   }
@@ -134,7 +137,9 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
             }
             continue;
           }
-          const double scale = s.definition.kind == ReferenceDefinition::Kind::grid ? s.definition.grid_multiplier : 1.0;
+          const double scale = s.definition.kind == ReferenceDefinition::Kind::grid
+                                   ? s.definition.grid_multiplier
+                                   : 1.0;
           current[i] += s.direction * scale * *grid_values[i];
         } else {
           current[i] += s.direction * r.shift(points[i].x, points[i].y);
@@ -182,7 +187,8 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
     for (std::size_t k = steps_before_.size(); k < descriptions_.size(); ++k) {
       parts.push_back(descriptions_[k]);
     }
-    c.transform = parts.empty() ? std::string("identity") : fmt::format("{}", fmt::join(parts, "; "));
+    c.transform =
+        parts.empty() ? std::string("identity") : fmt::format("{}", fmt::join(parts, "; "));
   }
   return out;
 }

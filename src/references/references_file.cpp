@@ -1,11 +1,11 @@
 #include "levelhead/references_file.hpp"
 
+#include <fmt/format.h>
 #include <proj.h>
 #include <toml++/toml.h>
 
 #include <algorithm>
 #include <cmath>
-#include <fmt/format.h>
 #include <sstream>
 
 #include "levelhead/errors.hpp"
@@ -48,14 +48,16 @@ namespace {
 
 // A relative grid path: beside the references file, else a grid of that
 // name in PROJ's search paths (where proj-data installs egm96_15.gtx).
-std::filesystem::path locate_grid(const std::filesystem::path& folder, const std::filesystem::path& grid) {
+std::filesystem::path locate_grid(const std::filesystem::path& folder,
+                                  const std::filesystem::path& grid) {
   const std::filesystem::path beside = folder / grid;
   if (std::filesystem::exists(beside)) return beside;
   const std::string paths = proj_info().searchpath ? proj_info().searchpath : "";
   std::size_t start = 0;
   while (start <= paths.size()) {
     const std::size_t end = std::min(paths.find(':', start), paths.size());
-    const std::filesystem::path candidate = std::filesystem::path(paths.substr(start, end - start)) / grid;
+    const std::filesystem::path candidate =
+        std::filesystem::path(paths.substr(start, end - start)) / grid;
     if (end > start && std::filesystem::exists(candidate)) return candidate;
     start = end + 1;
   }
@@ -135,12 +137,14 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       d.kind = ReferenceDefinition::Kind::crs;
       d.definition = text(file, *t, "definition", true, name);
     } else if (kind == "offset") {
-      check_keys(file, *t, {"kind", "base", "offset", "slope_x", "slope_y", "x0", "y0", "crs",
-                            "sigma", "covariance", "hull", "source"});
+      check_keys(file, *t,
+                 {"kind", "base", "offset", "slope_x", "slope_y", "x0", "y0", "crs", "sigma",
+                  "covariance", "hull", "source"});
       d.kind = ReferenceDefinition::Kind::offset;
       d.base = text(file, *t, "base", true, name);
       OffsetRelation& r = d.relation;
-      if (!t->get("offset")) throw InputError(file, fmt::format("reference '{}' needs 'offset'", name));
+      if (!t->get("offset"))
+        throw InputError(file, fmt::format("reference '{}' needs 'offset'", name));
       r.offset = number(file, *t, "offset", 0.0);
       r.slope_x = number(file, *t, "slope_x", 0.0);
       r.slope_y = number(file, *t, "slope_y", 0.0);
@@ -153,7 +157,8 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
         if (c->size() != 3) throw InputError(where(file, *c), "covariance must be 3 x 3");
         for (std::size_t i = 0; i < 3; ++i) {
           const toml::array* row = (*c)[i].as_array();
-          if (!row || row->size() != 3) throw InputError(where(file, *c), "covariance must be 3 x 3");
+          if (!row || row->size() != 3)
+            throw InputError(where(file, *c), "covariance must be 3 x 3");
           for (std::size_t j = 0; j < 3; ++j) m[i][j] = (*row)[j].value<double>().value_or(NAN);
         }
         r.covariance = m;
@@ -161,17 +166,20 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       if (const toml::array* h = (*t)["hull"].as_array()) {
         for (const auto& vertex : *h) {
           const toml::array* xy = vertex.as_array();
-          if (!xy || xy->size() != 2) throw InputError(where(file, vertex), "hull vertices are [x, y]");
-          r.hull.push_back({(*xy)[0].value<double>().value_or(NAN),
-                            (*xy)[1].value<double>().value_or(NAN)});
+          if (!xy || xy->size() != 2)
+            throw InputError(where(file, vertex), "hull vertices are [x, y]");
+          r.hull.push_back(
+              {(*xy)[0].value<double>().value_or(NAN), (*xy)[1].value<double>().value_or(NAN)});
         }
       }
     } else if (kind == "vertoffset") {
-      check_keys(file, *t, {"kind", "base", "offset", "slope_lat", "slope_lon", "lat0", "lon0",
-                            "ellipsoid", "sigma", "source"});
+      check_keys(file, *t,
+                 {"kind", "base", "offset", "slope_lat", "slope_lon", "lat0", "lon0", "ellipsoid",
+                  "sigma", "source"});
       d.kind = ReferenceDefinition::Kind::vertoffset;
       d.base = text(file, *t, "base", true, name);
-      if (!t->get("offset")) throw InputError(file, fmt::format("reference '{}' needs 'offset'", name));
+      if (!t->get("offset"))
+        throw InputError(file, fmt::format("reference '{}' needs 'offset'", name));
       VerticalOffsetSlope& v = d.offset_slope;
       v.offset = number(file, *t, "offset", 0.0);
       v.slope_lat = number(file, *t, "slope_lat", 0.0);
@@ -205,9 +213,11 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
 
 std::string to_toml(const ReferenceDefinition& d) {
   const OffsetRelation& r = d.relation;
-  std::string out = fmt::format("[references.{}]\nkind = \"offset\"\nbase = \"{}\"\n", d.name, d.base);
-  out += fmt::format("offset = {:.6f}\nslope_x = {:.9e}\nslope_y = {:.9e}\nx0 = {:.3f}\ny0 = {:.3f}\n",
-                     r.offset, r.slope_x, r.slope_y, r.x0, r.y0);
+  std::string out =
+      fmt::format("[references.{}]\nkind = \"offset\"\nbase = \"{}\"\n", d.name, d.base);
+  out +=
+      fmt::format("offset = {:.6f}\nslope_x = {:.9e}\nslope_y = {:.9e}\nx0 = {:.3f}\ny0 = {:.3f}\n",
+                  r.offset, r.slope_x, r.slope_y, r.x0, r.y0);
   if (!r.crs.empty()) out += fmt::format("crs = \"{}\"\n", r.crs);
   if (r.sigma) out += fmt::format("sigma = {:.6f}\n", *r.sigma);
   if (r.covariance) {

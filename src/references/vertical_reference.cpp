@@ -1,16 +1,16 @@
 #include "levelhead/vertical_reference.hpp"
 
+#include <cpl_error.h>
+#include <fmt/format.h>
 #include <gdal.h>
 #include <gdal_utils.h>
-#include <cpl_error.h>
 #include <openssl/evp.h>
-#include <unistd.h>
 #include <proj.h>
 #include <proj_experimental.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
-#include <fmt/format.h>
 #include <fstream>
 #include <sstream>
 #include <thread>
@@ -159,9 +159,10 @@ struct VerticalTransformer::Impl {
         out.info.unit = unit.name;
         out.info.metres_per_unit = unit.metres;
         if (std::abs(unit.metres - 1.0) > 1e-15) {
-          throw ReferenceError(fmt::format("{} '{}': ellipsoidal heights in {} are not supported; "
-                                           "use the metre version of this CRS",
-                                           role, text, unit.name));
+          throw ReferenceError(
+              fmt::format("{} '{}': ellipsoidal heights in {} are not supported; "
+                          "use the metre version of this CRS",
+                          role, text, unit.name));
         }
         out.horizontal.reset(proj_crs_demote_to_2D(ctx.get(), nullptr, crs.get()));
         out.crs = std::move(crs);
@@ -170,7 +171,8 @@ struct VerticalTransformer::Impl {
       default:
         throw ReferenceError(fmt::format(
             "{} '{}' ({}) has no heights: give a vertical CRS (e.g. EPSG:5703), a compound CRS "
-            "(e.g. EPSG:4326+5773) or a geographic 3D CRS with ellipsoidal heights (e.g. EPSG:4979)",
+            "(e.g. EPSG:4326+5773) or a geographic 3D CRS with ellipsoidal heights (e.g. "
+            "EPSG:4979)",
             role, text, out.info.name));
     }
     if (!out.crs || !out.horizontal) {
@@ -183,10 +185,10 @@ struct VerticalTransformer::Impl {
   PjPtr horizontal_transform(const PJ* from, const PJ* to) {
     PjPtr raw(proj_create_crs_to_crs_from_pj(ctx.get(), from, to, nullptr, nullptr));
     if (!raw) {
-      throw ReferenceError(fmt::format("PROJ cannot transform the points' coordinates from '{}' "
-                                       "to '{}': {}",
-                                       proj_get_name(from), proj_get_name(to),
-                                       proj_message(ctx.get())));
+      throw ReferenceError(
+          fmt::format("PROJ cannot transform the points' coordinates from '{}' "
+                      "to '{}': {}",
+                      proj_get_name(from), proj_get_name(to), proj_message(ctx.get())));
     }
     return PjPtr(proj_normalize_for_visualization(ctx.get(), raw.get()));
   }
@@ -199,13 +201,15 @@ struct VerticalTransformer::Impl {
   std::vector<std::unique_ptr<Impl>> workers;  // one per extra thread, built on first use
 
   void find_operations(bool provenance) {
-    PJ_OPERATION_FACTORY_CONTEXT* factory = proj_create_operation_factory_context(ctx.get(), nullptr);
+    PJ_OPERATION_FACTORY_CONTEXT* factory =
+        proj_create_operation_factory_context(ctx.get(), nullptr);
     proj_operation_factory_context_set_allow_ballpark_transformations(ctx.get(), factory, 0);
     proj_operation_factory_context_set_spatial_criterion(
         ctx.get(), factory, PROJ_SPATIAL_CRITERION_PARTIAL_INTERSECTION);
     proj_operation_factory_context_set_grid_availability_use(
         ctx.get(), factory, PROJ_GRID_AVAILABILITY_USED_FOR_SORTING);
-    PJ_OBJ_LIST* list = proj_create_operations(ctx.get(), source.crs.get(), target.crs.get(), factory);
+    PJ_OBJ_LIST* list =
+        proj_create_operations(ctx.get(), source.crs.get(), target.crs.get(), factory);
     proj_operation_factory_context_destroy(factory);
     const int count = list ? proj_list_get_count(list) : 0;
 
@@ -238,10 +242,10 @@ struct VerticalTransformer::Impl {
           }
         }
         if (candidates.empty() && best_missing.empty()) {
-          best_missing = fmt::format("'{}'{} needs grid(s) {}", record.name,
-                                     record.accuracy ? fmt::format(" (accuracy {} m)", *record.accuracy)
-                                                     : std::string(),
-                                     fmt::join(absent, ", "));
+          best_missing = fmt::format(
+              "'{}'{} needs grid(s) {}", record.name,
+              record.accuracy ? fmt::format(" (accuracy {} m)", *record.accuracy) : std::string(),
+              fmt::join(absent, ", "));
         }
         continue;
       }
@@ -280,9 +284,10 @@ struct VerticalTransformer::Impl {
           source.info.definition, target.info.definition));
     }
     if (!best_missing.empty()) {
-      warnings.push_back(fmt::format("the most accurate operation {}, which is not installed; "
-                                     "using '{}' instead",
-                                     best_missing, records.front().name));
+      warnings.push_back(
+          fmt::format("the most accurate operation {}, which is not installed; "
+                      "using '{}' instead",
+                      best_missing, records.front().name));
     }
   }
 };
@@ -316,26 +321,29 @@ void build(VerticalTransformer::Impl& impl, const std::string& from, const std::
     } else if (kind == PJ_TYPE_GEOGRAPHIC_3D_CRS) {
       impl_->points_crs.reset(proj_crs_demote_to_2D(ctx, nullptr, given.get()));
     } else {
-      throw ReferenceError(fmt::format("source reference '{}' has no horizontal part: give the "
-                                       "CRS of the points' x and y (--crs)",
-                                       from));
+      throw ReferenceError(
+          fmt::format("source reference '{}' has no horizontal part: give the "
+                      "CRS of the points' x and y (--crs)",
+                      from));
     }
   } else {
     impl_->points_crs = impl_->create_crs(horizontal_crs, "horizontal CRS");
   }
   const PJ_TYPE type = proj_get_type(impl_->points_crs.get());
   if (type != PJ_TYPE_PROJECTED_CRS && type != PJ_TYPE_GEOGRAPHIC_2D_CRS) {
-    throw ReferenceError(fmt::format("horizontal CRS '{}' must be a projected or geographic 2D "
-                                     "CRS (e.g. EPSG:32633 or EPSG:4326)",
-                                     horizontal_crs));
+    throw ReferenceError(
+        fmt::format("horizontal CRS '{}' must be a projected or geographic 2D "
+                    "CRS (e.g. EPSG:32633 or EPSG:4326)",
+                    horizontal_crs));
   }
   impl_->source = impl_->resolve(from, "source reference");
   impl_->target = impl_->resolve(to, "target reference");
   for (const ReferenceInfo* info : {&impl_->source.info, &impl_->target.info}) {
     if (info->dynamic && !epoch) {
-      throw ReferenceError(fmt::format("'{}' ({}) is a dynamic reference: heights in it need an "
-                                       "epoch (--epoch, decimal year)",
-                                       info->definition, info->name));
+      throw ReferenceError(
+          fmt::format("'{}' ({}) is a dynamic reference: heights in it need an "
+                      "epoch (--epoch, decimal year)",
+                      info->definition, info->name));
     }
   }
   if (epoch) impl_->epoch = *epoch;
@@ -363,7 +371,9 @@ VerticalTransformer::~VerticalTransformer() = default;
 
 const ReferenceInfo& VerticalTransformer::source() const { return impl_->source.info; }
 const ReferenceInfo& VerticalTransformer::target() const { return impl_->target.info; }
-const std::vector<OperationRecord>& VerticalTransformer::operations() const { return impl_->records; }
+const std::vector<OperationRecord>& VerticalTransformer::operations() const {
+  return impl_->records;
+}
 const std::vector<std::string>& VerticalTransformer::warnings() const { return impl_->warnings; }
 
 // Per point, the first usable operation (in PROJ's order of preference)
@@ -382,8 +392,8 @@ void convert_range(VerticalTransformer::Impl& im, const std::vector<PlanePoint>&
       result.failure = "coordinates or height not finite";
       continue;
     }
-    PJ_COORD lonlat = proj_trans(im.to_lonlat.get(), PJ_FWD,
-                                 proj_coord(points[i].x, points[i].y, 0.0, HUGE_VAL));
+    PJ_COORD lonlat =
+        proj_trans(im.to_lonlat.get(), PJ_FWD, proj_coord(points[i].x, points[i].y, 0.0, HUGE_VAL));
     PJ_COORD plane = proj_coord(points[i].x, points[i].y, 0.0, HUGE_VAL);
     if (im.to_source_plane) plane = proj_trans(im.to_source_plane.get(), PJ_FWD, plane);
     if (!std::isfinite(lonlat.xy.x) || !std::isfinite(plane.xy.x)) {
@@ -395,8 +405,8 @@ void convert_range(VerticalTransformer::Impl& im, const std::vector<PlanePoint>&
       const auto& c = im.candidates[k];
       if (c.has_area) {
         const bool in_lat = lat >= c.south && lat <= c.north;
-        const bool in_lon = c.west <= c.east ? (lon >= c.west && lon <= c.east)
-                                             : (lon >= c.west || lon <= c.east);
+        const bool in_lon =
+            c.west <= c.east ? (lon >= c.west && lon <= c.east) : (lon >= c.west || lon <= c.east);
         if (!in_lat || !in_lon) continue;
       }
       proj_errno_reset(c.operation.get());
@@ -425,9 +435,10 @@ std::vector<PointConversion> VerticalTransformer::convert(const std::vector<Plan
   Impl& im = *impl_;
   std::vector<PointConversion> out(points.size());
   constexpr std::size_t per_thread_minimum = 50000;  // below this, setting up a context costs more
-  const std::size_t threads = std::clamp<std::size_t>(
-      std::min<std::size_t>(std::thread::hardware_concurrency(), points.size() / per_thread_minimum),
-      1, 8);
+  const std::size_t threads =
+      std::clamp<std::size_t>(std::min<std::size_t>(std::thread::hardware_concurrency(),
+                                                    points.size() / per_thread_minimum),
+                              1, 8);
   while (im.workers.size() + 1 < threads) {
     auto worker = std::make_unique<Impl>();
     const auto& a = im.arguments;
@@ -525,8 +536,8 @@ std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
   GDALAllRegister();
   GDALDatasetH source = GDALOpen(grid.string().c_str(), GA_ReadOnly);
   if (!source) {
-    throw ReferenceError(fmt::format("grid '{}' cannot be read by GDAL: {}", grid.string(),
-                                     CPLGetLastErrorMsg()));
+    throw ReferenceError(
+        fmt::format("grid '{}' cannot be read by GDAL: {}", grid.string(), CPLGetLastErrorMsg()));
   }
   converted = std::filesystem::temp_directory_path() /
               fmt::format("levelhead-grid-{}-{}.tif", getpid(), grid.stem().string());
@@ -556,8 +567,8 @@ SurfaceShift::SurfaceShift(const std::filesystem::path& grid, const std::string&
   // The grid name is absolute and carries no '@', so a missing or unreadable
   // grid fails here instead of being skipped; the multiplier is written out
   // (PROJ's default is -1).
-  set_up(fmt::format("+step +proj=vgridshift +grids={} +multiplier=1", readable.string()), points_crs,
-         settings, "grid " + grid.string());
+  set_up(fmt::format("+step +proj=vgridshift +grids={} +multiplier=1", readable.string()),
+         points_crs, settings, "grid " + grid.string());
 }
 
 SurfaceShift::SurfaceShift(const VerticalOffsetSlope& r, const std::string& points_crs,
@@ -575,23 +586,26 @@ void SurfaceShift::set_up(const std::string& step, const std::string& points_crs
   proj_log_level(ctx, PJ_LOG_NONE);
   proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
   if (points_crs.empty()) {
-    throw ReferenceError(fmt::format("{} is evaluated by position: give the CRS of the points' x "
-                                     "and y (--crs)",
-                                     what));
+    throw ReferenceError(
+        fmt::format("{} is evaluated by position: give the CRS of the points' x "
+                    "and y (--crs)",
+                    what));
   }
   PjPtr from(proj_create(ctx, points_crs.c_str()));
   PjPtr wgs84(proj_create(ctx, "EPSG:4326"));
   if (!from) throw ReferenceError(fmt::format("unknown CRS '{}'", points_crs));
   PjPtr raw(proj_create_crs_to_crs_from_pj(ctx, from.get(), wgs84.get(), nullptr, nullptr));
-  if (!raw) throw ReferenceError(fmt::format("cannot bring '{}' to longitude and latitude", points_crs));
+  if (!raw)
+    throw ReferenceError(fmt::format("cannot bring '{}' to longitude and latitude", points_crs));
   impl_->to_lonlat.reset(proj_normalize_for_visualization(ctx, raw.get()));
   const std::string pipeline = "+proj=pipeline +step +proj=unitconvert +xy_in=deg +xy_out=rad " +
                                step + " +step +proj=unitconvert +xy_in=rad +xy_out=deg";
   impl_->pipeline.reset(proj_create(ctx, pipeline.c_str()));
   if (!impl_->pipeline) {
-    throw ReferenceError(fmt::format("PROJ cannot use {} ({}); a grid must be a geographic "
-                                     "(longitude, latitude) height grid",
-                                     what, proj_message(ctx)));
+    throw ReferenceError(
+        fmt::format("PROJ cannot use {} ({}); a grid must be a geographic "
+                    "(longitude, latitude) height grid",
+                    what, proj_message(ctx)));
   }
 }
 

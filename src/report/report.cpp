@@ -36,7 +36,9 @@ class Csv {
  public:
   explicit Csv(const fs::path& path) : table_(read_table(path)) {}
   // An input of the project, read with its column map.
-  explicit Csv(const ReportInput& input) : table_(read_table(input.resolved, TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}})) {}
+  explicit Csv(const ReportInput& input)
+      : table_(read_table(input.resolved,
+                          TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}})) {}
   std::size_t rows() const { return table_.row_count(); }
   bool has(const std::string& column) const { return table_.find_column(column).has_value(); }
   std::string get(std::size_t row, const std::string& column) const {
@@ -100,8 +102,8 @@ class Document {
     md_ += "\n";
     html_ += "</ul>\n";
   }
-  void table(const std::vector<std::string>& header, const std::vector<std::vector<std::string>>& rows,
-             std::size_t limit = 60) {
+  void table(const std::vector<std::string>& header,
+             const std::vector<std::vector<std::string>>& rows, std::size_t limit = 60) {
     const auto md_cell = [](std::string s) {
       std::string out;
       for (char c : s) out += c == '|' ? std::string("\\|") : std::string(1, c);
@@ -149,7 +151,8 @@ class Document {
   std::vector<std::pair<std::string, std::string>> figures_;
 };
 
-const char* const css = R"(body{font-family:Georgia,'DejaVu Serif',serif;max-width:60em;margin:2em auto;padding:0 1em;color:#1d1d1d;line-height:1.45}
+const char* const css =
+    R"(body{font-family:Georgia,'DejaVu Serif',serif;max-width:60em;margin:2em auto;padding:0 1em;color:#1d1d1d;line-height:1.45}
 h1{font-family:sans-serif;border-bottom:3px solid #2f8f83;padding-bottom:.2em}
 h2{font-family:sans-serif;color:#2c347a;margin-top:2em;border-bottom:1px solid #bbb}
 h3{font-family:sans-serif}
@@ -192,7 +195,8 @@ struct Bounds {
 
 // The levelling network: sections coloured and dashed by |w|, removed
 // sections dotted, failing loops outlined.
-std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points, const fs::path& run) {
+std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
+                               const fs::path& run) {
   if (points.size() < 2 || !fs::exists(run / "adjust" / "residuals.csv")) return std::nullopt;
   Bounds b;
   for (const auto& [id, p] : points) b.add(p.x, p.y);
@@ -225,7 +229,8 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
     } else if (!w) {
       s = Stroke{"#444444", 1.2, "1 2"};
     }
-    svg.line(frame.x(f->second.x), frame.y(f->second.y), frame.x(t->second.x), frame.y(t->second.y), s);
+    svg.line(frame.x(f->second.x), frame.y(f->second.y), frame.x(t->second.x), frame.y(t->second.y),
+             s);
   }
   for (const auto& [id, p] : points) {
     svg.circle(frame.x(p.x), frame.y(p.y), 4, "#ffffff", Stroke{"#222222", 1.3});
@@ -254,7 +259,8 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
 // Bars of |misclosure| / tolerance per loop, the limit at 1.
 Svg loop_chart(const Csv& loops) {
   const double row = 18, top = 30, left = 60, width = 500;
-  Svg svg(640, top + row * static_cast<double>(loops.rows()) + 40, "Loop misclosures against tolerance");
+  Svg svg(640, top + row * static_cast<double>(loops.rows()) + 40,
+          "Loop misclosures against tolerance");
   double largest = 1.5;
   for (std::size_t r = 0; r < loops.rows(); ++r) {
     const auto m = loops.number(r, "misclosure"), t = loops.number(r, "tolerance");
@@ -281,7 +287,8 @@ Svg loop_chart(const Csv& loops) {
 // Heads of the contouring round: wells coloured by head, quick-look
 // contours, the flow arrow.
 std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json,
-                            std::optional<double> interval, std::optional<QuickContours>& contours) {
+                            std::optional<double> interval,
+                            std::optional<QuickContours>& contours) {
   std::map<std::string, PlacedPoint> placed;
   for (std::size_t r = 0; r < wells.rows(); ++r) {
     const auto x = wells.number(r, "x"), y = wells.number(r, "y");
@@ -322,7 +329,8 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
       for (const auto& [x, y] : line.vertices) path.emplace_back(frame.x(x), frame.y(y));
       svg.polyline(path, Stroke{"#5d6d7e", 1.0, "5 2"});
       const auto& [lx, ly] = path[path.size() / 2];
-      svg.text(lx, ly - 2, fixed(line.level, contours->interval < 0.1 ? 2 : 1), 8.5, "middle", "#3d4b5a");
+      svg.text(lx, ly - 2, fixed(line.level, contours->interval < 0.1 ? 2 : 1), 8.5, "middle",
+               "#3d4b5a");
     }
   }
   if (fs::exists(flow_json)) {
@@ -334,14 +342,17 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
     const Stroke arrow{"#b2352b", 3.5, ""};
     svg.line(cx - dx / 2, cy - dy / 2, cx + dx / 2, cy + dy / 2, arrow);
     const double hx = cx + dx / 2, hy = cy + dy / 2, ux = dx / length, uy = dy / length;
-    svg.polyline({{hx, hy}, {hx - 14 * ux - 7 * uy, hy - 14 * uy + 7 * ux},
-                  {hx - 14 * ux + 7 * uy, hy - 14 * uy - 7 * ux}, {hx, hy}},
+    svg.polyline({{hx, hy},
+                  {hx - 14 * ux - 7 * uy, hy - 14 * uy + 7 * ux},
+                  {hx - 14 * ux + 7 * uy, hy - 14 * uy - 7 * ux},
+                  {hx, hy}},
                  Stroke{"#b2352b", 1}, "#b2352b");
     // Its label in the key, clear of the wells' labels.
     svg.line(640, 396, 668, 396, arrow);
-    svg.text(674, 392, fmt::format("flow {:.0f}°", flow["azimuth"]["value"].get<double>()), 10, "start",
-             "#b2352b", true);
-    svg.text(674, 405, fmt::format("i = {:.2g}", flow["gradient"]["value"].get<double>()), 10, "start", "#b2352b");
+    svg.text(674, 392, fmt::format("flow {:.0f}°", flow["azimuth"]["value"].get<double>()), 10,
+             "start", "#b2352b", true);
+    svg.text(674, 405, fmt::format("i = {:.2g}", flow["gradient"]["value"].get<double>()), 10,
+             "start", "#b2352b");
   }
   for (const Shown& s : other_aquifers) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
@@ -360,7 +371,10 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
         return std::abs(o.first - left_edge) < 55 && std::abs(o.second - baseline) < 24;
       });
     };
-    struct Spot { double dx, dy; bool to_left; };
+    struct Spot {
+      double dx, dy;
+      bool to_left;
+    };
     const Spot spots[] = {{9, 0, false}, {-9, 0, true}, {9, 24, false}, {-9, -24, true}};
     Spot chosen = spots[0];
     for (const Spot& spot : spots) {
@@ -378,7 +392,8 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
   // Colour key.
   for (int i = 0; i <= 10; ++i) {
     const double v = low + (high - low) * i / 10.0;
-    svg.rect(640, 80 + 20 * (10 - i), 20, 20, report::ramp_colour(v, low, high), Stroke{"#555555", 0.5});
+    svg.rect(640, 80 + 20 * (10 - i), 20, 20, report::ramp_colour(v, low, high),
+             Stroke{"#555555", 0.5});
   }
   svg.text(665, 95, fixed(high, 2) + " m", 10);
   svg.text(665, 295, fixed(low, 2) + " m", 10);
@@ -411,7 +426,8 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
     const auto when = parse_iso8601(heads.get(r, "time_utc"));
     if (!h || !when) continue;
     const std::string reason = heads.get(r, "reason");
-    series[heads.get(r, "well")].push_back({when->seconds, *h, !reason.empty() && reason != "outside-synoptic-window"});
+    series[heads.get(r, "well")].push_back(
+        {when->seconds, *h, !reason.empty() && reason != "outside-synoptic-window"});
     t0 = std::min(t0, when->seconds);
     t1 = std::max(t1, when->seconds);
   }
@@ -428,7 +444,8 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
   std::size_t i = 0;
   for (auto& [well, points] : series) {
     std::sort(points.begin(), points.end());
-    const double ox = 10 + static_cast<double>(i % columns) * cell_w, oy = 5 + static_cast<double>(i / columns) * cell_h;
+    const double ox = 10 + static_cast<double>(i % columns) * cell_w,
+                 oy = 5 + static_cast<double>(i / columns) * cell_h;
     double lo = INFINITY, hi = -INFINITY;
     for (const Reading& p : points) {
       lo = std::min(lo, p.head);
@@ -460,10 +477,12 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
     }
     ++i;
   }
-  svg.text(10, static_cast<double>(rows) * cell_h + 5,
-           fmt::format("{} to {}; dashed: measuring point changed; open red: not for contouring (pumping, ...)", format_utc(t0).substr(0, 10),
-                       format_utc(t1).substr(0, 10)),
-           9);
+  svg.text(
+      10, static_cast<double>(rows) * cell_h + 5,
+      fmt::format(
+          "{} to {}; dashed: measuring point changed; open red: not for contouring (pumping, ...)",
+          format_utc(t0).substr(0, 10), format_utc(t1).substr(0, 10)),
+      9);
   return svg;
 }
 
@@ -478,7 +497,8 @@ Svg displacement_chart(const Csv& moves, const std::string& last_epoch) {
   for (std::size_t r = 0; r < moves.rows(); ++r) {
     if (moves.get(r, "against") != "first" || moves.get(r, "to_epoch") != last_epoch) continue;
     bars.push_back({moves.get(r, "point"), 1000 * moves.number(r, "displacement").value_or(0),
-                    1000 * moves.number(r, "ci_low").value_or(0), 1000 * moves.number(r, "ci_high").value_or(0),
+                    1000 * moves.number(r, "ci_low").value_or(0),
+                    1000 * moves.number(r, "ci_high").value_or(0),
                     moves.get(r, "significant") == "yes", !moves.get(r, "note").empty()});
   }
   double extent = 1.0;
@@ -492,9 +512,13 @@ Svg displacement_chart(const Csv& moves, const std::string& last_epoch) {
     const double y = top + row * static_cast<double>(i);
     svg.text(mid - half - 8, y + 12, b.point, 10, "end");
     const double x0 = mid + std::min(0.0, b.d) * scale;
-    svg.rect(x0, y + 4, std::abs(b.d) * scale, row - 8, b.datum ? "#cccccc" : b.significant ? "#b2352b" : "#7d8b8f",
+    svg.rect(x0, y + 4, std::abs(b.d) * scale, row - 8,
+             b.datum         ? "#cccccc"
+             : b.significant ? "#b2352b"
+                             : "#7d8b8f",
              Stroke{"#222222", 0.6, b.significant ? "" : "2 2"});
-    svg.line(mid + b.low * scale, y + row / 2, mid + b.high * scale, y + row / 2, Stroke{"#111111", 1});
+    svg.line(mid + b.low * scale, y + row / 2, mid + b.high * scale, y + row / 2,
+             Stroke{"#111111", 1});
   }
   const double bottom = top + row * static_cast<double>(bars.size());
   svg.line(mid, top - 5, mid, bottom + 5, Stroke{"#222222", 1});
@@ -530,16 +554,18 @@ const ReportInput* input(const ReportContext& c, const std::string& role) {
   return nullptr;
 }
 
-void levelling_section(Document& doc, Findings& findings, const ReportContext& c, const fs::path& run) {
+void levelling_section(Document& doc, Findings& findings, const ReportContext& c,
+                       const fs::path& run) {
   if (!fs::exists(run / "adjust")) return;
   doc.heading(2, "Levelling network");
   if (fs::exists(run / "reduce" / "summary.json")) {
     const nlohmann::json r = read_json(run / "reduce" / "summary.json");
     const auto& n = r["counts"];
-    doc.paragraph(fmt::format("Field book: {} runs, {} setups and {} sights reduced to {} sections; {} setup(s) "
-                              "and {} section(s) failed a field check (reduce/setups.csv, reduce/sections.csv).",
-                              n.value("runs", 0), n.value("setups", 0), n.value("sights", 0),
-                              n.value("sections", 0), n.value("failed_setups", 0), n.value("flagged_sections", 0)));
+    doc.paragraph(fmt::format(
+        "Field book: {} runs, {} setups and {} sights reduced to {} sections; {} setup(s) "
+        "and {} section(s) failed a field check (reduce/setups.csv, reduce/sections.csv).",
+        n.value("runs", 0), n.value("setups", 0), n.value("sights", 0), n.value("sections", 0),
+        n.value("failed_setups", 0), n.value("flagged_sections", 0)));
   }
   if (auto map = network_map(read_points(c), run)) {
     doc.figure("network", *map,
@@ -555,13 +581,16 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
       failed += loops.get(r, "passed") != "yes";
       rows.push_back({loops.get(r, "loop"), loops.get(r, "points"), loops.get(r, "length"),
                       fixed(1000 * loops.number(r, "misclosure").value_or(0), 2),
-                      fixed(1000 * loops.number(r, "tolerance").value_or(0), 2), loops.get(r, "passed")});
+                      fixed(1000 * loops.number(r, "tolerance").value_or(0), 2),
+                      loops.get(r, "passed")});
     }
-    doc.table({"loop", "points", "length (m)", "misclosure (mm)", "tolerance (mm)", "passed"}, rows);
-    if (loops.rows() > 0) doc.figure("loops", loop_chart(loops), "Loop misclosures as a fraction of their tolerance.");
+    doc.table({"loop", "points", "length (m)", "misclosure (mm)", "tolerance (mm)", "passed"},
+              rows);
+    if (loops.rows() > 0)
+      doc.figure("loops", loop_chart(loops), "Loop misclosures as a fraction of their tolerance.");
     if (failed > 0) {
-      findings.items.push_back(fmt::format("{} of {} levelling loops failed their closure tolerance.", failed,
-                                           loops.rows()));
+      findings.items.push_back(fmt::format(
+          "{} of {} levelling loops failed their closure tolerance.", failed, loops.rows()));
     }
   }
   const nlohmann::json s = read_json(run / "adjust" / "summary.json");
@@ -580,12 +609,15 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
   doc.table({"quantity", "value"}, stats);
   std::vector<std::vector<std::string>> removed;
   for (const auto& r : s["removals"]) {
-    removed.push_back({std::to_string(r["step"].get<long>()), r["from"].get<std::string>(), r["to"].get<std::string>(),
-                       fixed(r["w"].get<double>(), 1), std::to_string(r["row"].get<long>())});
-    findings.items.push_back(fmt::format(
-        "Blunder: the section {} -> {} (sections row {}) failed data snooping with w = {:.1f} and was "
-        "removed; re-level it.",
-        r["from"].get<std::string>(), r["to"].get<std::string>(), r["row"].get<long>(), r["w"].get<double>()));
+    removed.push_back({std::to_string(r["step"].get<long>()), r["from"].get<std::string>(),
+                       r["to"].get<std::string>(), fixed(r["w"].get<double>(), 1),
+                       std::to_string(r["row"].get<long>())});
+    findings.items.push_back(
+        fmt::format("Blunder: the section {} -> {} (sections row {}) failed data snooping with w = "
+                    "{:.1f} and was "
+                    "removed; re-level it.",
+                    r["from"].get<std::string>(), r["to"].get<std::string>(), r["row"].get<long>(),
+                    r["w"].get<double>()));
   }
   if (!removed.empty()) {
     doc.paragraph("Sections removed by iterative data snooping (Baarda's w-test), in order:");
@@ -593,7 +625,8 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
   }
   std::vector<std::vector<std::string>> suspects;
   for (const auto& r : s["suspects"]) {
-    suspects.push_back({r["from"].get<std::string>(), r["to"].get<std::string>(), fixed(r["w"].get<double>(), 2)});
+    suspects.push_back(
+        {r["from"].get<std::string>(), r["to"].get<std::string>(), fixed(r["w"].get<double>(), 2)});
   }
   doc.paragraph(suspects.empty() ? "No observation fails data snooping after the removals."
                                  : "Observations still failing data snooping:");
@@ -601,7 +634,8 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
   const Csv heights(run / "adjust" / "heights.csv");
   std::vector<std::vector<std::string>> rows;
   for (std::size_t r = 0; r < heights.rows(); ++r) {
-    rows.push_back({heights.get(r, "id"), heights.get(r, "height"), heights.get(r, "sigma"), heights.get(r, "control")});
+    rows.push_back({heights.get(r, "id"), heights.get(r, "height"), heights.get(r, "sigma"),
+                    heights.get(r, "control")});
   }
   doc.paragraph("Adjusted heights (m):");
   doc.table({"point", "height", "sigma", "control"}, rows);
@@ -612,9 +646,10 @@ void gnss_section(Document& doc, Findings& findings, const fs::path& run) {
   const nlohmann::json s = read_json(run / "gnss-check" / "summary.json");
   const Csv marks(run / "gnss-check" / "gnss_check.csv");
   doc.heading(2, "GNSS heights against the levelling");
-  doc.paragraph(fmt::format("GNSS heights ({}) brought into {} through the references, against the adjusted "
-                            "heights of the same marks; the differences are the residuals of the tie.",
-                            s["gnss_reference"].get<std::string>(), s["levelled_reference"].get<std::string>()));
+  doc.paragraph(fmt::format(
+      "GNSS heights ({}) brought into {} through the references, against the adjusted "
+      "heights of the same marks; the differences are the residuals of the tie.",
+      s["gnss_reference"].get<std::string>(), s["levelled_reference"].get<std::string>()));
   std::vector<std::vector<std::string>> rows;
   std::size_t failing = 0;
   for (std::size_t r = 0; r < marks.rows(); ++r) {
@@ -624,10 +659,12 @@ void gnss_section(Document& doc, Findings& findings, const fs::path& run) {
                     fixed(1000 * marks.number(r, "difference").value_or(0), 1),
                     fixed(1000 * marks.number(r, "sigma").value_or(0), 1), verdict});
   }
-  doc.table({"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)", "verdict"}, rows);
+  doc.table(
+      {"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)", "verdict"},
+      rows);
   if (failing > 0) {
-    findings.items.push_back(fmt::format("{} of {} marks disagree between GNSS and levelling (gnss-check).", failing,
-                                         marks.rows()));
+    findings.items.push_back(fmt::format(
+        "{} of {} marks disagree between GNSS and levelling (gnss-check).", failing, marks.rows()));
   }
 }
 
@@ -640,19 +677,24 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
     rows.push_back({e["name"].get<std::string>(), e["first_date"].get<std::string>(),
                     e["last_date"].get<std::string>(), std::to_string(e["sections"].get<long>()),
                     e["sigma0"].is_null() ? "-" : fixed(e["sigma0"].get<double>(), 2),
-                    e["global_test"].is_null() ? "none" : e["global_test"]["passed"].get<bool>() ? "passed" : "failed"});
+                    e["global_test"].is_null()               ? "none"
+                    : e["global_test"]["passed"].get<bool>() ? "passed"
+                                                             : "failed"});
   }
   doc.table({"epoch", "from", "to", "sections", "sigma0", "global test"}, rows);
   const auto& first = s["congruence_tests"][0];
-  doc.paragraph(fmt::format("Global congruence test of the candidate reference marks: {} = {:.3f} against {:.3f}: {}.",
-                            first["distribution"].get<std::string>(), first["statistic"].get<double>(),
-                            first["critical"].get<double>(), first["passed"].get<bool>() ? "passed" : "failed"));
+  doc.paragraph(fmt::format(
+      "Global congruence test of the candidate reference marks: {} = {:.3f} against {:.3f}: {}.",
+      first["distribution"].get<std::string>(), first["statistic"].get<double>(),
+      first["critical"].get<double>(), first["passed"].get<bool>() ? "passed" : "failed"));
   rows.clear();
   for (const auto& m : s["marks"]) {
-    rows.push_back({m["mark"].get<std::string>(), m["verdict"].get<std::string>(), m["reason"].get<std::string>()});
+    rows.push_back({m["mark"].get<std::string>(), m["verdict"].get<std::string>(),
+                    m["reason"].get<std::string>()});
     if (m["verdict"] != "stable") {
-      findings.items.push_back(fmt::format("Reference mark {} is {}: {}", m["mark"].get<std::string>(),
-                                           m["verdict"].get<std::string>(), m["reason"].get<std::string>()));
+      findings.items.push_back(
+          fmt::format("Reference mark {} is {}: {}", m["mark"].get<std::string>(),
+                      m["verdict"].get<std::string>(), m["reason"].get<std::string>()));
     }
   }
   doc.table({"mark", "verdict", "reason"}, rows);
@@ -660,7 +702,8 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
   const std::string last = s["epochs"].back()["name"].get<std::string>();
   doc.figure("displacements", displacement_chart(moves, last),
              fmt::format("Displacement of every point from the first epoch to {} (mm); solid red: "
-                         "significant, grey: stable reference mark.", last));
+                         "significant, grey: stable reference mark.",
+                         last));
   const Csv rates(run / "epochs" / "rates.csv");
   rows.clear();
   for (std::size_t r = 0; r < rates.rows(); ++r) {
@@ -673,43 +716,52 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
   }
   const long significant = s["significant_displacements"].get<long>();
   if (significant > 0) {
-    findings.items.push_back(fmt::format("{} significant displacement(s) between epochs; measuring points on "
-                                         "monitored points follow them.", significant));
+    findings.items.push_back(
+        fmt::format("{} significant displacement(s) between epochs; measuring points on "
+                    "monitored points follow them.",
+                    significant));
   }
-  for (const auto& w : s["warnings"]) findings.items.push_back("Monitoring: " + w.get<std::string>());
+  for (const auto& w : s["warnings"])
+    findings.items.push_back("Monitoring: " + w.get<std::string>());
 }
 
 void transducer_section(Document& doc, Findings& findings, const fs::path& run) {
   if (!fs::exists(run / "transducer" / "summary.json")) return;
   const nlohmann::json s = read_json(run / "transducer" / "summary.json");
   doc.heading(2, "Pressure transducers");
-  doc.paragraph(fmt::format("Depth to water = hung depth - water pressure / (rho g) + offset from the tape "
-                            "checks, linear in time between checks; g = {} m/s^2.",
-                            s["options"]["gravity_m_s2"].get<double>()));
+  doc.paragraph(
+      fmt::format("Depth to water = hung depth - water pressure / (rho g) + offset from the tape "
+                  "checks, linear in time between checks; g = {} m/s^2.",
+                  s["options"]["gravity_m_s2"].get<double>()));
   std::vector<std::vector<std::string>> rows;
   for (const auto& sensor : s["sensors"]) {
     std::size_t rejected = 0;
     std::vector<std::string> flags;
     for (const auto& [flag, count] : sensor["flags"].items()) {
       flags.push_back(fmt::format("{} {}", flag, count.get<long>()));
-      if (flag.find("-rejected") != std::string::npos || flag == "baro-gap") rejected += count.get<std::size_t>();
+      if (flag.find("-rejected") != std::string::npos || flag == "baro-gap")
+        rejected += count.get<std::size_t>();
     }
     const auto& be = sensor["barometric_efficiency"];
     rows.push_back({sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(),
-                    sensor["kind"].get<std::string>(), std::to_string(sensor["written"].get<long>()),
+                    sensor["kind"].get<std::string>(),
+                    std::to_string(sensor["written"].get<long>()),
                     std::to_string(sensor["checks"].get<long>()),
                     fixed(1000 * sensor["largest_drift_m"].get<double>(), 1),
-                    be.is_null() ? "-" : fmt::format("{:.2f} +- {:.2f}", be["value"].get<double>(), be["sigma"].get<double>()),
+                    be.is_null() ? "-"
+                                 : fmt::format("{:.2f} +- {:.2f}", be["value"].get<double>(),
+                                               be["sigma"].get<double>()),
                     fmt::format("{:g}", sensor["density_kg_m3"].get<double>()),
                     fmt::format("{}", fmt::join(flags, ", "))});
     if (rejected > 0) {
-      findings.items.push_back(fmt::format("Transducer {} in {}: {} reading(s) rejected or left uncomputed "
-                                           "(transducer/qa.csv).",
-                                           sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(), rejected));
+      findings.items.push_back(fmt::format(
+          "Transducer {} in {}: {} reading(s) rejected or left uncomputed "
+          "(transducer/qa.csv).",
+          sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(), rejected));
     }
   }
-  doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)", "barometric efficiency",
-             "rho (kg/m^3)", "flags"},
+  doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)",
+             "barometric efficiency", "rho (kg/m^3)", "flags"},
             rows);
 }
 
@@ -722,10 +774,12 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
   doc.paragraph(fmt::format("Every measuring-point survey brought into {}:", c.target));
   std::vector<std::vector<std::string>> rows;
   for (std::size_t r = 0; r < mps.rows(); ++r) {
-    rows.push_back({mps.get(r, "well"), mps.get(r, "valid_from"), mps.get(r, "height"), mps.get(r, "sigma"),
-                    mps.get(r, "source"), mps.get(r, "reason"), mps.get(r, "flags")});
+    rows.push_back({mps.get(r, "well"), mps.get(r, "valid_from"), mps.get(r, "height"),
+                    mps.get(r, "sigma"), mps.get(r, "source"), mps.get(r, "reason"),
+                    mps.get(r, "flags")});
   }
-  doc.table({"well", "valid from", "height (m)", "sigma (m)", "source", "reason", "flags"}, rows, 200);
+  doc.table({"well", "valid from", "height (m)", "sigma (m)", "source", "reason", "flags"}, rows,
+            200);
 
   // The datum mix-up a naive merge would have made.
   if (const ReportInput* given = input(c, "measuring_points")) {
@@ -746,58 +800,70 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
     }
     for (const auto& [datum, entry] : shift_by_datum) {
       if (std::abs(entry.first) < 0.01) continue;
-      findings.items.push_back(fmt::format(
-          "Datum mix-up avoided: the measuring points of {} well(s) were surveyed on '{}'; merged with "
-          "heights in {} as if in one reference, their heads would be {:.3f} m too {}.",
-          entry.second.size(), datum, c.target, std::abs(entry.first), entry.first > 0 ? "low" : "high"));
+      findings.items.push_back(
+          fmt::format("Datum mix-up avoided: the measuring points of {} well(s) were surveyed on "
+                      "'{}'; merged with "
+                      "heights in {} as if in one reference, their heads would be {:.3f} m too {}.",
+                      entry.second.size(), datum, c.target, std::abs(entry.first),
+                      entry.first > 0 ? "low" : "high"));
     }
   }
 
   doc.heading(2, "Heads");
   const auto& counts = s["counts"];
-  doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.", counts.value("readings", 0),
-                            counts.value("heads", 0), c.target, counts.value("contourable", 0)));
+  doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.",
+                            counts.value("readings", 0), counts.value("heads", 0), c.target,
+                            counts.value("contourable", 0)));
   if (fs::exists(run / "heads" / "event.csv")) {
     const Csv event(run / "heads" / "event.csv");
     if (const ReportInput* w = input(c, "wells")) {
       const Csv wells(*w);
-      if (auto map = head_map(event, wells, run / "flow" / "flow.json", c.contour_interval, contours)) {
-        doc.figure("heads", *map,
-                   "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
-                   "used, quick-look contours (dashed; linear between wells, also in contours.gpkg) and "
-                   "the flow direction from the planar fit (arrow); squares: wells of other aquifers, "
-                   "not contoured. A quick look, not a contour map for decisions.");
+      if (auto map =
+              head_map(event, wells, run / "flow" / "flow.json", c.contour_interval, contours)) {
+        doc.figure(
+            "heads", *map,
+            "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
+            "used, quick-look contours (dashed; linear between wells, also in contours.gpkg) and "
+            "the flow direction from the planar fit (arrow); squares: wells of other aquifers, "
+            "not contoured. A quick look, not a contour map for decisions.");
       }
     }
   }
   if (fs::exists(run / "flow" / "flow.json")) {
     const nlohmann::json f = read_json(run / "flow" / "flow.json");
     std::vector<std::vector<std::string>> flow = {
-        {"hydraulic gradient (m/m)", fmt::format("{:.2e} +- {:.1e}", f["gradient"]["value"].get<double>(),
-                                                  f["gradient"]["sigma"].get<double>())},
+        {"hydraulic gradient (m/m)",
+         fmt::format("{:.2e} +- {:.1e}", f["gradient"]["value"].get<double>(),
+                     f["gradient"]["sigma"].get<double>())},
         {"flow direction (degrees from grid north)",
-         fmt::format("{:.1f} +- {:.1f}", f["azimuth"]["value"].get<double>(), f["azimuth"]["sigma"].get<double>())},
+         fmt::format("{:.1f} +- {:.1f}", f["azimuth"]["value"].get<double>(),
+                     f["azimuth"]["sigma"].get<double>())},
         {"wells in the fit", std::to_string(f["wells"].get<long>())}};
     if (f.contains("darcy")) {
       const auto& d = f["darcy"];
-      flow.push_back({"average linear velocity (m/day)",
-                      fmt::format("{:.2g} to {:.2g}", 86400 * d["velocity_m_per_s"]["low"].get<double>(),
-                                  86400 * d["velocity_m_per_s"]["high"].get<double>())});
-      flow.push_back({fmt::format("travel time over {:g} m (years)", d["distance_m"].get<double>()),
-                      fmt::format("{:.2g} to {:.2g}", d["travel_time_s"]["low"].get<double>() / 3.15576e7,
-                                  d["travel_time_s"]["high"].get<double>() / 3.15576e7)});
+      flow.push_back(
+          {"average linear velocity (m/day)",
+           fmt::format("{:.2g} to {:.2g}", 86400 * d["velocity_m_per_s"]["low"].get<double>(),
+                       86400 * d["velocity_m_per_s"]["high"].get<double>())});
+      flow.push_back(
+          {fmt::format("travel time over {:g} m (years)", d["distance_m"].get<double>()),
+           fmt::format("{:.2g} to {:.2g}", d["travel_time_s"]["low"].get<double>() / 3.15576e7,
+                       d["travel_time_s"]["high"].get<double>() / 3.15576e7)});
     }
     doc.table({"flow", "value"}, flow);
-    findings.items.push_back(fmt::format("Groundwater flows towards {:.0f} degrees (grid) with a gradient of {:.1e}.",
-                                         f["azimuth"]["value"].get<double>(), f["gradient"]["value"].get<double>()));
+    findings.items.push_back(
+        fmt::format("Groundwater flows towards {:.0f} degrees (grid) with a gradient of {:.1e}.",
+                    f["azimuth"]["value"].get<double>(), f["gradient"]["value"].get<double>()));
   }
   const Csv heads(run / "heads" / "heads.csv");
   if (auto figure = hydrographs(heads, mps)) {
-    doc.figure("hydrographs", *figure, "Heads over time per well; dashed red lines mark measuring-point changes.");
+    doc.figure("hydrographs", *figure,
+               "Heads over time per well; dashed red lines mark measuring-point changes.");
   }
   doc.heading(2, "QA flags and re-measure list");
   rows.clear();
-  for (const auto& [flag, count] : s["flags"].items()) rows.push_back({flag, std::to_string(count.get<long>())});
+  for (const auto& [flag, count] : s["flags"].items())
+    rows.push_back({flag, std::to_string(count.get<long>())});
   if (rows.empty()) {
     doc.paragraph("No reading was flagged.");
   } else {
@@ -806,8 +872,10 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
   if (fs::exists(run / "heads" / "remeasure.csv")) {
     const Csv re(run / "heads" / "remeasure.csv");
     rows.clear();
-    for (std::size_t r = 0; r < re.rows(); ++r) rows.push_back({re.get(r, "well"), re.get(r, "reasons")});
-    doc.paragraph(rows.empty() ? "No well needs re-measuring." : "Wells to re-measure before contouring:");
+    for (std::size_t r = 0; r < re.rows(); ++r)
+      rows.push_back({re.get(r, "well"), re.get(r, "reasons")});
+    doc.paragraph(rows.empty() ? "No well needs re-measuring."
+                               : "Wells to re-measure before contouring:");
     if (!rows.empty()) {
       doc.table({"well", "reasons"}, rows);
       findings.items.push_back(fmt::format("{} well(s) on the re-measure list.", rows.size()));
@@ -834,16 +902,19 @@ void inputs_section(Document& doc, const ReportContext& c, const std::string& co
     rows.push_back({s.name, s.value, s.default_value.empty() ? "(none)" : s.default_value,
                     s.chain_default ? "chain default" : "project file"});
   }
-  doc.paragraph(rows.empty() ? "Every setting is at its default." : "Settings that differ from the command defaults:");
+  doc.paragraph(rows.empty() ? "Every setting is at its default."
+                             : "Settings that differ from the command defaults:");
   if (!rows.empty()) doc.table({"setting", "value", "default", "set by"}, rows);
-  doc.paragraph("Configuration hash (SHA-256 of the settings and the inputs' checksums): " + config_hash);
+  doc.paragraph("Configuration hash (SHA-256 of the settings and the inputs' checksums): " +
+                config_hash);
 }
 
 const std::vector<std::string>& cautions() {
   static const std::vector<std::string> text = {
       "Heights, heads and flow directions here are computed from the data given; their quality is "
       "that of the surveys and readings, within the stated uncertainties.",
-      "The head map and flow arrow are quick looks from a planar fit: they are not a substitute for "
+      "The head map and flow arrow are quick looks from a planar fit: they are not a substitute "
+      "for "
       "contouring by a qualified person or for a groundwater model.",
       "Decisions on construction, flood defence or water supply must follow local codes and "
       "standards and rest on the judgement of a licensed surveyor, engineer or hydrogeologist.",
@@ -863,16 +934,21 @@ nlohmann::json run_record(const ReportContext& c, const std::string& config_hash
   record["target"] = c.target;
   nlohmann::json inputs = nlohmann::json::array();
   for (const ReportInput& i : c.inputs) {
-    inputs.push_back({{"role", i.role}, {"path", i.path}, {"sha256", file_sha256(i.resolved)},
+    inputs.push_back({{"role", i.role},
+                      {"path", i.path},
+                      {"sha256", file_sha256(i.resolved)},
                       {"bytes", fs::file_size(i.resolved)}});
   }
   record["inputs"] = std::move(inputs);
   nlohmann::json grids = nlohmann::json::array();
-  for (const fs::path& g : c.grids) grids.push_back({{"file", g.filename().string()}, {"sha256", file_sha256(g)}});
+  for (const fs::path& g : c.grids)
+    grids.push_back({{"file", g.filename().string()}, {"sha256", file_sha256(g)}});
   record["grids"] = std::move(grids);
   nlohmann::json settings = nlohmann::json::array();
   for (const ReportSetting& s : c.settings) {
-    settings.push_back({{"setting", s.name}, {"value", s.value}, {"default", s.default_value},
+    settings.push_back({{"setting", s.name},
+                        {"value", s.value},
+                        {"default", s.default_value},
                         {"chain_default", s.chain_default}});
   }
   record["settings_changed"] = std::move(settings);
@@ -886,7 +962,8 @@ nlohmann::json run_record(const ReportContext& c, const std::string& config_hash
 std::string configuration_hash(const ReportContext& c) {
   std::string text;
   for (const ReportSetting& s : c.settings) text += fmt::format("setting {}={}\n", s.name, s.value);
-  for (const ReportInput& i : c.inputs) text += fmt::format("input {}={}\n", i.role, file_sha256(i.resolved));
+  for (const ReportInput& i : c.inputs)
+    text += fmt::format("input {}={}\n", i.role, file_sha256(i.resolved));
   for (const fs::path& g : c.grids) text += fmt::format("grid {}\n", file_sha256(g));
   text += fmt::format("site crs={} target={}\n", c.crs, c.target);
   return text_sha256(text);
@@ -906,7 +983,8 @@ void write_report(const ReportContext& c, const fs::path& folder) {
   body.heading(2, "Cautions");
   body.bullets(cautions());
   body.heading(2, "Stages run");
-  body.paragraph(fmt::format("{} (each in its own folder beside this report).", fmt::join(c.stages, ", ")));
+  body.paragraph(
+      fmt::format("{} (each in its own folder beside this report).", fmt::join(c.stages, ", ")));
 
   Document head;
   head.heading(1, c.title);
@@ -924,16 +1002,19 @@ void write_report(const ReportContext& c, const fs::path& folder) {
 
   // Figures first: the report is the last file to appear.
   OutputSet figures(folder / "figures");
-  for (const auto& [name, svg] : body.figures()) figures.open(fs::path(name).filename().string()) << svg;
+  for (const auto& [name, svg] : body.figures())
+    figures.open(fs::path(name).filename().string()) << svg;
   figures.commit();
   OutputSet out(folder);
   out.open("report.md") << head.markdown() << body.markdown();
-  out.open("report.html") << "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>"
-                          << report::escape_xml(c.title) << "</title>\n<style>\n"
-                          << css << "</style>\n</head>\n<body>\n"
-                          << head.html() << body.html() << "</body>\n</html>\n";
+  out.open("report.html")
+      << "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n<title>"
+      << report::escape_xml(c.title) << "</title>\n<style>\n"
+      << css << "</style>\n</head>\n<body>\n"
+      << head.html() << body.html() << "</body>\n</html>\n";
   out.open("run.json") << run_record(c, hash).dump(2) << '\n';
-  if (contours && !c.crs.empty()) write_contours_geopackage(*contours, c.crs, c.target, out.reserve("contours.gpkg"));
+  if (contours && !c.crs.empty())
+    write_contours_geopackage(*contours, c.crs, c.target, out.reserve("contours.gpkg"));
   out.commit();
 }
 

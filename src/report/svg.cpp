@@ -12,11 +12,20 @@ std::string escape_xml(const std::string& text) {
   out.reserve(text.size());
   for (char c : text) {
     switch (c) {
-      case '&': out += "&amp;"; break;
-      case '<': out += "&lt;"; break;
-      case '>': out += "&gt;"; break;
-      case '"': out += "&quot;"; break;
-      default: out += c;
+      case '&':
+        out += "&amp;";
+        break;
+      case '<':
+        out += "&lt;";
+        break;
+      case '>':
+        out += "&gt;";
+        break;
+      case '"':
+        out += "&quot;";
+        break;
+      default:
+        out += c;
     }
   }
   return out;
@@ -43,7 +52,8 @@ void Svg::polyline(const std::vector<std::pair<double, double>>& points, const S
                    const std::string& fill) {
   std::string list;
   for (const auto& [x, y] : points) list += fmt::format("{:.1f},{:.1f} ", x, y);
-  body_ += fmt::format(R"(<polyline points="{}" fill="{}"{}/>)", list, fill, stroke_attributes(stroke));
+  body_ +=
+      fmt::format(R"(<polyline points="{}" fill="{}"{}/>)", list, fill, stroke_attributes(stroke));
   body_ += '\n';
 }
 
@@ -53,16 +63,19 @@ void Svg::circle(double x, double y, double r, const std::string& fill, const St
   body_ += '\n';
 }
 
-void Svg::rect(double x, double y, double w, double h, const std::string& fill, const Stroke& stroke) {
-  body_ += fmt::format(R"(<rect x="{:.1f}" y="{:.1f}" width="{:.1f}" height="{:.1f}" fill="{}"{}/>)", x,
-                       y, std::max(w, 0.0), std::max(h, 0.0), fill, stroke_attributes(stroke));
+void Svg::rect(double x, double y, double w, double h, const std::string& fill,
+               const Stroke& stroke) {
+  body_ +=
+      fmt::format(R"(<rect x="{:.1f}" y="{:.1f}" width="{:.1f}" height="{:.1f}" fill="{}"{}/>)", x,
+                  y, std::max(w, 0.0), std::max(h, 0.0), fill, stroke_attributes(stroke));
   body_ += '\n';
 }
 
 void Svg::text(double x, double y, const std::string& text, double size, const std::string& anchor,
                const std::string& colour, bool bold) {
-  body_ += fmt::format(R"(<text x="{:.1f}" y="{:.1f}" font-size="{:.1f}" text-anchor="{}" fill="{}"{}>{}</text>)",
-                       x, y, size, anchor, colour, bold ? R"( font-weight="bold")" : "", escape_xml(text));
+  body_ += fmt::format(
+      R"(<text x="{:.1f}" y="{:.1f}" font-size="{:.1f}" text-anchor="{}" fill="{}"{}>{}</text>)", x,
+      y, size, anchor, colour, bold ? R"( font-weight="bold")" : "", escape_xml(text));
   body_ += '\n';
 }
 
@@ -88,8 +101,8 @@ double MapFrame::x(double world_x) const { return left_ + (world_x - min_x_) * s
 double MapFrame::y(double world_y) const { return top_ + height_ - (world_y - min_y_) * scale_; }
 
 void north_arrow(Svg& svg, double x, double y) {
-  svg.polyline({{x, y}, {x - 7, y + 22}, {x, y + 16}, {x + 7, y + 22}, {x, y}}, Stroke{"#222222", 1.2},
-               "#222222");
+  svg.polyline({{x, y}, {x - 7, y + 22}, {x, y + 16}, {x + 7, y + 22}, {x, y}},
+               Stroke{"#222222", 1.2}, "#222222");
   svg.text(x, y - 4, "N", 12, "middle", "#222222", true);
 }
 
@@ -104,7 +117,8 @@ void scale_bar(Svg& svg, const MapFrame& frame, double x, double y, double max_p
   svg.rect(x, y, pixels / 2, 5, "#222222", Stroke{"#222222", 1});
   svg.rect(x + pixels / 2, y, pixels / 2, 5, "#ffffff", Stroke{"#222222", 1});
   svg.text(x, y + 17, "0", 10, "middle");
-  svg.text(x + pixels, y + 17, length >= 1000 ? fmt::format("{:g} km", length / 1000) : fmt::format("{:g} m", length),
+  svg.text(x + pixels, y + 17,
+           length >= 1000 ? fmt::format("{:g} km", length / 1000) : fmt::format("{:g} m", length),
            10, "middle");
 }
 
@@ -116,7 +130,8 @@ std::string ramp_colour(double value, double low, double high) {
   const int i = std::min(static_cast<int>(f), 1);
   const double t = f - i;
   int rgb[3];
-  for (int c = 0; c < 3; ++c) rgb[c] = static_cast<int>(std::lround(stops[i][c] + t * (stops[i + 1][c] - stops[i][c])));
+  for (int c = 0; c < 3; ++c)
+    rgb[c] = static_cast<int>(std::lround(stops[i][c] + t * (stops[i + 1][c] - stops[i][c])));
   return fmt::format("#{:02x}{:02x}{:02x}", rgb[0], rgb[1], rgb[2]);
 }
 

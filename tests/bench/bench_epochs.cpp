@@ -31,10 +31,12 @@ int main(int argc, char** argv) {
     sizes.clear();
     for (int i = 1; i < argc; ++i) sizes.push_back(std::strtoul(argv[i], nullptr, 10));
   }
-  fmt::print("{:>8} {:>10} {:>12} {:>12} {:>8}\n", "points", "unknowns", "adjust (s)", "epochs (s)", "ratio");
+  fmt::print("{:>8} {:>10} {:>12} {:>12} {:>8}\n", "points", "unknowns", "adjust (s)", "epochs (s)",
+             "ratio");
   for (std::size_t n : sizes) {
     testing::SyntheticNetwork net = testing::mesh_network(n, 7);
-    const std::size_t side = static_cast<std::size_t>(std::sqrt(static_cast<double>(net.points.size())));
+    const std::size_t side =
+        static_cast<std::size_t>(std::sqrt(static_cast<double>(net.points.size())));
     const std::vector<std::string> marks = {net.points[0].id, net.points[side - 1].id,
                                             net.points[side * (side - 1)].id, net.points.back().id};
     std::unordered_map<std::string, std::size_t> index;
@@ -58,17 +60,19 @@ int main(int argc, char** argv) {
     const auto start_adjust = Clock::now();
     AdjustmentOptions one;
     one.free_point = marks.front();
-    const AdjustmentResult single =
-        adjust(make_network(std::vector<Point>(points), std::vector<Section>(epochs[0].sections.sections)), one);
+    const AdjustmentResult single = adjust(
+        make_network(std::vector<Point>(points), std::vector<Section>(epochs[0].sections.sections)),
+        one);
     const double t_adjust = seconds_since(start_adjust);
 
     const auto start_epochs = Clock::now();
-    const EpochAnalysis a = analyse_epochs(PointTable{"points", points}, epochs, marks, EpochOptions{});
+    const EpochAnalysis a =
+        analyse_epochs(PointTable{"points", points}, epochs, marks, EpochOptions{});
     const double t_epochs = seconds_since(start_epochs);
     // Joint unknowns: three epochs of the points that are not marks, the
     // four shared marks, less the one held.
-    fmt::print("{:>8} {:>10} {:>12.4f} {:>12.4f} {:>8.1f}   (congruence {}, dof {})\n", net.points.size(),
-               3 * (net.points.size() - 4) + 3, t_adjust, t_epochs, t_epochs / t_adjust,
-               a.tests.back().passed ? "passed" : "failed", single.dof);
+    fmt::print("{:>8} {:>10} {:>12.4f} {:>12.4f} {:>8.1f}   (congruence {}, dof {})\n",
+               net.points.size(), 3 * (net.points.size() - 4) + 3, t_adjust, t_epochs,
+               t_epochs / t_adjust, a.tests.back().passed ? "passed" : "failed", single.dof);
   }
 }

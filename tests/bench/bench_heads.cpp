@@ -5,11 +5,11 @@
 //
 // usage: bench_heads [N]
 
+#include <fmt/format.h>
 #include <sys/resource.h>
 
 #include <chrono>
 #include <filesystem>
-#include <fmt/format.h>
 #include <fstream>
 #include <random>
 
@@ -29,8 +29,8 @@ double run(const WellSet& wells, const std::vector<MeasuringPointRecord>& record
            const HeadOptions& options, const std::filesystem::path& levels,
            const std::filesystem::path& out, bool geopackage, std::size_t& readings) {
   const auto start = Clock::now();
-  const HeadsSummary s = compute_heads(wells, records, {}, {}, ReferenceSet{}, ProjSettings{}, options,
-                                       levels, TableOptions{}, out, geopackage);
+  const HeadsSummary s = compute_heads(wells, records, {}, {}, ReferenceSet{}, ProjSettings{},
+                                       options, levels, TableOptions{}, out, geopackage);
   readings = s.readings;
   return std::chrono::duration<double>(Clock::now() - start).count();
 }
@@ -80,8 +80,8 @@ int main(int argc, char** argv) {
   options.interpolate = true;
 
   std::size_t readings = 0;
-  const double csv_seconds = run(wells, records, options, folder / "levels.csv", folder / "out",
-                                 false, readings);
+  const double csv_seconds =
+      run(wells, records, options, folder / "levels.csv", folder / "out", false, readings);
   fmt::print("heads, CSV out: {} readings in {:.2f} s ({:.2f} M readings/s), peak {:.0f} MB\n",
              readings, csv_seconds, readings / csv_seconds / 1e6, peak_rss_mb());
   const double gpkg_seconds = run(wells, records, options, folder / "levels_small.csv",

@@ -16,5 +16,6 @@ TEST_CASE("10 m of fresh water is 98.0665 kPa at standard gravity", "[reference]
   CHECK_THAT(levelhead::water_column(9.80665, 1000.0, 9.80665), WithinAbs(1.0, 1e-12));
   // Sea water of 1025 kg/m^3 (from memory, a typical density) stands lower
   // for the same pressure: 10 x 1000 / 1025 m.
-  CHECK_THAT(levelhead::water_column(98.0665, 1025.0, 9.80665), WithinAbs(10.0 * 1000.0 / 1025.0, 1e-12));
+  CHECK_THAT(levelhead::water_column(98.0665, 1025.0, 9.80665),
+             WithinAbs(10.0 * 1000.0 / 1025.0, 1e-12));
 }
