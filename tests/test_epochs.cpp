@@ -61,6 +61,20 @@ struct SimulatedSite {
 
 const std::vector<std::string> four_marks = {"A", "B", "C", "D"};
 
+// Two noise-free epochs of the triangle A -> B -> P -> A, sections of 1 mm:
+// the first closes on A = 0, B = 1.000, P = 1.500; the second has the given dh.
+std::vector<EpochSections> triangle_epochs(double ab, double bp, double pa) {
+  const double s = 0.001;
+  std::vector<EpochSections> epochs;
+  epochs.push_back(
+      epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
+                   dated("P", "A", -1.500, s, "2026-03-01")}));
+  epochs.push_back(
+      epoch("E2", {dated("A", "B", ab, s, "2026-09-01"), dated("B", "P", bp, s, "2026-09-01"),
+                   dated("P", "A", pa, s, "2026-09-01")}));
+  return epochs;
+}
+
 const MarkVerdict& verdict(const EpochAnalysis& a, const std::string& mark) {
   for (const MarkVerdict& v : a.marks) {
     if (v.mark == mark) return v;
@@ -175,18 +189,11 @@ TEST_CASE("three-point case: displacement, interval and test by hand", "[epochs]
   // q(P1, P2) = 1/12, so q(d) = 7/12 + 7/12 - 2/12 = 1: sigma_d = 1 mm,
   // d / sigma_d = 5, and the 95 % interval is -5 +- 1.95996 mm (z from the
   // normal table, NIST/SEMATECH e-Handbook 1.3.6.7.1).
-  const double s = 0.001;
-  std::vector<EpochSections> epochs;
-  epochs.push_back(
-      epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
-                   dated("P", "A", -1.500, s, "2026-03-01")}));
-  epochs.push_back(
-      epoch("E2", {dated("A", "B", 1.000, s, "2026-09-01"), dated("B", "P", 0.495, s, "2026-09-01"),
-                   dated("P", "A", -1.495, s, "2026-09-01")}));
   EpochOptions options;
   options.variance = VarianceFactor::apriori;
-  const EpochAnalysis a = analyse_epochs(point_table({point("A", 50.0), point("B"), point("P")}),
-                                         std::move(epochs), {"A", "B"}, options);
+  const EpochAnalysis a =
+      analyse_epochs(point_table({point("A", 50.0), point("B"), point("P")}),
+                     triangle_epochs(1.000, 0.495, -1.495), {"A", "B"}, options);
   REQUIRE(a.tests.size() == 1);
   CHECK(a.tests[0].passed);
   CHECK_THAT(a.tests[0].omega, WithinAbs(0.0, 1e-9));
@@ -209,18 +216,11 @@ TEST_CASE("congruence statistic of two marks by hand", "[epochs]") {
   // (equal-weight triangle, by hand). Omega = 4^2 / (2/3 + 2/3) = 12 with
   // h = 1; against chi2(1) at 5 % (3.841, NIST e-Handbook 1.3.6.7.4) it
   // fails, and with only two marks the test cannot tell which moved.
-  const double s = 0.001;
-  std::vector<EpochSections> epochs;
-  epochs.push_back(
-      epoch("E1", {dated("A", "B", 1.000, s, "2026-03-01"), dated("B", "P", 0.500, s, "2026-03-01"),
-                   dated("P", "A", -1.500, s, "2026-03-01")}));
-  epochs.push_back(
-      epoch("E2", {dated("A", "B", 1.004, s, "2026-09-01"), dated("B", "P", 0.491, s, "2026-09-01"),
-                   dated("P", "A", -1.495, s, "2026-09-01")}));
   EpochOptions options;
   options.variance = VarianceFactor::apriori;
-  const EpochAnalysis a = analyse_epochs(point_table({point("A"), point("B"), point("P")}),
-                                         std::move(epochs), {"A", "B"}, options);
+  const EpochAnalysis a =
+      analyse_epochs(point_table({point("A"), point("B"), point("P")}),
+                     triangle_epochs(1.004, 0.491, -1.495), {"A", "B"}, options);
   REQUIRE(a.tests.size() == 1);
   CHECK(a.tests[0].h == 1);
   CHECK_THAT(a.tests[0].omega, WithinAbs(12.0, 1e-6));  // weight units: mm^2 / (1 mm)^2

@@ -34,6 +34,11 @@ using CommandList = std::vector<std::pair<std::string, CommandRunner>>;
   };
 }
 
+// CLI11 takes the arguments reversed and without the program name.
+std::vector<std::string> reversed_arguments(const std::vector<std::string>& args) {
+  return {args.rbegin(), args.rend() - (args.empty() ? 0 : 1)};
+}
+
 const char* const description =
     "levelhead: levelling adjustment and vertical datum reconciliation for well measuring points "
     "and groundwater heads";
@@ -61,7 +66,7 @@ std::optional<std::string> usage_error(const std::vector<std::string>& args) {
   CLI::App app{description, "levelhead"};
   // The runners own the variables the options write into: keep them alive.
   const CommandList commands = add_commands(app);
-  std::vector<std::string> reversed(args.rbegin(), args.rend() - (args.empty() ? 0 : 1));
+  std::vector<std::string> reversed = reversed_arguments(args);
   try {
     app.parse(reversed);
   } catch (const CLI::ParseError& e) {
@@ -74,8 +79,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   CLI::App app{description, "levelhead"};
   const CommandList commands = add_commands(app);
 
-  // CLI11 takes the arguments reversed and without the program name.
-  std::vector<std::string> reversed(args.rbegin(), args.rend() - (args.empty() ? 0 : 1));
+  std::vector<std::string> reversed = reversed_arguments(args);
   try {
     app.parse(reversed);
   } catch (const CLI::ParseError& e) {
