@@ -2,6 +2,7 @@
 
 #include "levelhead/density.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/transducer.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::WithinAbs;
@@ -34,6 +35,26 @@ TEST_CASE("freshwater head of a saline well, worked by hand", "[reference][densi
   CHECK_THAT(1025.0 * (10.0 + 20.0), WithinAbs(1000.0 * (10.75 + 20.0), 1e-9));
 }
 
+TEST_CASE("freshwater head matches a published worked example", "[reference][density]") {
+  // USGS short-course exercise "Calculation of Head and Equivalent Freshwater
+  // Head" (SWIM 2016 class material, public repository
+  // jdhughes-usgs/SWIM2016_classrepo, notebooks/exHandCalculations_A_completed.ipynb,
+  // Exercise 1), using Eq. 3 of Guo and Langevin (2002): a well filled with
+  // seawater of 1025 kg/m^3, water level (point-water head) 0 m, point at
+  // -5 m, g = 9.81 m/s^2 -> pressure 50276.25 Pa, freshwater head 0.125 m;
+  // filled with fresh water -> pressure 49050.0 Pa, freshwater head 0 m.
+  CHECK_THAT(freshwater_head(0.0, 1025.0, -5.0), WithinAbs(0.125, 1e-12));
+  CHECK_THAT(freshwater_head(0.0, 1000.0, -5.0), WithinAbs(0.0, 1e-12));
+  // The same pressures give back the 5 m water column above the point.
+  CHECK_THAT(water_column(50.27625, 1025.0, 9.81), WithinAbs(5.0, 1e-12));
+  CHECK_THAT(water_column(49.050, 1000.0, 9.81), WithinAbs(5.0, 1e-12));
+  // Reference library: Deltares imod-python, imod/tests/test_evaluate/test_head.py
+  // (convert_pointwaterhead_freshwaterhead): point-water head 4.0 m, density
+  // 1025 kg/m^3, elevation 1.0 m -> 4.075 m; fresh water -> 4.0 m.
+  CHECK_THAT(freshwater_head(4.0, 1025.0, 1.0), WithinAbs(4.075, 1e-12));
+  CHECK_THAT(freshwater_head(4.0, 1000.0, 1.0), WithinAbs(4.0, 1e-12));
+}
+
 TEST_CASE("environmental-water head of the same well, worked by hand", "[reference][density]") {
   // Freshwater head 10.75 m at a screen at -20 m; reference elevation 0 m;
   // mean density of the water between them 1012.5 kg/m^3 (invented):
@@ -44,4 +65,25 @@ TEST_CASE("environmental-water head of the same well, worked by hand", "[referen
   CHECK_THAT(1000.0 * (10.75 + 20.0), WithinAbs(1000.0 * (10.50 - 0.0) + 1012.5 * 20.0, 1e-9));
   // At the reference elevation itself, environmental and freshwater heads agree.
   CHECK_THAT(environmental_head(10.75, 1012.5, 0.0, 0.0), WithinAbs(10.75, 1e-12));
+}
+
+TEST_CASE("environmental heads are equal down a column at rest", "[reference][density]") {
+  // Hand computation of a hydrostatic column (invented): water table at 0 m,
+  // fresh water (1000 kg/m^3) down to -200 m, seawater (1025 kg/m^3) below.
+  // With no vertical flow the environmental-water head is the same at every
+  // depth (Post, Kooi and Simmons 2007), while freshwater heads grow with depth.
+  const double interface = -200.0;
+  for (const double screen : {-205.0, -250.0, -295.0}) {
+    // Pressure head of fresh water at the screen: p / (rho_f g), m.
+    const double fresh_column = -interface + 1.025 * (interface - screen);
+    const double point_water_head = fresh_column / 1.025 + screen;  // well full of seawater
+    const double h_f = freshwater_head(point_water_head, 1025.0, screen);
+    CHECK_THAT(h_f, WithinAbs(fresh_column + screen, 1e-9));
+    CHECK(h_f > 0.1);
+    const double mean_density = 1000.0 * fresh_column / -screen;
+    CHECK_THAT(environmental_head(h_f, mean_density, screen, 0.0), WithinAbs(0.0, 1e-9));
+  }
+  // 5 m below the interface the excess is 0.025 * 5 m = 0.125 m.
+  CHECK_THAT(freshwater_head((200.0 + 1.025 * 5.0) / 1.025 - 205.0, 1025.0, -205.0),
+             WithinAbs(0.125, 1e-9));
 }
