@@ -173,6 +173,29 @@ TEST_CASE("a failing stage stops the chain and keeps the finished stages", "[pro
   CHECK_FALSE(fs::exists(out / "report.html"));
 }
 
+TEST_CASE("run --strict finishes the chain and exits 3 naming the stages that failed QA",
+          "[project]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  const fs::path out = tmp.path() / "out";
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet", "--strict"});
+  INFO(run.err);
+  CHECK(run.code == 3);
+  // The demo's knocked logger and its flagged readings are QA failures.
+  CHECK_THAT(run.err, Contains("QA checks failed in"));
+  CHECK_THAT(run.err, Contains("transducer"));
+  CHECK_THAT(run.err, Contains("heads"));
+  CHECK_THAT(run.err, !Contains("stopped at stage"));
+  // Every stage ran and the report was written all the same.
+  CHECK(fs::exists(out / "heads" / "heads.csv"));
+  CHECK(fs::exists(out / "flow" / "flow.json"));
+  CHECK(fs::exists(out / "report.html"));
+  // Without --strict the same project exits 0.
+  CHECK(
+      cli({"run", project.string(), "--out", (tmp.path() / "lenient").string(), "--quiet"}).code ==
+      0);
+}
+
 TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());

@@ -20,8 +20,15 @@ namespace {
 
 struct RunArguments {
   std::string project, out;
-  bool quiet = false, verbose = false;
+  bool quiet = false, verbose = false, strict = false;
 };
+
+bool has_strict_option(const std::string& command) {
+  for (const OptionInfo& o : command_options(command)) {
+    if (o.flag == "--strict") return true;
+  }
+  return false;
+}
 
 ReportContext report_context(const Project& p, const std::vector<Stage>& stages) {
   ReportContext c;
@@ -66,7 +73,12 @@ std::string local_run_time() {
 int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
   const Project project = load_project(a.project);
   const std::filesystem::path folder(a.out);
-  const std::vector<Stage> stages = plan_stages(project, folder);
+  std::vector<Stage> stages = plan_stages(project, folder);
+  if (a.strict) {
+    for (Stage& stage : stages) {
+      if (has_strict_option(stage.name)) stage.args.push_back("--strict");
+    }
+  }
   // Every stage's options are checked before the first one runs.
   for (const Stage& stage : stages) {
     std::vector<std::string> args = {"levelhead"};
@@ -78,6 +90,9 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
   const bool progress = !a.quiet && isatty(STDERR_FILENO);
   std::ostream quiet_sink(nullptr);
   std::ostream& stage_out = a.quiet ? quiet_sink : out;
+  // With --strict a failed QA check does not stop the chain: the work is done
+  // and reported, and the run's status says which stages failed their checks.
+  std::vector<std::string> failed_checks;
   for (std::size_t i = 0; i < stages.size(); ++i) {
     const Stage& stage = stages[i];
     if (progress) err << fmt::format("[{}/{}] {}\n", i + 1, stages.size() + 1, stage.name);
@@ -86,7 +101,9 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
     std::vector<std::string> args = {"levelhead"};
     args.insert(args.end(), stage.args.begin(), stage.args.end());
     const int code = run(args, stage_out, err);
-    if (code != exit_ok) {
+    if (code == exit_checks_failed) {
+      failed_checks.push_back(stage.name);
+    } else if (code != exit_ok) {
       err << fmt::format(
           "levelhead run: stopped at stage '{}' (reading {}). The stages before it finished and "
           "their outputs in {} are complete; this stage left no output.\n",
@@ -102,6 +119,13 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
     out << fmt::format("\nReport: {} (also report.md); audit record: run.json\n",
                        (folder / "report.html").string());
   }
+  if (!failed_checks.empty()) {
+    err << fmt::format(
+        "levelhead run: QA checks failed in {} (see each stage's summary and the report's "
+        "findings); all outputs are complete.\n",
+        fmt::join(failed_checks, ", "));
+    return exit_checks_failed;
+  }
   return exit_ok;
 }
 
@@ -115,6 +139,9 @@ CommandRunner add_run_command(CLI::App& app) {
       ->required();
   c->add_flag("--quiet", a->quiet, "Print nothing but errors");
   c->add_flag("--verbose", a->verbose, "Also print each stage's command line");
+  c->add_flag("--strict", a->strict,
+              "Pass --strict to every stage that has it; run the whole chain, then exit with "
+              "status 3 when any stage's QA check failed");
   return [a](std::ostream& out, std::ostream& err) { return run_project(*a, out, err); };
 }
 
