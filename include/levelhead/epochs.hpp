@@ -23,8 +23,8 @@
 //     confidence intervals, significance, minimal detectable displacements
 //     and rates (weighted least squares on the epochs' full covariance)
 //     follow from its cofactor matrix.
-// Dense linear algebra: monitoring networks hold tens to a few thousand
-// unknowns, and the analysis needs whole covariance blocks across epochs.
+// Sparse linear algebra (CHOLMOD) with the selected inverse: the covariances
+// across epochs the analysis needs are put on the factor's pattern.
 //
 // In:  the points table (ids, optional known heights and datum: the mark
 //      held in the final adjustment keeps its known height), the sections of
@@ -34,8 +34,8 @@
 // Errors: InputError for a section without a readable date; NetworkError for
 //      fewer than two epochs, an unknown or unobserved mark, an epoch with no
 //      candidate mark, or an epoch whose network falls apart; OptionError
-//      for an option out of range; ComputationError when the network is too
-//      large for the dense analysis (max_unknowns).
+//      for an option out of range; ComputationError when the joint
+//      adjustment's factor would exceed adjustment.max_factor_nonzeros.
 
 #include <cstddef>
 #include <optional>
@@ -55,7 +55,6 @@ struct EpochOptions {
   double beta = 0.80;            // power for the minimal detectable displacement
   VarianceFactor variance = VarianceFactor::pooled;
   bool remove_suspects = false;  // iterative data snooping in each epoch first
-  std::size_t max_unknowns = 3000;
   void validate() const;
 };
 

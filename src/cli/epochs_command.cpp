@@ -135,8 +135,8 @@ CommandRunner add_epochs_command(CLI::App& app) {
                    "Significance level of data snooping in each epoch")
       ->capture_default_str();
   command
-      ->add_option("--max-unknowns", a->options.max_unknowns,
-                   "Largest joint adjustment analysed (dense: 8 u^2 bytes)")
+      ->add_option("--max-factor-nonzeros", a->options.adjustment.max_factor_nonzeros,
+                   "Refuse joint adjustments whose factor would be larger (memory guard)")
       ->capture_default_str();
   command->add_option("--unit", a->unit, "Length unit of the input tables: m, ft, us-ft")
       ->capture_default_str();

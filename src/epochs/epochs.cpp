@@ -7,9 +7,11 @@
 #include <cmath>
 #include <ctime>
 #include <limits>
+#include <memory>
 #include <numeric>
 #include <unordered_map>
 
+#include "adjust/normal_solver.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/statistics.hpp"
 #include "levelhead/time.hpp"
@@ -38,7 +40,6 @@ void EpochOptions::validate() const {
     throw OptionError(
         fmt::format("power = {} must lie strictly between 0 and 1 (e.g. 0.80)", beta));
   }
-  if (max_unknowns < 2) throw OptionError("max-unknowns must be at least 2");
 }
 
 std::vector<EpochSections> split_by_epoch(SectionTable table,
@@ -85,27 +86,32 @@ struct JointSolution {
   double vtpv = 0.0;
   std::vector<std::vector<long>> unknown;  // [epoch][point]: index, -1 held, -2 not observed
   Eigen::VectorXd x;
-  Eigen::MatrixXd cofactors;  // only when asked for
+  // Factor of the normal matrix with its selected inverse; only when asked for.
+  std::unique_ptr<detail::NormalSolver> solver;
   double held_height = 0.0;
 
   double height(std::size_t epoch, std::size_t point) const {
     const long u = unknown[epoch][point];
     return u < 0 ? held_height : x(u);
   }
-  double cofactor(std::size_t e1, std::size_t p1, std::size_t e2, std::size_t p2) const {
-    const long a = unknown[e1][p1], b = unknown[e2][p2];
-    return a < 0 || b < 0 ? 0.0 : cofactors(a, b);
+  // Cofactor of the heights of one point in two epochs (or the same epoch).
+  double cofactor(std::size_t e1, std::size_t e2, std::size_t point) const {
+    const long a = unknown[e1][point], b = unknown[e2][point];
+    return a < 0 || b < 0 ? 0.0 : solver->inverse_entry(static_cast<int>(a), static_cast<int>(b));
   }
 };
 
 // Weighted least squares of all epochs at once, the points flagged `shared`
 // having one height for every epoch and `held` held at `held_height`
 // (Koch, "Parameter Estimation and Hypothesis Testing in Linear Models",
-// ch. 3). The normal matrix is dense and factorised by Cholesky (LLT); every
-// epoch must observe a shared point, so the only datum defect is the one the
-// held point removes.
+// ch. 3). The normal matrix is sparse and factorised by CHOLMOD; every epoch
+// must observe a shared point, so the only datum defect is the one the held
+// point removes. With cofactors, the unknowns of one point in different
+// epochs are joined by explicit zeros in the normal matrix, so that their
+// covariances lie on the factor's pattern and the Takahashi selected inverse
+// holds them (Takahashi, Fagan and Chin 1973) without a dense inverse.
 JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::size_t held,
-                          double held_height, bool with_cofactors, std::size_t max_unknowns) {
+                          double held_height, bool with_cofactors, double max_factor_nonzeros) {
   JointSolution s;
   s.held_height = held_height;
   s.unknown.assign(m.epochs, std::vector<long>(m.ids.size(), -2));
@@ -120,14 +126,9 @@ JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::
       s.unknown[k][p] = shared[p] ? shared_unknown[p] : next++;
     }
   }
-  const auto u = static_cast<std::size_t>(next);
-  if (u > max_unknowns) {
-    throw ComputationError(fmt::format(
-        "the joint adjustment of the epochs has {} unknowns, more than the dense analysis allows "
-        "({}); raise --max-unknowns if memory allows (8 u^2 bytes), or analyse fewer points",
-        u, max_unknowns));
-  }
-  Eigen::MatrixXd normal = Eigen::MatrixXd::Zero(u, u);
+  const auto u = static_cast<int>(next);
+  std::vector<Eigen::Triplet<double, int>> triplets;
+  triplets.reserve(3 * m.observations.size());
   Eigen::VectorXd rhs = Eigen::VectorXd::Zero(u);
   for (const Observation& o : m.observations) {
     const long t = s.unknown[o.epoch][o.to], f = s.unknown[o.epoch][o.from];
@@ -135,26 +136,44 @@ JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::
     if (t == -1) l -= held_height;
     if (f == -1) l += held_height;
     if (t >= 0) {
-      normal(t, t) += o.weight;
+      triplets.emplace_back(t, t, o.weight);
       rhs(t) += o.weight * l;
     }
     if (f >= 0) {
-      normal(f, f) += o.weight;
+      triplets.emplace_back(f, f, o.weight);
       rhs(f) -= o.weight * l;
     }
-    if (t >= 0 && f >= 0) {
-      normal(t, f) -= o.weight;
-      normal(f, t) -= o.weight;
+    if (t >= 0 && f >= 0) triplets.emplace_back(std::max(t, f), std::min(t, f), -o.weight);
+  }
+  if (with_cofactors) {
+    for (std::size_t p = 0; p < m.ids.size(); ++p) {
+      if (shared[p]) continue;
+      for (std::size_t a = 0; a < m.epochs; ++a) {
+        for (std::size_t b = a + 1; b < m.epochs; ++b) {
+          const long ua = s.unknown[a][p], ub = s.unknown[b][p];
+          if (ua >= 0 && ub >= 0) triplets.emplace_back(std::max(ua, ub), std::min(ua, ub), 0.0);
+        }
+      }
     }
   }
-  const Eigen::LLT<Eigen::MatrixXd> factor(normal);
-  if (factor.info() != Eigen::Success) {
-    throw ComputationError(
-        "the joint adjustment of the epochs is singular: a point or part of an epoch is not "
-        "connected to the reference marks");
+  detail::NormalSolver::LowerMatrix normal(u, u);
+  normal.setFromTriplets(triplets.begin(), triplets.end());
+  normal.makeCompressed();
+  triplets = {};
+  try {
+    auto solver =
+        std::make_unique<detail::NormalSolver>(normal, detail::SolverLimits{max_factor_nonzeros});
+    s.x = solver->solve(rhs);
+    if (with_cofactors) {
+      solver->compute_selected_inverse();
+      s.solver = std::move(solver);
+    }
+  } catch (const ComputationError& e) {
+    throw ComputationError(fmt::format(
+        "the joint adjustment of the epochs ({} unknowns): {} (is a point or part of an epoch "
+        "cut off from the reference marks?)",
+        u, e.what()));
   }
-  s.x = factor.solve(rhs);
-  if (with_cofactors) s.cofactors = factor.solve(Eigen::MatrixXd::Identity(u, u));
   for (const Observation& o : m.observations) {
     const double v = s.height(o.epoch, o.to) - s.height(o.epoch, o.from) - o.dh;
     s.vtpv += o.weight * v * v;
@@ -197,14 +216,14 @@ std::size_t first_shared(const std::vector<char>& shared) {
 
 // Global congruence test (Pelzer 1971; Caspary 2000, sec. 6.3).
 CongruenceTest congruence_test(const Model& m, const std::vector<char>& shared,
-                               const TestSettings& t, std::size_t max_unknowns) {
+                               const TestSettings& t, double max_factor_nonzeros) {
   CongruenceTest test;
   for (std::size_t p = 0; p < m.ids.size(); ++p) {
     if (shared[p]) test.marks.push_back(m.ids[p]);
   }
   test.h = congruence_dof(m, shared);
   const JointSolution joint =
-      solve_joint(m, shared, first_shared(shared), 0.0, false, max_unknowns);
+      solve_joint(m, shared, first_shared(shared), 0.0, false, max_factor_nonzeros);
   // The joint fit can never be better than the separate ones; a tiny
   // negative difference is rounding.
   test.omega = std::max(0.0, joint.vtpv - t.separate_vtpv);
@@ -457,7 +476,7 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   if (!every_epoch_holds_one(m, stable)) {
     throw std::logic_error("analyse_epochs: an epoch without a candidate passed adjust_epoch");
   }
-  out.tests.push_back(congruence_test(m, stable, settings, options.max_unknowns));
+  out.tests.push_back(congruence_test(m, stable, settings, options.adjustment.max_factor_nonzeros));
   std::size_t step = 0;
   while (!out.tests.back().passed && out.tests.back().marks.size() > 2) {
     const double omega = out.tests.back().omega;
@@ -468,7 +487,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
       std::vector<char> without = stable;
       without[p] = 0;
       if (!every_epoch_holds_one(m, without)) continue;
-      CongruenceTest t = congruence_test(m, without, settings, options.max_unknowns);
+      CongruenceTest t =
+          congruence_test(m, without, settings, options.adjustment.max_factor_nonzeros);
       if (!best || t.omega < best_test.omega) {
         best = p;
         best_test = std::move(t);
@@ -532,7 +552,7 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
                                           : m.datum[held_point])
            : fmt::format("local: {} held at 0 m", out.held_mark);
   const JointSolution final_fit =
-      solve_joint(m, stable, held_point, held_height, true, options.max_unknowns);
+      solve_joint(m, stable, held_point, held_height, true, options.adjustment.max_factor_nonzeros);
   const double variance = out.s0 * out.s0;
   if (settings.pooled) {
     out.test_critical = student_t_quantile(1.0 - options.alpha / 2.0, settings.pooled_dof);
@@ -553,7 +573,7 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
     std::vector<EpochHeight>& series = out.heights.emplace_back();
     for (std::size_t k : seen) {
       series.push_back({k, final_fit.height(k, p),
-                        out.s0 * std::sqrt(std::max(final_fit.cofactor(k, p, k, p), 0.0))});
+                        out.s0 * std::sqrt(std::max(final_fit.cofactor(k, k, p), 0.0))});
     }
     const auto displacement = [&](std::size_t a, std::size_t b, bool against_first) {
       Displacement d;
@@ -563,8 +583,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
       d.against_first = against_first;
       d.years = (out.epochs[b].time - out.epochs[a].time) / seconds_per_year;
       d.value = final_fit.height(b, p) - final_fit.height(a, p);
-      const double q = std::max(final_fit.cofactor(b, p, b, p) + final_fit.cofactor(a, p, a, p) -
-                                    2.0 * final_fit.cofactor(a, p, b, p),
+      const double q = std::max(final_fit.cofactor(b, b, p) + final_fit.cofactor(a, a, p) -
+                                    2.0 * final_fit.cofactor(a, b, p),
                                 0.0);
       d.datum_mark = stable[p] != 0;
       d.sigma = out.s0 * std::sqrt(q);
@@ -587,7 +607,7 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
         h(static_cast<Eigen::Index>(i)) = final_fit.height(seen[i], p);
         for (std::size_t j = 0; j < seen.size(); ++j) {
           c(static_cast<Eigen::Index>(i), static_cast<Eigen::Index>(j)) =
-              variance * final_fit.cofactor(seen[i], p, seen[j], p);
+              variance * final_fit.cofactor(seen[i], seen[j], p);
         }
       }
       if (const auto fit = fit_rate(years, h, c)) {
