@@ -1,9 +1,10 @@
 #include "levelhead/adjustment.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <chrono>
 #include <cmath>
-#include <fmt/format.h>
 #include <optional>
 
 #include "adjust/normal_solver.hpp"
@@ -354,8 +355,10 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
     test.passed = vtpv >= test.lower && vtpv <= test.upper;
     result.global_test = test;
     for (AdjustedPoint& p : result.points) {
-      if (p.control != ControlKind::fixed) p.sigma = *result.sigma0 * p.sigma_apriori;
-      else p.sigma = 0.0;
+      if (p.control != ControlKind::fixed)
+        p.sigma = *result.sigma0 * p.sigma_apriori;
+      else
+        p.sigma = 0.0;
     }
   } else {
     for (AdjustedPoint& p : result.points) {
@@ -373,8 +376,9 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
       result.suspects.push_back({Suspect::Kind::control, p.point, *p.control_w});
     }
   }
-  std::stable_sort(result.suspects.begin(), result.suspects.end(),
-                   [](const Suspect& a, const Suspect& b) { return std::abs(a.w) > std::abs(b.w); });
+  std::stable_sort(
+      result.suspects.begin(), result.suspects.end(),
+      [](const Suspect& a, const Suspect& b) { return std::abs(a.w) > std::abs(b.w); });
   result.timings.sigmas += seconds_since(start);
   return result;
 }
@@ -419,8 +423,9 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
   std::vector<Removal> removals;
   AdjustmentResult result = adjust_once(network, options, weights, control, active);
   while (options.iterative_snooping && removals.size() < options.max_removals) {
-    const auto worst = std::find_if(result.suspects.begin(), result.suspects.end(),
-                                    [](const Suspect& s) { return s.kind == Suspect::Kind::section; });
+    const auto worst =
+        std::find_if(result.suspects.begin(), result.suspects.end(),
+                     [](const Suspect& s) { return s.kind == Suspect::Kind::section; });
     if (worst == result.suspects.end()) break;
     removals.push_back({worst->index, worst->w, result.sigma0.value_or(0.0)});
     active[worst->index] = 0;

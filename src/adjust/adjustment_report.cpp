@@ -1,7 +1,8 @@
 #include "levelhead/adjustment_report.hpp"
 
-#include <cmath>
 #include <fmt/format.h>
+
+#include <cmath>
 #include <nlohmann/json.hpp>
 
 #include "levelhead/output_files.hpp"
@@ -27,14 +28,19 @@ nlohmann::json suspect_json(const Network& net, const AdjustmentResult& result, 
   if (s.kind == Suspect::Kind::section) {
     const Section& section = net.sections[s.index];
     const AdjustedSection& a = result.sections[s.index];
-    return {{"kind", "section"}, {"from", section.from}, {"to", section.to}, {"w", s.w},
-            {"residual", a.residual}, {"mdb", optional_number(a.mdb)},
+    return {{"kind", "section"}, {"from", section.from},   {"to", section.to},
+            {"w", s.w},          {"residual", a.residual}, {"mdb", optional_number(a.mdb)},
             {"row", section.row}};
   }
   const Point& p = net.points[s.index];
   const AdjustedPoint& a = result.points[s.index];
-  return {{"kind", "control"}, {"from", ""}, {"to", p.id}, {"point", p.id}, {"w", s.w},
-          {"residual", optional_number(a.control_residual)}, {"mdb", optional_number(a.control_mdb)},
+  return {{"kind", "control"},
+          {"from", ""},
+          {"to", p.id},
+          {"point", p.id},
+          {"w", s.w},
+          {"residual", optional_number(a.control_residual)},
+          {"mdb", optional_number(a.control_mdb)},
           {"row", p.row}};
 }
 
@@ -79,8 +85,8 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
               << metres(a.residual) << ',' << ratio(a.w, 3) << ',' << metres(a.adjusted_dh) << ','
               << metres(a.sigma) << ',' << to_string(a.rule) << ','
               << fmt::format("{:.4f}", a.redundancy) << ',' << metres(a.mdb) << ','
-              << (s.length ? fmt::format("{:.3f}", *s.length) : "") << ',' << csv_cell(s.run)
-              << ',' << csv_cell(s.date) << ',' << (suspect ? "yes" : "") << ','
+              << (s.length ? fmt::format("{:.3f}", *s.length) : "") << ',' << csv_cell(s.run) << ','
+              << csv_cell(s.date) << ',' << (suspect ? "yes" : "") << ','
               << (a.removal_step ? std::to_string(*a.removal_step) : "") << '\n';
   }
 
@@ -105,11 +111,16 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   summary["sigma0"] = optional_number(result.sigma0);
   if (result.global_test) {
     const GlobalTest& g = *result.global_test;
-    summary["global_test"] = {{"statistic", g.statistic}, {"lower", g.lower}, {"upper", g.upper},
-                              {"alpha", g.alpha},         {"dof", result.dof}, {"passed", g.passed}};
+    summary["global_test"] = {{"statistic", g.statistic}, {"lower", g.lower},
+                              {"upper", g.upper},         {"alpha", g.alpha},
+                              {"dof", result.dof},        {"passed", g.passed}};
   } else {
-    summary["global_test"] = {{"statistic", result.vtpv}, {"lower", nullptr}, {"upper", nullptr},
-                              {"alpha", options.alpha},   {"dof", 0},         {"passed", nullptr},
+    summary["global_test"] = {{"statistic", result.vtpv},
+                              {"lower", nullptr},
+                              {"upper", nullptr},
+                              {"alpha", options.alpha},
+                              {"dof", 0},
+                              {"passed", nullptr},
                               {"note", "no redundancy: the observations cannot be tested"}};
   }
   summary["data_snooping"] = {{"alpha0", options.alpha0},
@@ -124,8 +135,12 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   for (std::size_t k = 0; k < result.removals.size(); ++k) {
     const Removal& r = result.removals[k];
     const Section& s = net.sections[r.section];
-    removals.push_back({{"step", k + 1}, {"from", s.from}, {"to", s.to}, {"w", r.w},
-                        {"sigma0_before", r.sigma0}, {"row", s.row}});
+    removals.push_back({{"step", k + 1},
+                        {"from", s.from},
+                        {"to", s.to},
+                        {"w", r.w},
+                        {"sigma0_before", r.sigma0},
+                        {"row", s.row}});
   }
   summary["removals"] = removals;
   summary["weights"] = {
@@ -145,13 +160,12 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
 
 std::string adjustment_summary_text(const Network& net, const AdjustmentResult& result) {
   std::string text;
-  text += fmt::format("Adjusted {} points from {} sections ({} unknowns, {} fixed, {} weighted "
-                      "known heights){}\n",
-                      net.points.size(), net.sections.size(), result.unknowns,
-                      result.fixed_points, result.weighted_points,
-                      result.free_point ? fmt::format("; free adjustment holding {}",
-                                                      *result.free_point)
-                                        : "");
+  text += fmt::format(
+      "Adjusted {} points from {} sections ({} unknowns, {} fixed, {} weighted "
+      "known heights){}\n",
+      net.points.size(), net.sections.size(), result.unknowns, result.fixed_points,
+      result.weighted_points,
+      result.free_point ? fmt::format("; free adjustment holding {}", *result.free_point) : "");
   text += fmt::format("Weights: {} from sigma, {} from length, {} from setups\n",
                       result.weight_rule_counts[0], result.weight_rule_counts[1],
                       result.weight_rule_counts[2]);
