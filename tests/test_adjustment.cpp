@@ -89,6 +89,39 @@ TEST_CASE("a free adjustment ignores a wrong known height that the constrained o
   CHECK(checked.weighted_points == 0);
 }
 
+TEST_CASE("heights beyond a section of zero redundancy are unchecked", "[adjust][checked]") {
+  // Invented network: loop A-B-C with A known; a side shot C -> S; a spur
+  // chain B -> P -> Q; a second loop D-E-F hung on the single line C -> D;
+  // G between two known marks A and H (a chain, so it is checked).
+  const Network net = make_network(
+      {point("A", 50.0), point("B"), point("C"), point("S"), point("P"), point("Q"), point("D"),
+       point("E"), point("F"), point("G"), point("H", 51.0)},
+      {section("A", "B", 1.0), section("B", "C", 1.0), section("C", "A", -2.001),
+       section("C", "S", 0.3), section("B", "P", 0.2), section("P", "Q", 0.1),
+       section("C", "D", 0.5), section("D", "E", 0.1), section("E", "F", 0.1),
+       section("F", "D", -0.201), section("A", "G", 0.4), section("G", "H", 0.6)});
+  const AdjustmentResult r = adjust(net, AdjustmentOptions{});
+  const auto checked = [&](const std::string& id) {
+    return r.points[net.point_index.at(id)].checked;
+  };
+  for (const char* id : {"A", "B", "C", "G", "H"}) {
+    INFO(id);
+    CHECK(checked(id));
+  }
+  // The loop D-E-F closes on itself, but its height hangs on C -> D alone.
+  for (const char* id : {"S", "P", "Q", "D", "E", "F"}) {
+    INFO(id);
+    CHECK_FALSE(checked(id));
+  }
+  // A free adjustment: the held point is the control.
+  AdjustmentOptions free;
+  free.free_point = "E";
+  const AdjustmentResult f = adjust(net, free);
+  CHECK(f.points[net.point_index.at("E")].checked);
+  CHECK(f.points[net.point_index.at("D")].checked);
+  CHECK_FALSE(f.points[net.point_index.at("A")].checked);
+}
+
 TEST_CASE("a network without redundancy gives no sigma0 and no tests", "[adjust]") {
   const Network net = make_network({point("A", 10.0), point("B"), point("C")},
                                    {section("A", "B", 1.0), section("B", "C", 0.5)});
@@ -100,6 +133,8 @@ TEST_CASE("a network without redundancy gives no sigma0 and no tests", "[adjust]
   CHECK_FALSE(r.points[1].sigma);
   CHECK(r.points[1].sigma_apriori > 0.0);
   CHECK_THAT(r.points[2].height, WithinAbs(11.5, 1e-12));
+  CHECK_FALSE(r.points[2].checked);  // nothing checks a chain from one known height
+  CHECK(r.points[0].checked);
 }
 
 TEST_CASE("weights come from sigma, else length, else setups", "[adjust][weights]") {

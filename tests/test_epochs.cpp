@@ -279,6 +279,22 @@ TEST_CASE("rates from three epochs match a weighted straight-line fit", "[epochs
   CHECK(unequal);
 }
 
+TEST_CASE("a side shot is unchecked in every epoch and in its epoch heights", "[epochs]") {
+  std::vector<EpochSections> epochs = triangle_epochs(1.000, 0.495, -1.495);
+  epochs[0].sections.sections.push_back(dated("P", "S", 0.200, 0.001, "2026-03-01"));
+  epochs[1].sections.sections.push_back(dated("P", "S", 0.190, 0.001, "2026-09-01"));
+  const EpochAnalysis a =
+      analyse_epochs(point_table({point("A", 50.0), point("B"), point("P"), point("S")}),
+                     std::move(epochs), {"A", "B"}, EpochOptions{});
+  for (const EpochQuality& q : a.epochs) CHECK(q.unchecked == std::vector<std::string>{"S"});
+  for (std::size_t p = 0; p < a.points.size(); ++p) {
+    for (const EpochHeight& h : a.heights[p]) {
+      INFO(a.points[p]);
+      CHECK(h.checked == (a.points[p] != "S"));
+    }
+  }
+}
+
 TEST_CASE("bad epoch input is refused with the place to fix it", "[epochs]") {
   const double s = 0.001;
   const PointTable points = point_table({point("A"), point("B"), point("P")});

@@ -26,6 +26,7 @@ struct Site {
       "W2,2020-01-01,8.000,site-1998,0.002,survey\n";
   std::string levels;
   std::string monitored;  // heights_by_epoch.csv, when not empty
+  std::string network;    // heights.csv of `adjust`, when not empty
   HeadOptions options;
   ReferenceSet references;
 
@@ -53,7 +54,12 @@ struct Site {
       write("monitored.csv", monitored);
       moving = read_monitored_heights(read_table(tmp.path() / "monitored.csv"));
     }
-    compute_heads(w, records, {}, moving, references, ProjSettings{}, options,
+    NetworkHeights adjusted;
+    if (!network.empty()) {
+      write("heights.csv", network);
+      adjusted = read_network_heights(read_table(tmp.path() / "heights.csv"));
+    }
+    compute_heads(w, records, adjusted, moving, references, ProjSettings{}, options,
                   tmp.path() / "levels.csv", TableOptions{}, tmp.path() / "out", true);
     return read_table(tmp.path() / "out" / "heads.csv");
   }
@@ -304,5 +310,55 @@ TEST_CASE("measuring points on monitored points follow the levelling epochs", "[
         "well,valid_from,height,datum,sigma,moves_with\nW1,2024-01-01,10.0,EPSG:5703,0.002,PX\n";
     site.levels = "well,time,depth\nW1,2024-07-02,2.000\n";
     CHECK_THROWS_WITH(site.run(), Contains("PX") && Contains("moves_with"));
+  }
+}
+
+TEST_CASE("measuring points on unchecked levelling are flagged once and per reading",
+          "[heads][qa]") {
+  // Invented: W1 sits on a looped mark, W2 on a side shot of the adjustment.
+  Site site;
+  site.network =
+      "id,height,sigma,reference,checked\n"
+      "BM1,10.000,0.001,EPSG:5703,yes\n"
+      "SS1,9.000,0.001,EPSG:5703,no\n";
+  site.mp = "well,valid_from,point\nW1,2020-01-01,BM1\nW2,2020-01-01,SS1\n";
+  site.levels = "well,time,depth\nW1,2024-07-02,2.000\nW2,2024-07-02,3.000\nW2,2024-08-02,3.1\n";
+  const Table t = site.run();
+  CHECK_THAT(flags(t, 0), !Contains("mp-unchecked"));
+  CHECK_THAT(flags(t, 1), Contains("mp-unchecked"));
+  CHECK_THAT(flags(t, 2), Contains("mp-unchecked"));
+  CHECK_THAT(head(t, 1), WithinAbs(6.0, 1e-9));  // flagged, not changed
+  // qa.csv names the record once, with the point and the fix.
+  const Table qa = site.qa();
+  std::size_t entries = 0;
+  for (std::size_t r = 0; r < qa.row_count(); ++r) {
+    if (qa.cell(r, *qa.find_column("flag")) != "mp-unchecked") continue;
+    ++entries;
+    CHECK(qa.cell(r, *qa.find_column("table")) == "measuring-points");
+    CHECK(qa.cell(r, *qa.find_column("well")) == "W2");
+    CHECK_THAT(std::string(qa.cell(r, *qa.find_column("detail"))),
+               Contains("'SS1'") && Contains("level a loop"));
+  }
+  CHECK(entries == 1);
+
+  SECTION("epochs that are unchecked flag the readings that use them") {
+    site.network.clear();
+    site.monitored =
+        "point,epoch,time,height,sigma,reference,checked\n"
+        "PW1,E1,2024-01-01T00:00:00Z,10.00000,0.00100,EPSG:5703,yes\n"
+        "PW1,E2,2025-01-01T00:00:00Z,9.99000,0.00100,EPSG:5703,yes\n"
+        "PW1,E3,2026-01-01T00:00:00Z,9.98000,0.00100,EPSG:5703,no\n";
+    site.mp = "well,valid_from,point\nW1,2024-01-01,PW1\n";
+    site.levels = "well,time,depth\nW1,2024-07-02,2.000\nW1,2025-07-02,2.000\n";
+    const Table m = site.run();
+    CHECK_THAT(flags(m, 0), !Contains("mp-unchecked"));  // between E1 and E2
+    CHECK_THAT(flags(m, 1), Contains("mp-unchecked"));   // between E2 and E3
+  }
+  SECTION("a checked cell that is not yes or no is refused with its place") {
+    site.network = "id,height,reference,checked\nBM1,10.000,EPSG:5703,maybe\n";
+    site.mp = "well,valid_from,point\nW1,2020-01-01,BM1\n";
+    site.levels = "well,time,depth\nW1,2024-07-02,2.000\n";
+    CHECK_THROWS_WITH(site.run(), Contains("heights.csv") && Contains("checked") &&
+                                      Contains("maybe") && Contains("yes or no"));
   }
 }

@@ -85,6 +85,7 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(html, Contains("'gnss-2024'"));
   CHECK_THAT(html, Contains("Reference mark SBM-B is moving"));  // the sinking benchmark
   CHECK_THAT(html, Contains("transducer-drift-rejected"));       // the knocked logger
+  CHECK_THAT(html, Contains("Unchecked levelling: the measuring point(s) of MW-07"));  // side shot
   CHECK_THAT(read(tmp.path() / "report.md"), Contains("![Levelling network"));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
 

@@ -63,6 +63,11 @@ struct AdjustedPoint {
   ControlKind control = ControlKind::adjusted;
   // For weighted control points: the residual (adjusted - given, m), w and MDB.
   std::optional<double> control_residual, control_w, control_mdb, control_redundancy;
+  // Whether a blunder in any observation this height rests on would show in
+  // a residual: true for control points and for the points the control
+  // reaches over sections of redundancy r > 0; false beyond a section of
+  // r = 0 (side shots, spur chains, clusters hung on a single line).
+  bool checked = false;
 };
 
 struct AdjustedSection {

@@ -76,8 +76,9 @@ struct EpochQuality {
     double w = 0.0;
     std::size_t row = 0;
   };
-  std::vector<Flagged> suspects;  // observation suspects, worst first
-  std::vector<Flagged> removed;   // removed by data snooping (with remove_suspects)
+  std::vector<Flagged> suspects;       // observation suspects, worst first
+  std::vector<Flagged> removed;        // removed by data snooping (with remove_suspects)
+  std::vector<std::string> unchecked;  // points resting on single observations (side shots, spurs)
 };
 
 struct CongruenceTest {
@@ -102,6 +103,7 @@ std::string to_string(MarkVerdict::Kind kind);
 struct EpochHeight {
   std::size_t epoch = 0;
   double height = 0.0, sigma = 0.0;  // m
+  bool checked = true;               // false: in the epoch's unchecked list
 };
 
 struct Displacement {

@@ -66,10 +66,13 @@ struct NetworkHeight {
   double height = 0.0;
   std::optional<double> sigma;
   std::string reference;
+  bool checked = true;  // false: a side shot or spur; its heads are flagged mp-unchecked
 };
 using NetworkHeights = std::unordered_map<std::string, NetworkHeight>;
 
-// heights.csv of `levelhead adjust`: id, height, sigma, reference.
+// heights.csv of `levelhead adjust`: id, height, sigma, reference, and
+// optionally checked (yes/no; without the column every height counts as
+// checked).
 NetworkHeights read_network_heights(const Table& table);
 
 // Heights of monitored points per levelling epoch (heights_by_epoch.csv of
@@ -84,6 +87,7 @@ NetworkHeights read_network_heights(const Table& table);
 struct MonitoredEpoch {
   double time = 0.0;                 // s, UTC
   double height = 0.0, sigma = 0.0;  // m
+  bool checked = true;               // false: a side shot or spur in that epoch
 };
 struct MonitoredSeries {
   std::vector<MonitoredEpoch> epochs;  // by time
@@ -91,8 +95,10 @@ struct MonitoredSeries {
 };
 using MonitoredHeights = std::unordered_map<std::string, MonitoredSeries>;
 
-// Throws InputError naming the row for a bad time or height, or a point with
-// epochs in two references.
+// Optional column `checked` (yes/no, as heights_by_epoch.csv of `epochs`
+// writes it): heads whose measuring point rests on unchecked epoch heights
+// are flagged mp-unchecked. Throws InputError naming the row for a bad time,
+// height or checked cell, or a point with epochs in two references.
 MonitoredHeights read_monitored_heights(const Table& table);
 
 // Height (m) and sigma (m) of a monitored point at `time`, and whether the
@@ -100,6 +106,7 @@ MonitoredHeights read_monitored_heights(const Table& table);
 struct MonitoredValue {
   double height = 0.0, sigma = 0.0;
   bool extrapolated = false;
+  bool checked = true;  // every epoch it comes from is checked
 };
 MonitoredValue monitored_at(const MonitoredSeries& series, double time);
 

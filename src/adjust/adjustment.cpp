@@ -137,6 +137,39 @@ Control choose_control(const Network& net, const AdjustmentOptions& options) {
   return c;
 }
 
+// A height is checked when a blunder in any observation it rests on would
+// show in a residual. An observation of redundancy number r = 0 is a bridge
+// of the network graph in which the control points count as one node (Baarda
+// 1968: its error goes entirely into the unknowns); everything beyond a
+// bridge, seen from the control, inherits that observation's error
+// unchecked. So the checked points are those the control reaches over
+// observations with r > 0; side shots, spur chains and clusters hung on a
+// single line are not.
+void mark_checked_points(const Network& net, const std::vector<char>& active,
+                         const Control& control, AdjustmentResult& result) {
+  std::vector<std::vector<std::size_t>> neighbours(net.points.size());
+  for (const AdjustedSection& s : result.sections) {
+    if (!active[s.section] || s.redundancy < min_redundancy) continue;
+    neighbours[net.from_index[s.section]].push_back(net.to_index[s.section]);
+    neighbours[net.to_index[s.section]].push_back(net.from_index[s.section]);
+  }
+  std::vector<std::size_t> queue;
+  for (std::size_t i = 0; i < net.points.size(); ++i) {
+    if (control.kind[i] == ControlKind::adjusted) continue;
+    result.points[i].checked = true;
+    queue.push_back(i);
+  }
+  while (!queue.empty()) {
+    const std::size_t i = queue.back();
+    queue.pop_back();
+    for (const std::size_t j : neighbours[i]) {
+      if (result.points[j].checked) continue;
+      result.points[j].checked = true;
+      queue.push_back(j);
+    }
+  }
+}
+
 // Approximate heights by walking the network outward from every controlled
 // point (breadth first). They make the unknowns small corrections, which
 // keeps rounding low, and every point left unreached lies in a part of the
@@ -326,6 +359,7 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
     out.mdb = c.mdb;
   }
   result.points.resize(n_points);
+
   for (std::size_t i = 0; i < n_points; ++i) {
     AdjustedPoint& out = result.points[i];
     out.point = i;
@@ -341,6 +375,8 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
     out.control_w = c.w;
     out.control_mdb = c.mdb;
   }
+
+  mark_checked_points(net, active, control, result);
 
   result.vtpv = vtpv;
   result.dof = observations > static_cast<std::size_t>(n) ? observations - n : 0;

@@ -44,6 +44,15 @@ nlohmann::json suspect_json(const Network& net, const AdjustmentResult& result, 
           {"row", p.row}};
 }
 
+// Ids of the points whose heights no redundant observation checks.
+std::vector<std::string> unchecked_points(const Network& net, const AdjustmentResult& result) {
+  std::vector<std::string> ids;
+  for (const AdjustedPoint& p : result.points) {
+    if (!p.checked) ids.push_back(net.points[p.point].id);
+  }
+  return ids;
+}
+
 std::string suspect_label(const Network& net, const Suspect& s) {
   if (s.kind == Suspect::Kind::section) {
     const Section& section = net.sections[s.index];
@@ -66,13 +75,14 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
 
   std::ostream& heights = out.open("heights.csv");
   heights << "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
-             "reference,kind\n";
+             "reference,kind,checked\n";
   for (const AdjustedPoint& a : result.points) {
     const Point& p = net.points[a.point];
     heights << csv_cell(p.id) << ',' << metres(a.height) << ',' << metres(a.sigma) << ','
             << metres(a.sigma_apriori) << ',' << to_string(a.control) << ',' << metres(p.height)
             << ',' << metres(a.control_residual) << ',' << ratio(a.control_w, 3) << ','
-            << csv_cell(result.reference) << ',' << csv_cell(p.kind) << '\n';
+            << csv_cell(result.reference) << ',' << csv_cell(p.kind) << ','
+            << (a.checked ? "yes" : "no") << '\n';
   }
 
   std::ostream& residuals = out.open("residuals.csv");
@@ -131,6 +141,7 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   nlohmann::json suspects = nlohmann::json::array();
   for (const Suspect& s : result.suspects) suspects.push_back(suspect_json(net, result, s));
   summary["suspects"] = suspects;
+  summary["unchecked_points"] = unchecked_points(net, result);
   nlohmann::json removals = nlohmann::json::array();
   for (std::size_t k = 0; k < result.removals.size(); ++k) {
     const Removal& r = result.removals[k];
@@ -184,6 +195,14 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
                         suspect_label(net, {Suspect::Kind::section, result.removals[k].section,
                                             result.removals[k].w}),
                         result.removals[k].w);
+  }
+  if (const auto unchecked = unchecked_points(net, result); !unchecked.empty()) {
+    text += fmt::format(
+        "{} point(s) rest on single observations that nothing checks (side shots, spurs): {}{}\n",
+        unchecked.size(),
+        fmt::join(unchecked.begin(),
+                  unchecked.begin() + std::min<std::ptrdiff_t>(unchecked.size(), 10), ", "),
+        unchecked.size() > 10 ? ", ..." : "");
   }
   if (result.suspects.empty()) {
     text += fmt::format("No suspect observations (|w| <= {:.2f})\n", result.w_critical);

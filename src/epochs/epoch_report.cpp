@@ -91,12 +91,13 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
   }
 
   std::ostream& heights = out.open("heights_by_epoch.csv");
-  heights << "point,epoch,time,height,sigma,reference\n";
+  heights << "point,epoch,time,height,sigma,reference,checked\n";
   for (std::size_t p = 0; p < a.points.size(); ++p) {
     for (const EpochHeight& h : a.heights[p]) {
       heights << csv_cell(a.points[p]) << ',' << csv_cell(a.epochs[h.epoch].name) << ','
               << format_utc(a.epochs[h.epoch].time) << ',' << metres(h.height) << ','
-              << metres(h.sigma) << ',' << csv_cell(a.reference) << '\n';
+              << metres(h.sigma) << ',' << csv_cell(a.reference) << ','
+              << (h.checked ? "yes" : "no") << '\n';
     }
   }
 
@@ -114,7 +115,8 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
                         {"dof", q.dof},
                         {"vtpv", q.vtpv},
                         {"suspects", flagged_json(q.suspects)},
-                        {"removed", flagged_json(q.removed)}};
+                        {"removed", flagged_json(q.removed)},
+                        {"unchecked_points", q.unchecked}};
     e["sigma0"] = q.sigma0 ? nlohmann::json(*q.sigma0) : nlohmann::json(nullptr);
     if (q.global_test) {
       e["global_test"] = {{"statistic", q.global_test->statistic},

@@ -320,6 +320,9 @@ EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const 
       const Section& sec = network.sections[s.index];
       q.suspects.push_back({sec.from, sec.to, s.w, sec.row});
     }
+    for (const AdjustedPoint& p : r.points) {
+      if (!p.checked) q.unchecked.push_back(network.points[p.point].id);
+    }
     for (const Removal& removal : r.removals) {
       const Section& sec = network.sections[removal.section];
       q.removed.push_back({sec.from, sec.to, removal.w, sec.row});
@@ -572,8 +575,11 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
     out.points.push_back(m.ids[p]);
     std::vector<EpochHeight>& series = out.heights.emplace_back();
     for (std::size_t k : seen) {
-      series.push_back({k, final_fit.height(k, p),
-                        out.s0 * std::sqrt(std::max(final_fit.cofactor(k, k, p), 0.0))});
+      const std::vector<std::string>& unchecked = out.epochs[k].unchecked;
+      series.push_back(
+          {k, final_fit.height(k, p),
+           out.s0 * std::sqrt(std::max(final_fit.cofactor(k, k, p), 0.0)),
+           std::find(unchecked.begin(), unchecked.end(), m.ids[p]) == unchecked.end()});
     }
     const auto displacement = [&](std::size_t a, std::size_t b, bool against_first) {
       Displacement d;

@@ -56,9 +56,25 @@ std::optional<double> method_sigma(const std::string& method,
   return std::nullopt;
 }
 
+namespace {
+
+// The `checked` cell (yes/no) of the outputs of `adjust` and `epochs`.
+bool read_checked(const Table& t, std::size_t row, std::size_t column) {
+  const std::string_view value = t.cell(row, column);
+  if (!util::iequals(value, "yes") && !util::iequals(value, "no")) {
+    throw InputError(t.location(row, column), std::string(value),
+                     "expected yes or no, as the outputs of `levelhead adjust` and `levelhead "
+                     "epochs` have");
+  }
+  return util::iequals(value, "yes");
+}
+
+}  // namespace
+
 NetworkHeights read_network_heights(const Table& t) {
   const std::size_t id = t.require_column("id"), height = t.require_column("height");
   const auto sigma = t.find_column("sigma"), reference = t.find_column("reference");
+  const auto checked = t.find_column("checked");
   NetworkHeights out;
   for (std::size_t r = 0; r < t.row_count(); ++r) {
     const auto h = t.length(r, height);
@@ -67,6 +83,7 @@ NetworkHeights read_network_heights(const Table& t) {
     n.height = *h;
     if (sigma) n.sigma = t.length(r, *sigma);
     if (reference) n.reference = std::string(t.cell(r, *reference));
+    if (checked) n.checked = read_checked(t, r, *checked);
     out.emplace(std::string(t.cell(r, id)), n);
   }
   return out;
@@ -75,7 +92,7 @@ NetworkHeights read_network_heights(const Table& t) {
 MonitoredHeights read_monitored_heights(const Table& t) {
   const std::size_t point = t.require_column("point"), time = t.require_column("time");
   const std::size_t height = t.require_column("height"), reference = t.require_column("reference");
-  const auto sigma = t.find_column("sigma");
+  const auto sigma = t.find_column("sigma"), checked = t.find_column("checked");
   MonitoredHeights out;
   for (std::size_t r = 0; r < t.row_count(); ++r) {
     const std::string id(t.cell(r, point));
@@ -97,7 +114,8 @@ MonitoredHeights read_monitored_heights(const Table& t) {
           fmt::format("point '{}' has epochs in '{}' and '{}'; one reference per point", id,
                       series.reference, ref));
     }
-    series.epochs.push_back({when->seconds, *h, sigma ? t.length(r, *sigma).value_or(0.0) : 0.0});
+    series.epochs.push_back({when->seconds, *h, sigma ? t.length(r, *sigma).value_or(0.0) : 0.0,
+                             checked ? read_checked(t, r, *checked) : true});
   }
   for (auto& [id, series] : out) {
     std::stable_sort(
@@ -112,7 +130,8 @@ MonitoredHeights read_monitored_heights(const Table& t) {
 // nearest epoch's beyond them (an extrapolation is less certain than that).
 MonitoredValue monitored_at(const MonitoredSeries& series, double time) {
   const auto& e = series.epochs;
-  if (e.size() == 1) return {e[0].height, e[0].sigma, std::abs(time - e[0].time) > 0.5};
+  if (e.size() == 1)
+    return {e[0].height, e[0].sigma, std::abs(time - e[0].time) > 0.5, e[0].checked};
   const bool before = time<e.front().time, after = time> e.back().time;
   std::size_t i = 1;
   while (i + 1 < e.size() && e[i].time < time) ++i;
@@ -123,6 +142,7 @@ MonitoredValue monitored_at(const MonitoredSeries& series, double time) {
   v.height = a.height + f * (b.height - a.height);
   v.sigma = before ? a.sigma : after ? b.sigma : a.sigma + f * (b.sigma - a.sigma);
   v.extrapolated = before || after;
+  v.checked = a.checked && b.checked;
   return v;
 }
 
@@ -226,6 +246,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       if (it->second.sigma) given_sigma[k] = *it->second.sigma;
       datum = it->second.reference.empty() ? m.datum : it->second.reference;
       elevation[k].source = "network:" + m.point;
+      if (!it->second.checked) elevation[k].flags.push_back("mp-unchecked");
       if (datum.empty()) {
         throw InputError(CellLocation{"measuring points", m.row, "datum"}, "",
                          fmt::format("the adjusted heights name no reference for point '{}'; give "
@@ -243,6 +264,30 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       elevation[k].source = m.source.empty() ? m.datum : m.source;
     }
     if (!m.moves_with.empty()) elevation[k].source += ", moving with monitored:" + m.moves_with;
+    // Levelling that nothing checks: once per record here; its readings carry mp-unchecked.
+    const std::string fix = "a blunder there cannot show; level a loop through it";
+    if (std::find(elevation[k].flags.begin(), elevation[k].flags.end(), "mp-unchecked") !=
+        elevation[k].flags.end()) {
+      qa.push_back({m.well, m.valid_from_text, "mp-unchecked",
+                    fmt::format("point '{}' of the adjustment rests on levelling nothing checks "
+                                "(a side shot or spur); {}",
+                                m.point, fix),
+                    m.row, "measuring-points"});
+    }
+    if (elevation[k].motion) {
+      std::vector<std::string> unchecked;
+      for (const MonitoredEpoch& e : elevation[k].motion->epochs) {
+        if (!e.checked) unchecked.push_back(format_utc(e.time).substr(0, 10));
+      }
+      if (!unchecked.empty()) {
+        qa.push_back({m.well, m.valid_from_text, "mp-unchecked",
+                      fmt::format("the epochs {} of '{}' rest on levelling nothing checks (a side "
+                                  "shot or spur); {}",
+                                  fmt::join(unchecked, ", "),
+                                  m.moves_with.empty() ? m.point : m.moves_with, fix),
+                      m.row, "measuring-points"});
+      }
+    }
     by_datum[datum].push_back(k);
   }
   for (const auto& [datum, indices] : by_datum) {
@@ -521,6 +566,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                 : mp_sigma * mp_sigma;
         mp_sigma = std::sqrt(kept + now.sigma * now.sigma);
         if (now.extrapolated) flags.push_back("mp-motion-extrapolated");
+        if (!now.checked || !e.motion_base.checked) flags.push_back("mp-unchecked");
       } else if (options.interpolate && after != h.records.begin() && after != h.records.end() &&
                  !records[*after].starts_new_series()) {
         const std::size_t next = *after;
@@ -644,7 +690,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
         ++summary.flags[f];
         // Informational flags stay in heads.csv; qa.csv lists what needs a look.
         if (f != "repeat-disagrees" && f != "mp-sigma-unknown" && f != "mp-interpolated" &&
-            f != "outside-synoptic-window") {
+            f != "outside-synoptic-window" && f != "mp-unchecked") {
           write_qa({well_id, time_text, f, "", t.source_row(r), "levels"});
         }
       }

@@ -809,6 +809,22 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
     }
   }
 
+  // Measuring points on levelling that no redundant observation checks.
+  if (fs::exists(run / "heads" / "qa.csv")) {
+    const Csv qa(run / "heads" / "qa.csv");
+    std::set<std::string> wells;
+    for (std::size_t r = 0; r < qa.rows(); ++r) {
+      if (qa.get(r, "flag") == "mp-unchecked") wells.insert(qa.get(r, "well"));
+    }
+    if (!wells.empty()) {
+      findings.items.push_back(fmt::format(
+          "Unchecked levelling: the measuring point(s) of {} rest on a side shot or spur that no "
+          "loop checks, so a blunder there would not show (heads/qa.csv); level a loop through "
+          "them.",
+          fmt::join(wells, ", ")));
+    }
+  }
+
   doc.heading(2, "Heads");
   const auto& counts = s["counts"];
   doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.",
