@@ -39,7 +39,7 @@ struct Bench {
     write("levels.csv", levels);
     return reduce_transducers(read_wells(read_table(tmp.path() / "wells.csv")),
                               read_table(tmp.path() / "sensors.csv"),
-                              read_table(tmp.path() / "records.csv"),
+                              tmp.path() / "records.csv", TableOptions{},
                               read_table(tmp.path() / "levels.csv"), options, tmp.path() / "out");
   }
   void write(const char* name, const std::string& text) {

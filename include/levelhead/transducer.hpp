@@ -105,9 +105,13 @@ struct TransducerSummary {
   std::size_t manual = 0, written = 0;
 };
 
+// The records table is read from `records` in batches (it may hold tens of
+// millions of rows) and kept as compact samples; memory grows by about 100
+// bytes per record.
 TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors,
-                                     const Table& records, const Table& manual_levels,
-                                     const TransducerOptions& options,
+                                     const std::filesystem::path& records,
+                                     const TableOptions& records_table,
+                                     const Table& manual_levels, const TransducerOptions& options,
                                      const std::filesystem::path& folder);
 
 }  // namespace levelhead

@@ -81,7 +81,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
         a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}}));
     const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}};
     const TransducerSummary s =
-        reduce_transducers(wells, read_table(a->sensors, table), read_table(a->records),
+        reduce_transducers(wells, read_table(a->sensors, table), a->records, TableOptions{},
                            read_table(a->levels, levels), a->options, a->out);
     bool problems = false;
     if (!a->quiet) {

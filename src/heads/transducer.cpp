@@ -143,24 +143,35 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
   return out;
 }
 
-void read_records(const Table& t, std::map<std::string, Sensor>& sensors) {
-  const std::size_t sensor = t.require_column("sensor"), time = t.require_column("time");
-  const std::size_t pressure = t.require_column("pressure");
-  for (std::size_t r = 0; r < t.row_count(); ++r) {
-    const std::string id(t.cell(r, sensor));
-    const auto it = sensors.find(id);
-    if (it == sensors.end())
-      throw InputError(t.location(r, sensor), id, "this sensor is not in the sensors table");
-    const auto when = parse_iso8601(t.cell(r, time));
-    if (!when)
-      throw InputError(t.location(r, time), std::string(t.cell(r, time)),
-                       "expected an ISO 8601 time");
-    const auto p = t.number(r, pressure);
-    if (!p) throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
-    // Logger clocks kept in a local zone are brought to UTC.
-    const double utc = when->had_zone ? when->seconds : when->seconds - it->second.utc_offset;
-    it->second.samples.push_back({utc, *p, t.source_row(r)});
-  }
+// Records are read in batches and kept as samples only: archives of
+// loggers run to tens of millions of rows.
+void read_records(const std::filesystem::path& path, const TableOptions& table,
+                  std::map<std::string, Sensor>& sensors) {
+  read_table_in_batches(path, table, 100000, [&](Table& t) {
+    const std::size_t sensor = t.require_column("sensor"), time = t.require_column("time");
+    const std::size_t pressure = t.require_column("pressure");
+    Sensor* last = nullptr;  // records come in runs of one sensor
+    for (std::size_t r = 0; r < t.row_count(); ++r) {
+      const std::string_view id = t.cell(r, sensor);
+      if (!last || last->id != id) {
+        const auto it = sensors.find(std::string(id));
+        if (it == sensors.end())
+          throw InputError(t.location(r, sensor), std::string(id),
+                           "this sensor is not in the sensors table");
+        last = &it->second;
+      }
+      const auto when = parse_iso8601(t.cell(r, time));
+      if (!when)
+        throw InputError(t.location(r, time), std::string(t.cell(r, time)),
+                         "expected an ISO 8601 time");
+      const auto p = t.number(r, pressure);
+      if (!p)
+        throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
+      // Logger clocks kept in a local zone are brought to UTC.
+      const double utc = when->had_zone ? when->seconds : when->seconds - last->utc_offset;
+      last->samples.push_back({utc, *p, t.source_row(r)});
+    }
+  });
   for (auto& [id, s] : sensors) {
     std::stable_sort(s.samples.begin(), s.samples.end(),
                      [](const Sample& a, const Sample& b) { return a.time < b.time; });
@@ -184,11 +195,67 @@ struct ManualReading {
   std::optional<double> depth;
 };
 
-struct OutputRow {
-  std::string well;
-  double time = 0.0;
-  std::string line;
+// Flags of a transducer reading, in the order they are written.
+enum ReadingFlag : unsigned {
+  range_rejected = 1u << 0,
+  dry_rejected = 1u << 1,
+  unchecked = 1u << 2,
+  beyond_checks = 1u << 3,
+  drift_rejected = 1u << 4,
 };
+constexpr std::pair<ReadingFlag, const char*> reading_flag_names[] = {
+    {range_rejected, "transducer-range-rejected"},
+    {dry_rejected, "transducer-dry-rejected"},
+    {unchecked, "transducer-unchecked"},
+    {beyond_checks, "transducer-beyond-checks"},
+    {drift_rejected, "transducer-drift-rejected"}};
+constexpr unsigned rejecting_flags = range_rejected | dry_rejected | drift_rejected;
+
+// A reading of a well sensor: raw depth (with the hung depth, or 0 until
+// calibrated), the barometer as water column, and the corrected depth.
+struct Reading {
+  double time = 0.0, raw = 0.0, baro_m = 0.0, depth = 0.0;
+  std::size_t row = 0;
+  unsigned flags = 0;
+  bool has_baro = false;
+  bool rejected() const { return (flags & rejecting_flags) != 0; }
+};
+
+// A line of the output levels table, formatted when written: a manual row
+// (sensor = npos) or a reading of a sensor.
+struct OutputRow {
+  std::size_t well_rank = 0;
+  double time = 0.0;
+  std::size_t sensor = 0, index = 0;
+};
+constexpr std::size_t manual_row = static_cast<std::size_t>(-1);
+
+// Whether a time in `sorted` lies within `window` of `time`.
+bool within(const std::vector<double>& sorted, double time, double window) {
+  const auto after = std::lower_bound(sorted.begin(), sorted.end(), time - window);
+  return after != sorted.end() && *after <= time + window;
+}
+
+// The non-rejected reading nearest `time`, at most `gap` away.
+const Reading* nearest_valid(const std::vector<Reading>& readings, double time, double gap) {
+  const auto at = std::lower_bound(readings.begin(), readings.end(), time,
+                                   [](const Reading& r, double t) { return r.time < t; });
+  const Reading* best = nullptr;
+  for (auto it = at; it != readings.end() && it->time - time <= gap; ++it) {
+    if (!it->rejected()) {
+      best = &*it;
+      break;
+    }
+  }
+  for (auto it = at; it != readings.begin();) {
+    --it;
+    if (time - it->time > gap) break;
+    if (it->rejected()) continue;
+    if (!best || time - it->time < best->time - time) best = &*it;
+    break;
+  }
+  return best;
+}
 
 struct Check {
   double time = 0.0, manual = 0.0, transducer = 0.0, offset = 0.0;
@@ -197,12 +264,13 @@ struct Check {
 }  // namespace
 
 TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table,
-                                     const Table& records, const Table& manual,
+                                     const std::filesystem::path& records,
+                                     const TableOptions& records_table, const Table& manual,
                                      const TransducerOptions& options,
                                      const std::filesystem::path& folder) {
   options.validate();
   std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
-  read_records(records, sensors);
+  read_records(records, records_table, sensors);
 
   // Manual readings: passed through as they are, and the checks.
   const std::size_t well_col = manual.require_column("well"),
@@ -219,6 +287,16 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       columns.emplace_back(extra);
   }
   std::unordered_map<std::string, std::vector<ManualReading>> by_well;
+  // Output order: by well id, then time.
+  std::map<std::string, std::size_t> well_rank;
+  for (std::size_t r = 0; r < manual.row_count(); ++r)
+    well_rank[std::string(manual.cell(r, well_col))];
+  for (const auto& [id, sensor] : sensors) {
+    if (sensor.kind != "barometer") well_rank[sensor.well];
+  }
+  std::size_t rank = 0;
+  for (auto& [w, k] : well_rank) k = rank++;
+  std::vector<std::string> manual_lines;
   std::vector<OutputRow> rows;
   for (std::size_t r = 0; r < manual.row_count(); ++r) {
     const std::string well(manual.cell(r, well_col));
@@ -240,11 +318,14 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       if (c) line += ',';
       if (c < manual.column_names().size()) append_csv_cell(line, manual.cell(r, c));
     }
-    rows.push_back({well, when->seconds, std::move(line)});
+    rows.push_back({well_rank.at(well), when->seconds, manual_row, manual_lines.size()});
+    manual_lines.push_back(std::move(line));
   }
+  std::unordered_map<std::string, std::vector<double>> manual_times;
   for (auto& [w, list] : by_well) {
     std::sort(list.begin(), list.end(),
               [](const ManualReading& a, const ManualReading& b) { return a.time < b.time; });
+    for (const ManualReading& m : list) manual_times[w].push_back(m.time);
   }
 
   OutputSet out(folder);
@@ -267,6 +348,9 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   const std::size_t sigma_index = index_of("sigma"), method_index = index_of("method"),
                     flags_index = index_of("flags");
 
+  // Per well sensor, its readings, kept until the table is written.
+  std::vector<const Sensor*> written_sensors;
+  std::vector<std::vector<Reading>> sensor_readings;
   for (auto& [id, sensor] : sensors) {
     if (sensor.kind == "barometer") continue;
     SensorSummary s;
@@ -302,13 +386,8 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     }
 
     // Raw depths (with the hung depth, or 0 until calibrated).
-    struct Reading {
-      double time, raw, baro_m;
-      bool has_baro, rejected;
-      std::vector<std::string> flags;
-      std::size_t row;
-    };
     std::vector<Reading> readings;
+    readings.reserve(sensor.samples.size());
     const double hung = sensor.hung_depth.value_or(0.0);
     for (const Sample& sample : sensor.samples) {
       std::optional<double> air;
@@ -321,34 +400,28 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
         continue;
       }
       const double water = sensor.kind == "absolute" ? sample.pressure - *air : sample.pressure;
-      Reading reading{sample.time,
-                      hung - water_column(water, s.density, s.gravity),
-                      air ? water_column(*air, s.density, s.gravity) : 0.0,
-                      air.has_value(),
-                      false,
-                      {},
-                      sample.row};
+      Reading reading;
+      reading.time = sample.time;
+      reading.raw = hung - water_column(water, s.density, s.gravity);
+      reading.baro_m = air ? water_column(*air, s.density, s.gravity) : 0.0;
+      reading.has_baro = air.has_value();
+      reading.row = sample.row;
       if (sensor.range_kpa && (sample.pressure < 0.0 || sample.pressure > *sensor.range_kpa)) {
-        reading.flags.emplace_back("transducer-range-rejected");
+        reading.flags |= range_rejected;
       } else if (water < 0.0) {
-        reading.flags.emplace_back("transducer-dry-rejected");
+        reading.flags |= dry_rejected;
       }
-      reading.rejected = !reading.flags.empty();
-      readings.push_back(std::move(reading));
+      readings.push_back(reading);
     }
+    // The well sensor's samples are done with (a barometer's may serve others).
+    std::vector<Sample>().swap(sensor.samples);
 
     // Offsets at the manual checks: manual depth minus the nearest valid raw depth.
     std::vector<Check> checks;
     for (const ManualReading& m : by_well[sensor.well]) {
       if (!m.depth) continue;
-      const Reading* nearest = nullptr;
-      for (const Reading& r : readings) {
-        if (!r.rejected && std::abs(r.time - m.time) <= check_gap &&
-            (!nearest || std::abs(r.time - m.time) < std::abs(nearest->time - m.time))) {
-          nearest = &r;
-        }
-      }
-      if (nearest) checks.push_back({m.time, *m.depth, nearest->raw, *m.depth - nearest->raw});
+      if (const Reading* nearest = nearest_valid(readings, m.time, check_gap))
+        checks.push_back({m.time, *m.depth, nearest->raw, *m.depth - nearest->raw});
     }
     s.checks = checks.size();
     if (!sensor.hung_depth) {
@@ -384,78 +457,58 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     // Corrected depths, the flags, and the readings written.
     std::vector<double> depth_changes, baro_changes;
     const Reading* previous = nullptr;
-    double previous_depth = 0.0;
-    const auto& manual_times = by_well[sensor.well];
-    for (Reading& r : readings) {
+    const std::vector<double>& near = manual_times[sensor.well];
+    const std::size_t sensor_index = sensor_readings.size();
+    std::size_t interval = 0;  // checks[interval] <= time < checks[interval + 1]; times ascend
+    for (std::size_t k = 0; k < readings.size(); ++k) {
+      Reading& r = readings[k];
       double correction = 0.0;
       if (checks.empty()) {
-        r.flags.emplace_back("transducer-unchecked");
+        r.flags |= unchecked;
       } else if (r.time <= checks.front().time) {
         correction = checks.front().offset;
-        if (r.time < checks.front().time - check_gap)
-          r.flags.emplace_back("transducer-beyond-checks");
+        if (r.time < checks.front().time - check_gap) r.flags |= beyond_checks;
       } else if (r.time >= checks.back().time) {
         correction = checks.back().offset;
-        if (r.time > checks.back().time + check_gap)
-          r.flags.emplace_back("transducer-beyond-checks");
+        if (r.time > checks.back().time + check_gap) r.flags |= beyond_checks;
       } else {
-        std::size_t i = 0;
-        while (checks[i + 1].time < r.time) ++i;
-        if (rejected_after[i]) {
-          correction = checks[i].offset;
-          r.flags.emplace_back("transducer-drift-rejected");
-          r.rejected = true;
+        while (checks[interval + 1].time < r.time) ++interval;
+        if (rejected_after[interval]) {
+          correction = checks[interval].offset;
+          r.flags |= drift_rejected;
         } else {
-          const double f = (r.time - checks[i].time) / (checks[i + 1].time - checks[i].time);
-          correction = checks[i].offset + f * (checks[i + 1].offset - checks[i].offset);
+          const Check& a = checks[interval];
+          const Check& b = checks[interval + 1];
+          const double f = (r.time - a.time) / (b.time - a.time);
+          correction = a.offset + f * (b.offset - a.offset);
         }
       }
-      const double depth = r.raw + correction;
+      r.depth = r.raw + correction;
       // Pairs of successive readings at most a day apart: longer steps mix
       // in the aquifer's own changes.
-      if (previous && !previous->rejected && !r.rejected && r.has_baro && previous->has_baro &&
+      if (previous && !previous->rejected() && !r.rejected() && r.has_baro && previous->has_baro &&
           r.time - previous->time <= 86400.0) {
-        depth_changes.push_back(depth - previous_depth);
+        depth_changes.push_back(r.depth - previous->depth);
         baro_changes.push_back(r.baro_m - previous->baro_m);
       }
       previous = &r;
-      previous_depth = depth;
-      const bool near_manual =
-          std::any_of(manual_times.begin(), manual_times.end(),
-                      [&](const ManualReading& m) { return std::abs(m.time - r.time) <= window; });
-      if (near_manual) {
+      if (within(near, r.time, window)) {
         ++s.near_manual;
         continue;
       }
       // A pressure outside the sensor's range or below the water gives no
       // depth at all: listed, not written.
-      const bool no_depth = std::any_of(r.flags.begin(), r.flags.end(), [](const std::string& f) {
-        return f == "transducer-range-rejected" || f == "transducer-dry-rejected";
-      });
-      for (const std::string& f : r.flags) {
-        ++s.flags[f];
-        if (f.size() > 9 && f.compare(f.size() - 9, 9, "-rejected") == 0) {
+      const bool no_depth = (r.flags & (range_rejected | dry_rejected)) != 0;
+      for (const auto& [flag, name] : reading_flag_names) {
+        if (!(r.flags & flag)) continue;
+        ++s.flags[name];
+        if (flag & rejecting_flags) {
           qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ','
-                 << r.row << ',' << f << (no_depth ? ",no depth written\n" : ",not contoured\n");
+                 << r.row << ',' << name << (no_depth ? ",no depth written\n" : ",not contoured\n");
         }
       }
       if (no_depth) continue;
-      std::vector<std::string> cells(columns.size());
-      cells[well_index] = sensor.well;
-      cells[time_index] = format_utc(r.time);
-      // In the manual table's unit, which heads reads the whole table in.
-      const double unit = metres_per_unit(manual.length_unit());
-      cells[depth_index] = fmt::format("{:.4f}", depth / unit);
-      cells[sigma_index] =
-          fmt::format("{:.4f}", sensor.sigma.value_or(options.sensor_sigma) / unit);
-      cells[method_index] = "transducer";
-      cells[flags_index] = fmt::format("{}", fmt::join(r.flags, " "));
-      std::string line;
-      for (std::size_t c = 0; c < cells.size(); ++c) {
-        if (c) line += ',';
-        append_csv_cell(line, cells[c]);
-      }
-      rows.push_back({sensor.well, r.time, std::move(line)});
+      rows.push_back({well_rank.at(sensor.well), r.time, sensor_index, k});
       ++s.written;
     }
     if (baro)
@@ -463,16 +516,46 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
           barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
     summary.written += s.written;
     summary.sensors.push_back(std::move(s));
+    written_sensors.push_back(&sensor);
+    sensor_readings.push_back(std::move(readings));
   }
 
   // One table for `heads`, by well and time, so readings arrive in order.
   std::stable_sort(rows.begin(), rows.end(), [](const OutputRow& a, const OutputRow& b) {
-    return a.well != b.well ? a.well < b.well : a.time < b.time;
+    return a.well_rank != b.well_rank ? a.well_rank < b.well_rank : a.time < b.time;
   });
   std::ostream& levels = out.open("levels.csv");
   for (std::size_t c = 0; c < columns.size(); ++c) levels << (c ? "," : "") << csv_cell(columns[c]);
   levels << '\n';
-  for (const OutputRow& r : rows) levels << r.line << '\n';
+  // In the manual table's unit, which heads reads the whole table in.
+  const double unit = metres_per_unit(manual.length_unit());
+  std::vector<std::string> cells(columns.size());
+  std::string line;
+  for (const OutputRow& row : rows) {
+    if (row.sensor == manual_row) {
+      levels << manual_lines[row.index] << '\n';
+      continue;
+    }
+    const Sensor& sensor = *written_sensors[row.sensor];
+    const Reading& r = sensor_readings[row.sensor][row.index];
+    for (std::string& cell : cells) cell.clear();
+    cells[well_index] = sensor.well;
+    cells[time_index] = format_utc(r.time);
+    cells[depth_index] = fmt::format("{:.4f}", r.depth / unit);
+    cells[sigma_index] = fmt::format("{:.4f}", sensor.sigma.value_or(options.sensor_sigma) / unit);
+    cells[method_index] = "transducer";
+    for (const auto& [flag, name] : reading_flag_names) {
+      if (!(r.flags & flag)) continue;
+      if (!cells[flags_index].empty()) cells[flags_index] += ' ';
+      cells[flags_index] += name;
+    }
+    line.clear();
+    for (std::size_t c = 0; c < cells.size(); ++c) {
+      if (c) line += ',';
+      append_csv_cell(line, cells[c]);
+    }
+    levels << line << '\n';
+  }
 
   nlohmann::json json;
   json["levelhead_version"] = version_string();
