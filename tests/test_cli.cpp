@@ -234,6 +234,47 @@ TEST_CASE("convert refuses a missing grid and writes nothing", "[cli][proj]") {
   CHECK(summary["counts"]["converted"] == 2);
 }
 
+TEST_CASE("convert writes heights in the unit of the target reference", "[cli][proj][units]") {
+  // 100 m in NAVD88 (EPSG:5703) is 100 * 3937 / 1200 = 328.08333 US survey
+  // feet in NAVD88 height (ftUS), EPSG:6360 (US survey foot: 1200/3937 m,
+  // US Federal Register, 1959); the datum is the same, only the unit changes.
+  levelhead::testing::TempFolder tmp;
+  const fs::path in = tmp.path() / "p.csv";
+  std::ofstream(in) << "id,x,y,height,sigma\nA,-100.0,40.0,100.000,0.003048\n";
+  const fs::path feet = tmp.path() / "feet.csv";
+  const CliRun to_feet = run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs",
+                                  "EPSG:4326", "--in", in.string(), "--out", feet.string()});
+  INFO(to_feet.err);
+  REQUIRE(to_feet.code == 0);
+  CHECK_THAT(to_feet.out, Contains("written in us-ft"));
+  std::string header, row;
+  std::ifstream feet_table(feet);
+  std::getline(feet_table, header);
+  std::getline(feet_table, row);
+  CHECK_THAT(row, Contains("A,-100.0,40.0,328.08333,0.01000,EPSG:6360"));
+  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "feet.summary.json"));
+  CHECK(summary["units"] == "us-ft");
+
+  // Back again: read in the source's feet, written in metres; the columns
+  // the first conversion added are replaced, not repeated.
+  const fs::path back = tmp.path() / "back.csv";
+  const CliRun to_metres = run_cli({"convert", "--from", "EPSG:6360", "--to", "EPSG:5703", "--crs",
+                                    "EPSG:4326", "--in", feet.string(), "--out", back.string()});
+  REQUIRE(to_metres.code == 0);
+  std::ifstream back_table(back);
+  std::getline(back_table, header);
+  std::getline(back_table, row);
+  CHECK(header == "id,x,y,height,sigma,reference,transform,flags");
+  CHECK_THAT(row, Contains("A,-100.0,40.0,100.00000,0.00305,EPSG:5703"));
+
+  // --out-unit overrides the target's unit.
+  const CliRun metres =
+      run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs", "EPSG:4326", "--in",
+               in.string(), "--out", feet.string(), "--out-unit", "m"});
+  REQUIRE(metres.code == 0);
+  CHECK_THAT(metres.out, Contains("written in m"));
+}
+
 TEST_CASE("tie writes a reference that convert then uses", "[cli][tie]") {
   levelhead::testing::TempFolder tmp;
   std::ofstream(tmp.path() / "site.csv") << "id,x,y,height,sigma\nA,0,0,10.000,0.001\n"

@@ -183,6 +183,16 @@ TEST_CASE("each QA flag is raised when it applies and not otherwise", "[heads][q
   CHECK_FALSE(flags(t, 0).find("below-screen-bottom") != std::string::npos);
 }
 
+TEST_CASE("a target reference in feet is refused, naming its metre sibling", "[heads][units]") {
+  // Heads are written in metres; EPSG:6360 (NAVD88 in US survey feet) would
+  // label them as feet. EPSG:5703 is the same datum in metres (EPSG dataset).
+  Site site;
+  site.options.target = "EPSG:6360";
+  site.levels = "well,time,depth\nW1,2021-06-01,2.000\n";
+  CHECK_THROWS_WITH(site.run(),
+                    Contains("EPSG:6360") && Contains("US survey foot") && Contains("EPSG:5703"));
+}
+
 TEST_CASE("readings before the first survey fail unless allowed", "[heads][errors]") {
   Site site;
   site.levels = "well,time,depth\nW1,2019-06-01,3.0\n";

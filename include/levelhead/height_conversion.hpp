@@ -4,7 +4,9 @@
 //
 // In:  a points table (id, x, y, height, optional sigma, other columns kept),
 //      its heights in the table's length unit, a HeightConverter.
-// Out: the same table with height (m) and sigma (m) converted and the
+// Out: the same table with height and sigma converted (in
+//      options.output_unit: the CLI's default is the target reference's own
+//      unit, so heights labelled EPSG:6360 are US survey feet) and the
 //      columns reference, transform (operation name) and flags added;
 //      a summary (JSON) with every operation used (name, pipeline, accuracy,
 //      grids with SHA-256), PROJ version and warnings.
@@ -19,14 +21,16 @@
 #include <optional>
 #include <string>
 
-#include "levelhead/table.hpp"
 #include "levelhead/height_converter.hpp"
+#include "levelhead/table.hpp"
+#include "levelhead/units.hpp"
 
 namespace levelhead {
 
 struct HeightConversionOptions {
   bool lenient = false;
   std::optional<double> epoch;  // decimal year; written as an `epoch` column when given
+  LengthUnit output_unit = LengthUnit::metre;  // of the written height and sigma
 };
 
 struct HeightConversionSummary {

@@ -33,6 +33,10 @@ struct ConvertedHeight {
   std::string failure;              // why height is empty
 };
 
+// The unit of a reference's heights: the metre for a reference of our own
+// (offset, tie, grid), else that of the PROJ CRS it names or aliases.
+HeightUnit reference_height_unit(const std::string& reference, const ReferenceSet& references);
+
 class HeightConverter {
  public:
   HeightConverter(const std::string& from, const std::string& to,
@@ -51,8 +55,10 @@ class HeightConverter {
   const std::vector<std::string>& step_descriptions() const { return descriptions_; }
   // Grid files of grid references used, with checksums.
   std::vector<GridUse> grids() const;
-  // Metres per unit of the source reference's heights (1 for our references).
-  double source_metres_per_unit() const;
+  // Units of the two ends' heights: metres for our own references, else the
+  // PROJ CRS's (the converter itself works in metres throughout).
+  const HeightUnit& source_unit() const { return source_unit_; }
+  const HeightUnit& target_unit() const { return target_unit_; }
 
  private:
   struct Step {
@@ -64,6 +70,7 @@ class HeightConverter {
   std::vector<Step> steps_before_, steps_after_;  // around the PROJ step
   std::unique_ptr<VerticalTransformer> proj_;
   std::vector<std::string> descriptions_;
+  HeightUnit source_unit_, target_unit_;
 };
 
 }  // namespace levelhead

@@ -2,6 +2,7 @@
 // Length units accepted at the edges of the program. Inside levelhead every
 // height, height difference, sigma and length is in metres.
 
+#include <optional>
 #include <string>
 #include <string_view>
 
@@ -22,5 +23,9 @@ double metres_per_unit(LengthUnit unit);
 // them otherwise.
 LengthUnit parse_length_unit(std::string_view text);
 std::string to_string(LengthUnit unit);
+
+// The unit of that many metres (as a CRS states its axis unit); nullopt for
+// any other unit.
+std::optional<LengthUnit> length_unit_of(double metres_per_unit);
 
 }  // namespace levelhead

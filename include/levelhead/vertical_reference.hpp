@@ -17,6 +17,7 @@
 // Units: metres in and out; a CRS whose heights are in feet is handled in
 //      metres inside (PROJ 9.1 mixes units in some foot cases, OSGeo/PROJ#3938).
 
+#include <cmath>
 #include <cstddef>
 #include <filesystem>
 #include <memory>
@@ -52,6 +53,20 @@ struct ReferenceInfo {
   double metres_per_unit = 1.0;
   bool dynamic = false;
 };
+
+// The unit of a PROJ CRS's heights: its vertical axis (the third axis of a
+// geographic 3D CRS), and, when that is not the metre, the EPSG CRS of the
+// same datum in metres if PROJ can identify one (e.g. EPSG:6360, NAVD88 in
+// US survey feet -> EPSG:5703). Throws ReferenceError when `definition` is
+// not a CRS with heights.
+struct HeightUnit {
+  std::string name = "metre";
+  double metres_per_unit = 1.0;
+  std::string metre_equivalent;  // "EPSG:5703"; empty when metric or none is known
+  // PROJ gives the metre as exactly 1; the tolerance only guards rounding.
+  bool metric() const { return std::abs(metres_per_unit - 1.0) < 1e-12; }
+};
+HeightUnit height_unit_of(const std::string& definition);
 
 struct PlanePoint {
   double x = 0.0, y = 0.0;

@@ -1,11 +1,13 @@
 // `levelhead convert`: heights of a points table into another reference.
 
 #include <fmt/format.h>
+
 #include <memory>
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
+#include "levelhead/errors.hpp"
 #include "levelhead/height_conversion.hpp"
 #include "levelhead/references_file.hpp"
 #include "levelhead/table.hpp"
@@ -15,7 +17,7 @@ namespace levelhead::cli {
 
 namespace {
 struct ConvertArguments {
-  std::string from, to, input, output, crs, unit, columns, layer;
+  std::string from, to, input, output, crs, unit, out_unit, columns, layer;
   ReferenceInputs refs;
   std::optional<double> epoch;
   bool lenient = false, quiet = false;
@@ -37,6 +39,9 @@ CommandRunner add_convert_command(CLI::App& app) {
   auto* unit = c->add_option("--unit", a->unit,
                              "Unit of height and sigma in the table: m, ft, us-ft (default: the "
                              "unit of --from, else m)");
+  auto* out_unit = c->add_option("--out-unit", a->out_unit,
+                                 "Unit of the written height and sigma: m, ft, us-ft (default: "
+                                 "the unit of --to, else m)");
   c->add_option("--columns", a->columns, "Column map, e.g. height=Elev,x=E,y=N");
   c->add_option("--layer", a->layer, "Layer or sheet of the input file");
   add_reference_options(*c, a->refs);
@@ -44,32 +49,40 @@ CommandRunner add_convert_command(CLI::App& app) {
   c->add_flag("--lenient", a->lenient,
               "Write the points that convert and flag the others instead of failing");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a, unit](std::ostream& out, std::ostream&) {
+  return [a, unit, out_unit](std::ostream& out, std::ostream&) {
     const ProjSettings settings = a->refs.settings();
     const ReferenceSet references = a->refs.load();
     HeightConverter converter(a->from, a->to, a->crs, references, settings, a->epoch);
-    // Heights are in the unit declared, else in the source reference's own unit.
-    LengthUnit table_unit = LengthUnit::metre;
-    const double source_unit = converter.source_metres_per_unit();
-    if (unit->count() > 0) {
-      table_unit = parse_length_unit(a->unit);
-    } else if (std::abs(source_unit - metres_per_us_survey_foot) < 1e-12) {
-      table_unit = LengthUnit::us_survey_foot;
-    } else if (std::abs(source_unit - metres_per_international_foot) < 1e-12) {
-      table_unit = LengthUnit::international_foot;
-    }
+    // Heights are read in the unit declared, else in the source reference's
+    // own unit, and written in the unit asked for, else the target's own.
+    const auto own_unit = [](const HeightUnit& u, const std::string& reference) {
+      if (const auto known = length_unit_of(u.metres_per_unit)) return *known;
+      throw ReferenceError(
+          fmt::format("the heights of '{}' are in {}, a unit levelhead does not "
+                      "know: declare the table's unit (m, ft, us-ft)",
+                      reference, u.name));
+    };
+    const LengthUnit table_unit = unit->count() > 0
+                                      ? parse_length_unit(a->unit)
+                                      : own_unit(converter.source_unit(), converter.from());
+    const LengthUnit written_unit = out_unit->count() > 0
+                                        ? parse_length_unit(a->out_unit)
+                                        : own_unit(converter.target_unit(), converter.to());
     const Table table =
         read_table(a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer});
     std::filesystem::path output(a->output);
     std::filesystem::path summary = output;
     summary.replace_extension(".summary.json");
-    const HeightConversionSummary counts =
-        convert_points_table(table, converter, HeightConversionOptions{a->lenient, a->epoch}, output, summary);
+    const HeightConversionSummary counts = convert_points_table(
+        table, converter, HeightConversionOptions{a->lenient, a->epoch, written_unit}, output,
+        summary);
     if (!a->quiet) {
-      out << fmt::format("Converted {} of {} heights from {} to {} (heights read in {})\n",
-                         counts.converted, counts.points, converter.from(), converter.to(),
-                         to_string(table_unit));
-      for (const std::string& step : converter.step_descriptions()) out << "  step: " << step << '\n';
+      out << fmt::format(
+          "Converted {} of {} heights from {} to {} (heights read in {}, written in {})\n",
+          counts.converted, counts.points, converter.from(), converter.to(), to_string(table_unit),
+          to_string(written_unit));
+      for (const std::string& step : converter.step_descriptions())
+        out << "  step: " << step << '\n';
       if (const VerticalTransformer* proj = converter.proj()) {
         for (const OperationRecord& op : proj->operations()) {
           if (op.points == 0) continue;

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <array>
+#include <cmath>
 #include <utility>
 
 #include "levelhead/errors.hpp"
@@ -56,6 +57,15 @@ std::string to_string(LengthUnit unit) {
       return "us-ft";
   }
   throw std::logic_error("unhandled LengthUnit");
+}
+
+std::optional<LengthUnit> length_unit_of(double metres) {
+  // The three definitions differ by far more than the 1e-12 of rounding.
+  for (const LengthUnit unit :
+       {LengthUnit::metre, LengthUnit::international_foot, LengthUnit::us_survey_foot}) {
+    if (std::abs(metres - metres_per_unit(unit)) < 1e-12) return unit;
+  }
+  return std::nullopt;
 }
 
 }  // namespace levelhead

@@ -199,6 +199,17 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                            const TableOptions& levels_table, const std::filesystem::path& folder,
                            bool geopackage) {
   options.validate();
+  // Heads, sigmas and the gradient downstream are in metres: a target whose
+  // heights are in feet would label metres as feet.
+  if (const HeightUnit unit = reference_height_unit(options.target, references); !unit.metric()) {
+    throw ReferenceError(fmt::format(
+        "the target reference '{}' measures heights in {}; heads are computed and written in "
+        "metres and would be mislabelled with it. Give {} as the target and convert the unit "
+        "for display",
+        options.target, unit.name,
+        unit.metre_equivalent.empty() ? std::string("the metre CRS of the same datum")
+                                      : unit.metre_equivalent + " (the same datum in metres)"));
+  }
   std::vector<QaEntry> qa;  // measuring-point entries; reading entries are streamed
 
   // 1. Every measuring point in the target reference.

@@ -1,7 +1,9 @@
 #include "levelhead/height_conversion.hpp"
 
-#include <cmath>
 #include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
 #include <nlohmann/json.hpp>
 
 #include "levelhead/errors.hpp"
@@ -65,24 +67,34 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   const std::filesystem::path folder = output.parent_path().empty() ? "." : output.parent_path();
   OutputSet out(folder);
   std::ostream& csv = out.open(output.filename().string());
+  // Columns this conversion writes; a table converted before has them
+  // already, and they are replaced rather than repeated.
+  std::vector<std::string> added = {"reference", "transform", "flags"};
+  if (options.epoch) added.emplace_back("epoch");
+  std::vector<std::optional<std::size_t>> existing;
+  for (const std::string& name : added) existing.push_back(table.find_column(name));
   for (std::size_t c = 0; c < table.column_names().size(); ++c) {
     csv << (c ? "," : "") << csv_cell(table.column_names()[c]);
   }
   if (!sigma_col) csv << ",sigma";
-  csv << ",reference,transform,flags" << (options.epoch ? ",epoch\n" : "\n");
+  for (std::size_t i = 0; i < added.size(); ++i) {
+    if (!existing[i]) csv << ',' << added[i];
+  }
+  csv << '\n';
+  const double unit = metres_per_unit(options.output_unit);
   for (std::size_t row = 0; row < table.row_count(); ++row) {
     const auto k = result_of_row[row];
     const std::optional<double> sigma_in = sigma_col ? table.length(row, *sigma_col) : std::nullopt;
-    const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", sigma_in.value()) : "";
+    const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", *sigma_in / unit) : "";
     std::string height_text, sigma_text, transform, flags;
     if (k && results[*k].height) {
       const ConvertedHeight& r = results[*k];
-      height_text = fmt::format("{:.5f}", *r.height);
+      height_text = fmt::format("{:.5f}", *r.height / unit);
       transform = r.transform;
       std::vector<std::string> notes = r.flags;
       if (sigma_in || r.variance_added > 0.0) {
         const double s = std::sqrt(sigma_in.value_or(0.0) * sigma_in.value_or(0.0) + r.variance_added);
-        sigma_text = fmt::format("{:.5f}", s);
+        sigma_text = fmt::format("{:.5f}", s / unit);
       }
       if (!sigma_in) notes.push_back("input-sigma-missing");
       if (!r.variance_complete) notes.push_back("step-variance-unknown");
@@ -92,20 +104,26 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     } else {
       sigma_text = sigma_given;
     }
+    const std::string values[] = {
+        k ? converter.to() : std::string(), transform, flags,
+        k && options.epoch ? fmt::format("{:.3f}", *options.epoch) : std::string()};
     for (std::size_t c = 0; c < table.column_names().size(); ++c) {
       if (c) csv << ',';
+      const auto replaced = std::find(existing.begin(), existing.end(), c);
       if (c == height_col && k) {
         csv << height_text;
       } else if (sigma_col && c == *sigma_col) {
         csv << sigma_text;
+      } else if (replaced != existing.end()) {
+        csv << csv_cell(values[replaced - existing.begin()]);
       } else {
         csv << csv_cell(std::string(table.cell(row, c)));
       }
     }
     if (!sigma_col) csv << ',' << sigma_text;
-    csv << ',' << csv_cell(k ? converter.to() : std::string()) << ','
-        << csv_cell(transform) << ',' << csv_cell(flags);
-    if (options.epoch) csv << ',' << (k ? fmt::format("{:.3f}", *options.epoch) : std::string());
+    for (std::size_t i = 0; i < added.size(); ++i) {
+      if (!existing[i]) csv << ',' << csv_cell(values[i]);
+    }
     csv << '\n';
   }
 
@@ -114,7 +132,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   summary["command"] = "convert";
   summary["proj"] = proj_version_text();
   summary["input"] = table.source();
-  summary["units"] = "m";
+  summary["units"] = to_string(options.output_unit);
   summary["lenient"] = options.lenient;
   summary["epoch"] = options.epoch ? nlohmann::json(*options.epoch) : nlohmann::json(nullptr);
   summary["from"] = converter.from();

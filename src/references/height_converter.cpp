@@ -59,10 +59,18 @@ std::string describe(const ReferenceDefinition& d, int direction) {
 
 }  // namespace
 
+HeightUnit reference_height_unit(const std::string& reference, const ReferenceSet& references) {
+  const Chain chain = follow(reference, references);
+  return chain.steps.empty() ? height_unit_of(chain.root) : HeightUnit{};
+}
+
 HeightConverter::HeightConverter(const std::string& from, const std::string& to,
                                  const std::string& horizontal_crs, const ReferenceSet& references,
                                  const ProjSettings& settings, std::optional<double> epoch)
-    : from_(from), to_(to) {
+    : from_(from),
+      to_(to),
+      source_unit_(reference_height_unit(from, references)),
+      target_unit_(reference_height_unit(to, references)) {
   Chain a = follow(from, references);
   Chain b = follow(to, references);
   // Drop the common part below the lowest shared reference.
@@ -112,10 +120,6 @@ std::vector<GridUse> HeightConverter::grids() const {
     }
   }
   return out;
-}
-
-double HeightConverter::source_metres_per_unit() const {
-  return steps_before_.empty() && proj_ ? proj_->source().metres_per_unit : 1.0;
 }
 
 std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoint>& points,

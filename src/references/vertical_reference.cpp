@@ -77,6 +77,39 @@ AxisUnit axis_unit(PJ_CONTEXT* ctx, const PJ* crs, int axis) {
   return unit;
 }
 
+// The EPSG vertical CRS of the same datum with heights in metres, if any.
+// PROJ's identification matches by name, so the database's vertical CRSs
+// are searched by datum instead (a few hundred; only on the error path).
+std::string metre_crs_of_datum(PJ_CONTEXT* ctx, const PJ* vertical) {
+  PjPtr datum(proj_crs_get_datum(ctx, vertical));
+  if (!datum || !proj_get_id_code(datum.get(), 0)) return {};
+  const std::string wanted =
+      fmt::format("{}:{}", proj_get_id_auth_name(datum.get(), 0), proj_get_id_code(datum.get(), 0));
+  PROJ_CRS_LIST_PARAMETERS* params = proj_get_crs_list_parameters_create();
+  const PJ_TYPE types[] = {PJ_TYPE_VERTICAL_CRS};
+  params->types = types;
+  params->typesCount = 1;
+  int count = 0;
+  PROJ_CRS_INFO** infos = proj_get_crs_info_list_from_database(ctx, "EPSG", params, &count);
+  proj_get_crs_list_parameters_destroy(params);
+  std::string found;
+  for (int k = 0; k < count && found.empty(); ++k) {
+    if (infos[k]->deprecated) continue;
+    const std::string code = fmt::format("{}:{}", infos[k]->auth_name, infos[k]->code);
+    PjPtr candidate(proj_create(ctx, code.c_str()));
+    if (!candidate) continue;
+    PjPtr candidate_datum(proj_crs_get_datum(ctx, candidate.get()));
+    if (!candidate_datum || !proj_get_id_code(candidate_datum.get(), 0)) continue;
+    const std::string datum_code =
+        fmt::format("{}:{}", proj_get_id_auth_name(candidate_datum.get(), 0),
+                    proj_get_id_code(candidate_datum.get(), 0));
+    if (datum_code != wanted) continue;
+    if (std::abs(axis_unit(ctx, candidate.get(), 0).metres - 1.0) < 1e-12) found = code;
+  }
+  proj_crs_info_list_destroy(infos);
+  return found;
+}
+
 // A CRS in three dimensions whose heights are in metres, with its
 // horizontal part (what the points' x, y must be transformed into).
 struct Crs3d {
@@ -624,6 +657,40 @@ std::vector<std::optional<double>> SurfaceShift::values(const std::vector<PlaneP
         proj_trans(impl_->pipeline.get(), PJ_FWD, proj_coord(ll.xy.x, ll.xy.y, 0.0, HUGE_VAL));
     if (r.xyz.z != HUGE_VAL && std::isfinite(r.xyz.z)) out[i] = r.xyz.z;
   }
+  return out;
+}
+
+HeightUnit height_unit_of(const std::string& definition) {
+  ContextPtr ctx(proj_context_create());
+  PjPtr crs(proj_create(ctx.get(), definition.c_str()));
+  if (!crs || !proj_is_crs(crs.get())) {
+    throw ReferenceError(fmt::format(
+        "'{}' is not a coordinate reference system PROJ knows ({}); give an EPSG code such as "
+        "EPSG:5703, a compound code such as EPSG:4326+5773, WKT or PROJJSON",
+        definition, proj_message(ctx.get())));
+  }
+  PjPtr vertical;
+  int axis = 0;
+  switch (proj_get_type(crs.get())) {
+    case PJ_TYPE_VERTICAL_CRS:
+      vertical.reset(proj_clone(ctx.get(), crs.get()));
+      break;
+    case PJ_TYPE_COMPOUND_CRS:
+      vertical.reset(proj_crs_get_sub_crs(ctx.get(), crs.get(), 1));
+      break;
+    case PJ_TYPE_GEOGRAPHIC_3D_CRS:
+      vertical.reset(proj_clone(ctx.get(), crs.get()));
+      axis = 2;
+      break;
+    default:
+      throw ReferenceError(fmt::format("'{}' has no heights", definition));
+  }
+  const AxisUnit unit = axis_unit(ctx.get(), vertical.get(), axis);
+  HeightUnit out;
+  out.name = unit.name;
+  out.metres_per_unit = unit.metres;
+  if (!out.metric() && axis == 0)
+    out.metre_equivalent = metre_crs_of_datum(ctx.get(), vertical.get());
   return out;
 }
 

@@ -92,6 +92,21 @@ TEST_CASE("heights of a US survey foot reference are handled in metres", "[proj]
   CHECK_THAT(*r[0].height, WithinAbs(304.8006096, 1e-6));
 }
 
+TEST_CASE("the height unit of a reference, and its metre sibling", "[proj][units]") {
+  // EPSG dataset as shipped with PROJ: EPSG:6360 NAVD88 height (ftUS) and
+  // EPSG:8228 NAVD88 height (ft) share the datum of EPSG:5703 NAVD88 height
+  // (m); the US survey foot is 1200/3937 m (US Federal Register, 1959).
+  const HeightUnit us = height_unit_of("EPSG:6360");
+  CHECK_FALSE(us.metric());
+  CHECK_THAT(us.metres_per_unit, WithinAbs(1200.0 / 3937.0, 1e-15));
+  CHECK(us.metre_equivalent == "EPSG:5703");
+  CHECK(height_unit_of("EPSG:8228").metre_equivalent == "EPSG:5703");
+  CHECK(height_unit_of("EPSG:4326+6360").metre_equivalent == "EPSG:5703");
+  CHECK(height_unit_of("EPSG:5703").metric());
+  CHECK(height_unit_of("EPSG:4979").metric());                   // ellipsoidal heights in metres
+  CHECK_THROWS_AS(height_unit_of("EPSG:4326"), ReferenceError);  // no heights
+}
+
 TEST_CASE("a dynamic reference needs an epoch", "[proj][errors]") {
   // ITRF2014 (EPSG:7912) is a dynamic geodetic reference frame in the EPSG
   // dataset: coordinates in it move with the plates, so an epoch is required.
