@@ -106,10 +106,14 @@ CommandRunner add_heads_command(CLI::App& app) {
         compute_heads(wells, records, network, monitored, references, settings, options, a->levels,
                       table_options, a->out, !a->no_geopackage);
     if (!a->quiet) {
-      out << fmt::format(
-          "{} readings of {} wells: {} heads in {}, {} states carried (not "
-          "numbers), {} ready for contouring\n",
-          s.readings, wells.wells.size(), s.heads, options.target, s.states, s.contourable);
+      std::vector<std::string> states;
+      for (const auto& [state, count] : s.states_by_kind)
+        states.push_back(fmt::format("{} {}", count, state));
+      out << fmt::format("{} readings of {} wells: {} heads in {}, {} ready for contouring{}\n",
+                         s.readings, wells.wells.size(), s.heads, options.target, s.contourable,
+                         states.empty()
+                             ? std::string()
+                             : fmt::format("; states carried: {}", fmt::join(states, ", ")));
       for (const auto& [flag, count] : s.flags) out << fmt::format("  {}: {}\n", flag, count);
       if (options.event) {
         out << fmt::format("{} well(s) on the re-measure list (remeasure.csv)\n", s.remeasure);
