@@ -196,6 +196,17 @@ TEST_CASE("run --strict finishes the chain and exits 3 naming the stages that fa
       0);
 }
 
+TEST_CASE("a project whose target is in feet is refused before any stage runs", "[project]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  replace_in(project, "target = \"EPSG:5703\"", "target = \"EPSG:6360\"");
+  const fs::path out = tmp.path() / "out";
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+  CHECK(run.code == 1);
+  CHECK_THAT(run.err, Contains("[site] target") && Contains("EPSG:5703"));
+  CHECK_FALSE(fs::exists(out));
+}
+
 TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());

@@ -70,6 +70,11 @@ struct NetworkHeight {
 };
 using NetworkHeights = std::unordered_map<std::string, NetworkHeight>;
 
+// Heads, their sigmas and the gradient downstream are in metres: a target
+// whose heights are in feet (EPSG:6360) would label metres as feet. Throws
+// ReferenceError naming the same datum in metres when PROJ knows one.
+void require_metric_target(const std::string& target, const ReferenceSet& references);
+
 // heights.csv of `levelhead adjust`: id, height, sigma, reference, and
 // optionally checked (yes/no; without the column every height counts as
 // checked).

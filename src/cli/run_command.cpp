@@ -11,6 +11,7 @@
 #include "cli/commands.hpp"
 #include "cli/project.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/heads.hpp"
 #include "levelhead/references_file.hpp"
 #include "levelhead/report.hpp"
 
@@ -72,6 +73,15 @@ std::string local_run_time() {
 
 int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
   const Project project = load_project(a.project);
+  if (!project.target.empty()) {
+    const ReferenceSet references =
+        project.references.empty() ? ReferenceSet{} : ReferenceSet::load(project.references);
+    try {
+      require_metric_target(project.target, references);
+    } catch (const ReferenceError& e) {
+      throw ReferenceError(fmt::format("{} [site] target: {}", project.file.string(), e.what()));
+    }
+  }
   const std::filesystem::path folder(a.out);
   std::vector<Stage> stages = plan_stages(project, folder);
   if (a.strict) {

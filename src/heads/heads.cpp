@@ -71,6 +71,18 @@ bool read_checked(const Table& t, std::size_t row, std::size_t column) {
 
 }  // namespace
 
+void require_metric_target(const std::string& target, const ReferenceSet& references) {
+  const HeightUnit unit = reference_height_unit(target, references);
+  if (unit.metric()) return;
+  throw ReferenceError(fmt::format(
+      "the target reference '{}' measures heights in {}; heads are computed and written in "
+      "metres and would be mislabelled with it. Give {} as the target and convert the unit for "
+      "display",
+      target, unit.name,
+      unit.metre_equivalent.empty() ? std::string("the metre CRS of the same datum")
+                                    : unit.metre_equivalent + " (the same datum in metres)"));
+}
+
 NetworkHeights read_network_heights(const Table& t) {
   const std::size_t id = t.require_column("id"), height = t.require_column("height");
   const auto sigma = t.find_column("sigma"), reference = t.find_column("reference");
@@ -199,17 +211,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                            const TableOptions& levels_table, const std::filesystem::path& folder,
                            bool geopackage) {
   options.validate();
-  // Heads, sigmas and the gradient downstream are in metres: a target whose
-  // heights are in feet would label metres as feet.
-  if (const HeightUnit unit = reference_height_unit(options.target, references); !unit.metric()) {
-    throw ReferenceError(fmt::format(
-        "the target reference '{}' measures heights in {}; heads are computed and written in "
-        "metres and would be mislabelled with it. Give {} as the target and convert the unit "
-        "for display",
-        options.target, unit.name,
-        unit.metre_equivalent.empty() ? std::string("the metre CRS of the same datum")
-                                      : unit.metre_equivalent + " (the same datum in metres)"));
-  }
+  require_metric_target(options.target, references);
   std::vector<QaEntry> qa;  // measuring-point entries; reading entries are streamed
 
   // 1. Every measuring point in the target reference.
