@@ -3,14 +3,20 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <catch2/catch.hpp>
+#include <charconv>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <nlohmann/json.hpp>
 #include <regex>
 #include <sstream>
 
 #include "cli/app.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/table.hpp"
+#include "levelhead/units.hpp"
 #include "support/temp_folder.hpp"
 
 using Catch::Matchers::Contains;
@@ -205,6 +211,77 @@ TEST_CASE("a project whose target is in feet is refused before any stage runs", 
   CHECK(run.code == 1);
   CHECK_THAT(run.err, Contains("[site] target") && Contains("EPSG:5703"));
   CHECK_FALSE(fs::exists(out));
+}
+
+TEST_CASE(
+    "a site surveyed in US survey feet gives the heights and heads of the same site in "
+    "metres",
+    "[project][units]") {
+  // The demo's inputs with every length in US survey feet (1200/3937 m, US
+  // Federal Register 1959) and [site] unit = "us-ft": the chain must read
+  // each user table in feet and each table of its own stages in metres.
+  levelhead::testing::TempFolder tmp;
+  const fs::path metric = demo_project(tmp.path());
+  const fs::path feet = tmp.path() / "feet";
+  fs::copy(metric.parent_path(), feet);
+  const std::map<std::string, std::vector<std::string>> lengths = {
+      {"epochs.csv", {"dh", "length"}},
+      {"fieldbook.csv", {"reading", "distance"}},
+      {"gnss.csv", {"height", "sigma"}},
+      {"levels.csv", {"depth"}},
+      {"measuring_points.csv", {"height", "sigma"}},
+      {"points.csv", {"height", "sigma"}},
+      {"sensors.csv", {"hung_depth", "sigma", "elevation"}},
+      {"wells.csv", {"ground", "screen_top", "screen_bottom"}}};
+  for (const auto& [file, columns] : lengths) {
+    const levelhead::Table t = levelhead::read_table(metric.parent_path() / file);
+    std::ofstream out(feet / file, std::ios::binary);
+    for (std::size_t c = 0; c < t.column_names().size(); ++c)
+      out << (c ? "," : "") << t.column_names()[c];
+    out << '\n';
+    for (std::size_t r = 0; r < t.row_count(); ++r) {
+      for (std::size_t c = 0; c < t.column_names().size(); ++c) {
+        std::string cell(t.cell(r, c));
+        const bool length =
+            std::find(columns.begin(), columns.end(), t.column_names()[c]) != columns.end();
+        double metres = 0.0;
+        const auto [end, ec] = std::from_chars(cell.data(), cell.data() + cell.size(), metres);
+        if (length && !cell.empty() && ec == std::errc() && end == cell.data() + cell.size())
+          cell = fmt::format("{:.12g}", metres / levelhead::metres_per_us_survey_foot);
+        out << (c ? "," : "") << levelhead::csv_cell(cell);
+      }
+      out << '\n';
+    }
+  }
+  replace_in(feet / "project.toml", "unit = \"m\"", "unit = \"us-ft\"");
+  REQUIRE(cli({"run", metric.string(), "--out", (tmp.path() / "m").string(), "--quiet"}).code == 0);
+  const Run run = cli(
+      {"run", (feet / "project.toml").string(), "--out", (tmp.path() / "ft").string(), "--quiet"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  // Same numbers to their printed resolution: heights 0.01 mm, GNSS
+  // differences 0.1 mm, event heads as their sigma allows (2 to 4 decimals,
+  // a value on a rounding boundary may flip by one unit of 0.01 m).
+  const auto compare = [&](const char* file, const char* key, const char* value, double tol) {
+    const levelhead::Table a = levelhead::read_table(tmp.path() / "m" / file);
+    const levelhead::Table b = levelhead::read_table(tmp.path() / "ft" / file);
+    REQUIRE(a.row_count() == b.row_count());
+    for (std::size_t r = 0; r < a.row_count(); ++r) {
+      INFO(file << " " << a.cell(r, *a.find_column(key)));
+      CHECK(a.cell(r, *a.find_column(key)) == b.cell(r, *b.find_column(key)));
+      const auto x = a.number(r, *a.find_column(value)), y = b.number(r, *b.find_column(value));
+      REQUIRE(x.has_value() == y.has_value());
+      if (x) CHECK_THAT(*y, Catch::Matchers::WithinAbs(*x, tol));
+    }
+  };
+  compare("adjust/heights.csv", "id", "height", 2e-5);
+  compare("gnss-check/gnss_check.csv", "id", "difference", 2e-4);
+  compare("heads/event.csv", "well", "head", 0.0101);
+  const auto flow = [&](const char* run_name) {
+    return nlohmann::json::parse(std::ifstream(tmp.path() / run_name / "flow" / "flow.json"));
+  };
+  CHECK_THAT(flow("ft")["azimuth"]["value"].get<double>(),
+             Catch::Matchers::WithinAbs(flow("m")["azimuth"]["value"].get<double>(), 0.5));
 }
 
 TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {

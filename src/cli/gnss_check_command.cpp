@@ -22,6 +22,7 @@ namespace levelhead::cli {
 namespace {
 struct GnssArguments {
   std::string levelled, levelled_ref, gnss, gnss_ref = "EPSG:4979", crs, out, unit = "m";
+  std::string levelled_unit;  // empty: as unit
   ReferenceInputs refs;
   double tolerance = 0.05;
   bool strict = false, quiet = false;
@@ -41,6 +42,9 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
   c->add_option("--out", a->out, "Output folder")->required();
   add_reference_options(*c, a->refs);
   c->add_option("--unit", a->unit, "Length unit of both tables")->capture_default_str();
+  c->add_option("--levelled-unit", a->levelled_unit,
+                "Length unit of the levelled table when it differs from --unit (the heights.csv "
+                "of levelhead adjust is in m)");
   c->add_option("--tolerance", a->tolerance,
                 "Largest difference accepted as consistent (m); 3 sigma is used when larger")
       ->capture_default_str();
@@ -48,7 +52,9 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream&) {
     const LengthUnit unit = parse_length_unit(a->unit);
-    const Table levelled = read_table(a->levelled, TableOptions{{}, unit, {}});
+    const LengthUnit levelled_unit =
+        a->levelled_unit.empty() ? unit : parse_length_unit(a->levelled_unit);
+    const Table levelled = read_table(a->levelled, TableOptions{{}, levelled_unit, {}});
     const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}});
     const std::size_t lid = levelled.require_column("id"), lh = levelled.require_column("height");
     const auto ls = levelled.find_column("sigma");

@@ -13,6 +13,9 @@ void add_network_input_options(CLI::App& command, NetworkInputs& inputs) {
   command.add_option("--unit", inputs.unit,
                      "Length unit of the input tables: m, ft (0.3048 m), us-ft (1200/3937 m)")
       ->capture_default_str();
+  command.add_option("--sections-unit", inputs.sections_unit,
+                     "Length unit of the sections table when it differs from --unit (the "
+                     "sections.csv of levelhead reduce is in m)");
   command.add_option("--points-columns", inputs.points_columns,
                      "Column map for the points table, e.g. id=Station,height=Elev");
   command.add_option("--sections-columns", inputs.sections_columns,
@@ -26,7 +29,9 @@ Network load_network(const NetworkInputs& inputs) {
   const LengthUnit unit = parse_length_unit(inputs.unit);
   const TableOptions point_options{parse_column_map(inputs.points_columns), unit,
                                    inputs.points_layer};
-  const TableOptions section_options{parse_column_map(inputs.sections_columns), unit,
+  const LengthUnit sections_unit =
+      inputs.sections_unit.empty() ? unit : parse_length_unit(inputs.sections_unit);
+  const TableOptions section_options{parse_column_map(inputs.sections_columns), sections_unit,
                                      inputs.sections_layer};
   const Table point_table = read_table(inputs.points, point_options);
   const Table section_table = read_table(inputs.sections, section_options);

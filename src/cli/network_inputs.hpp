@@ -11,10 +11,12 @@ namespace levelhead::cli {
 struct NetworkInputs {
   std::string points, sections, out;
   std::string unit = "m";
+  std::string sections_unit;  // empty: as unit (the chain says m for the sections of `reduce`)
   std::string points_columns, sections_columns, points_layer, sections_layer;
 };
 
-// --points, --sections, --out (all required), --unit, column maps and layers.
+// --points, --sections, --out (all required), --unit, --sections-unit, column
+// maps and layers.
 void add_network_input_options(CLI::App& command, NetworkInputs& inputs);
 
 // Reads both tables and checks the network. Throws the library's errors.

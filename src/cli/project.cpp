@@ -63,6 +63,8 @@ bool wired_by_chain(const std::string& key) {
                                               "records",
                                               "levelled",
                                               "levelled_ref",
+                                              "levelled_unit",
+                                              "sections_unit",
                                               "gnss",
                                               "columns",
                                               "points_columns",
@@ -332,7 +334,9 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
               {name, "--points", path("points"), "--sections", sections, "--unit", p.unit},
               in};
       add_columns(p, "points", "--points-columns", s.args);
-      if (!p.input("fieldbook"))
+      if (p.input("fieldbook"))
+        s.args.insert(s.args.end(), {"--sections-unit", "m"});  // reduce writes metres
+      else
         add_columns(p, "sections", "--sections-columns", s.args);  // reduce writes ours
       add(std::move(s));
     }
@@ -347,7 +351,8 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     Stage g{"gnss-check",
             "gnss",
             {"gnss-check", "--levelled", (out / "adjust" / "heights.csv").string(),
-             "--levelled-ref", p.target, "--gnss", path("gnss"), "--crs", p.crs, "--unit", p.unit},
+             "--levelled-ref", p.target, "--gnss", path("gnss"), "--crs", p.crs, "--unit", p.unit,
+             "--levelled-unit", "m"},
             {"gnss", "points"}};
     if (!p.references.empty()) g.args.insert(g.args.end(), {"--references", p.references.string()});
     for (const fs::path& grid : p.grid_paths)
