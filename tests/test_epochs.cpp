@@ -295,6 +295,23 @@ TEST_CASE("a side shot is unchecked in every epoch and in its epoch heights", "[
   }
 }
 
+TEST_CASE("the datum is the stable mark with the best known height, whatever the order",
+          "[epochs]") {
+  // B is named first but weighted (3 mm); A is held fixed: A is held, and
+  // the heights are those of A's known height either way round.
+  Point a = point("A", 50.0);
+  Point b = point("B", 51.0, 0.003);
+  const auto held = [&](std::vector<std::string> marks) {
+    return analyse_epochs(point_table({a, b, point("P")}), triangle_epochs(1.000, 0.500, -1.500),
+                          std::move(marks), EpochOptions{});
+  };
+  const EpochAnalysis ba = held({"B", "A"});
+  const EpochAnalysis ab = held({"A", "B"});
+  CHECK(ba.held_mark == "A");
+  CHECK(ab.held_mark == "A");
+  CHECK_THAT(ba.heights[2][0].height, WithinAbs(ab.heights[2][0].height, 1e-12));
+}
+
 TEST_CASE("bad epoch input is refused with the place to fix it", "[epochs]") {
   const double s = 0.001;
   const PointTable points = point_table({point("A"), point("B"), point("P")});

@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <filesystem>
 
 #include "cli/app.hpp"
@@ -46,7 +47,8 @@ std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit)
   return epochs;
 }
 
-// Candidate marks: as named, or the points whose kind is benchmark or reference.
+// Candidate marks: as named, or the points whose kind is benchmark or reference
+// (in id order).
 std::vector<std::string> candidate_marks(const EpochArguments& a, const PointTable& points) {
   std::vector<std::string> marks;
   for (const std::string& id : a.marks) {
@@ -57,6 +59,8 @@ std::vector<std::string> candidate_marks(const EpochArguments& a, const PointTab
     const std::string kind = util::to_lower(p.kind);
     if (kind == "benchmark" || kind == "reference") marks.push_back(p.id);
   }
+  // In id order: the results must not depend on the order of the table's rows.
+  std::sort(marks.begin(), marks.end());
   if (marks.empty()) {
     throw OptionError(
         fmt::format("no candidate reference marks: name them with --marks A,B,C, or "

@@ -76,6 +76,7 @@ struct Model {
   std::vector<std::string> ids;
   std::unordered_map<std::string, std::size_t> index;
   std::vector<std::optional<double>> known;
+  std::vector<double> known_sigma;  // 0 for a height held fixed
   std::vector<std::string> datum;
   std::vector<std::vector<char>> observed;  // [epoch][point]
   std::vector<Observation> observations;
@@ -390,6 +391,7 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
     }
     m.ids.push_back(p.id);
     m.known.push_back(p.height);
+    m.known_sigma.push_back(p.is_fixed() ? 0.0 : p.sigma.value_or(0.0));
     m.datum.push_back(p.datum);
   }
   std::vector<char> candidate(m.ids.size(), 0);
@@ -538,16 +540,19 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
         "that moved against each other");
   }
 
-  // 4. The final joint adjustment on the stable marks.
+  // 4. The final joint adjustment on the stable marks, holding the stable
+  // candidate with the best known height (fixed, else the smallest sigma;
+  // ties in the order the candidates were named), so that the datum does not
+  // depend on the order of the tables' rows.
   std::optional<std::size_t> held;
+  std::optional<std::size_t> first_stable;
   for (const std::string& id : out.candidates) {
     const std::size_t p = m.index.at(id);
-    if (stable[p] && m.known[p]) {
-      held = p;
-      break;
-    }
+    if (!stable[p]) continue;
+    if (!first_stable) first_stable = p;
+    if (m.known[p] && (!held || m.known_sigma[p] < m.known_sigma[*held])) held = p;
   }
-  const std::size_t held_point = held.value_or(first_shared(stable));
+  const std::size_t held_point = held.value_or(first_stable.value_or(first_shared(stable)));
   out.held_mark = m.ids[held_point];
   const double held_height = held ? *m.known[held_point] : 0.0;
   out.reference =
