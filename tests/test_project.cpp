@@ -93,6 +93,8 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(html, Contains("transducer-drift-rejected"));       // the knocked logger
   CHECK_THAT(html, Contains("Unchecked levelling: the measuring point(s) of MW-07"));  // side shot
   CHECK_THAT(read(tmp.path() / "report.md"), Contains("![Levelling network"));
+  // Markdown punctuation in the text is escaped, not read as markup.
+  CHECK_THAT(read(tmp.path() / "report.md"), Contains("residual \\|w\\| of each"));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
 
   std::ifstream record_file(tmp.path() / "run.json");

@@ -81,22 +81,35 @@ std::vector<std::string> split(const std::string& text, char separator) {
 
 // ---------------------------------------------------------------- document
 
+// Text taken literally in Markdown: ids and file names may hold characters
+// that Markdown reads as markup or HTML (CommonMark lets any ASCII
+// punctuation be escaped with a backslash).
+std::string markdown_text(const std::string& text) {
+  std::string out;
+  for (const char c : text) {
+    if (std::string_view("\\`*_<>[]|").find(c) != std::string_view::npos) out += '\\';
+    out += c;
+  }
+  return out;
+}
+
 // One document rendered twice: Markdown (figures as files) and HTML (inline).
 class Document {
  public:
   void heading(int level, const std::string& text) {
-    md_ += fmt::format("\n{} {}\n\n", std::string(static_cast<std::size_t>(level), '#'), text);
+    md_ += fmt::format("\n{} {}\n\n", std::string(static_cast<std::size_t>(level), '#'),
+                       markdown_text(text));
     html_ += fmt::format("<h{0}>{1}</h{0}>\n", level, report::escape_xml(text));
   }
   void paragraph(const std::string& text) {
-    md_ += text + "\n\n";
+    md_ += markdown_text(text) + "\n\n";
     html_ += "<p>" + report::escape_xml(text) + "</p>\n";
   }
   void bullets(const std::vector<std::string>& items) {
     if (items.empty()) return;
     html_ += "<ul>\n";
     for (const std::string& i : items) {
-      md_ += "- " + i + "\n";
+      md_ += "- " + markdown_text(i) + "\n";
       html_ += "<li>" + report::escape_xml(i) + "</li>\n";
     }
     md_ += "\n";
@@ -104,15 +117,10 @@ class Document {
   }
   void table(const std::vector<std::string>& header,
              const std::vector<std::vector<std::string>>& rows, std::size_t limit = 60) {
-    const auto md_cell = [](std::string s) {
-      std::string out;
-      for (char c : s) out += c == '|' ? std::string("\\|") : std::string(1, c);
-      return out;
-    };
     md_ += "|";
     html_ += "<table>\n<thead><tr>";
     for (const std::string& h : header) {
-      md_ += fmt::format(" {} |", md_cell(h));
+      md_ += fmt::format(" {} |", markdown_text(h));
       html_ += "<th>" + report::escape_xml(h) + "</th>";
     }
     md_ += "\n|";
@@ -123,7 +131,7 @@ class Document {
       md_ += "|";
       html_ += "<tr>";
       for (const std::string& c : rows[r]) {
-        md_ += fmt::format(" {} |", md_cell(c));
+        md_ += fmt::format(" {} |", markdown_text(c));
         html_ += "<td>" + report::escape_xml(c) + "</td>";
       }
       md_ += "\n";
@@ -138,7 +146,7 @@ class Document {
   void figure(const std::string& name, const Svg& svg, const std::string& caption) {
     const std::string file = "figures/" + name + ".svg";
     figures_.emplace_back(file, svg.str());
-    md_ += fmt::format("![{}]({})\n\n*{}*\n\n", caption, file, caption);
+    md_ += fmt::format("![{0}]({1})\n\n*{0}*\n\n", markdown_text(caption), file);
     html_ += fmt::format("<figure id=\"fig-{}\">\n{}<figcaption>{}</figcaption>\n</figure>\n", name,
                          svg.str(), report::escape_xml(caption));
   }
