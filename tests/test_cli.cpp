@@ -275,6 +275,36 @@ TEST_CASE("convert writes heights in the unit of the target reference", "[cli][p
   CHECK_THAT(metres.out, Contains("written in m"));
 }
 
+TEST_CASE("known heights labelled in a foot reference must come from a table in feet",
+          "[cli][units]") {
+  // EPSG:6360 is NAVD88 in US survey feet (EPSG dataset): 328.08333 in a
+  // table read in metres would be 328 m, a factor 3.28 off.
+  levelhead::testing::TempFolder tmp;
+  const fs::path points = tmp.path() / "points.csv", sections = tmp.path() / "sections.csv";
+  std::ofstream(points) << "id,height,sigma,datum\nA,328.08333,,EPSG:6360\nB,,,\n";
+  std::ofstream(sections) << "from,to,dh,length\nA,B,3.28083,500\n";
+  const CliRun metres = run_cli({"adjust", "--points", points.string(), "--sections",
+                                 sections.string(), "--out", (tmp.path() / "m").string()});
+  CHECK(metres.code == 1);
+  CHECK_THAT(metres.err, Contains("points.csv, row 2, column 'datum'") &&
+                             Contains("--unit us-ft") && Contains("EPSG:5703"));
+  CHECK_FALSE(fs::exists(tmp.path() / "m"));
+  const CliRun feet =
+      run_cli({"adjust", "--points", points.string(), "--sections", sections.string(), "--unit",
+               "us-ft", "--out", (tmp.path() / "ft").string()});
+  INFO(feet.err);
+  CHECK(feet.code == 0);
+
+  // gnss-check: a levelled reference in feet over a table read in metres.
+  const fs::path gnss_table = tmp.path() / "gnss.csv";
+  std::ofstream(gnss_table) << "id,x,y,height,sigma\nA,-100.0,40.0,70.0,0.02\n";
+  const CliRun gnss =
+      run_cli({"gnss-check", "--levelled", points.string(), "--levelled-ref", "EPSG:6360", "--gnss",
+               gnss_table.string(), "--crs", "EPSG:4326", "--out", (tmp.path() / "g").string()});
+  CHECK(gnss.code != 0);
+  CHECK_THAT(gnss.err, Contains("--levelled-ref") && Contains("US survey foot"));
+}
+
 TEST_CASE("tie writes a reference that convert then uses", "[cli][tie]") {
   levelhead::testing::TempFolder tmp;
   std::ofstream(tmp.path() / "site.csv") << "id,x,y,height,sigma\nA,0,0,10.000,0.001\n"

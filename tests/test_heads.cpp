@@ -27,6 +27,7 @@ struct Site {
   std::string levels;
   std::string monitored;  // heights_by_epoch.csv, when not empty
   std::string network;    // heights.csv of `adjust`, when not empty
+  LengthUnit mp_unit = LengthUnit::metre;
   HeadOptions options;
   ReferenceSet references;
 
@@ -48,7 +49,8 @@ struct Site {
     write("mp.csv", mp);
     write("levels.csv", levels);
     const WellSet w = read_wells(read_table(tmp.path() / "wells.csv"));
-    const auto records = read_measuring_points(read_table(tmp.path() / "mp.csv"), w);
+    const auto records =
+        read_measuring_points(read_table(tmp.path() / "mp.csv", TableOptions{{}, mp_unit, {}}), w);
     MonitoredHeights moving;
     if (!monitored.empty()) {
       write("monitored.csv", monitored);
@@ -191,6 +193,22 @@ TEST_CASE("a target reference in feet is refused, naming its metre sibling", "[h
   site.levels = "well,time,depth\nW1,2021-06-01,2.000\n";
   CHECK_THROWS_WITH(site.run(),
                     Contains("EPSG:6360") && Contains("US survey foot") && Contains("EPSG:5703"));
+}
+
+TEST_CASE("a measuring point in a foot reference read as metres is refused", "[heads][units]") {
+  // W1's top at 32.8083 US survey feet in NAVD88 height (ftUS), EPSG:6360,
+  // is 10.000 m in EPSG:5703 (1200/3937 m per foot, US Federal Register
+  // 1959). Read from a table in metres it would be 32.8 m: refused.
+  Site site;
+  site.mp = "well,valid_from,height,datum,sigma\nW1,2020-01-01,32.80833,EPSG:6360,0.0066\n";
+  site.levels = "well,time,depth\nW1,2021-06-01,2.000\n";  // the levels table is in metres
+  CHECK_THROWS_WITH(site.run(), Contains("row 2") && Contains("EPSG:6360") &&
+                                    Contains("--unit us-ft") && Contains("EPSG:5703"));
+  // Declared in feet, the same table gives 10.000 - 2.000 m (printed to the
+  // millimetre its sigma allows).
+  site.mp_unit = LengthUnit::us_survey_foot;
+  const Table t = site.run();
+  CHECK_THAT(head(t, 0), WithinAbs(8.000, 5e-4));
 }
 
 TEST_CASE("readings before the first survey fail unless allowed", "[heads][errors]") {

@@ -25,6 +25,8 @@
 #include <string>
 #include <vector>
 
+#include "levelhead/units.hpp"
+
 namespace levelhead {
 
 struct ProjSettings {
@@ -67,6 +69,14 @@ struct HeightUnit {
   bool metric() const { return std::abs(metres_per_unit - 1.0) < 1e-12; }
 };
 HeightUnit height_unit_of(const std::string& definition);
+
+// When heights labelled with `reference` (whose unit is `unit`) come from a
+// table read in `table_unit` and the reference is in feet of another kind,
+// the numbers are off by a factor: the message saying so and how to fix it;
+// nullopt when they agree (a table in feet with a metre reference is taken
+// as declared).
+std::optional<std::string> table_unit_mismatch(const HeightUnit& unit, const std::string& reference,
+                                               LengthUnit table_unit);
 
 struct PlanePoint {
   double x = 0.0, y = 0.0;

@@ -24,6 +24,7 @@
 
 #include "levelhead/table.hpp"
 #include "levelhead/time.hpp"
+#include "levelhead/units.hpp"
 
 namespace levelhead {
 
@@ -45,6 +46,7 @@ struct MeasuringPointRecord {
   Instant valid_from;
   std::string valid_from_text;
   std::optional<double> height;  // m, in `datum`
+  LengthUnit table_unit = LengthUnit::metre;  // the unit the table gave it in
   std::string datum;
   std::optional<double> sigma;  // m
   std::string point;            // network point id

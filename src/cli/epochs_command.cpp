@@ -7,6 +7,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "cli/network_inputs.hpp"
 #include "levelhead/epoch_report.hpp"
 #include "levelhead/epochs.hpp"
 #include "levelhead/errors.hpp"
@@ -83,6 +84,7 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
   const LengthUnit unit = parse_length_unit(a.unit);
   const PointTable points =
       read_points(read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}}));
+  require_point_units(points, unit);
   const EpochAnalysis analysis =
       analyse_epochs(points, read_epochs(a, unit), candidate_marks(a, points), options);
   write_epoch_outputs(analysis, options, EpochInputs{a.points, a.sections}, a.out);

@@ -1,10 +1,12 @@
 // `levelhead gnss-check`: levelled against GNSS heights at common marks.
 
-#include <cmath>
 #include <fmt/format.h>
+
+#include <cmath>
 #include <map>
 #include <memory>
 #include <nlohmann/json.hpp>
+#include <tuple>
 #include <unordered_map>
 
 #include "cli/app.hpp"
@@ -91,6 +93,14 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     }
     const ProjSettings settings = a->refs.settings();
     const ReferenceSet references = a->refs.load();
+    // Heights labelled with a reference in feet must come from a table in feet.
+    for (const auto& [option, reference, table_unit] :
+         {std::tuple{"--levelled-ref", a->levelled_ref, levelled_unit},
+          std::tuple{"--gnss-ref", a->gnss_ref, unit}}) {
+      const HeightUnit own = reference_height_unit(reference, references);
+      if (const auto problem = table_unit_mismatch(own, reference, table_unit))
+        throw OptionError(fmt::format("{}: {}", option, *problem));
+    }
     HeightConverter converter(a->gnss_ref, a->levelled_ref, a->crs, references, settings);
     const std::vector<ConvertedHeight> converted = converter.convert(points, heights);
     for (std::size_t i = 0; i < marks.size(); ++i) {

@@ -1,6 +1,10 @@
 #include "cli/network_inputs.hpp"
 
+#include <map>
+
+#include "levelhead/errors.hpp"
 #include "levelhead/table.hpp"
+#include "levelhead/vertical_reference.hpp"
 
 namespace levelhead::cli {
 
@@ -25,6 +29,24 @@ void add_network_input_options(CLI::App& command, NetworkInputs& inputs) {
                      "Layer or sheet of the sections file");
 }
 
+void require_point_units(const PointTable& points, LengthUnit table_unit) {
+  std::map<std::string, std::optional<HeightUnit>> units;  // datum -> unit, if PROJ knows it
+  for (const Point& p : points.points) {
+    if (!p.height || p.datum.empty()) continue;
+    auto [it, fresh] = units.try_emplace(p.datum);
+    if (fresh) {
+      try {
+        it->second = height_unit_of(p.datum);
+      } catch (const ReferenceError&) {
+        it->second.reset();
+      }
+    }
+    if (!it->second) continue;
+    if (const auto problem = table_unit_mismatch(*it->second, p.datum, table_unit))
+      throw InputError(CellLocation{points.file, p.row, "datum"}, p.datum, *problem);
+  }
+}
+
 Network load_network(const NetworkInputs& inputs) {
   const LengthUnit unit = parse_length_unit(inputs.unit);
   const TableOptions point_options{parse_column_map(inputs.points_columns), unit,
@@ -35,7 +57,9 @@ Network load_network(const NetworkInputs& inputs) {
                                      inputs.sections_layer};
   const Table point_table = read_table(inputs.points, point_options);
   const Table section_table = read_table(inputs.sections, section_options);
-  return make_network(read_points(point_table), read_sections(section_table));
+  PointTable points = read_points(point_table);
+  require_point_units(points, unit);
+  return make_network(std::move(points), read_sections(section_table));
 }
 
 }  // namespace levelhead::cli

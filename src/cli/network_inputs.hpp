@@ -5,6 +5,7 @@
 #include <string>
 
 #include "levelhead/network.hpp"
+#include "levelhead/units.hpp"
 
 namespace levelhead::cli {
 
@@ -18,6 +19,11 @@ struct NetworkInputs {
 // --points, --sections, --out (all required), --unit, --sections-unit, column
 // maps and layers.
 void add_network_input_options(CLI::App& command, NetworkInputs& inputs);
+
+// Known heights whose `datum` is a PROJ CRS in feet must come from a table
+// in that unit; throws InputError naming the row otherwise. Names PROJ does
+// not know (references of our own, in metres) are not checked.
+void require_point_units(const PointTable& points, LengthUnit table_unit);
 
 // Reads both tables and checks the network. Throws the library's errors.
 Network load_network(const NetworkInputs& inputs);

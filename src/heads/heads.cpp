@@ -321,6 +321,14 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
           options.target, e.what(), datum));
     }
     HeightConverter& converter = *made;
+    // A height written in a foot reference but read as metres (or the other
+    // foot) is off by a factor: the table's unit must be the reference's.
+    for (std::size_t k : indices) {
+      const MeasuringPointRecord& m = records[k];
+      if (!m.height) continue;
+      if (const auto problem = table_unit_mismatch(converter.source_unit(), datum, m.table_unit))
+        throw InputError(CellLocation{"measuring points", m.row, "datum"}, datum, *problem);
+    }
     std::vector<PlanePoint> points;
     std::vector<double> heights;
     for (std::size_t k : indices) {

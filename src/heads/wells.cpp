@@ -75,6 +75,7 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
     }
     m.valid_from = *when;
     if (height) m.height = t.length(r, *height);
+    m.table_unit = t.length_unit();
     if (sigma) m.sigma = t.length(r, *sigma);
     m.datum = text(r, datum);
     m.point = text(r, point);

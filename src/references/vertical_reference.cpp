@@ -694,4 +694,16 @@ HeightUnit height_unit_of(const std::string& definition) {
   return out;
 }
 
+std::optional<std::string> table_unit_mismatch(const HeightUnit& unit, const std::string& reference,
+                                               LengthUnit table_unit) {
+  const std::optional<LengthUnit> own = length_unit_of(unit.metres_per_unit);
+  if (unit.metric() || own == table_unit) return std::nullopt;
+  return fmt::format(
+      "'{}' measures heights in {}, but the table is read in {}; declare the table's unit ({}) "
+      "or give the heights in a metre reference{}",
+      reference, unit.name, to_string(table_unit),
+      own ? "--unit " + to_string(*own) : std::string("--unit"),
+      unit.metre_equivalent.empty() ? "" : " (" + unit.metre_equivalent + ")");
+}
+
 }  // namespace levelhead
