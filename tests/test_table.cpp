@@ -1,11 +1,12 @@
-#include <catch2/catch.hpp>
 #include <gdal.h>
 #include <ogr_api.h>
 
+#include <catch2/catch.hpp>
 #include <filesystem>
 #include <fstream>
 
 #include "levelhead/table.hpp"
+#include "levelhead/time.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;
@@ -98,11 +99,19 @@ void write_ogr_table(const std::filesystem::path& path, const char* driver_name,
   OGRFieldDefnH h = OGR_Fld_Create("Height", OFTReal);
   OGR_L_CreateField(layer, h, 1);
   OGR_Fld_Destroy(h);
+  OGRFieldDefnH day = OGR_Fld_Create("Day", OFTDate);
+  OGR_L_CreateField(layer, day, 1);
+  OGR_Fld_Destroy(day);
+  OGRFieldDefnH when = OGR_Fld_Create("When", OFTDateTime);
+  OGR_L_CreateField(layer, when, 1);
+  OGR_Fld_Destroy(when);
   const char* ids[] = {"007", "BM-2"};
   for (int i = 0; i < 2; ++i) {
     OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer));
     OGR_F_SetFieldString(f, 0, ids[i]);
     if (i == 0) OGR_F_SetFieldDouble(f, 1, 12.3456);
+    OGR_F_SetFieldDateTime(f, 2, 2026, 10, 6, 0, 0, 0, 0);
+    OGR_F_SetFieldDateTime(f, 3, 2026, 10, 6, 8, 30, 0, 100);  // 100: UTC in GDAL's flags
     if (as_points) {
       OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
       OGR_G_SetPoint_2D(g, 0, 500000.0 + i, 4400000.0);
@@ -112,6 +121,14 @@ void write_ogr_table(const std::filesystem::path& path, const char* driver_name,
     OGR_F_Destroy(f);
   }
   GDALClose(ds);
+}
+// Date and date-time cells read as ISO 8601, the same instants as in a CSV
+// (GDAL itself writes them as YYYY/MM/DD HH:MM:SS).
+void check_dates(const Table& t) {
+  CHECK(t.cell(0, t.require_column("day")) == "2026-10-06");
+  const auto when = parse_iso8601(t.cell(0, t.require_column("when")));
+  REQUIRE(when);
+  CHECK_THAT(when->seconds, WithinAbs(parse_iso8601("2026-10-06T08:30:00Z")->seconds, 1e-6));
 }
 }  // namespace
 
@@ -126,6 +143,7 @@ TEST_CASE("GDAL sources are read as text tables", "[table][gdal]") {
     CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(12.3456, 1e-12));
     CHECK_FALSE(t.number(1, t.require_column("height")));  // unset stays empty, not 0
     CHECK_THAT(*t.number(1, t.require_column("x")), WithinAbs(500001.0, 1e-9));
+    check_dates(t);
   }
   SECTION("XLSX sheet, header forced and cells kept as text") {
     const auto path = folder.path() / "points.xlsx";
@@ -134,6 +152,7 @@ TEST_CASE("GDAL sources are read as text tables", "[table][gdal]") {
     REQUIRE(t.row_count() == 2);
     CHECK(t.cell(0, t.require_column("id")) == "007");
     CHECK(t.source_row(1) == 3);
+    check_dates(t);
   }
   SECTION("GeoJSON") {
     const auto path = folder.path() / "points.geojson";

@@ -33,6 +33,27 @@ std::string last_gdal_message() {
   return message && *message ? std::string(message) : std::string("no reason given by GDAL");
 }
 
+// GDAL writes date and date-time cells (spreadsheet dates, GeoPackage
+// fields) as YYYY/MM/DD[ HH:MM:SS[.sss][+HH[MM]]], even when asked for text;
+// they become ISO 8601 (YYYY-MM-DD[THH:MM:SS...]), which is unambiguous, so
+// the tables read the same as their CSV. Other text is left as it is.
+void iso_from_gdal_date(std::string& text) {
+  const auto digits = [&](std::size_t from, std::size_t count) {
+    for (std::size_t i = from; i < from + count; ++i) {
+      if (i >= text.size() || text[i] < '0' || text[i] > '9') return false;
+    }
+    return true;
+  };
+  if (text.size() < 10 || !digits(0, 4) || text[4] != '/' || !digits(5, 2) || text[7] != '/' ||
+      !digits(8, 2))
+    return;
+  if (text.size() > 10 &&
+      !(text[10] == ' ' && digits(11, 2) && text.size() > 13 && text[13] == ':'))
+    return;
+  text[4] = text[7] = '-';
+  if (text.size() > 10) text[10] = 'T';
+}
+
 }  // namespace
 
 Table read_ogr_table(const std::filesystem::path& path, const TableOptions& options) {
@@ -102,6 +123,7 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
       values[i] = OGR_F_IsFieldSetAndNotNull(feature.get(), i)
                       ? std::string(OGR_F_GetFieldAsString(feature.get(), i))
                       : std::string();
+      iso_from_gdal_date(values[i]);
     }
     if (geometry_xy) {
       OGRGeometryH geometry = OGR_F_GetGeometryRef(feature.get());
