@@ -1,5 +1,6 @@
 #include <gdal.h>
 #include <ogr_api.h>
+#include <ogr_srs_api.h>
 
 #include <catch2/catch.hpp>
 #include <filesystem>
@@ -153,6 +154,37 @@ TEST_CASE("GDAL sources are read as text tables", "[table][gdal]") {
     CHECK(t.cell(0, t.require_column("id")) == "007");
     CHECK(t.source_row(1) == 3);
     check_dates(t);
+  }
+  SECTION("a point layer in another CRS than the one x and y are taken in is refused") {
+    // Degrees read as metres would move every well; the layer says its CRS.
+    const auto path = folder.path() / "wells.gpkg";
+    GDALAllRegister();
+    GDALDatasetH ds = GDALCreate(GDALGetDriverByName("GPKG"), path.string().c_str(), 0, 0, 0,
+                                 GDT_Unknown, nullptr);
+    REQUIRE(ds != nullptr);
+    OGRSpatialReferenceH wgs84 = OSRNewSpatialReference(nullptr);
+    REQUIRE(OSRSetFromUserInput(wgs84, "EPSG:4326") == OGRERR_NONE);
+    OGRLayerH layer = GDALDatasetCreateLayer(ds, "wells", wgs84, wkbPoint, nullptr);
+    OSRDestroySpatialReference(wgs84);
+    OGRFieldDefnH id = OGR_Fld_Create("id", OFTString);
+    OGR_L_CreateField(layer, id, 1);
+    OGR_Fld_Destroy(id);
+    OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer));
+    OGR_F_SetFieldString(f, 0, "W1");
+    OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
+    OGR_G_SetPoint_2D(g, 0, -105.1, 39.8);
+    OGR_F_SetGeometryDirectly(f, g);
+    REQUIRE(OGR_L_CreateFeature(layer, f) == OGRERR_NONE);
+    OGR_F_Destroy(f);
+    GDALClose(ds);
+    TableOptions projected;
+    projected.xy_crs = "EPSG:32613";
+    CHECK_THROWS_WITH(read_table(path, projected),
+                      Contains("wells.gpkg") && Contains("EPSG:4326") && Contains("EPSG:32613"));
+    TableOptions geographic;
+    geographic.xy_crs = "EPSG:4326";
+    CHECK_THAT(*read_table(path, geographic).number(0, 1), WithinAbs(-105.1, 1e-12));
+    CHECK_NOTHROW(read_table(path));  // not checked when the caller names no CRS
   }
   SECTION("GeoJSON") {
     const auto path = folder.path() / "points.geojson";

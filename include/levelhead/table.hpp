@@ -38,6 +38,11 @@ struct TableOptions {
   ColumnMap column_map;
   LengthUnit length_unit = LengthUnit::metre;  // unit of every length-carrying column
   std::string layer;                           // OGR layer or sheet; empty = the first
+  // The CRS the caller takes x and y in (e.g. "EPSG:32613"); when x and y
+  // come from a layer's point geometry in another CRS, reading fails (an
+  // InputError naming both) rather than mixing degrees and metres. Empty:
+  // not checked.
+  std::string xy_crs;
 };
 
 class Table {

@@ -68,8 +68,8 @@ CommandRunner add_convert_command(CLI::App& app) {
     const LengthUnit written_unit = out_unit->count() > 0
                                         ? parse_length_unit(a->out_unit)
                                         : own_unit(converter.target_unit(), converter.to());
-    const Table table =
-        read_table(a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer});
+    const Table table = read_table(
+        a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer, a->crs});
     std::filesystem::path output(a->output);
     std::filesystem::path summary = output;
     summary.replace_extension(".summary.json");

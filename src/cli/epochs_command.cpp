@@ -32,7 +32,7 @@ std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit)
   std::vector<EpochSections> epochs;
   for (const std::string& file : a.sections) {
     const Table table =
-        read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}});
+        read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}, {}});
     SectionTable sections = read_sections(table);
     std::vector<std::string> names;
     if (const auto column = table.find_column("epoch")) {
@@ -82,8 +82,8 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
   }
   options.validate();
   const LengthUnit unit = parse_length_unit(a.unit);
-  const PointTable points =
-      read_points(read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}}));
+  const PointTable points = read_points(
+      read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}, {}}));
   require_point_units(points, unit);
   const EpochAnalysis analysis =
       analyse_epochs(points, read_epochs(a, unit), candidate_marks(a, points), options);

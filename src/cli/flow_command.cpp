@@ -20,7 +20,7 @@ namespace levelhead::cli {
 
 namespace {
 struct FlowArguments {
-  std::string heads, wells, wells_columns, aquifer, out;
+  std::string heads, wells, wells_columns, aquifer, out, crs;
   std::vector<double> conductivity, porosity;
   std::optional<double> distance;
   bool quiet = false;
@@ -49,6 +49,8 @@ CommandRunner add_flow_command(CLI::App& app) {
       ->required();
   c->add_option("--wells", a->wells, "Wells table (id, x, y, aquifer)")->required();
   c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
+  c->add_option("--crs", a->crs,
+                "Projected CRS of the wells' x and y (checked against a GIS layer's own)");
   c->add_option("--aquifer", a->aquifer, "Use only wells of this aquifer");
   c->add_option("--out", a->out, "Output folder")->required();
   c->add_option("--conductivity", a->conductivity, "Hydraulic conductivity range LOW HIGH (m/s)")
@@ -62,7 +64,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
     options.distance = a->distance;
     const WellSet wells = read_wells(read_table(
-        a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}}));
+        a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs}));
     const Table heads = read_table(a->heads);
     const std::size_t well_col = heads.require_column("well"),
                       head_col = heads.require_column("head");

@@ -56,8 +56,8 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     const LengthUnit unit = parse_length_unit(a->unit);
     const LengthUnit levelled_unit =
         a->levelled_unit.empty() ? unit : parse_length_unit(a->levelled_unit);
-    const Table levelled = read_table(a->levelled, TableOptions{{}, levelled_unit, {}});
-    const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}});
+    const Table levelled = read_table(a->levelled, TableOptions{{}, levelled_unit, {}, {}});
+    const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}, a->crs});
     const std::size_t lid = levelled.require_column("id"), lh = levelled.require_column("height");
     const auto ls = levelled.find_column("sigma");
     const std::size_t gid = gnss.require_column("id"), gh = gnss.require_column("height");

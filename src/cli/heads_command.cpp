@@ -90,11 +90,11 @@ CommandRunner add_heads_command(CLI::App& app) {
     }
     options.validate();
     const LengthUnit unit = parse_length_unit(a->unit);
-    const TableOptions table_options{parse_column_map(a->levels_columns), unit, {}};
-    const WellSet wells = read_wells(
-        read_table(a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}}));
+    const TableOptions table_options{parse_column_map(a->levels_columns), unit, {}, {}};
+    const WellSet wells = read_wells(read_table(
+        a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}, a->options.crs}));
     const auto records = read_measuring_points(
-        read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}}), wells);
+        read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}, {}}), wells);
     const NetworkHeights network =
         a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
     const ReferenceSet references = a->refs.load();

@@ -388,6 +388,7 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
             {"transducer", "--wells", path("wells"), "--sensors", path("sensors"), "--records",
              path("records"), "--levels", path("levels"), "--unit", p.unit},
             {"sensors", "records", "levels"}};
+    if (!p.crs.empty()) t.args.insert(t.args.end(), {"--crs", p.crs});
     add_columns(p, "wells", "--wells-columns", t.args);
     add_columns(p, "levels", "--levels-columns", t.args);  // its levels.csv has our names
     add(std::move(t));
@@ -420,7 +421,8 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
   if (wells && has_setting(p, "heads", "event")) {
     Stage f{"flow",
             "flow",
-            {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells")},
+            {"flow", "--heads", (out / "heads" / "event.csv").string(), "--wells", path("wells"),
+             "--crs", p.crs},
             {"heads", "wells"}};
     add_columns(p, "wells", "--wells-columns", f.args);
     add(std::move(f));

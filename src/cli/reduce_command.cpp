@@ -79,8 +79,8 @@ CommandRunner add_reduce_command(CLI::App& app) {
     options.double_reading_tolerance = a->double_tolerance_mm * 1e-3;
     options.curvature_refraction = !a->no_curvature;
     options.validate();
-    const TableOptions table_options{parse_column_map(a->columns), parse_length_unit(a->unit),
-                                     a->layer};
+    const TableOptions table_options{
+        parse_column_map(a->columns), parse_length_unit(a->unit), a->layer, {}};
     const FieldBook book = read_field_book(read_table(a->field_book, table_options));
     const FieldBookResult result = reduce_field_book(book, options);
     write_field_book_outputs(book, result, options, a->out);

@@ -17,7 +17,7 @@ namespace levelhead::cli {
 namespace {
 struct TransducerArguments {
   std::string wells, sensors, records, levels, out, unit = "m";
-  std::string wells_columns, levels_columns;
+  std::string wells_columns, levels_columns, crs;
   TransducerOptions options;
   bool strict = false, quiet = false;
 };
@@ -43,6 +43,8 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")
       ->capture_default_str();
   c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
+  c->add_option("--crs", a->crs,
+                "CRS of the wells' and barometers' x and y (checked against a GIS layer's own)");
   c->add_option(
       "--levels-columns", a->levels_columns,
       "Column map for the manual readings (levels.csv is written with levelhead's names)");
@@ -76,10 +78,10 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream&) {
     a->options.validate();
-    const TableOptions table{{}, parse_length_unit(a->unit), {}};
+    const TableOptions table{{}, parse_length_unit(a->unit), {}, {}};
     const WellSet wells = read_wells(read_table(
-        a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}}));
-    const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}};
+        a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}, a->crs}));
+    const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}, {}};
     const TransducerSummary s =
         reduce_transducers(wells, read_table(a->sensors, table), a->records, TableOptions{},
                            read_table(a->levels, levels), a->options, a->out);

@@ -37,8 +37,9 @@ class Csv {
   explicit Csv(const fs::path& path) : table_(read_table(path)) {}
   // An input of the project, read with its column map.
   explicit Csv(const ReportInput& input)
-      : table_(read_table(input.resolved,
-                          TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}})) {}
+      : table_(
+            read_table(input.resolved,
+                       TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}, {}})) {}
   std::size_t rows() const { return table_.row_count(); }
   bool has(const std::string& column) const { return table_.find_column(column).has_value(); }
   std::string get(std::size_t row, const std::string& column) const {

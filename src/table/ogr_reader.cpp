@@ -2,12 +2,13 @@
 // (spreadsheet drivers are told to keep strings and to treat the first row as
 // the header), so that GDAL's type guessing never alters a value.
 
-#include <gdal.h>
-#include <ogr_api.h>
 #include <cpl_conv.h>
 #include <cpl_error.h>
-
 #include <fmt/format.h>
+#include <gdal.h>
+#include <ogr_api.h>
+#include <ogr_srs_api.h>
+
 #include <memory>
 #include <mutex>
 
@@ -52,6 +53,29 @@ void iso_from_gdal_date(std::string& text) {
     return;
   text[4] = text[7] = '-';
   if (text.size() > 10) text[10] = 'T';
+}
+
+// The geometry's CRS must be the one the caller reads x and y in.
+void require_layer_crs(OGRLayerH layer, const std::string& expected, const std::string& file) {
+  OGRSpatialReferenceH layer_srs = OGR_L_GetSpatialRef(layer);
+  if (expected.empty() || !layer_srs) return;
+  OGRSpatialReferenceH wanted = OSRNewSpatialReference(nullptr);
+  const bool known = OSRSetFromUserInput(wanted, expected.c_str()) == OGRERR_NONE;
+  // Same CRS whatever the axis order GDAL maps the geometry to.
+  const char* compare[] = {"IGNORE_DATA_AXIS_TO_SRS_AXIS_MAPPING=YES", nullptr};
+  const bool same = known && OSRIsSameEx(layer_srs, wanted, compare);
+  OSRDestroySpatialReference(wanted);
+  if (!known || same) return;  // an unknown --crs is reported where it is used
+  const char* name = OSRGetName(layer_srs);
+  const char* auth = OSRGetAuthorityName(layer_srs, nullptr);
+  const char* code = OSRGetAuthorityCode(layer_srs, nullptr);
+  throw InputError(
+      file, fmt::format("the layer's points are in {}{}, but x and y are taken in {}; reproject "
+                        "the layer (e.g. ogr2ogr -t_srs {}) or give {} as the CRS",
+                        name ? name : "another CRS",
+                        auth && code ? fmt::format(" ({}:{})", auth, code) : std::string(),
+                        expected, expected,
+                        auth && code ? fmt::format("{}:{}", auth, code) : std::string("its CRS")));
 }
 
 }  // namespace
@@ -111,6 +135,7 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
   if (geometry_xy) {
     columns.emplace_back("x");
     columns.emplace_back("y");
+    require_layer_crs(layer, options.xy_crs, name);
   }
 
   Table table(name, columns, options);
