@@ -4,6 +4,12 @@
 // is complete. If anything fails (or the set is destroyed uncommitted), the
 // temporary files are removed and no file that looks finished is left.
 // Existing files of the same names are replaced only at commit.
+//
+// A file that is an input of the running command (levelhead/input_files.hpp)
+// is never replaced: open, reserve and commit throw OutputError naming it.
+// At commit every file is flushed to disk before the renames, and the
+// renames are not interrupted by Ctrl-C or kill (those signals wait until
+// the set is in place).
 
 #include <filesystem>
 #include <fstream>
@@ -34,6 +40,7 @@ class OutputSet {
 
  private:
   std::filesystem::path temporary_path(const std::string& name) const;
+  void refuse_input_destination(const std::string& name) const;
   std::filesystem::path folder_;
   std::map<std::string, std::ofstream> streams_;
   std::vector<std::string> reserved_;

@@ -6,6 +6,7 @@
 
 #include "cli/commands.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 #include "levelhead/version.hpp"
 
 namespace levelhead::cli {
@@ -90,6 +91,8 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
     return code == 0 ? exit_ok : exit_usage;
   }
 
+  // Whatever this command reads, none of its outputs may replace.
+  const InputFileScope inputs;
   try {
     for (const auto& [name, runner] : commands) {
       if (app.got_subcommand(name)) return runner(out, err);
@@ -100,6 +103,16 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
     return exit_usage;
   } catch (const Error& e) {
     err << "levelhead: error: " << e.what() << '\n';
+    return exit_failure;
+  } catch (const std::bad_alloc&) {
+    err << "levelhead: error: out of memory (an input far larger than expected, e.g. a header "
+           "of thousands of columns or a table without line breaks?); no output was written\n";
+    return exit_failure;
+  } catch (const std::exception& e) {
+    // A fault of levelhead itself, not of the input: still an orderly exit,
+    // and the outputs' all-or-nothing writers have removed their partial files.
+    err << "levelhead: internal error: " << e.what()
+        << "\nno output was written by the failing step; please report this with the inputs\n";
     return exit_failure;
   }
 }

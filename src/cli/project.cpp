@@ -8,6 +8,7 @@
 
 #include "cli/app.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::cli {
@@ -242,6 +243,7 @@ Project load_project(const fs::path& file) {
   p.file = file;
   p.folder = file.has_parent_path() ? file.parent_path() : fs::path(".");
   if (!fs::exists(file)) throw InputError(file.string(), "project file not found");
+  note_input_file(file);
   toml::table root;
   try {
     root = toml::parse_file(file.string());

@@ -1,12 +1,48 @@
 #include "levelhead/output_files.hpp"
 
-#include <algorithm>
+#include <fcntl.h>
 #include <fmt/format.h>
+#include <signal.h>
 #include <unistd.h>
 
+#include <algorithm>
+
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 
 namespace levelhead {
+
+namespace {
+
+// Forces a file's (or a folder's) contents to the disk, so that a crash
+// after the renames cannot leave a renamed but empty file.
+void flush_to_disk(const std::filesystem::path& path) {
+  const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
+  if (fd < 0) return;  // reported by the rename that follows if it matters
+  ::fsync(fd);
+  ::close(fd);
+}
+
+// Blocks the signals that end a process on the user's request (Ctrl-C, kill,
+// a closed terminal) while in scope: they are delivered after the renames,
+// so an interrupted commit never leaves part of the set new and part old.
+class DeferTerminationSignals {
+ public:
+  DeferTerminationSignals() {
+    sigset_t set;
+    sigemptyset(&set);
+    for (int s : {SIGINT, SIGTERM, SIGHUP, SIGQUIT}) sigaddset(&set, s);
+    pthread_sigmask(SIG_BLOCK, &set, &previous_);
+  }
+  ~DeferTerminationSignals() { pthread_sigmask(SIG_SETMASK, &previous_, nullptr); }
+  DeferTerminationSignals(const DeferTerminationSignals&) = delete;
+  DeferTerminationSignals& operator=(const DeferTerminationSignals&) = delete;
+
+ private:
+  sigset_t previous_{};
+};
+
+}  // namespace
 
 OutputSet::OutputSet(std::filesystem::path folder) : folder_(std::move(folder)) {
   std::error_code ec;
@@ -31,9 +67,11 @@ OutputSet::~OutputSet() {
 }
 
 std::filesystem::path OutputSet::reserve(const std::string& name) {
-  if (streams_.count(name) || std::find(reserved_.begin(), reserved_.end(), name) != reserved_.end()) {
+  if (streams_.count(name) ||
+      std::find(reserved_.begin(), reserved_.end(), name) != reserved_.end()) {
     throw std::logic_error("output file reserved twice: " + name);
   }
+  refuse_input_destination(name);
   reserved_.push_back(name);
   std::error_code ignored;
   std::filesystem::remove(temporary_path(name), ignored);
@@ -44,11 +82,21 @@ std::filesystem::path OutputSet::temporary_path(const std::string& name) const {
   // Hidden and marked as partial, with the process id so runs do not collide;
   // the extension is kept (GDAL drivers check it).
   const std::filesystem::path plain(name);
-  return folder_ / fmt::format(".{}.partial-{}{}", plain.stem().string(), static_cast<long>(getpid()),
-                               plain.extension().string());
+  return folder_ / fmt::format(".{}.partial-{}{}", plain.stem().string(),
+                               static_cast<long>(getpid()), plain.extension().string());
+}
+
+void OutputSet::refuse_input_destination(const std::string& name) const {
+  if (const auto input = input_file_at(folder_ / name)) {
+    throw OutputError(fmt::format(
+        "refusing to write '{}': it is the input file '{}' of this run, which would be replaced; "
+        "choose another output folder or file name so the input is kept",
+        (folder_ / name).string(), *input));
+  }
 }
 
 std::ostream& OutputSet::open(const std::string& name) {
+  refuse_input_destination(name);
   auto [it, inserted] = streams_.try_emplace(name);
   if (!inserted) throw std::logic_error("output file opened twice: " + name);
   it->second.open(temporary_path(name), std::ios::binary | std::ios::trunc);
@@ -63,12 +111,17 @@ void OutputSet::commit() {
     stream.flush();
     stream.close();
     if (stream.fail()) {
-      throw OutputError(fmt::format("writing '{}' in '{}' failed (disk full?)", name,
-                                    folder_.string()));
+      throw OutputError(
+          fmt::format("writing '{}' in '{}' failed (disk full?)", name, folder_.string()));
     }
   }
   std::vector<std::string> names = reserved_;
   for (const auto& [name, stream] : streams_) names.push_back(name);
+  // Inputs read after the files were opened (streamed tables) are checked
+  // again here, before anything is renamed.
+  for (const std::string& name : names) refuse_input_destination(name);
+  for (const std::string& name : names) flush_to_disk(temporary_path(name));
+  const DeferTerminationSignals defer;
   for (const std::string& name : names) {
     std::error_code ec;
     std::filesystem::rename(temporary_path(name), folder_ / name, ec);
@@ -77,6 +130,7 @@ void OutputSet::commit() {
                                     folder_.string(), ec.message()));
     }
   }
+  flush_to_disk(folder_);
   committed_ = true;
 }
 

@@ -9,6 +9,7 @@
 #include <sstream>
 
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -112,6 +113,7 @@ const ReferenceDefinition* ReferenceSet::find(const std::string& name) const {
 
 ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
   const std::string file = path.string();
+  note_input_file(path);
   toml::table root;
   try {
     root = toml::parse_file(file);

@@ -16,6 +16,7 @@
 #include <thread>
 
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 
 namespace levelhead {
 
@@ -524,6 +525,7 @@ std::string digest_hex(EVP_MD_CTX* md) {
 }  // namespace
 
 std::string file_sha256(const std::filesystem::path& path) {
+  note_input_file(path);
   std::ifstream in(path, std::ios::binary);
   if (!in) return "";
   const DigestContext md = new_sha256();

@@ -11,6 +11,7 @@
 #include <set>
 
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 #include "levelhead/table.hpp"
 
 namespace levelhead {
@@ -21,6 +22,7 @@ namespace {
 
 nlohmann::json read_record(const fs::path& folder) {
   const fs::path file = folder / "run.json";
+  note_input_file(file);
   std::ifstream in(file);
   if (!in) {
     throw InputError(folder.string(),

@@ -15,6 +15,7 @@
 #include <fstream>
 #include <sstream>
 
+#include "levelhead/input_files.hpp"
 #include "table/readers.hpp"
 #include "util/text.hpp"
 
@@ -199,6 +200,7 @@ void read_table_in_batches(const std::filesystem::path& path, const TableOptions
     consume(whole);
     return;
   }
+  note_input_file(path);
   // Mapped, not read: the pages come and go as the reader passes.
   const int fd = ::open(path.c_str(), O_RDONLY);
   if (fd < 0) throw InputError(path.string(), "no such file or cannot open it for reading");

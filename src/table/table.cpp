@@ -6,6 +6,7 @@
 #include <set>
 
 #include "table/readers.hpp"
+#include "levelhead/input_files.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -151,6 +152,7 @@ Table read_table(const std::filesystem::path& path, const TableOptions& options)
     throw InputError(path.string(), "no such file (check the path; relative paths are taken from "
                                     "the current folder)");
   }
+  note_input_file(path);
   const std::string extension = util::to_lower(path.extension().string());
   if (extension == ".csv" || extension == ".tsv" || extension == ".txt") {
     return detail::read_delimited_file(path, options);
