@@ -1,6 +1,12 @@
 // The user's files are never harmed: no output replaces an input, whatever
 // folder or file name the user gives, and a refused command leaves nothing.
 
+#include <fcntl.h>
+#include <signal.h>
+#include <sys/file.h>
+#include <sys/wait.h>
+#include <unistd.h>
+
 #include <catch2/catch.hpp>
 #include <filesystem>
 #include <fstream>
@@ -132,4 +138,109 @@ TEST_CASE("an output reached through a hard link to an input is refused", "[safe
   CHECK(r.code == 1);
   CHECK_THAT(r.err, Contains("refusing to write"));
   CHECK(read(demo.inputs / "points.csv") == before);
+}
+
+TEST_CASE("a run replaces only its own kind of folder", "[safety][project]") {
+  DemoFolder demo;
+  const std::string project = demo.at("project.toml");
+  const fs::path out = demo.tmp.path() / "out";
+
+  SECTION("the demo's folder belongs to the demo: another project needs --replace") {
+    const CliRun r = run_cli({"run", project, "--out", demo.run.string(), "--quiet"});
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("holds the run of another project") && Contains("--replace"));
+    CHECK(fs::exists(demo.run / "inputs" / "project.toml"));
+    CHECK(run_cli({"run", project, "--out", demo.run.string(), "--quiet", "--replace"}).code == 0);
+    CHECK_FALSE(fs::exists(demo.run / "inputs"));
+  }
+  SECTION("the same project's earlier run is replaced without asking") {
+    REQUIRE(run_cli({"run", project, "--out", out.string(), "--quiet"}).code == 0);
+    fs::remove(out / "flow" / "flow.json");
+    CHECK(run_cli({"run", project, "--out", out.string(), "--quiet"}).code == 0);
+    CHECK(fs::exists(out / "flow" / "flow.json"));
+  }
+  SECTION("a folder of the user's own files is never replaced") {
+    fs::create_directories(out);
+    std::ofstream(out / "notes.txt") << "field notes\n";
+    for (const bool replace : {false, true}) {
+      std::vector<std::string> args = {"run", project, "--out", out.string(), "--quiet"};
+      if (replace) args.push_back("--replace");
+      const CliRun r = run_cli(args);
+      CHECK(r.code == 1);
+      CHECK_THAT(r.err, Contains("not the output of a levelhead run") && Contains("notes.txt"));
+      CHECK(read(out / "notes.txt") == "field notes\n");
+    }
+  }
+  SECTION("a folder holding the run's inputs is refused") {
+    const CliRun r = run_cli({"run", project, "--out", demo.inputs.string(), "--quiet"});
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("holds the input"));
+    CHECK(fs::exists(demo.inputs / "project.toml"));
+  }
+  SECTION("'.' is refused: a run needs a folder of its own") {
+    const CliRun r = run_cli({"run", project, "--out", ".", "--quiet"});
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("cannot be a run's output folder"));
+  }
+}
+
+TEST_CASE("a second run into a folder being written is refused", "[safety][project]") {
+  DemoFolder demo;
+  const fs::path out = demo.tmp.path() / "out";
+  // Another process's lock, as a run holds it (flock on the lock file beside the folder).
+  const fs::path lock = demo.tmp.path() / ".out.lock";
+  const int fd = ::open(lock.c_str(), O_RDWR | O_CREAT, 0644);
+  REQUIRE(fd >= 0);
+  REQUIRE(::write(fd, "4242", 4) == 4);
+  const pid_t child = ::fork();
+  if (child == 0) {
+    // flock is held per open file: the child takes it and waits to be killed.
+    ::flock(fd, LOCK_EX);
+    ::pause();
+    ::_exit(0);
+  }
+  // Wait until the child holds the lock.
+  const int probe = ::open(lock.c_str(), O_RDWR);
+  while (::flock(probe, LOCK_EX | LOCK_NB) == 0) {
+    ::flock(probe, LOCK_UN);
+    ::usleep(1000);
+  }
+  ::close(probe);
+  const CliRun r = run_cli({"run", demo.at("project.toml"), "--out", out.string(), "--quiet"});
+  ::kill(child, SIGKILL);
+  ::waitpid(child, nullptr, 0);
+  ::close(fd);
+  CHECK(r.code == 1);
+  CHECK_THAT(r.err, Contains("another levelhead run (process 4242) is writing"));
+  CHECK_FALSE(fs::exists(out));
+}
+
+TEST_CASE("a run killed midway is undone by the next run into the folder", "[safety][project]") {
+  DemoFolder demo;
+  const std::string project = demo.at("project.toml");
+  const fs::path out = demo.tmp.path() / "out";
+  const fs::path set_aside = demo.tmp.path() / ".out.previous";
+  REQUIRE(run_cli({"run", project, "--out", out.string(), "--quiet"}).code == 0);
+  const auto complete = snapshot(out);
+  // What a kill leaves: the complete run set aside, a partial one in its place.
+  const auto kill_midway = [&] {
+    fs::rename(out, set_aside);
+    fs::create_directories(out / "adjust");
+    std::ofstream(out / ".levelhead-run") << R"({"project":"x","state":"running"})" << '\n';
+    std::ofstream(out / "adjust" / "heights.csv") << "id,height,sigma\n";
+  };
+  SECTION("a run that then fails leaves the complete run as it was") {
+    kill_midway();
+    std::ofstream(demo.inputs / "levels.csv", std::ios::app) << "MW-01,2026-10-12T09:00,deep,\n";
+    const CliRun r = run_cli({"run", project, "--out", out.string(), "--quiet"});
+    CHECK(r.code == 1);
+    CHECK(snapshot(out) == complete);
+    CHECK_FALSE(fs::exists(set_aside));
+  }
+  SECTION("a run that completes replaces it") {
+    kill_midway();
+    CHECK(run_cli({"run", project, "--out", out.string(), "--quiet"}).code == 0);
+    CHECK_FALSE(fs::exists(set_aside));
+    CHECK(read(out / "adjust" / "heights.csv") == complete.at("adjust/heights.csv"));
+  }
 }

@@ -165,20 +165,43 @@ TEST_CASE("project files: unknown keys suggest the nearest, bad values name the 
   }
 }
 
-TEST_CASE("a failing stage stops the chain and keeps the finished stages", "[project]") {
+TEST_CASE("a failing stage stops the chain and keeps nothing of that run", "[project][safety]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());
+  const fs::path out = tmp.path() / "out";
   std::ofstream(project.parent_path() / "levels.csv", std::ios::app)
       << "MW-01,2026-10-12T09:00,deep,\n";
-  const fs::path out = tmp.path() / "out";
-  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
-  CHECK(run.code == 1);
-  CHECK(run.out.empty());
-  CHECK_THAT(run.err, Contains("stopped at stage 'heads'"));
-  CHECK_THAT(run.err, Contains("levels.csv"));
-  CHECK(fs::exists(out / "adjust" / "heights.csv"));
-  CHECK_FALSE(fs::exists(out / "heads" / "heads.csv"));
-  CHECK_FALSE(fs::exists(out / "report.html"));
+  SECTION("into a new folder: the folder is not created") {
+    const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+    CHECK(run.code == 1);
+    CHECK(run.out.empty());
+    CHECK_THAT(run.err, Contains("stopped at stage 'heads'"));
+    CHECK_THAT(run.err, Contains("levels.csv"));
+    CHECK_THAT(run.err, Contains("was not created"));
+    CHECK_FALSE(fs::exists(out));
+  }
+  SECTION("over a complete run: that run stays as it was, with no file of the failed one") {
+    const std::string good_levels = read(tmp.path() / "seed" / "inputs" / "levels.csv");
+    const std::string bad_levels = read(project.parent_path() / "levels.csv");
+    std::ofstream(project.parent_path() / "levels.csv", std::ios::binary) << good_levels;
+    REQUIRE(cli({"run", project.string(), "--out", out.string(), "--quiet"}).code == 0);
+    std::map<std::string, std::string> before;
+    for (const auto& e : fs::recursive_directory_iterator(out))
+      if (e.is_regular_file()) before[e.path().string()] = read(e.path());
+    std::ofstream(project.parent_path() / "levels.csv", std::ios::binary) << bad_levels;
+    const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Contains("holds the previous complete run"));
+    std::map<std::string, std::string> after;
+    for (const auto& e : fs::recursive_directory_iterator(out))
+      if (e.is_regular_file()) after[e.path().string()] = read(e.path());
+    CHECK(after == before);
+    // Nothing beside the folder either: no lock, no set-aside copy.
+    std::vector<std::string> beside;
+    for (const auto& e : fs::directory_iterator(tmp.path())) beside.push_back(e.path().filename());
+    std::sort(beside.begin(), beside.end());
+    CHECK(beside == std::vector<std::string>{"out", "project", "seed"});
+  }
 }
 
 TEST_CASE("run --strict finishes the chain and exits 3 naming the stages that failed QA",

@@ -3,8 +3,13 @@
 // returns the function that runs it once the command line is parsed.
 
 #include <CLI/CLI.hpp>
+#include <filesystem>
 #include <functional>
 #include <ostream>
+
+namespace levelhead {
+class RunFolder;
+}
 
 namespace levelhead::cli {
 
@@ -23,5 +28,18 @@ CommandRunner add_flow_command(CLI::App& app);
 CommandRunner add_epochs_command(CLI::App& app);
 CommandRunner add_run_command(CLI::App& app);
 CommandRunner add_diff_command(CLI::App& app);
+
+struct ChainOptions {
+  bool quiet = false, verbose = false, strict = false;
+  bool replace = false;  // replace an output folder holding another project's run
+};
+
+// Runs the chain of `project_file` into `folder` (levelhead run). Every
+// setting is checked first; then the run folder is prepared, unless
+// `open_folder` is one prepared already (the demo writes its inputs into it),
+// and committed when the chain completes. Returns the exit status.
+int run_chain(const std::filesystem::path& project_file, const std::filesystem::path& folder,
+              const ChainOptions& options, std::ostream& out, std::ostream& err,
+              RunFolder* open_folder);
 
 }  // namespace levelhead::cli

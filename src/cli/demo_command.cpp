@@ -1,6 +1,6 @@
 // `levelhead demo`: writes the built-in demo site's tables and its project
-// file into DIR/inputs, then runs the chain on it exactly as
-// `levelhead run DIR/inputs/project.toml --out DIR` would.
+// file into DIR/inputs, then runs the chain on it as `levelhead run` would
+// (a run folder of its own: a rerun replaces the previous demo as a whole).
 
 #include <fmt/format.h>
 
@@ -10,6 +10,7 @@
 #include "cli/commands.hpp"
 #include "cli/demo_data.hpp"
 #include "levelhead/output_files.hpp"
+#include "levelhead/run_folder.hpp"
 
 namespace levelhead::cli {
 
@@ -21,6 +22,8 @@ CommandRunner add_demo_command(CLI::App& app) {
   return [out_folder](std::ostream& out, std::ostream& err) {
     const std::filesystem::path folder(*out_folder);
     const std::filesystem::path inputs = folder / "inputs";
+    // The demo's inputs live in its run folder, so they go and come with it.
+    RunFolder run_folder(folder, RunFolderOptions{"levelhead demo", {}, false});
     {
       OutputSet files(inputs);
       for (const auto& file : demo::embedded_files()) {
@@ -29,8 +32,7 @@ CommandRunner add_demo_command(CLI::App& app) {
       files.commit();
     }
     out << fmt::format("Demo inputs written to {}\n", inputs.string());
-    return run({"levelhead", "run", (inputs / "project.toml").string(), "--out", folder.string()},
-               out, err);
+    return run_chain(inputs / "project.toml", folder, ChainOptions{}, out, err, &run_folder);
   };
 }
 

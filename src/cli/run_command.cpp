@@ -6,6 +6,7 @@
 #include <chrono>
 #include <ctime>
 #include <memory>
+#include <optional>
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
@@ -14,6 +15,7 @@
 #include "levelhead/heads.hpp"
 #include "levelhead/references_file.hpp"
 #include "levelhead/report.hpp"
+#include "levelhead/run_folder.hpp"
 
 namespace levelhead::cli {
 
@@ -21,7 +23,7 @@ namespace {
 
 struct RunArguments {
   std::string project, out;
-  bool quiet = false, verbose = false, strict = false;
+  ChainOptions chain;
 };
 
 bool has_strict_option(const std::string& command) {
@@ -71,8 +73,28 @@ std::string local_run_time() {
   return text;
 }
 
-int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
-  const Project project = load_project(a.project);
+// What makes one project's run: the project file as an absolute path.
+std::string project_identity(const std::filesystem::path& file) {
+  std::error_code ec;
+  const std::filesystem::path absolute = std::filesystem::weakly_canonical(
+      std::filesystem::absolute(file), ec);
+  return (ec ? std::filesystem::absolute(file) : absolute).string();
+}
+
+std::vector<std::filesystem::path> project_files(const Project& p) {
+  std::vector<std::filesystem::path> files = {p.file};
+  for (const ProjectInput& i : p.inputs) files.push_back(i.path);
+  if (!p.references.empty()) files.push_back(p.references);
+  files.insert(files.end(), p.grid_paths.begin(), p.grid_paths.end());
+  return files;
+}
+
+}  // namespace
+
+int run_chain(const std::filesystem::path& project_file, const std::filesystem::path& folder,
+              const ChainOptions& a, std::ostream& out, std::ostream& err,
+              RunFolder* open_folder) {
+  const Project project = load_project(project_file);
   if (!project.target.empty()) {
     const ReferenceSet references =
         project.references.empty() ? ReferenceSet{} : ReferenceSet::load(project.references);
@@ -82,7 +104,6 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
       throw ReferenceError(fmt::format("{} [site] target: {}", project.file.string(), e.what()));
     }
   }
-  const std::filesystem::path folder(a.out);
   std::vector<Stage> stages = plan_stages(project, folder);
   if (a.strict) {
     for (Stage& stage : stages) {
@@ -96,6 +117,14 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
     if (const auto problem = usage_error(args)) {
       throw OptionError(fmt::format("{} [{}]: {}", project.file.string(), stage.section, *problem));
     }
+  }
+  // Only now is the output folder touched: a previous run there is moved
+  // aside, and comes back unless this run completes.
+  std::optional<RunFolder> own_folder;
+  if (!open_folder) {
+    own_folder.emplace(folder, RunFolderOptions{project_identity(project.file),
+                                                project_files(project), a.replace});
+    open_folder = &*own_folder;
   }
   const bool progress = !a.quiet && isatty(STDERR_FILENO);
   std::ostream quiet_sink(nullptr);
@@ -115,9 +144,11 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
       failed_checks.push_back(stage.name);
     } else if (code != exit_ok) {
       err << fmt::format(
-          "levelhead run: stopped at stage '{}' (reading {}). The stages before it finished and "
-          "their outputs in {} are complete; this stage left no output.\n",
-          stage.name, fmt::join(stage.inputs, ", "), folder.string());
+          "levelhead run: stopped at stage '{}' (reading {}). Nothing of this run was kept: {}\n",
+          stage.name, fmt::join(stage.inputs, ", "),
+          open_folder->had_previous()
+              ? fmt::format("{} holds the previous complete run, as before", folder.string())
+              : fmt::format("{} was not created", folder.string()));
       return code;
     }
   }
@@ -125,6 +156,7 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
   ReportContext context = report_context(project, stages);
   context.run_time = local_run_time();
   write_report(context, folder);
+  open_folder->commit();
   if (!a.quiet) {
     out << fmt::format("\nReport: {} (also report.md); audit record: run.json\n",
                        (folder / "report.html").string());
@@ -139,6 +171,8 @@ int run_project(const RunArguments& a, std::ostream& out, std::ostream& err) {
   return exit_ok;
 }
 
+namespace {
+
 }  // namespace
 
 CommandRunner add_run_command(CLI::App& app) {
@@ -147,12 +181,16 @@ CommandRunner add_run_command(CLI::App& app) {
   c->add_option("PROJECT", a->project, "Project file (TOML; see docs/project-file.md)")->required();
   c->add_option("--out", a->out, "Output folder: one folder per stage, the report and run.json")
       ->required();
-  c->add_flag("--quiet", a->quiet, "Print nothing but errors");
-  c->add_flag("--verbose", a->verbose, "Also print each stage's command line");
-  c->add_flag("--strict", a->strict,
+  c->add_flag("--quiet", a->chain.quiet, "Print nothing but errors");
+  c->add_flag("--verbose", a->chain.verbose, "Also print each stage's command line");
+  c->add_flag("--replace", a->chain.replace,
+              "Replace an output folder that holds the run of another project");
+  c->add_flag("--strict", a->chain.strict,
               "Pass --strict to every stage that has it; run the whole chain, then exit with "
               "status 3 when any stage's QA check failed");
-  return [a](std::ostream& out, std::ostream& err) { return run_project(*a, out, err); };
+  return [a](std::ostream& out, std::ostream& err) {
+    return run_chain(a->project, a->out, a->chain, out, err, nullptr);
+  };
 }
 
 }  // namespace levelhead::cli
