@@ -18,6 +18,7 @@ packages=(
   libtomlplusplus-dev
   nlohmann-json3-dev
   libfmt-dev
+  libutfcpp-dev
   catch2
   python3 python3-numpy
 )

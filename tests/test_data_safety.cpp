@@ -11,6 +11,7 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <nlohmann/json.hpp>
 #include <sstream>
 
 #include "cli/app.hpp"
@@ -242,5 +243,121 @@ TEST_CASE("a run killed midway is undone by the next run into the folder", "[saf
     CHECK(run_cli({"run", project, "--out", out.string(), "--quiet"}).code == 0);
     CHECK_FALSE(fs::exists(set_aside));
     CHECK(read(out / "adjust" / "heights.csv") == complete.at("adjust/heights.csv"));
+  }
+}
+
+TEST_CASE("diff says what it could not compare instead of 'the runs agree'", "[safety][diff]") {
+  DemoFolder demo;
+  const fs::path before = demo.tmp.path() / "before", after = demo.tmp.path() / "after";
+  REQUIRE(run_cli({"run", demo.at("project.toml"), "--out", before.string(), "--quiet"}).code == 0);
+  fs::copy(before, after, fs::copy_options::recursive);
+  REQUIRE_THAT(run_cli({"diff", before.string(), after.string()}).out, Contains("The runs agree"));
+  // The same edit of a file, with and without the run's checksums in run.json.
+  const auto drop_row = [&](const fs::path& file, const std::string& start) {
+    std::string text = read(file);
+    const auto at = text.find("\n" + start);
+    REQUIRE(at != std::string::npos);
+    text.erase(at + 1, text.find('\n', at + 1) - at);
+    std::ofstream(file, std::ios::binary) << text;
+  };
+  SECTION("a point dropped from heights.csv") {
+    drop_row(after / "adjust" / "heights.csv", "MW-05,");
+    const CliRun r = run_cli({"diff", before.string(), after.string()});
+    CHECK_THAT(r.out, !Contains("The runs agree"));
+    CHECK_THAT(r.out, Contains("NEW adjust/heights.csv: changed since the run"));
+  }
+  SECTION("a point missing from a run without output checksums") {
+    for (const fs::path& run : {before, after}) {
+      auto record = nlohmann::json::parse(read(run / "run.json"));
+      record.erase("outputs");
+      std::ofstream(run / "run.json") << record.dump(2);
+    }
+    drop_row(after / "adjust" / "heights.csv", "MW-05,");
+    const CliRun r = run_cli({"diff", before.string(), after.string()});
+    CHECK_THAT(r.out, Contains("Adjusted heights only in OLD: MW-05"));
+    CHECK_THAT(r.out, Contains("no output checksums"));
+  }
+  SECTION("a file cut short") {
+    fs::resize_file(after / "heads" / "heads.csv", fs::file_size(after / "heads" / "heads.csv") / 2);
+    const CliRun r = run_cli({"diff", before.string(), after.string()});
+    CHECK_THAT(r.out, Contains("NEW heads/heads.csv: changed since the run"));
+  }
+  SECTION("a file removed") {
+    fs::remove(before / "heads" / "measuring_points.csv");
+    const CliRun r = run_cli({"diff", before.string(), after.string()});
+    CHECK_THAT(r.out, Contains("OLD heads/measuring_points.csv: missing"));
+  }
+  SECTION("a run.json without a part it needs is named, not a crash") {
+    auto record = nlohmann::json::parse(read(after / "run.json"));
+    record.erase("settings_changed");
+    std::ofstream(after / "run.json") << record.dump(2);
+    const CliRun r = run_cli({"diff", before.string(), after.string()});
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("'settings_changed' is missing"));
+    CHECK_THAT(r.err, !Contains("internal error"));
+  }
+}
+
+TEST_CASE("text that is not UTF-8 is refused at the edge, naming its place", "[safety][table]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path sections = fs::path(LEVELHEAD_FIXTURES_DIR) / "bad" / "sections.csv";
+  const auto adjust = [&](const fs::path& points) {
+    return run_cli({"adjust", "--points", points.string(), "--sections", sections.string(), "--out",
+                    (tmp.path() / "out").string()});
+  };
+  SECTION("Latin-1 in a point id") {
+    const fs::path points = tmp.path() / "latin1.csv";
+    std::ofstream(points, std::ios::binary) << "id,height,sigma\nA,10.0,\nSt\xE9phane,11.0,0.01\n";
+    const CliRun r = adjust(points);
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("line 3") && Contains("0xE9") && Contains("UTF-8"));
+    CHECK_FALSE(fs::exists(tmp.path() / "out" / "summary.json"));
+  }
+  SECTION("UTF-16 is named as such") {
+    const fs::path points = tmp.path() / "utf16.csv";
+    std::ofstream(points, std::ios::binary) << std::string("\xFF\xFEi\0d\0\n\0", 8);
+    const CliRun r = adjust(points);
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("UTF-16"));
+  }
+  SECTION("a Latin-1 folder name reaches the JSON summary without a crash") {
+    const fs::path folder = tmp.path() / "d\xE9p\xF4t";
+    fs::create_directories(folder);
+    fs::copy_file(fs::path(LEVELHEAD_FIXTURES_DIR) / "bad" / "points.csv", folder / "points.csv");
+    const CliRun r = adjust(folder / "points.csv");
+    INFO(r.err);
+    CHECK(r.code == 0);
+    CHECK(nlohmann::json::parse(read(tmp.path() / "out" / "summary.json")).is_object());
+  }
+}
+
+TEST_CASE("malformed numbers and absurd tables are refused", "[safety][table]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path sections = fs::path(LEVELHEAD_FIXTURES_DIR) / "bad" / "sections.csv";
+  const fs::path points = tmp.path() / "points.csv";
+  const auto adjust = [&] {
+    return run_cli({"adjust", "--points", points.string(), "--sections", sections.string(), "--out",
+                    (tmp.path() / "out").string()});
+  };
+  SECTION("a plus before a minus") {
+    std::ofstream(points) << "id,height,sigma\nA,+-0.4499,\n";
+    const CliRun r = adjust();
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("'+-0.4499'") && Contains("expected a number"));
+  }
+  SECTION("a header of 100,000 columns") {
+    std::string header = "id";
+    for (int i = 0; i < 100000; ++i) header += ",c" + std::to_string(i);
+    std::ofstream(points) << header << "\nA,1\n";
+    const CliRun r = adjust();
+    CHECK(r.code == 1);
+    CHECK_THAT(r.err, Contains("100001 columns"));
+  }
+  SECTION("a 10 MB value is not echoed whole") {
+    std::ofstream(points) << "id,height,sigma\nA," << std::string(10'000'000, 'x') << ",\n";
+    const CliRun r = adjust();
+    CHECK(r.code == 1);
+    CHECK(r.err.size() < 2000);
+    CHECK_THAT(r.err, Contains("(10000000 bytes in all)") && Contains("column 'height'"));
   }
 }

@@ -8,8 +8,12 @@
 //      that moved, and heads that moved, added or dropped, per well, each
 //      with its likely cause: new data (the readings or the surveys
 //      changed), new settings, a new grid, or new software.
-// Errors: InputError when a folder is not a run (no run.json) or a table
-//      cannot be read.
+//      What cannot be compared is said too: heights and measuring points
+//      found in one run only, and files that are missing, unreadable or no
+//      longer the ones the run wrote (their SHA-256 differs from run.json's
+//      record, e.g. a file cut short or edited since).
+// Errors: InputError when a folder is not a run (no run.json), or its
+//      run.json lacks a part or holds the wrong kind of value (named by key).
 
 #include <filesystem>
 #include <string>
@@ -28,6 +32,12 @@ struct ValueChange {
   double before = 0.0, after = 0.0;  // m
 };
 
+// Keys (point ids, or well and survey date) found in one run only.
+struct OneSided {
+  std::vector<std::string> only_before, only_after;
+  bool empty() const { return only_before.empty() && only_after.empty(); }
+};
+
 struct WellHeadChanges {
   std::string well;
   std::size_t moved = 0, added = 0, dropped = 0;
@@ -40,9 +50,15 @@ struct RunDifference {
   std::vector<ValueChange> heights;           // adjust/heights.csv
   std::vector<ValueChange> measuring_points;  // heads/measuring_points.csv (well valid_from)
   std::vector<WellHeadChanges> wells;         // heads/heads.csv, wells with a change
+  OneSided heights_one_sided, measuring_points_one_sided;
+  // Files of either run that are missing, unreadable or changed since the
+  // run ("NEW heads/heads.csv: ..."); their values are not compared.
+  std::vector<std::string> file_problems;
   std::size_t heads_compared = 0;
   bool identical() const {
-    return configuration.empty() && heights.empty() && measuring_points.empty() && wells.empty();
+    return configuration.empty() && heights.empty() && measuring_points.empty() &&
+           wells.empty() && heights_one_sided.empty() && measuring_points_one_sided.empty() &&
+           file_problems.empty();
   }
 };
 

@@ -1,4 +1,5 @@
 #include "levelhead/adjustment_report.hpp"
+#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -165,7 +166,7 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   summary["solver"] = {{"factor_nonzeros", result.factor_nonzeros},
                        {"supernodal", result.supernodal}};
   summary["units"] = "m";
-  out.open("summary.json") << summary.dump(2) << '\n';
+  out.open("summary.json") << util::json_text(summary) << '\n';
   out.commit();
 }
 

@@ -8,6 +8,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "levelhead/errors.hpp"
+#include "util/json_text.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/run_diff.hpp"
 
@@ -34,6 +35,12 @@ nlohmann::json as_json(const RunDifference& d) {
     for (const ValueChange& v : *list)
       out[name].push_back({{"key", v.key}, {"before", v.before}, {"after", v.after}});
   }
+  for (const auto& [name, sides] : {std::pair{"heights_one_sided", &d.heights_one_sided},
+                                    std::pair{"measuring_points_one_sided",
+                                              &d.measuring_points_one_sided}}) {
+    out[name] = {{"only_old", sides->only_before}, {"only_new", sides->only_after}};
+  }
+  out["file_problems"] = d.file_problems;
   out["heads_compared"] = d.heads_compared;
   out["wells"] = nlohmann::json::array();
   for (const WellHeadChanges& w : d.wells) {
@@ -64,7 +71,7 @@ CommandRunner add_diff_command(CLI::App& app) {
     if (!a->json.empty()) {
       const std::filesystem::path path(a->json);
       OutputSet files(path.has_parent_path() ? path.parent_path() : std::filesystem::path("."));
-      files.open(path.filename().string()) << as_json(d).dump(2) << '\n';
+      files.open(path.filename().string()) << util::json_text(as_json(d)) << '\n';
       files.commit();
     }
     return static_cast<int>(exit_ok);

@@ -10,6 +10,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "levelhead/errors.hpp"
+#include "util/json_text.hpp"
 #include "levelhead/flow.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/table.hpp"
@@ -125,7 +126,7 @@ CommandRunner add_flow_command(CLI::App& app) {
                   {"distance_m",
                    options.distance ? nlohmann::json(*options.distance) : nlohmann::json(nullptr)},
                   {"travel_time_s", range_json(f.travel_time)}};
-    files.open("flow.json") << j.dump(2) << '\n';
+    files.open("flow.json") << util::json_text(j) << '\n';
     files.commit();
     if (!a->quiet) {
       out << fmt::format(

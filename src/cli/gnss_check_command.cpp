@@ -13,6 +13,7 @@
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
 #include "levelhead/errors.hpp"
+#include "util/json_text.hpp"
 #include "levelhead/gnss_check.hpp"
 #include "levelhead/height_converter.hpp"
 #include "levelhead/output_files.hpp"
@@ -137,7 +138,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     summary["verdicts"] = counts;
     summary["common_offset"] =
         result.common_offset ? nlohmann::json(*result.common_offset) : nlohmann::json(nullptr);
-    files.open("summary.json") << summary.dump(2) << '\n';
+    files.open("summary.json") << util::json_text(summary) << '\n';
     files.commit();
     if (!a->quiet) {
       out << fmt::format("{} mark(s) with levelled and GNSS heights\n", marks.size());

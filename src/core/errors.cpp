@@ -2,6 +2,8 @@
 
 #include <fmt/format.h>
 
+#include "util/encoding.hpp"
+
 namespace levelhead {
 
 std::string describe(const CellLocation& where) {
@@ -12,7 +14,8 @@ std::string describe(const CellLocation& where) {
 }
 
 InputError::InputError(const CellLocation& where, const std::string& value, const std::string& what)
-    : Error(fmt::format("{}: value '{}': {}", describe(where), value, what)), where_(where) {}
+    : Error(fmt::format("{}: value '{}': {}", describe(where), util::shortened(value), what)),
+      where_(where) {}
 
 InputError::InputError(const std::string& file, const std::string& what)
     : Error(fmt::format("{}: {}", file, what)), where_{file, 0, {}} {}

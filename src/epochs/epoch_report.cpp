@@ -1,4 +1,5 @@
 #include "levelhead/epoch_report.hpp"
+#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -165,7 +166,7 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
       std::count_if(a.displacements.begin(), a.displacements.end(),
                     [](const Displacement& d) { return d.significant; });
   summary["warnings"] = a.warnings;
-  out.open("summary.json") << summary.dump(2) << '\n';
+  out.open("summary.json") << util::json_text(summary) << '\n';
   out.commit();
 }
 

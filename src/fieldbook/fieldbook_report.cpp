@@ -1,4 +1,5 @@
 #include "levelhead/fieldbook_report.hpp"
+#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 #include <nlohmann/json.hpp>
@@ -109,7 +110,7 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
                         {"row", c.row}});
   }
   summary["closures"] = closures;
-  out.open("summary.json") << summary.dump(2) << '\n';
+  out.open("summary.json") << util::json_text(summary) << '\n';
   out.commit();
 }
 

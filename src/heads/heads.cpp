@@ -1,4 +1,5 @@
 #include "levelhead/heads.hpp"
+#include "util/json_text.hpp"
 
 #include <cpl_conv.h>
 #include <fmt/format.h>
@@ -903,7 +904,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                   {"history_tolerance", options.history_tolerance},
                   {"event", options.event ? nlohmann::json(format_utc(*options.event))
                                           : nlohmann::json(nullptr)}};
-  out.open("summary.json") << s.dump(2) << '\n';
+  out.open("summary.json") << util::json_text(s) << '\n';
   out.commit();
   return summary;
 }

@@ -1,4 +1,5 @@
 #include "levelhead/transducer.hpp"
+#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -596,7 +597,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     list.push_back(std::move(j));
   }
   json["sensors"] = std::move(list);
-  out.open("summary.json") << json.dump(2) << '\n';
+  out.open("summary.json") << util::json_text(json) << '\n';
   out.commit();
   return summary;
 }

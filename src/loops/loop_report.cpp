@@ -1,4 +1,5 @@
 #include "levelhead/loop_report.hpp"
+#include "util/json_text.hpp"
 
 #include <cmath>
 #include <fmt/format.h>
@@ -97,7 +98,7 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
   nlohmann::json single = nlohmann::json::array();
   for (std::size_t s : result.single_observations) single.push_back(section_json(net, s));
   summary["single_observations"] = single;
-  out.open("summary.json") << summary.dump(2) << '\n';
+  out.open("summary.json") << util::json_text(summary) << '\n';
   out.commit();
 }
 

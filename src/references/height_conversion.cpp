@@ -1,4 +1,5 @@
 #include "levelhead/height_conversion.hpp"
+#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -183,7 +184,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   if (summary_path.parent_path() != output.parent_path()) {
     throw std::logic_error("summary must sit beside the output table");
   }
-  out.open(summary_path.filename().string()) << summary.dump(2) << '\n';
+  out.open(summary_path.filename().string()) << util::json_text(summary) << '\n';
   out.commit();
   return counts;
 }

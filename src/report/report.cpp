@@ -1,4 +1,5 @@
 #include "levelhead/report.hpp"
+#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 #include <gdal.h>
@@ -948,7 +949,29 @@ const std::vector<std::string>& cautions() {
   return text;
 }
 
-nlohmann::json run_record(const ReportContext& c, const std::string& config_hash) {
+// Every file the stages wrote, with its checksum, so that `diff` (or anyone)
+// can tell a file changed or cut short after the run from the run's own.
+nlohmann::json stage_outputs(const ReportContext& c, const fs::path& folder) {
+  std::vector<std::string> names;
+  for (const std::string& stage : c.stages) {
+    if (!fs::is_directory(folder / stage)) continue;
+    for (const auto& entry : fs::directory_iterator(folder / stage)) {
+      if (entry.is_regular_file() && entry.path().filename().string().front() != '.')
+        names.push_back((fs::path(stage) / entry.path().filename()).generic_string());
+    }
+  }
+  std::sort(names.begin(), names.end());
+  nlohmann::json outputs = nlohmann::json::array();
+  for (const std::string& name : names) {
+    outputs.push_back({{"path", name},
+                       {"sha256", file_sha256(folder / name)},
+                       {"bytes", fs::file_size(folder / name)}});
+  }
+  return outputs;
+}
+
+nlohmann::json run_record(const ReportContext& c, const std::string& config_hash,
+                          const fs::path& folder) {
   nlohmann::json record;
   record["levelhead_version"] = version_string();
   record["proj_version"] = proj_version_text();
@@ -979,6 +1002,7 @@ nlohmann::json run_record(const ReportContext& c, const std::string& config_hash
   record["settings_changed"] = std::move(settings);
   record["configuration_sha256"] = config_hash;
   record["stages"] = c.stages;
+  record["outputs"] = stage_outputs(c, folder);
   return record;
 }
 
@@ -1037,7 +1061,7 @@ void write_report(const ReportContext& c, const fs::path& folder) {
       << report::escape_xml(c.title) << "</title>\n<style>\n"
       << css << "</style>\n</head>\n<body>\n"
       << head.html() << body.html() << "</body>\n</html>\n";
-  out.open("run.json") << run_record(c, hash).dump(2) << '\n';
+  out.open("run.json") << util::json_text(run_record(c, hash, folder)) << '\n';
   if (contours && !c.crs.empty())
     write_contours_geopackage(*contours, c.crs, c.target, out.reserve("contours.gpkg"));
   out.commit();

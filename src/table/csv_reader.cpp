@@ -17,11 +17,16 @@
 
 #include "levelhead/input_files.hpp"
 #include "table/readers.hpp"
+#include "util/encoding.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
 
 namespace {
+
+// The widest sheet of common spreadsheet programs (16384 columns, XFD): no
+// survey table comes near it, and a header far wider is a wrong file.
+constexpr std::size_t max_columns = 16384;
 
 char detect_separator(std::string_view header_line) {
   std::size_t commas = 0, semicolons = 0, tabs = 0;
@@ -142,6 +147,7 @@ void parse_delimited_batches(std::string_view text, const std::string& source,
                              const TableOptions& options, std::size_t batch_rows,
                              const std::function<void(Table&)>& consume) {
   if (text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);  // UTF-8 byte order mark
+  util::require_utf8_file(text, source);
   const std::size_t first_break = text.find_first_of("\r\n");
   const char separator = detect_separator(text.substr(0, first_break));
 
@@ -158,6 +164,13 @@ void parse_delimited_batches(std::string_view text, const std::string& source,
                          fmt::format("header cell {} is empty; every column needs a name", i + 1));
       }
       header.emplace_back(name);
+    }
+    if (header.size() > max_columns) {
+      throw InputError(CellLocation{source, line, {}}, util::shortened(header.back(), 40),
+                       fmt::format("the header names {} columns, more than any table levelhead "
+                                   "reads ({} at most, the widest spreadsheet); is this the right "
+                                   "file, and is its separator one of , ; or tab?",
+                                   header.size(), max_columns));
     }
     break;
   }

@@ -13,6 +13,7 @@
 #include <mutex>
 
 #include "table/readers.hpp"
+#include "util/encoding.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::detail {
@@ -149,6 +150,7 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
                       ? std::string(OGR_F_GetFieldAsString(feature.get(), i))
                       : std::string();
       iso_from_gdal_date(values[i]);
+      util::require_utf8_cell(values[i], name, index + 2, columns[static_cast<std::size_t>(i)]);
     }
     if (geometry_xy) {
       OGRGeometryH geometry = OGR_F_GetGeometryRef(feature.get());

@@ -88,7 +88,8 @@ std::optional<double> Table::number(std::size_t row, std::size_t column) const {
   double value = 0.0;
   const char* first = text.data();
   const char* last = first + text.size();
-  if (*first == '+') ++first;  // from_chars rejects a leading plus
+  // from_chars rejects a leading plus; one plus, then a digit or a point, is allowed.
+  if (*first == '+' && last - first > 1 && first[1] != '-' && first[1] != '+') ++first;
   const auto [end, ec] = std::from_chars(first, last, value);
   if (ec != std::errc() || end != last) {
     const bool decimal_comma = text.find(',') != std::string_view::npos;
@@ -123,7 +124,9 @@ std::optional<long long> Table::count(std::size_t row, std::size_t column) const
 
 void Table::reserve(std::size_t rows, std::size_t text_bytes) {
   source_rows_.reserve(rows);
-  cells_.reserve(rows * column_names_.size());
+  // A guess of the row count times a wide header could ask for far more
+  // cells than the text can hold: never reserve beyond one cell per byte.
+  cells_.reserve(std::min(rows * column_names_.size(), text_bytes + rows));
   text_.reserve(text_bytes);
 }
 
