@@ -21,3 +21,13 @@ TEST_CASE("ISO 8601 dates and times, with and without zones", "[time]") {
     CHECK_FALSE(parse_iso8601(bad));
   }
 }
+
+TEST_CASE("signs inside a date or time are refused, not read as numbers", "[time][safety]") {
+  // Each was once read as a valid time (a negative hour, second or zone part).
+  for (const char* bad : {"2025-01-10T-1:30", "2025-01-10T08:00:-5", "2025-01-10T08:00+-1:-1",
+                          "2025-01-10T08:-1", "-025-01-10", "2025--1-10", "2025-01-+1",
+                          "2026-13-45", "45678"}) {
+    INFO(bad);
+    CHECK_FALSE(parse_iso8601(bad));
+  }
+}

@@ -70,6 +70,12 @@ class Table {
   std::optional<double> length(std::size_t row, std::size_t column) const;
   // A whole number >= 0.
   std::optional<long long> count(std::size_t row, std::size_t column) const;
+  // As length(), refusing a value beyond +-limit metres (levelhead/bounds.hpp);
+  // `what` names the quantity in the message ("a height difference").
+  std::optional<double> length_within(std::size_t row, std::size_t column, double limit,
+                                      const char* what) const;
+  // An ISO 8601 date or date-time (levelhead/time.hpp), as written.
+  std::optional<std::string> date(std::size_t row, std::size_t column) const;
 
   // Building (used by the readers).
   void reserve(std::size_t rows, std::size_t text_bytes);

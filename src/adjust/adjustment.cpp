@@ -378,6 +378,17 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
 
   mark_checked_points(net, active, control, result);
 
+  // Inputs are bounded at the table edge, so a non-finite value here is a
+  // numerical breakdown: never written, always an error.
+  if (!std::isfinite(vtpv) ||
+      std::any_of(result.points.begin(), result.points.end(),
+                  [](const AdjustedPoint& p) {
+                    return !std::isfinite(p.height) || !std::isfinite(p.sigma_apriori);
+                  })) {
+    throw ComputationError(
+        "the adjustment gave non-finite heights or sigmas (a numerical breakdown: check for "
+        "sections with extreme dh, length or sigma, and for very unequal weights)");
+  }
   result.vtpv = vtpv;
   result.dof = observations > static_cast<std::size_t>(n) ? observations - n : 0;
   if (result.dof > 0) {

@@ -1,6 +1,5 @@
 #include "levelhead/time.hpp"
 
-#include <charconv>
 #include <chrono>
 #include <cmath>
 #include <fmt/format.h>
@@ -9,10 +8,16 @@ namespace levelhead {
 
 namespace {
 
+// Exactly `count` decimal digits at `at` (no sign: from_chars would take
+// "-1" as a two-character number, reading "T-1:30" as an hour of -1).
 bool digits(std::string_view text, std::size_t at, std::size_t count, int& value) {
   if (at + count > text.size()) return false;
-  const auto [end, ec] = std::from_chars(text.data() + at, text.data() + at + count, value);
-  return ec == std::errc() && end == text.data() + at + count;
+  value = 0;
+  for (std::size_t i = at; i < at + count; ++i) {
+    if (text[i] < '0' || text[i] > '9') return false;
+    value = value * 10 + (text[i] - '0');
+  }
+  return true;
 }
 
 }  // namespace

@@ -7,6 +7,7 @@
 #include <numbers>
 #include <set>
 
+#include "levelhead/bounds.hpp"
 #include "levelhead/errors.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
@@ -66,7 +67,8 @@ FieldBook read_field_book(const Table& table) {
     s.reading = *reading;
     if (reading2_col) s.reading2 = table.length(row, *reading2_col);
     if (distance_col) {
-      s.distance = table.length(row, *distance_col);
+      s.distance = table.length_within(row, *distance_col, bounds::max_sight_distance,
+                                       "a sight distance");
       if (s.distance && *s.distance < 0.0) {
         throw InputError(table.location(row, *distance_col),
                          std::string(table.cell(row, *distance_col)),
@@ -74,7 +76,7 @@ FieldBook read_field_book(const Table& table) {
       }
     }
     if (temperature_col) s.temperature = table.number(row, *temperature_col);
-    if (date_col) s.date = std::string(table.cell(row, *date_col));
+    if (date_col) s.date = table.date(row, *date_col).value_or("");
     if (point_col) s.point = std::string(table.cell(row, *point_col));
     if (remark_col) s.remark = std::string(table.cell(row, *remark_col));
     book.sights.push_back(std::move(s));

@@ -2,6 +2,8 @@
 
 #include <fmt/format.h>
 
+#include "levelhead/bounds.hpp"
+
 namespace levelhead {
 
 namespace {
@@ -42,8 +44,12 @@ PointTable read_points(const Table& table) {
     p.row = table.source_row(row);
     p.x = optional_cell<double>(x_col, [&](std::size_t c) { return table.number(row, c); });
     p.y = optional_cell<double>(y_col, [&](std::size_t c) { return table.number(row, c); });
-    p.height = optional_cell<double>(height_col, [&](std::size_t c) { return table.length(row, c); });
-    p.sigma = optional_cell<double>(sigma_col, [&](std::size_t c) { return table.length(row, c); });
+    p.height = optional_cell<double>(height_col, [&](std::size_t c) {
+      return table.length_within(row, c, bounds::max_abs_height, "a height");
+    });
+    p.sigma = optional_cell<double>(sigma_col, [&](std::size_t c) {
+      return table.length_within(row, c, bounds::max_sigma, "a sigma");
+    });
     if (p.sigma && *p.sigma < 0.0) {
       throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
                        "a standard deviation cannot be negative (empty or 0 holds the height fixed)");
@@ -78,18 +84,20 @@ SectionTable read_sections(const Table& table) {
     s.from = required_text(table, row, from_col, "every section needs a 'from' point id");
     s.to = required_text(table, row, to_col, "every section needs a 'to' point id");
     s.row = table.source_row(row);
-    const auto dh = table.length(row, dh_col);
+    const auto dh =
+        table.length_within(row, dh_col, bounds::max_abs_height_difference, "a height difference");
     if (!dh) throw InputError(table.location(row, dh_col), "", "every section needs its dh");
     s.dh = *dh;
     if (length_col) {
-      s.length = table.length(row, *length_col);
+      s.length = table.length_within(row, *length_col, bounds::max_section_length,
+                                     "a section length");
       if (s.length && *s.length <= 0.0) {
         throw InputError(table.location(row, *length_col), std::string(table.cell(row, *length_col)),
                          "a section length must be > 0 m");
       }
     }
     if (sigma_col) {
-      s.sigma = table.length(row, *sigma_col);
+      s.sigma = table.length_within(row, *sigma_col, bounds::max_sigma, "a sigma");
       if (s.sigma && *s.sigma <= 0.0) {
         throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
                          "a section sigma must be > 0 (leave it empty to weight by length or setups)");
@@ -108,9 +116,13 @@ SectionTable read_sections(const Table& table) {
       }
       s.runs = runs.value_or(1);
     }
-    s.date = optional_text(table, row, date_col);
+    if (date_col) s.date = table.date(row, *date_col).value_or("");
     s.run = optional_text(table, row, run_col);
     sections.push_back(std::move(s));
+  }
+  if (sections.empty()) {
+    throw InputError(table.source(), "the table holds no sections, only a header; a network "
+                                     "needs at least one observed height difference");
   }
   return out;
 }

@@ -7,6 +7,7 @@
 
 #include "table/readers.hpp"
 #include "levelhead/input_files.hpp"
+#include "levelhead/time.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -120,6 +121,29 @@ std::optional<long long> Table::count(std::size_t row, std::size_t column) const
     throw InputError(location(row, column), std::string(text), "expected a whole number >= 0");
   }
   return value;
+}
+
+std::optional<double> Table::length_within(std::size_t row, std::size_t column, double limit,
+                                           const char* what) const {
+  const auto value = length(row, column);
+  if (value && std::abs(*value) > limit) {
+    throw InputError(location(row, column), std::string(cell(row, column)),
+                     fmt::format("{} beyond {:g} m is not possible on Earth; check the value and "
+                                 "the table's unit",
+                                 what, limit));
+  }
+  return value;
+}
+
+std::optional<std::string> Table::date(std::size_t row, std::size_t column) const {
+  const std::string_view text = cell(row, column);
+  if (text.empty()) return std::nullopt;
+  if (!parse_iso8601(text)) {
+    throw InputError(location(row, column), std::string(text),
+                     "expected an ISO 8601 date such as 2026-10-06 (year-month-day; 06/10/2026 "
+                     "and spreadsheet day numbers are ambiguous)");
+  }
+  return std::string(text);
 }
 
 void Table::reserve(std::size_t rows, std::size_t text_bytes) {
