@@ -105,4 +105,11 @@ class ReferenceSet {
 // The TOML text of one offset reference (as `levelhead tie` writes it).
 std::string to_toml(const ReferenceDefinition& definition);
 
+// A reference name that a references file, a table's datum column and the
+// command line all carry unchanged: ASCII letters, digits, '-' and '_',
+// starting with a letter (no dots, spaces, quotes or slashes: a TOML key
+// with a dot is a nested table, and the name also names files). Throws
+// OptionError naming `option` and the first character not allowed.
+void require_reference_name(const std::string& name, const std::string& option);
+
 }  // namespace levelhead

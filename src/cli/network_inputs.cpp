@@ -37,7 +37,18 @@ void require_point_units(const PointTable& points, LengthUnit table_unit) {
     if (fresh) {
       try {
         it->second = height_unit_of(p.datum);
-      } catch (const ReferenceError&) {
+      } catch (const ReferenceError& e) {
+        // A plain name is a reference of a references file (used by later
+        // stages); a code, WKT or PROJJSON must be a CRS with heights.
+        const bool looks_like_crs = p.datum.find(':') != std::string::npos ||
+                                    p.datum.find('[') != std::string::npos ||
+                                    p.datum.front() == '{';
+        if (looks_like_crs) {
+          throw InputError(CellLocation{points.file, p.row, "datum"}, p.datum,
+                           std::string(e.what()) +
+                               "; a datum is a vertical, compound or geographic 3D CRS (e.g. "
+                               "EPSG:5703) or the name of a reference of a references file");
+        }
         it->second.reset();
       }
     }

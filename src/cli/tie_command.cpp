@@ -5,7 +5,10 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "levelhead/errors.hpp"
 #include "levelhead/output_files.hpp"
+#include "levelhead/references_file.hpp"
+#include "levelhead/vertical_reference.hpp"
 #include "levelhead/site_tie.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/units.hpp"
@@ -42,6 +45,12 @@ CommandRunner add_tie_command(CLI::App& app) {
   c->add_flag("--strict", a->strict, "Exit with status 3 when a tie is a suspect");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream&) {
+    require_reference_name(a->name, "--name");
+    try {
+      height_unit_of(a->base_reference);
+    } catch (const ReferenceError& e) {
+      throw OptionError(fmt::format("--base-ref: {}", e.what()));
+    }
     TieOptions options;
     options.model = parse_tie_model(a->model);
     options.min_ties = a->min_ties;

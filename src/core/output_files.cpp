@@ -6,6 +6,8 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <cctype>
+#include <optional>
 
 #include "levelhead/errors.hpp"
 #include "levelhead/input_files.hpp"
@@ -41,6 +43,64 @@ class DeferTerminationSignals {
  private:
   sigset_t previous_{};
 };
+
+// The first cell of a CSV file that holds a non-finite number as fmt and
+// iostreams print one (nan, -nan, inf, -inf): "row R, column 'name'
+// ('nan')". Inputs are checked at the edge, so such a cell is a fault of a
+// computation; it is caught here, before the file is committed, rather than
+// reaching a user as a number. Reads the file once, in blocks.
+std::optional<std::string> find_non_finite_cell(const std::filesystem::path& file) {
+  std::ifstream in(file, std::ios::binary);
+  std::vector<char> block(1 << 20);
+  std::vector<std::string> header;
+  std::string cell;  // the current unquoted cell, kept only while it is short
+  bool quoted = false, too_long = false;
+  std::size_t row = 1, column = 0;
+  const auto end_cell = [&]() -> std::optional<std::string> {
+    if (row == 1) header.push_back(cell);
+    std::string lower = cell;
+    for (char& c : lower) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    std::optional<std::string> found;
+    if (row > 1 && !too_long &&
+        (lower == "nan" || lower == "-nan" || lower == "+nan" || lower == "inf" ||
+         lower == "-inf" || lower == "+inf")) {
+      found = fmt::format("row {}, column '{}' ('{}')", row,
+                          column < header.size() ? header[column] : std::to_string(column + 1), cell);
+    }
+    cell.clear();
+    too_long = false;
+    return found;
+  };
+  while (in) {
+    in.read(block.data(), static_cast<std::streamsize>(block.size()));
+    const std::size_t n = static_cast<std::size_t>(in.gcount());
+    for (std::size_t i = 0; i < n; ++i) {
+      const char c = block[i];
+      if (c == '"') {
+        quoted = !quoted;
+        too_long = true;  // a quoted cell is text
+      } else if (quoted) {
+        continue;
+      } else if (c == ',' || c == '\n') {
+        if (auto found = end_cell()) return found;
+        if (c == ',') {
+          ++column;
+        } else {
+          ++row;
+          column = 0;
+        }
+      } else if (c != '\r') {
+        if (cell.size() < 8 || row == 1) {
+          cell.push_back(c);
+        } else {
+          too_long = true;
+        }
+      }
+    }
+  }
+  if (!cell.empty()) return end_cell();
+  return std::nullopt;
+}
 
 }  // namespace
 
@@ -120,6 +180,15 @@ void OutputSet::commit() {
   // Inputs read after the files were opened (streamed tables) are checked
   // again here, before anything is renamed.
   for (const std::string& name : names) refuse_input_destination(name);
+  for (const auto& [name, stream] : streams_) {
+    if (std::filesystem::path(name).extension() != ".csv") continue;
+    if (const auto cell = find_non_finite_cell(temporary_path(name))) {
+      throw ComputationError(fmt::format(
+          "internal check: {} would hold a value that is not a number at {}; nothing was "
+          "written. This is a fault of levelhead with these inputs: please report it with them",
+          name, *cell));
+    }
+  }
   for (const std::string& name : names) flush_to_disk(temporary_path(name));
   const DeferTerminationSignals defer;
   for (const std::string& name : names) {

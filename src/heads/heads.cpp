@@ -134,6 +134,17 @@ MonitoredHeights read_monitored_heights(const Table& t) {
     std::stable_sort(
         series.epochs.begin(), series.epochs.end(),
         [](const MonitoredEpoch& a, const MonitoredEpoch& b) { return a.time < b.time; });
+    // Heights are interpolated in time between epochs: two at one time
+    // leave no time between them (a division by zero).
+    for (std::size_t i = 1; i < series.epochs.size(); ++i) {
+      if (series.epochs[i].time - series.epochs[i - 1].time < 1.0) {
+        throw InputError(t.source(),
+                         fmt::format("point '{}' has two epochs at {}; epochs must be apart in "
+                                     "time (merge them, or correct the dates in `levelhead "
+                                     "epochs`)",
+                                     id, format_utc(series.epochs[i].time)));
+      }
+    }
   }
   return out;
 }

@@ -8,8 +8,10 @@
 #include <cmath>
 #include <sstream>
 
+#include "levelhead/bounds.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/input_files.hpp"
+#include "util/encoding.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -79,11 +81,33 @@ void check_keys(const std::string& file, const toml::table& table,
   }
 }
 
+// A finite number (TOML allows nan and inf literals; no relation has them).
+double finite_number(const std::string& file, const toml::node& node, const std::string& what) {
+  const auto v = node.value<double>();
+  if (!v) throw InputError(where(file, node), fmt::format("{} must be a number", what));
+  if (!std::isfinite(*v)) {
+    throw InputError(where(file, node),
+                     fmt::format("{} must be a finite number (nan and inf are not accepted)", what));
+  }
+  return *v;
+}
+
 double number(const std::string& file, const toml::table& t, const char* key, double fallback) {
   const toml::node* node = t.get(key);
   if (!node) return fallback;
-  if (auto v = node->value<double>()) return *v;
-  throw InputError(where(file, *node), fmt::format("'{}' must be a number", key));
+  return finite_number(file, *node, fmt::format("'{}'", key));
+}
+
+// A standard deviation (m): finite, >= 0 and within the plausible bound.
+double sigma_number(const std::string& file, const toml::table& t) {
+  const double sigma = number(file, t, "sigma", 0.0);
+  if (sigma < 0.0 || sigma > bounds::max_sigma) {
+    throw InputError(where(file, *t.get("sigma")),
+                     fmt::format("'sigma' = {:g} m: a standard deviation must be between 0 and "
+                                 "{:g} m",
+                                 sigma, bounds::max_sigma));
+  }
+  return sigma;
 }
 
 std::string text(const std::string& file, const toml::table& t, const char* key, bool required,
@@ -153,7 +177,7 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       r.x0 = number(file, *t, "x0", 0.0);
       r.y0 = number(file, *t, "y0", 0.0);
       r.crs = text(file, *t, "crs", false, name);
-      if (t->get("sigma")) r.sigma = number(file, *t, "sigma", 0.0);
+      if (t->get("sigma")) r.sigma = sigma_number(file, *t);
       if (const toml::array* c = (*t)["covariance"].as_array()) {
         std::array<std::array<double, 3>, 3> m{};
         if (c->size() != 3) throw InputError(where(file, *c), "covariance must be 3 x 3");
@@ -161,7 +185,19 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
           const toml::array* row = (*c)[i].as_array();
           if (!row || row->size() != 3)
             throw InputError(where(file, *c), "covariance must be 3 x 3");
-          for (std::size_t j = 0; j < 3; ++j) m[i][j] = (*row)[j].value<double>().value_or(NAN);
+          for (std::size_t j = 0; j < 3; ++j)
+            m[i][j] = finite_number(file, *row->get(j), "every covariance entry");
+        }
+        // A covariance is symmetric with variances >= 0; the tolerance allows
+        // for the printed digits of a file written by `levelhead tie`.
+        for (std::size_t i = 0; i < 3; ++i) {
+          if (m[i][i] < 0.0)
+            throw InputError(where(file, *c), "covariance: a variance (diagonal) is negative");
+          for (std::size_t j = 0; j < i; ++j) {
+            const double scale = std::sqrt(std::abs(m[i][i] * m[j][j])) + 1e-300;
+            if (std::abs(m[i][j] - m[j][i]) > 1e-6 * scale)
+              throw InputError(where(file, *c), "covariance must be symmetric");
+          }
         }
         r.covariance = m;
       }
@@ -170,8 +206,8 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
           const toml::array* xy = vertex.as_array();
           if (!xy || xy->size() != 2)
             throw InputError(where(file, vertex), "hull vertices are [x, y]");
-          r.hull.push_back(
-              {(*xy)[0].value<double>().value_or(NAN), (*xy)[1].value<double>().value_or(NAN)});
+          r.hull.push_back({finite_number(file, *xy->get(0), "a hull coordinate"),
+                            finite_number(file, *xy->get(1), "a hull coordinate")});
         }
       }
     } else if (kind == "vertoffset") {
@@ -190,7 +226,7 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       v.lon0 = number(file, *t, "lon0", 0.0);
       const std::string ellipsoid = text(file, *t, "ellipsoid", false, name);
       if (!ellipsoid.empty()) v.ellipsoid = ellipsoid;
-      if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
+      if (t->get("sigma")) d.relation.sigma = sigma_number(file, *t);
     } else if (kind == "grid") {
       check_keys(file, *t, {"kind", "base", "grid", "multiplier", "sigma", "source"});
       d.kind = ReferenceDefinition::Kind::grid;
@@ -202,7 +238,7 @@ ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
       if (!(std::abs(d.grid_multiplier) > 0.0)) {
         throw InputError(where(file, *t->get("multiplier")), "'multiplier' must not be 0");
       }
-      if (t->get("sigma")) d.relation.sigma = number(file, *t, "sigma", 0.0);
+      if (t->get("sigma")) d.relation.sigma = sigma_number(file, *t);
     } else {
       throw InputError(where(file, node), fmt::format("reference '{}': kind '{}' is not 'crs', "
                                                       "'offset', 'vertoffset' or 'grid'",
@@ -238,6 +274,24 @@ std::string to_toml(const ReferenceDefinition& d) {
   }
   if (!d.source.empty()) out += fmt::format("source = \"{}\"\n", d.source);
   return out;
+}
+
+void require_reference_name(const std::string& name, const std::string& option) {
+  const auto allowed = [](char c) {
+    return (c >= 'a' && c <= 'z') || (c >= 'A' && c <= 'Z') || (c >= '0' && c <= '9') || c == '-' ||
+           c == '_';
+  };
+  const bool starts_with_letter =
+      !name.empty() && ((name[0] >= 'a' && name[0] <= 'z') || (name[0] >= 'A' && name[0] <= 'Z'));
+  const auto bad = std::find_if_not(name.begin(), name.end(), allowed);
+  if (starts_with_letter && bad == name.end()) return;
+  throw OptionError(fmt::format(
+      "{} '{}': a reference name is ASCII letters, digits, '-' and '_', starting with a letter "
+      "({}); e.g. site-1998",
+      option, util::shortened(name, 40),
+      name.empty()               ? "it is empty"
+      : !starts_with_letter      ? "it starts with something else"
+                                 : fmt::format("'{}' is not allowed", std::string(1, *bad))));
 }
 
 }  // namespace levelhead

@@ -5,6 +5,7 @@
 #include <cmath>
 #include <fmt/format.h>
 #include <unordered_map>
+#include <unordered_set>
 
 #include "levelhead/errors.hpp"
 #include "levelhead/statistics.hpp"
@@ -32,7 +33,12 @@ std::vector<TiePoint> match_tie_points(const Table& site, const Table& base) {
     }
   }
   std::vector<TiePoint> ties;
+  std::unordered_set<std::string> site_ids;
   for (std::size_t r = 0; r < site.row_count(); ++r) {
+    if (!site_ids.insert(std::string(site.cell(r, site_id))).second) {
+      throw InputError(site.location(r, site_id), std::string(site.cell(r, site_id)),
+                       "this id appears twice; ids must be unique");
+    }
     const auto it = base_rows.find(std::string(site.cell(r, site_id)));
     if (it == base_rows.end()) continue;
     const auto hs = site.length(r, site_h);
