@@ -1,5 +1,7 @@
 #include "cli/app.hpp"
 
+#include <cmath>
+#include <cstdlib>
 #include <optional>
 #include <sstream>
 #include <utility>
@@ -40,6 +42,25 @@ std::vector<std::string> reversed_arguments(const std::vector<std::string>& args
   return {args.rbegin(), args.rend() - (args.empty() ? 0 : 1)};
 }
 
+// CLI11 reads "nan" and "inf" into a number option like any other value;
+// no option of levelhead means them, so they are usage errors here, once
+// for every command.
+void refuse_non_finite_numbers(const CLI::App& app) {
+  for (const CLI::App* command : app.get_subcommands()) {
+    for (const CLI::Option* option : command->get_options()) {
+      if (option->get_type_name().rfind("FLOAT", 0) != 0) continue;
+      for (const std::string& text : option->results()) {
+        char* end = nullptr;
+        const double value = std::strtod(text.c_str(), &end);
+        if (end != text.c_str() && !std::isfinite(value)) {
+          throw CLI::ValidationError(option->get_name(),
+                                     "'" + text + "' is not a finite number");
+        }
+      }
+    }
+  }
+}
+
 const char* const description =
     "levelhead: levelling adjustment and vertical datum reconciliation for well measuring points "
     "and groundwater heads";
@@ -70,6 +91,7 @@ std::optional<std::string> usage_error(const std::vector<std::string>& args) {
   std::vector<std::string> reversed = reversed_arguments(args);
   try {
     app.parse(reversed);
+    refuse_non_finite_numbers(app);
   } catch (const CLI::ParseError& e) {
     return std::string(e.what());
   }
@@ -83,6 +105,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   std::vector<std::string> reversed = reversed_arguments(args);
   try {
     app.parse(reversed);
+    refuse_non_finite_numbers(app);
   } catch (const CLI::ParseError& e) {
     std::ostringstream message, usage;
     const int code = app.exit(e, message, usage);

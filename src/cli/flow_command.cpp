@@ -11,6 +11,7 @@
 #include "cli/commands.hpp"
 #include "levelhead/errors.hpp"
 #include "util/json_text.hpp"
+#include "util/option_checks.hpp"
 #include "levelhead/flow.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/table.hpp"
@@ -63,6 +64,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     FlowOptions options;
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
+    if (a->distance) util::require_positive(*a->distance, "--distance", "m");
     options.distance = a->distance;
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs}));
