@@ -63,30 +63,6 @@ TEST_CASE("adjust writes the three outputs for a good network", "[cli]") {
   CHECK(files_in(tmp.path() / "out").size() == 3);  // no temporary file left
 }
 
-TEST_CASE("bad input exits 1 naming the problem and leaves no output", "[cli][errors]") {
-  struct Case {
-    const char* points;
-    const char* sections;
-    std::vector<const char*> names;
-  };
-  const std::vector<Case> cases = {
-      {"points_duplicate_id.csv", "sections.csv", {"'A' appears twice", "row 4"}},
-      {"points.csv", "sections_unknown_point.csv", {"'BM-7'", "row 3"}},
-      {"points.csv", "sections_zero_length.csv", {"row 3", "column 'length'"}},
-      {"points.csv", "sections_not_a_number.csv", {"row 3", "column 'dh'", "'0.25O'"}},
-      {"points_with_island.csv", "sections_island.csv", {"datum defect", "C, D"}},
-  };
-  for (const Case& c : cases) {
-    levelhead::testing::TempFolder tmp;
-    const fs::path out = tmp.path() / "out";
-    const CliRun r = adjust_bad(c.points, c.sections, out);
-    INFO(c.points << " + " << c.sections << ": " << r.err);
-    CHECK(r.code == 1);
-    for (const char* name : c.names) CHECK_THAT(r.err, Contains(name));
-    CHECK(files_in(out).empty());
-  }
-}
-
 TEST_CASE("usage errors exit 2", "[cli]") {
   CHECK(run_cli({}).code == 2);
   CHECK(run_cli({"adjust", "--points", "p.csv"}).code == 2);
@@ -386,42 +362,4 @@ TEST_CASE("epochs: a mark missing from the points table is a clear error", "[cli
   CHECK(run.code == 1);
   CHECK_THAT(run.err, Contains("'X' is not in the points table"));
   CHECK_FALSE(fs::exists(tmp.path() / "out" / "summary.json"));
-}
-
-TEST_CASE("bad epochs, transducer and project inputs exit 1 naming the place", "[cli][errors]") {
-  levelhead::testing::TempFolder tmp;
-  const fs::path out = tmp.path() / "out";
-  struct Case {
-    std::vector<std::string> args;
-    std::vector<std::string> named;
-  };
-  const auto transducer = [&](const char* sensors) {
-    return std::vector<std::string>{"transducer",
-                                    "--wells",
-                                    (bad / "wells_transducer.csv").string(),
-                                    "--sensors",
-                                    (bad / sensors).string(),
-                                    "--records",
-                                    (bad / "records_transducer.csv").string(),
-                                    "--levels",
-                                    (bad / "levels_transducer.csv").string(),
-                                    "--out",
-                                    out.string()};
-  };
-  const std::vector<Case> cases = {
-      {{"epochs", "--points", (bad / "points.csv").string(), "--sections",
-        (bad / "epochs_missing_date.csv").string(), "--marks", "BM1,A", "--out", out.string()},
-       {"epochs_missing_date.csv", "row 6", "date"}},
-      {transducer("sensors_no_barometer.csv"), {"sensors_no_barometer.csv", "row 2", "barometer"}},
-      {transducer("sensors_far_barometer.csv"), {"sensors_far_barometer.csv", "row 2", "60000 m"}},
-      {{"run", (bad / "project_unknown_key.toml").string(), "--out", out.string()},
-       {"project_unknown_key.toml", "line 9", "did you mean 'mm_per_sqrt_km'"}},
-  };
-  for (const Case& c : cases) {
-    const CliRun r = run_cli(c.args);
-    INFO(c.args.front() << ": " << r.err);
-    CHECK(r.code == 1);
-    for (const std::string& n : c.named) CHECK_THAT(r.err, Contains(n));
-    CHECK(files_in(out).empty());
-  }
 }

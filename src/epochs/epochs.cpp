@@ -393,7 +393,7 @@ void check_campaign_dates(const std::vector<EpochSections>& epochs) {
     if (dated.empty()) continue;
     std::sort(dated.begin(), dated.end(),
               [](const auto& a, const auto& b) { return a.first < b.first; });
-    const double median = dated[dated.size() / 2].first;
+    const double median = dated[(dated.size() - 1) / 2].first;  // the lower median
     for (const auto& [time, section] : dated) {
       const double days = std::abs(time - median) / 86400.0;
       if (days > max_days_from_campaign_median) {

@@ -664,6 +664,7 @@ std::vector<std::optional<double>> SurfaceShift::values(const std::vector<PlaneP
 
 HeightUnit height_unit_of(const std::string& definition) {
   ContextPtr ctx(proj_context_create());
+  proj_log_level(ctx.get(), PJ_LOG_NONE);  // its message is ours to give
   PjPtr crs(proj_create(ctx.get(), definition.c_str()));
   if (!crs || !proj_is_crs(crs.get())) {
     throw ReferenceError(fmt::format(
