@@ -199,3 +199,20 @@ TEST_CASE("GDAL sources are read as text tables", "[table][gdal]") {
     CHECK_THROWS_WITH(read_table(path), Contains("junk.xlsx") && Contains("cannot read"));
   }
 }
+
+TEST_CASE("GeoJSON values are read as written, not as GDAL guesses them", "[table][gdal][safety]") {
+  levelhead::testing::TempFolder tmp;
+  const auto file = tmp.path() / "points.geojson";
+  std::ofstream(file) << R"({"type":"FeatureCollection","features":[
+{"type":"Feature","properties":{"id":"2024/01/02 10:00 re-read","date":"2024-01-02T10:00:00"},"geometry":null},
+{"type":"Feature","properties":{"id":"007","date":"2024-01-02"},"geometry":null}]})";
+  const Table t = read_table(file);
+  REQUIRE(t.row_count() == 2);
+  const std::size_t id = t.require_column("id"), date = t.require_column("date");
+  // Once read as a date-time and rewritten; the date column was turned to
+  // 2024/01/02 10:00:00 by GDAL's own typing.
+  CHECK(t.cell(0, id) == "2024/01/02 10:00 re-read");
+  CHECK(t.cell(1, id) == "007");
+  CHECK(t.cell(0, date) == "2024-01-02T10:00:00");
+  CHECK(t.cell(1, date) == "2024-01-02");
+}

@@ -38,20 +38,36 @@ std::string last_gdal_message() {
 // GDAL writes date and date-time cells (spreadsheet dates, GeoPackage
 // fields) as YYYY/MM/DD[ HH:MM:SS[.sss][+HH[MM]]], even when asked for text;
 // they become ISO 8601 (YYYY-MM-DD[THH:MM:SS...]), which is unambiguous, so
-// the tables read the same as their CSV. Other text is left as it is.
+// the tables read the same as their CSV. Only text that is exactly in that
+// form is changed ("2024/01/02 10:00 re-read" stays as it is).
 void iso_from_gdal_date(std::string& text) {
-  const auto digits = [&](std::size_t from, std::size_t count) {
-    for (std::size_t i = from; i < from + count; ++i) {
-      if (i >= text.size() || text[i] < '0' || text[i] > '9') return false;
+  std::size_t p = 0;
+  const auto digits = [&](std::size_t count) {
+    for (std::size_t i = 0; i < count; ++i, ++p) {
+      if (p >= text.size() || text[p] < '0' || text[p] > '9') return false;
     }
     return true;
   };
-  if (text.size() < 10 || !digits(0, 4) || text[4] != '/' || !digits(5, 2) || text[7] != '/' ||
-      !digits(8, 2))
-    return;
-  if (text.size() > 10 &&
-      !(text[10] == ' ' && digits(11, 2) && text.size() > 13 && text[13] == ':'))
-    return;
+  const auto literal = [&](char c) {
+    if (p >= text.size() || text[p] != c) return false;
+    ++p;
+    return true;
+  };
+  if (!(digits(4) && literal('/') && digits(2) && literal('/') && digits(2))) return;
+  if (p < text.size()) {
+    if (!(literal(' ') && digits(2) && literal(':') && digits(2))) return;
+    if (p < text.size() && text[p] == ':' && !(literal(':') && digits(2))) return;
+    if (p < text.size() && text[p] == '.' && !(literal('.') && digits(3))) return;
+    if (p < text.size() && (text[p] == '+' || text[p] == '-')) {
+      ++p;
+      if (!digits(2)) return;
+      if (p < text.size()) {
+        literal(':');  // +HH:MM or +HHMM
+        if (!digits(2)) return;
+      }
+    }
+    if (p != text.size()) return;
+  }
   text[4] = text[7] = '-';
   if (text.size() > 10) text[10] = 'T';
 }
@@ -93,8 +109,12 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
   const std::string name = path.string();
   CPLPushErrorHandler(CPLQuietErrorHandler);
   CPLErrorReset();
-  DatasetPtr dataset(GDALOpenEx(name.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr,
-                                nullptr));
+  // GeoJSON types its values itself; these keep dates and arrays as the
+  // text they are (other drivers ignore the options; the quiet handler
+  // swallows their warning).
+  const char* const open_options[] = {"DATE_AS_STRING=YES", "ARRAY_AS_STRING=YES", nullptr};
+  DatasetPtr dataset(GDALOpenEx(name.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr,
+                                open_options, nullptr));
   CPLPopErrorHandler();
   if (!dataset) {
     throw InputError(name, fmt::format("GDAL cannot read this file as a table ({}); supported are "
@@ -121,8 +141,16 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
   OGRFeatureDefnH definition = OGR_L_GetLayerDefn(layer);
   const int field_count = OGR_FD_GetFieldCount(definition);
   std::vector<std::string> columns;
+  // A field GDAL typed as a date or time; in a spreadsheet every field, as
+  // its date cells come as GDAL's date text in fields typed as strings.
+  const std::string driver = GDALGetDriverShortName(GDALGetDatasetDriver(dataset.get()));
+  const bool spreadsheet = driver == "XLSX" || driver == "ODS";
+  std::vector<char> date_field;
   for (int i = 0; i < field_count; ++i) {
-    columns.emplace_back(OGR_Fld_GetNameRef(OGR_FD_GetFieldDefn(definition, i)));
+    const OGRFieldDefnH field = OGR_FD_GetFieldDefn(definition, i);
+    columns.emplace_back(OGR_Fld_GetNameRef(field));
+    const OGRFieldType type = OGR_Fld_GetType(field);
+    date_field.push_back(spreadsheet || type == OFTDate || type == OFTDateTime || type == OFTTime);
   }
   // A point layer without x/y fields offers its geometry as x and y.
   const bool has_xy = [&] {
@@ -149,7 +177,7 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
       values[i] = OGR_F_IsFieldSetAndNotNull(feature.get(), i)
                       ? std::string(OGR_F_GetFieldAsString(feature.get(), i))
                       : std::string();
-      iso_from_gdal_date(values[i]);
+      if (date_field[static_cast<std::size_t>(i)]) iso_from_gdal_date(values[i]);
       util::require_utf8_cell(values[i], name, index + 2, columns[static_cast<std::size_t>(i)]);
     }
     if (geometry_xy) {
