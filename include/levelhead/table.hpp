@@ -79,6 +79,9 @@ class Table {
 
   // Building (used by the readers).
   void reserve(std::size_t rows, std::size_t text_bytes);
+  // Added to the message of a missing column: what the reader saw that may
+  // explain it (an empty first row, other sheets of the file).
+  void set_missing_column_hint(std::string hint) { missing_column_hint_ = std::move(hint); }
   void add_row(const std::vector<std::string_view>& cells, std::size_t source_row);
 
  private:
@@ -92,6 +95,7 @@ class Table {
   std::string text_;
   std::vector<Span> cells_;  // row-major, column_names_.size() per row
   std::vector<std::size_t> source_rows_;
+  std::string missing_column_hint_;
 };
 
 // Reads a table from a file (see the header comment for formats).

@@ -9,8 +9,11 @@
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
 
+#include <algorithm>
+#include <cpl_vsi.h>
 #include <memory>
 #include <mutex>
+#include <optional>
 
 #include "table/readers.hpp"
 #include "util/encoding.hpp"
@@ -95,6 +98,93 @@ void require_layer_crs(OGRLayerH layer, const std::string& expected, const std::
                         auth && code ? fmt::format("{}:{}", auth, code) : std::string("its CRS")));
 }
 
+// The whole of a file inside a zip (an XLSX part), through GDAL's /vsizip/.
+std::optional<std::string> read_zip_part(const std::string& zip, const std::string& part) {
+  const std::string name = fmt::format("/vsizip/{{{}}}/{}", zip, part);
+  VSILFILE* f = VSIFOpenL(name.c_str(), "rb");
+  if (!f) return std::nullopt;
+  std::string text;
+  char buffer[65536];
+  for (std::size_t n; (n = VSIFReadL(buffer, 1, sizeof buffer, f)) > 0;) text.append(buffer, n);
+  VSIFCloseL(f);
+  return text;
+}
+
+// The value of attribute `name` inside the XML start tag `tag`.
+std::string xml_attribute(std::string_view tag, std::string_view name) {
+  const std::string key = fmt::format(" {}=\"", name);
+  const std::size_t at = tag.find(key);
+  if (at == std::string_view::npos) return {};
+  const std::size_t start = at + key.size();
+  return std::string(tag.substr(start, tag.find('"', start) - start));
+}
+
+// Cells of sheet `sheet` of an XLSX workbook that hold a formula but no
+// stored value: a program that does not compute formulas wrote the file,
+// and GDAL (which never computes them) reads such a cell as empty; a fixed
+// height would silently become unknown. Read from the workbook's XML parts
+// (ECMA-376 SpreadsheetML: workbook.xml names the sheets, its relationships
+// give each sheet's part, a cell <c r="B2"> holds <f> and <v>).
+std::vector<std::string> formula_cells_without_value(const std::string& path,
+                                                     const std::string& sheet) {
+  const auto workbook = read_zip_part(path, "xl/workbook.xml");
+  const auto relations = read_zip_part(path, "xl/_rels/workbook.xml.rels");
+  if (!workbook || !relations) return {};
+  std::string relation_id;
+  for (std::size_t at = workbook->find("<sheet "); at != std::string::npos;
+       at = workbook->find("<sheet ", at + 1)) {
+    const std::string_view tag = std::string_view(*workbook).substr(at, workbook->find('>', at) - at);
+    if (xml_attribute(tag, "name") == sheet) relation_id = xml_attribute(tag, "r:id");
+  }
+  std::string target;
+  for (std::size_t at = relations->find("<Relationship "); at != std::string::npos;
+       at = relations->find("<Relationship ", at + 1)) {
+    const std::string_view tag =
+        std::string_view(*relations).substr(at, relations->find('>', at) - at);
+    if (!relation_id.empty() && xml_attribute(tag, "Id") == relation_id)
+      target = xml_attribute(tag, "Target");
+  }
+  if (target.empty()) return {};
+  const auto part = read_zip_part(path, target.front() == '/' ? target.substr(1) : "xl/" + target);
+  if (!part) return {};
+  std::vector<std::string> cells;
+  for (std::size_t at = part->find("<c "); at != std::string::npos; at = part->find("<c ", at + 1)) {
+    const std::size_t tag_end = part->find('>', at);
+    if (tag_end == std::string::npos) break;
+    if ((*part)[tag_end - 1] == '/') continue;  // <c .../>: an empty cell
+    const std::size_t close = part->find("</c>", tag_end);
+    const std::string_view body = std::string_view(*part).substr(tag_end, close - tag_end);
+    if (body.find("<f") != std::string_view::npos && body.find("<v") == std::string_view::npos)
+      cells.push_back(xml_attribute(std::string_view(*part).substr(at, tag_end - at), "r"));
+  }
+  return cells;
+}
+
+// What may explain a missing column: GDAL names the fields Field1, Field2,
+// ... when the first row is empty; other layers or sheets may hold the data.
+std::string missing_column_hint(GDALDatasetH dataset, OGRLayerH layer,
+                                const std::vector<std::string>& columns) {
+  const bool generated = !columns.empty() && std::all_of(columns.begin(), columns.end(),
+                                                         [](const std::string& c) {
+                                                           return c.rfind("Field", 0) == 0;
+                                                         });
+  const int layers = GDALDatasetGetLayerCount(dataset);
+  std::vector<std::string> hints;
+  if (layers > 1) {
+    std::vector<std::string> names;
+    for (int i = 0; i < layers; ++i)
+      names.emplace_back(OGR_L_GetName(GDALDatasetGetLayer(dataset, i)));
+    hints.push_back(fmt::format("This is sheet or layer '{}' of {} ({}); choose another with the "
+                                "layer option of the table (e.g. --layer, --points-layer)",
+                                OGR_L_GetName(layer), layers, fmt::join(names, ", ")));
+  } else if (generated) {
+    hints.push_back(
+        "The first row of the sheet looks empty: levelhead takes the column names from the "
+        "first row, so delete the empty rows above the header");
+  }
+  return fmt::format("{}", fmt::join(hints, ". "));
+}
+
 }  // namespace
 
 Table read_ogr_table(const std::filesystem::path& path, const TableOptions& options) {
@@ -167,7 +257,21 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
     require_layer_crs(layer, options.xy_crs, name);
   }
 
+  if (GDALGetDriverShortName(GDALGetDatasetDriver(dataset.get())) == std::string("XLSX")) {
+    const std::vector<std::string> cells = formula_cells_without_value(name, OGR_L_GetName(layer));
+    if (!cells.empty()) {
+      throw InputError(
+          name, fmt::format("sheet '{}', cell {}{}: a formula without a stored value (the file "
+                            "was saved by a program that does not compute formulas, and its "
+                            "value would be read as empty); open and save it in a spreadsheet "
+                            "program, or replace the formula by its value",
+                            OGR_L_GetName(layer), cells.front(),
+                            cells.size() > 1 ? fmt::format(" (and {} more)", cells.size() - 1)
+                                             : std::string()));
+    }
+  }
   Table table(name, columns, options);
+  table.set_missing_column_hint(missing_column_hint(dataset.get(), layer, columns));
   std::vector<std::string> values(columns.size());
   std::vector<std::string_view> views(columns.size());
   std::size_t index = 0;

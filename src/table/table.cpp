@@ -70,8 +70,11 @@ std::optional<std::size_t> Table::find_column(std::string_view name) const {
 std::size_t Table::require_column(std::string_view name) const {
   if (auto index = find_column(name)) return *index;
   throw InputError(source_, fmt::format("required column '{}' is missing (columns found: {}); "
-                                        "rename the column or map it with a column map",
-                                        name, fmt::join(column_names_, ", ")));
+                                        "rename the column or map it with a column map{}",
+                                        name, fmt::join(column_names_, ", "),
+                                        missing_column_hint_.empty()
+                                            ? std::string()
+                                            : ". " + missing_column_hint_));
 }
 
 std::string_view Table::cell(std::size_t row, std::size_t column) const {
