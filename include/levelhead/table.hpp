@@ -40,8 +40,9 @@ struct TableOptions {
   std::string layer;                           // OGR layer or sheet; empty = the first
   // The CRS the caller takes x and y in (e.g. "EPSG:32613"); when x and y
   // come from a layer's point geometry in another CRS, reading fails (an
-  // InputError naming both) rather than mixing degrees and metres. Empty:
-  // not checked.
+  // InputError naming both) rather than mixing degrees and metres; read_table
+  // also checks x and y against the CRS's area of use
+  // (levelhead/coordinate_check.hpp). Empty: not checked.
   std::string xy_crs;
 };
 

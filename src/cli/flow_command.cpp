@@ -9,6 +9,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "levelhead/coordinate_check.hpp"
 #include "levelhead/errors.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
@@ -65,6 +66,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
     if (a->distance) util::require_positive(*a->distance, "--distance", "m");
+    if (!a->crs.empty()) require_metric_plane_crs(a->crs, "--crs");
     options.distance = a->distance;
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs}));

@@ -6,6 +6,7 @@
 #include <set>
 
 #include "table/readers.hpp"
+#include "levelhead/coordinate_check.hpp"
 #include "levelhead/input_files.hpp"
 #include "levelhead/time.hpp"
 #include "util/text.hpp"
@@ -184,10 +185,11 @@ Table read_table(const std::filesystem::path& path, const TableOptions& options)
   }
   note_input_file(path);
   const std::string extension = util::to_lower(path.extension().string());
-  if (extension == ".csv" || extension == ".tsv" || extension == ".txt") {
-    return detail::read_delimited_file(path, options);
-  }
-  return detail::read_ogr_table(path, options);
+  Table table = extension == ".csv" || extension == ".tsv" || extension == ".txt"
+                    ? detail::read_delimited_file(path, options)
+                    : detail::read_ogr_table(path, options);
+  check_coordinates_in_crs(table, options.xy_crs);
+  return table;
 }
 
 }  // namespace levelhead
