@@ -61,6 +61,8 @@ int adjust_files(const AdjustArguments& a, std::ostream& out) {
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
   options.validate();
+  check_network_input_options(a.inputs);
+  if (options_check_only()) return exit_ok;
 
   const Network network = load_network(a.inputs);
   const AdjustmentResult result = adjust(network, options);

@@ -84,6 +84,12 @@ std::vector<OptionInfo> command_options(const std::string& command) {
   return out;
 }
 
+namespace {
+bool checking_options_only = false;
+}  // namespace
+
+bool options_check_only() { return checking_options_only; }
+
 std::optional<std::string> usage_error(const std::vector<std::string>& args) {
   CLI::App app{description, "levelhead"};
   // The runners own the variables the options write into: keep them alive.
@@ -93,6 +99,18 @@ std::optional<std::string> usage_error(const std::vector<std::string>& args) {
     app.parse(reversed);
     refuse_non_finite_numbers(app);
   } catch (const CLI::ParseError& e) {
+    return std::string(e.what());
+  }
+  struct CheckOnly {
+    CheckOnly() { checking_options_only = true; }
+    ~CheckOnly() { checking_options_only = false; }
+  } check_only;
+  std::ostream no_output(nullptr);
+  try {
+    for (const auto& [name, runner] : commands) {
+      if (app.got_subcommand(name)) runner(no_output, no_output);
+    }
+  } catch (const OptionError& e) {
     return std::string(e.what());
   }
   return std::nullopt;

@@ -23,8 +23,17 @@ struct OptionInfo {
 // The long options of `command` (e.g. "adjust"), in the order they are declared.
 std::vector<OptionInfo> command_options(const std::string& command);
 
-// The parse error of a command line (args[0] the program name), without running it.
+// What is wrong with a command line (args[0] the program name), without
+// running it: a parse error, or an option value the command refuses. The
+// command runs in check-only mode: it validates its options and stops before
+// reading any input (see options_check_only).
 std::optional<std::string> usage_error(const std::vector<std::string>& args);
+
+// True while usage_error runs a command: the command returns right after its
+// options are validated. Every command that the chain runs checks this at
+// that point, so `levelhead run` refuses a bad setting of any stage before
+// the first stage starts.
+bool options_check_only();
 
 // args[0] is the program name, as in argv.
 int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err);

@@ -82,6 +82,8 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
   }
   options.validate();
   const LengthUnit unit = parse_length_unit(a.unit);
+  for (const std::string* map : {&a.points_columns, &a.sections_columns}) parse_column_map(*map);
+  if (options_check_only()) return exit_ok;
   const PointTable points = read_points(
       read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}, {}}));
   require_point_units(points, unit);

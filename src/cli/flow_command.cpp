@@ -61,12 +61,14 @@ CommandRunner add_flow_command(CLI::App& app) {
   c->add_option("--porosity", a->porosity, "Effective porosity range LOW HIGH (0..1)")->expected(2);
   c->add_option("--distance", a->distance, "Distance for the travel time (m)");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&) -> int {
     FlowOptions options;
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
     if (a->distance) util::require_positive(*a->distance, "--distance", "m");
     if (!a->crs.empty()) require_metric_plane_crs(a->crs, "--crs");
+    parse_column_map(a->wells_columns);
+    if (options_check_only()) return exit_ok;
     options.distance = a->distance;
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs}));

@@ -53,10 +53,11 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       ->capture_default_str();
   c->add_flag("--strict", a->strict, "Exit with status 3 when a mark is not consistent");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&) -> int {
     const LengthUnit unit = parse_length_unit(a->unit);
     const LengthUnit levelled_unit =
         a->levelled_unit.empty() ? unit : parse_length_unit(a->levelled_unit);
+    if (options_check_only()) return exit_ok;
     const Table levelled = read_table(a->levelled, TableOptions{{}, levelled_unit, {}, {}});
     const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}, a->crs});
     const std::size_t lid = levelled.require_column("id"), lh = levelled.require_column("height");

@@ -81,7 +81,7 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_flag("--no-gpkg", a->no_geopackage, "Do not write heads.gpkg");
   c->add_flag("--strict", a->strict, "Exit with status 3 when any reading is flagged");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&) -> int {
     HeadOptions options = a->options;
     if (!a->event.empty()) {
       const auto when = parse_iso8601(a->event);
@@ -91,6 +91,8 @@ CommandRunner add_heads_command(CLI::App& app) {
     options.validate();
     const LengthUnit unit = parse_length_unit(a->unit);
     const TableOptions table_options{parse_column_map(a->levels_columns), unit, {}, {}};
+    for (const std::string* map : {&a->wells_columns, &a->mp_columns}) parse_column_map(*map);
+    if (options_check_only()) return exit_ok;
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}, a->options.crs}));
     const auto records = read_measuring_points(

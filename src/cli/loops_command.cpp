@@ -42,6 +42,8 @@ CommandRunner add_loops_command(CLI::App& app) {
       options.mm_per_sqrt_km = find_tolerance_class(args->closure_class).mm_per_sqrt_km;
     }
     options.validate();
+    check_network_input_options(args->inputs);
+    if (options_check_only()) return exit_ok;
     const Network network = load_network(args->inputs);
     const LoopResult result = find_loops(network, options);
     write_loop_outputs(network, result, args->inputs.out);

@@ -58,6 +58,13 @@ void require_point_units(const PointTable& points, LengthUnit table_unit) {
   }
 }
 
+void check_network_input_options(const NetworkInputs& inputs) {
+  parse_length_unit(inputs.unit);
+  if (!inputs.sections_unit.empty()) parse_length_unit(inputs.sections_unit);
+  parse_column_map(inputs.points_columns);
+  parse_column_map(inputs.sections_columns);
+}
+
 Network load_network(const NetworkInputs& inputs) {
   const LengthUnit unit = parse_length_unit(inputs.unit);
   const TableOptions point_options{

@@ -25,6 +25,9 @@ void add_network_input_options(CLI::App& command, NetworkInputs& inputs);
 // not know (references of our own, in metres) are not checked.
 void require_point_units(const PointTable& points, LengthUnit table_unit);
 
+// Checks the units and column maps given, without reading (OptionError).
+void check_network_input_options(const NetworkInputs& inputs);
+
 // Reads both tables and checks the network. Throws the library's errors.
 Network load_network(const NetworkInputs& inputs);
 

@@ -81,6 +81,7 @@ CommandRunner add_reduce_command(CLI::App& app) {
     options.validate();
     const TableOptions table_options{
         parse_column_map(a->columns), parse_length_unit(a->unit), a->layer, {}};
+    if (options_check_only()) return exit_ok;
     const FieldBook book = read_field_book(read_table(a->field_book, table_options));
     const FieldBookResult result = reduce_field_book(book, options);
     write_field_book_outputs(book, result, options, a->out);

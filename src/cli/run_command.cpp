@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <chrono>
 #include <ctime>
 #include <memory>
@@ -73,6 +74,27 @@ std::string local_run_time() {
   return text;
 }
 
+// Which setting of the project file makes a stage's command line fail: the
+// one whose removal (back to the command's default) makes it pass, named by
+// line, section and key; the section alone when no single setting does.
+std::string culprit_setting(const Project& project, const Stage& stage,
+                            const std::vector<std::string>& args) {
+  for (const ProjectSetting& s : project.settings) {
+    if (s.section != stage.section || s.chain_default) continue;
+    std::string flag = "--" + s.key;
+    std::replace(flag.begin(), flag.end(), '_', '-');
+    const auto at = std::find(args.begin(), args.end(), flag);
+    if (at == args.end()) continue;
+    std::vector<std::string> without(args.begin(), at);
+    const std::size_t values = s.is_flag ? 0 : s.values.size();
+    without.insert(without.end(), at + 1 + static_cast<std::ptrdiff_t>(values), args.end());
+    if (!usage_error(without)) {
+      return fmt::format(", line {}, [{}] {}", s.line, s.section, s.key);
+    }
+  }
+  return fmt::format(" [{}]", stage.section);
+}
+
 // What makes one project's run: the project file as an absolute path.
 std::string project_identity(const std::filesystem::path& file) {
   std::error_code ec;
@@ -115,7 +137,8 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
     std::vector<std::string> args = {"levelhead"};
     args.insert(args.end(), stage.args.begin(), stage.args.end());
     if (const auto problem = usage_error(args)) {
-      throw OptionError(fmt::format("{} [{}]: {}", project.file.string(), stage.section, *problem));
+      throw OptionError(fmt::format("{}{}: {}", project.file.string(),
+                                    culprit_setting(project, stage, args), *problem));
     }
   }
   // Only now is the output folder touched: a previous run there is moved

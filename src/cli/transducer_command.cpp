@@ -76,9 +76,11 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_flag("--strict", a->strict,
               "Exit with status 3 when a reading is rejected or left uncomputed");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&) -> int {
     a->options.validate();
     const TableOptions table{{}, parse_length_unit(a->unit), {}, {}};
+    for (const std::string* map : {&a->wells_columns, &a->levels_columns}) parse_column_map(*map);
+    if (options_check_only()) return exit_ok;
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}, a->crs}));
     const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}, {}};
