@@ -278,7 +278,8 @@ TEST_CASE("diff says what it could not compare instead of 'the runs agree'", "[s
     CHECK_THAT(r.out, Contains("no output checksums"));
   }
   SECTION("a file cut short") {
-    fs::resize_file(after / "heads" / "heads.csv", fs::file_size(after / "heads" / "heads.csv") / 2);
+    fs::resize_file(after / "heads" / "heads.csv",
+                    fs::file_size(after / "heads" / "heads.csv") / 2);
     const CliRun r = run_cli({"diff", before.string(), after.string()});
     CHECK_THAT(r.out, Contains("NEW heads/heads.csv: changed since the run"));
   }

@@ -52,8 +52,8 @@ TEST_CASE("ids stay text: 007 is not 7", "[table]") {
 }
 
 TEST_CASE("bad numbers name file, row, column and value", "[table][errors]") {
-  const Table t = parse_delimited_text("id,dh,length\nA,1.5,12\nB,abc,12\nC,1,2\nD,nan,1\nE,1,\"1,5\"\n",
-                                       "sections.csv");
+  const Table t = parse_delimited_text(
+      "id,dh,length\nA,1.5,12\nB,abc,12\nC,1,2\nD,nan,1\nE,1,\"1,5\"\n", "sections.csv");
   CHECK_THROWS_WITH(t.number(1, 1), Contains("sections.csv, row 3, column 'dh'") &&
                                         Contains("'abc'") && Contains("expected a number"));
   CHECK_THROWS_WITH(t.number(3, 1), Contains("row 5") && Contains("NaN"));
@@ -93,7 +93,8 @@ void write_ogr_table(const std::filesystem::path& path, const char* driver_name,
   REQUIRE(driver != nullptr);
   GDALDatasetH ds = GDALCreate(driver, path.string().c_str(), 0, 0, 0, GDT_Unknown, nullptr);
   REQUIRE(ds != nullptr);
-  OGRLayerH layer = GDALDatasetCreateLayer(ds, "pts", nullptr, as_points ? wkbPoint : wkbNone, nullptr);
+  OGRLayerH layer =
+      GDALDatasetCreateLayer(ds, "pts", nullptr, as_points ? wkbPoint : wkbNone, nullptr);
   OGRFieldDefnH id = OGR_Fld_Create("ID", OFTString);
   OGR_L_CreateField(layer, id, 1);
   OGR_Fld_Destroy(id);

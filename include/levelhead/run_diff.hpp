@@ -56,9 +56,8 @@ struct RunDifference {
   std::vector<std::string> file_problems;
   std::size_t heads_compared = 0;
   bool identical() const {
-    return configuration.empty() && heights.empty() && measuring_points.empty() &&
-           wells.empty() && heights_one_sided.empty() && measuring_points_one_sided.empty() &&
-           file_problems.empty();
+    return configuration.empty() && heights.empty() && measuring_points.empty() && wells.empty() &&
+           heights_one_sided.empty() && measuring_points_one_sided.empty() && file_problems.empty();
   }
 };
 

@@ -381,10 +381,9 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
   // Inputs are bounded at the table edge, so a non-finite value here is a
   // numerical breakdown: never written, always an error.
   if (!std::isfinite(vtpv) ||
-      std::any_of(result.points.begin(), result.points.end(),
-                  [](const AdjustedPoint& p) {
-                    return !std::isfinite(p.height) || !std::isfinite(p.sigma_apriori);
-                  })) {
+      std::any_of(result.points.begin(), result.points.end(), [](const AdjustedPoint& p) {
+        return !std::isfinite(p.height) || !std::isfinite(p.sigma_apriori);
+      })) {
     throw ComputationError(
         "the adjustment gave non-finite heights or sigmas (a numerical breakdown: check for "
         "sections with extreme dh, length or sigma, and for very unequal weights)");

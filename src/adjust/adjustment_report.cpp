@@ -1,5 +1,4 @@
 #include "levelhead/adjustment_report.hpp"
-#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -8,6 +7,7 @@
 
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead {
 

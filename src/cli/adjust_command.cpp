@@ -1,6 +1,7 @@
 // `levelhead adjust`.
 
 #include <fmt/format.h>
+
 #include <fstream>
 #include <optional>
 
@@ -25,20 +26,22 @@ struct AdjustArguments {
 };
 
 void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
-  command.add_option("--mm-per-sqrt-km", a.options.mm_per_sqrt_km,
-                     "Sigma of a section without a sigma, per square root of its length in km "
-                     "(mm/sqrt(km))")
+  command
+      .add_option("--mm-per-sqrt-km", a.options.mm_per_sqrt_km,
+                  "Sigma of a section without a sigma, per square root of its length in km "
+                  "(mm/sqrt(km))")
       ->capture_default_str();
-  command.add_option("--mm-per-setup", a.options.mm_per_setup,
-                     "Sigma per setup for sections with neither sigma nor length (mm)")
+  command
+      .add_option("--mm-per-setup", a.options.mm_per_setup,
+                  "Sigma per setup for sections with neither sigma nor length (mm)")
       ->capture_default_str();
   command.add_option("--alpha", a.options.alpha, "Significance level of the global test")
       ->capture_default_str();
-  command.add_option("--alpha0", a.options.alpha0,
-                     "Significance level of data snooping, per observation")
+  command
+      .add_option("--alpha0", a.options.alpha0,
+                  "Significance level of data snooping, per observation")
       ->capture_default_str();
-  command.add_option("--beta0", a.options.beta0,
-                     "Power for the minimal detectable bias")
+  command.add_option("--beta0", a.options.beta0, "Power for the minimal detectable bias")
       ->capture_default_str();
   command.add_option("--free", a.free_point,
                      "Free adjustment: hold only this point (at its known height, or 0) to check "
@@ -46,11 +49,11 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
   command.add_flag("--snoop", a.options.iterative_snooping,
                    "Iterative data snooping: remove the worst suspect section and adjust again, "
                    "reporting each removal");
-  command.add_option("--max-removals", a.options.max_removals,
-                     "Most sections removed by --snoop")
+  command.add_option("--max-removals", a.options.max_removals, "Most sections removed by --snoop")
       ->capture_default_str();
-  command.add_option("--max-factor-nonzeros", a.options.max_factor_nonzeros,
-                     "Refuse networks whose factor would be larger (memory guard)")
+  command
+      .add_option("--max-factor-nonzeros", a.options.max_factor_nonzeros,
+                  "Refuse networks whose factor would be larger (memory guard)")
       ->capture_default_str();
   command.add_flag("--strict", a.strict,
                    "Exit with status 3 when the global test fails or a suspect is found");
@@ -66,10 +69,10 @@ int adjust_files(const AdjustArguments& a, std::ostream& out) {
 
   const Network network = load_network(a.inputs);
   const AdjustmentResult result = adjust(network, options);
-  write_adjustment_outputs(network, result, options,
-                           AdjustmentInputs{a.inputs.points, a.inputs.sections,
-                                            parse_length_unit(a.inputs.unit)},
-                           a.inputs.out);
+  write_adjustment_outputs(
+      network, result, options,
+      AdjustmentInputs{a.inputs.points, a.inputs.sections, parse_length_unit(a.inputs.unit)},
+      a.inputs.out);
   if (!a.quiet) {
     out << adjustment_summary_text(network, result);
     out << fmt::format("Wrote heights.csv, residuals.csv and summary.json in {}\n", a.inputs.out);

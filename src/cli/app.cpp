@@ -53,8 +53,7 @@ void refuse_non_finite_numbers(const CLI::App& app) {
         char* end = nullptr;
         const double value = std::strtod(text.c_str(), &end);
         if (end != text.c_str() && !std::isfinite(value)) {
-          throw CLI::ValidationError(option->get_name(),
-                                     "'" + text + "' is not a finite number");
+          throw CLI::ValidationError(option->get_name(), "'" + text + "' is not a finite number");
         }
       }
     }

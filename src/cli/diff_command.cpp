@@ -8,9 +8,9 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "levelhead/errors.hpp"
-#include "util/json_text.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/run_diff.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead::cli {
 
@@ -35,9 +35,9 @@ nlohmann::json as_json(const RunDifference& d) {
     for (const ValueChange& v : *list)
       out[name].push_back({{"key", v.key}, {"before", v.before}, {"after", v.after}});
   }
-  for (const auto& [name, sides] : {std::pair{"heights_one_sided", &d.heights_one_sided},
-                                    std::pair{"measuring_points_one_sided",
-                                              &d.measuring_points_one_sided}}) {
+  for (const auto& [name, sides] :
+       {std::pair{"heights_one_sided", &d.heights_one_sided},
+        std::pair{"measuring_points_one_sided", &d.measuring_points_one_sided}}) {
     out[name] = {{"only_old", sides->only_before}, {"only_new", sides->only_after}};
   }
   out["file_problems"] = d.file_problems;

@@ -11,13 +11,13 @@
 #include "cli/commands.hpp"
 #include "levelhead/coordinate_check.hpp"
 #include "levelhead/errors.hpp"
-#include "util/json_text.hpp"
-#include "util/option_checks.hpp"
 #include "levelhead/flow.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/version.hpp"
 #include "levelhead/wells.hpp"
+#include "util/json_text.hpp"
+#include "util/option_checks.hpp"
 
 namespace levelhead::cli {
 

@@ -13,12 +13,12 @@
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
 #include "levelhead/errors.hpp"
-#include "util/json_text.hpp"
 #include "levelhead/gnss_check.hpp"
 #include "levelhead/height_converter.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead::cli {
 
@@ -34,8 +34,9 @@ struct GnssArguments {
 
 CommandRunner add_gnss_check_command(CLI::App& app) {
   auto a = std::make_shared<GnssArguments>();
-  CLI::App* c = app.add_subcommand("gnss-check", "Compare levelled and GNSS heights at common marks "
-                                                 "and name the classic geoid mistakes");
+  CLI::App* c = app.add_subcommand("gnss-check",
+                                   "Compare levelled and GNSS heights at common marks "
+                                   "and name the classic geoid mistakes");
   c->add_option("--levelled", a->levelled, "Levelled heights (id, height, sigma)")->required();
   c->add_option("--levelled-ref", a->levelled_ref, "Reference of the levelled heights")->required();
   c->add_option("--gnss", a->gnss, "GNSS heights (id, x, y, height, sigma)")->required();
@@ -77,7 +78,8 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       const auto h = gnss.length(r, gh);
       if (it == levelled_rows.end() || !h) continue;
       const auto x = gnss.number(r, gx), y = gnss.number(r, gy);
-      if (!x || !y) throw InputError(gnss.location(r, x ? gy : gx), "", "a GNSS mark needs x and y");
+      if (!x || !y)
+        throw InputError(gnss.location(r, x ? gy : gx), "", "a GNSS mark needs x and y");
       GnssMark m;
       m.id = std::string(gnss.cell(r, gid));
       m.levelled = *levelled.length(it->second, lh);

@@ -1,6 +1,7 @@
 // `levelhead loops`: loop closures before adjustment.
 
 #include <fmt/format.h>
+
 #include <memory>
 
 #include "cli/app.hpp"
@@ -31,8 +32,11 @@ CommandRunner add_loops_command(CLI::App& app) {
                              "Loop tolerance k in k mm * sqrt(loop length in km)")
                 ->capture_default_str();
   std::string classes;
-  for (const auto& c : tolerance_classes()) classes += fmt::format(" {} ({} mm)", c.name, c.mm_per_sqrt_km);
-  command->add_option("--class", args->closure_class, "Named closure class instead of --tolerance:" + classes)
+  for (const auto& c : tolerance_classes())
+    classes += fmt::format(" {} ({} mm)", c.name, c.mm_per_sqrt_km);
+  command
+      ->add_option("--class", args->closure_class,
+                   "Named closure class instead of --tolerance:" + classes)
       ->excludes(k);
   command->add_flag("--strict", args->strict, "Exit with status 3 when a loop fails");
   command->add_flag("--quiet", args->quiet, "Print nothing on success");

@@ -14,8 +14,9 @@ void add_network_input_options(CLI::App& command, NetworkInputs& inputs) {
   command.add_option("--sections", inputs.sections, "Sections table (from, to, dh, length, ...)")
       ->required();
   command.add_option("--out", inputs.out, "Output folder")->required();
-  command.add_option("--unit", inputs.unit,
-                     "Length unit of the input tables: m, ft (0.3048 m), us-ft (1200/3937 m)")
+  command
+      .add_option("--unit", inputs.unit,
+                  "Length unit of the input tables: m, ft (0.3048 m), us-ft (1200/3937 m)")
       ->capture_default_str();
   command.add_option("--sections-unit", inputs.sections_unit,
                      "Length unit of the sections table when it differs from --unit (the "

@@ -1,6 +1,7 @@
 // `levelhead reduce`: field book to sections.
 
 #include <fmt/format.h>
+
 #include <memory>
 
 #include "cli/app.hpp"
@@ -25,8 +26,9 @@ struct ReduceArguments {
 CommandRunner add_reduce_command(CLI::App& app) {
   auto a = std::make_shared<ReduceArguments>();
   FieldBookOptions& o = a->options;
-  CLI::App* c = app.add_subcommand("reduce", "Reduce a levelling field book to sections, with "
-                                             "field checks and corrections");
+  CLI::App* c = app.add_subcommand("reduce",
+                                   "Reduce a levelling field book to sections, with "
+                                   "field checks and corrections");
   c->add_option("FIELDBOOK", a->field_book, "Field-book table (one row per sight)")->required();
   c->add_option("--out", a->out, "Output folder")->required();
   c->add_option("--unit", a->unit, "Unit of readings and distances: m, ft, us-ft")

@@ -98,8 +98,8 @@ std::string culprit_setting(const Project& project, const Stage& stage,
 // What makes one project's run: the project file as an absolute path.
 std::string project_identity(const std::filesystem::path& file) {
   std::error_code ec;
-  const std::filesystem::path absolute = std::filesystem::weakly_canonical(
-      std::filesystem::absolute(file), ec);
+  const std::filesystem::path absolute =
+      std::filesystem::weakly_canonical(std::filesystem::absolute(file), ec);
   return (ec ? std::filesystem::absolute(file) : absolute).string();
 }
 
@@ -114,8 +114,7 @@ std::vector<std::filesystem::path> project_files(const Project& p) {
 }  // namespace
 
 int run_chain(const std::filesystem::path& project_file, const std::filesystem::path& folder,
-              const ChainOptions& a, std::ostream& out, std::ostream& err,
-              RunFolder* open_folder) {
+              const ChainOptions& a, std::ostream& out, std::ostream& err, RunFolder* open_folder) {
   const Project project = load_project(project_file);
   if (!project.target.empty()) {
     const ReferenceSet references =
@@ -194,9 +193,7 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
   return exit_ok;
 }
 
-namespace {
-
-}  // namespace
+namespace {}  // namespace
 
 CommandRunner add_run_command(CLI::App& app) {
   auto a = std::make_shared<RunArguments>();

@@ -1,6 +1,7 @@
 // `levelhead tie`: a site reference estimated from common points.
 
 #include <fmt/format.h>
+
 #include <memory>
 
 #include "cli/app.hpp"
@@ -8,10 +9,10 @@
 #include "levelhead/errors.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/references_file.hpp"
-#include "levelhead/vertical_reference.hpp"
 #include "levelhead/site_tie.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/units.hpp"
+#include "levelhead/vertical_reference.hpp"
 
 namespace levelhead::cli {
 
@@ -28,13 +29,16 @@ CommandRunner add_tie_command(CLI::App& app) {
   auto a = std::make_shared<TieArguments>();
   CLI::App* c = app.add_subcommand(
       "tie", "Estimate a site reference from points with heights in it and in a base reference");
-  c->add_option("--site", a->site, "Points with heights in the site reference (id, x, y, height, sigma)")
+  c->add_option("--site", a->site,
+                "Points with heights in the site reference (id, x, y, height, sigma)")
       ->required();
-  c->add_option("--base", a->base, "The same points with heights in the base reference")->required();
+  c->add_option("--base", a->base, "The same points with heights in the base reference")
+      ->required();
   c->add_option("--name", a->name, "Name of the site reference to define")->required();
   c->add_option("--base-ref", a->base_reference, "The base reference (PROJ CRS or a defined name)")
       ->required();
-  c->add_option("--out", a->output, "References file (TOML) to write; ties go to NAME.ties.csv beside it")
+  c->add_option("--out", a->output,
+                "References file (TOML) to write; ties go to NAME.ties.csv beside it")
       ->required();
   c->add_option("--model", a->model, "offset, or plane (offset and slope)")->capture_default_str();
   c->add_option("--crs", a->crs, "CRS of x and y, recorded with the slopes");
@@ -68,8 +72,8 @@ CommandRunner add_tie_command(CLI::App& app) {
     d.base = a->base_reference;
     d.relation = result.relation;
     d.relation.crs = a->crs;
-    d.source = fmt::format("levelhead tie, {} model, {} ties, sigma0 {:.3f}", to_string(options.model),
-                           ties.size(), result.sigma0.value_or(0.0));
+    d.source = fmt::format("levelhead tie, {} model, {} ties, sigma0 {:.3f}",
+                           to_string(options.model), ties.size(), result.sigma0.value_or(0.0));
 
     const std::filesystem::path path(a->output);
     OutputSet files(path.parent_path().empty() ? "." : path.parent_path());
@@ -82,10 +86,12 @@ CommandRunner add_tie_command(CLI::App& app) {
     for (std::size_t i = 0; i < ties.size(); ++i) {
       const TieResidual& r = result.residuals[i];
       const bool suspect = r.w && std::abs(*r.w) > result.w_critical;
-      csv << csv_cell(ties[i].id) << ',' << fmt::format("{:.3f},{:.3f}", ties[i].x, ties[i].y) << ','
+      csv << csv_cell(ties[i].id) << ',' << fmt::format("{:.3f},{:.3f}", ties[i].x, ties[i].y)
+          << ','
           << fmt::format("{:.5f},{:.5f},{:.5f},{:.5f},{:.4f}", ties[i].site_height,
                          ties[i].base_height, r.difference, r.residual, r.redundancy)
-          << ',' << (r.w ? fmt::format("{:.3f}", *r.w) : "") << ',' << (suspect ? "yes" : "") << '\n';
+          << ',' << (r.w ? fmt::format("{:.3f}", *r.w) : "") << ',' << (suspect ? "yes" : "")
+          << '\n';
     }
     files.commit();
     if (!a->quiet) {
@@ -93,13 +99,15 @@ CommandRunner add_tie_command(CLI::App& app) {
       out << fmt::format("Tie {} -> {}: {} ties, {} model{}\n", a->name, a->base_reference,
                          ties.size(), to_string(options.model),
                          result.weighted ? "" : " (no sigmas: equal weights)");
-      out << fmt::format("  offset {:.4f} m +- {:.4f} m", result.relation.offset, std::sqrt(cov[0][0]));
+      out << fmt::format("  offset {:.4f} m +- {:.4f} m", result.relation.offset,
+                         std::sqrt(cov[0][0]));
       if (options.model == TieModel::plane) {
         out << fmt::format(", slope x {:.2f} +- {:.2f} mm/km, slope y {:.2f} +- {:.2f} mm/km",
                            result.relation.slope_x * 1e6, std::sqrt(cov[1][1]) * 1e6,
                            result.relation.slope_y * 1e6, std::sqrt(cov[2][2]) * 1e6);
       }
-      out << fmt::format("\n  sigma0 {:.3f}, redundancy {}\n", result.sigma0.value_or(0.0), result.dof);
+      out << fmt::format("\n  sigma0 {:.3f}, redundancy {}\n", result.sigma0.value_or(0.0),
+                         result.dof);
       for (std::size_t k : result.suspects) {
         out << fmt::format("  SUSPECT tie {}: residual {:.1f} mm, w = {:.2f}\n", ties[k].id,
                            result.residuals[k].residual * 1e3, *result.residuals[k].w);

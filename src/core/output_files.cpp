@@ -64,8 +64,9 @@ std::optional<std::string> find_non_finite_cell(const std::filesystem::path& fil
     if (row > 1 && !too_long &&
         (lower == "nan" || lower == "-nan" || lower == "+nan" || lower == "inf" ||
          lower == "-inf" || lower == "+inf")) {
-      found = fmt::format("row {}, column '{}' ('{}')", row,
-                          column < header.size() ? header[column] : std::to_string(column + 1), cell);
+      found =
+          fmt::format("row {}, column '{}' ('{}')", row,
+                      column < header.size() ? header[column] : std::to_string(column + 1), cell);
     }
     cell.clear();
     too_long = false;

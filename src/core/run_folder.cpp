@@ -104,8 +104,8 @@ RunFolder::RunFolder(fs::path folder, RunFolderOptions options)
   for (;;) {
     lock_fd_ = ::open(lock_.c_str(), O_RDWR | O_CREAT | O_CLOEXEC, 0644);
     if (lock_fd_ < 0) {
-      throw OutputError(fmt::format("cannot create the lock file '{}' beside the output folder",
-                                    lock_.string()));
+      throw OutputError(
+          fmt::format("cannot create the lock file '{}' beside the output folder", lock_.string()));
     }
     if (::flock(lock_fd_, LOCK_EX | LOCK_NB) != 0) {
       char text[32] = {};
@@ -119,7 +119,8 @@ RunFolder::RunFolder(fs::path folder, RunFolderOptions options)
                 : std::string(),
           folder_.string()));
     }
-    struct stat held {}, at_path {};
+    struct stat held {
+    }, at_path{};
     if (::fstat(lock_fd_, &held) == 0 && ::stat(lock_.c_str(), &at_path) == 0 &&
         held.st_ino == at_path.st_ino && held.st_dev == at_path.st_dev) {
       break;
@@ -171,8 +172,9 @@ void RunFolder::recover_interrupted_run() {
 void RunFolder::check_replaceable() const {
   if (!fs::exists(folder_)) return;
   if (!fs::is_directory(folder_)) {
-    throw OutputError(fmt::format(
-        "'{}' is a file, not a folder; give the run an output folder of its own", folder_.string()));
+    throw OutputError(
+        fmt::format("'{}' is a file, not a folder; give the run an output folder of its own",
+                    folder_.string()));
   }
   for (const fs::path& input : options_.inputs) {
     if (is_inside(input, folder_)) {

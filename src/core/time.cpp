@@ -1,8 +1,9 @@
 #include "levelhead/time.hpp"
 
+#include <fmt/format.h>
+
 #include <chrono>
 #include <cmath>
-#include <fmt/format.h>
 
 namespace levelhead {
 
@@ -92,8 +93,8 @@ std::string format_utc(double seconds) {
   long long rest = std::llround(seconds - whole_days * 86400.0);
   if (rest >= 86400) rest = 86399;  // a rounding at the last half second of the day
   return fmt::format("{:04d}-{:02d}-{:02d}T{:02d}:{:02d}:{:02d}Z", static_cast<int>(ymd.year()),
-                     static_cast<unsigned>(ymd.month()), static_cast<unsigned>(ymd.day()), rest / 3600,
-                     (rest / 60) % 60, rest % 60);
+                     static_cast<unsigned>(ymd.month()), static_cast<unsigned>(ymd.day()),
+                     rest / 3600, (rest / 60) % 60, rest % 60);
 }
 
 }  // namespace levelhead

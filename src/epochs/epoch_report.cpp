@@ -1,5 +1,4 @@
 #include "levelhead/epoch_report.hpp"
-#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -10,6 +9,7 @@
 #include "levelhead/output_files.hpp"
 #include "levelhead/time.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead {
 

@@ -405,8 +405,8 @@ void check_campaign_dates(const std::vector<EpochSections>& epochs) {
                         epochs[k].name, days, format_utc(median).substr(0, 10)));
       }
     }
-    spans.push_back({k, dated.front().first, dated.back().first, dated.front().second,
-                     dated.back().second});
+    spans.push_back(
+        {k, dated.front().first, dated.back().first, dated.front().second, dated.back().second});
   }
   std::sort(spans.begin(), spans.end(),
             [](const CampaignSpan& a, const CampaignSpan& b) { return a.first < b.first; });

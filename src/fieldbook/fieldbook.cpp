@@ -1,8 +1,9 @@
 #include "levelhead/fieldbook.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
-#include <fmt/format.h>
 #include <map>
 #include <numbers>
 #include <set>
@@ -57,18 +58,21 @@ FieldBook read_field_book(const Table& table) {
     Sight s;
     s.row = table.source_row(row);
     s.run = std::string(table.cell(row, run_col));
-    if (s.run.empty()) throw InputError(table.location(row, run_col), "", "every sight needs its run id");
+    if (s.run.empty())
+      throw InputError(table.location(row, run_col), "", "every sight needs its run id");
     const auto setup = table.count(row, setup_col);
-    if (!setup) throw InputError(table.location(row, setup_col), "", "every sight needs its setup number");
+    if (!setup)
+      throw InputError(table.location(row, setup_col), "", "every sight needs its setup number");
     s.setup = *setup;
     s.kind = parse_sight(table, row, sight_col);
     const auto reading = table.length(row, reading_col);
-    if (!reading) throw InputError(table.location(row, reading_col), "", "every sight needs a rod reading");
+    if (!reading)
+      throw InputError(table.location(row, reading_col), "", "every sight needs a rod reading");
     s.reading = *reading;
     if (reading2_col) s.reading2 = table.length(row, *reading2_col);
     if (distance_col) {
-      s.distance = table.length_within(row, *distance_col, bounds::max_sight_distance,
-                                       "a sight distance");
+      s.distance =
+          table.length_within(row, *distance_col, bounds::max_sight_distance, "a sight distance");
       if (s.distance && *s.distance < 0.0) {
         throw InputError(table.location(row, *distance_col),
                          std::string(table.cell(row, *distance_col)),
@@ -93,22 +97,24 @@ void FieldBookOptions::validate() const {
   require_positive(rod_length, "rod length", "m");
   require_positive(section_tolerance_mm_per_sqrt_km, "section tolerance", "mm/sqrt(km)");
   if (!(min_reading >= 0.0) || min_reading >= rod_length) {
-    throw OptionError(fmt::format("minimum rod reading = {} m: must be >= 0 and below the rod "
-                                  "length ({} m)",
-                                  min_reading, rod_length));
+    throw OptionError(
+        fmt::format("minimum rod reading = {} m: must be >= 0 and below the rod "
+                    "length ({} m)",
+                    min_reading, rod_length));
   }
   if (collimation_mm_per_m && collimation_arcsec) {
     throw OptionError("give the collimation error either in mm per m or in arc seconds, not both");
   }
   if (!(refraction_coefficient >= 0.0 && refraction_coefficient < 1.0)) {
-    throw OptionError(fmt::format("refraction coefficient = {}: must lie in [0, 1)",
-                                  refraction_coefficient));
+    throw OptionError(
+        fmt::format("refraction coefficient = {}: must lie in [0, 1)", refraction_coefficient));
   }
 }
 
 double FieldBookOptions::collimation_slope() const {
   if (collimation_mm_per_m) return *collimation_mm_per_m * 1e-3;
-  if (collimation_arcsec) return std::tan(*collimation_arcsec * std::numbers::pi / (180.0 * 3600.0));
+  if (collimation_arcsec)
+    return std::tan(*collimation_arcsec * std::numbers::pi / (180.0 * 3600.0));
   return 0.0;
 }
 
@@ -122,7 +128,9 @@ struct SetupSights {
 
 std::string setup_name(const Sight& s) { return fmt::format("run '{}', setup {}", s.run, s.setup); }
 
-double mean_reading(const Sight& s) { return s.reading2 ? 0.5 * (s.reading + *s.reading2) : s.reading; }
+double mean_reading(const Sight& s) {
+  return s.reading2 ? 0.5 * (s.reading + *s.reading2) : s.reading;
+}
 
 // The corrected height difference from the back sight to another sight of
 // the same setup (the fore sight or a side shot), with its corrections.
@@ -142,7 +150,8 @@ class Reducer {
   FieldBookResult run() {
     for (const auto& setups : group_runs()) reduce_run(setups);
     merge_sections();
-    for (const SetupReduction& s : result_.setups) result_.failed_setups += !s.failed_checks.empty();
+    for (const SetupReduction& s : result_.setups)
+      result_.failed_setups += !s.failed_checks.empty();
     for (const ReducedSection& s : result_.sections) result_.failed_sections += !s.flags.empty();
     return std::move(result_);
   }
@@ -205,7 +214,9 @@ class Reducer {
     }
     for (const auto& run : runs) {
       for (const SetupSights& setup : run) {
-        const Sight& any = setup.back ? *setup.back : setup.fore ? *setup.fore : *setup.sides.front();
+        const Sight& any = setup.back   ? *setup.back
+                           : setup.fore ? *setup.fore
+                                        : *setup.sides.front();
         if (!setup.back) {
           throw InputError(at(any, "sight"), to_string(any.kind),
                            fmt::format("{} has no back sight; add it", setup_name(any)));
@@ -331,26 +342,26 @@ class Reducer {
     ++result_.run_count;
     const Sight& first = *setups.front().back;
     if (!is_section_end(first.point)) {
-      throw InputError(at(first, "point"), first.point,
-                       fmt::format("run '{}' starts on {}; a run must start on a named point "
-                                   "(benchmark, well, mark)",
-                                   first.run,
-                                   first.point.empty() ? "an anonymous point" : "a turning point"));
+      throw InputError(
+          at(first, "point"), first.point,
+          fmt::format("run '{}' starts on {}; a run must start on a named point "
+                      "(benchmark, well, mark)",
+                      first.run, first.point.empty() ? "an anonymous point" : "a turning point"));
     }
     OpenSection open{first.point, 0.0, 0.0, 0.0, 0, first.date, {}, first.row};
     const Sight* previous_fore = nullptr;
     for (const SetupSights& sights : setups) {
       const Sight& back = *sights.back;
       if (previous_fore && !back.point.empty() && back.point != previous_fore->point) {
-        throw InputError(at(back, "point"), back.point,
-                         fmt::format("{} sights back to '{}' but the previous setup sighted "
-                                     "forward to {} (row {}); the back sight must be the last "
-                                     "fore sight",
-                                     setup_name(back), back.point,
-                                     previous_fore->point.empty()
-                                         ? std::string("an anonymous point")
-                                         : "'" + previous_fore->point + "'",
-                                     previous_fore->row));
+        throw InputError(
+            at(back, "point"), back.point,
+            fmt::format("{} sights back to '{}' but the previous setup sighted "
+                        "forward to {} (row {}); the back sight must be the last "
+                        "fore sight",
+                        setup_name(back), back.point,
+                        previous_fore->point.empty() ? std::string("an anonymous point")
+                                                     : "'" + previous_fore->point + "'",
+                        previous_fore->row));
       }
       SetupReduction setup = reduce_setup(sights);
       for (const Sight* side : sights.sides) add_side_shot(open, back, *side);
@@ -374,12 +385,12 @@ class Reducer {
       open = OpenSection{fore.point, 0.0, 0.0, 0.0, 0, fore.date, {}, fore.row};
     }
     if (!is_section_end(previous_fore->point)) {
-      throw InputError(at(*previous_fore, "point"), previous_fore->point,
-                       fmt::format("run '{}' ends on {}; a run must close on a named point, or "
-                                   "the last part of it cannot be used",
-                                   previous_fore->run,
-                                   previous_fore->point.empty() ? "an anonymous point"
-                                                                : "a turning point"));
+      throw InputError(
+          at(*previous_fore, "point"), previous_fore->point,
+          fmt::format("run '{}' ends on {}; a run must close on a named point, or "
+                      "the last part of it cannot be used",
+                      previous_fore->run,
+                      previous_fore->point.empty() ? "an anonymous point" : "a turning point"));
     }
   }
 
@@ -473,7 +484,8 @@ class Reducer {
         merged.side_shot = merged.side_shot || piece->side_shot;
         merged.rows.push_back(piece->rows.front());
         merged.flags.insert(merged.flags.end(), piece->flags.begin(), piece->flags.end());
-        if (runs.insert(piece->run).second && piece != group.front()) merged.run += "+" + piece->run;
+        if (runs.insert(piece->run).second && piece != group.front())
+          merged.run += "+" + piece->run;
       }
       merged.runs = group.size();
       double sum = 0.0;

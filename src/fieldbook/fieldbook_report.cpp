@@ -1,11 +1,12 @@
 #include "levelhead/fieldbook_report.hpp"
-#include "util/json_text.hpp"
 
 #include <fmt/format.h>
+
 #include <nlohmann/json.hpp>
 
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead {
 
@@ -33,7 +34,8 @@ bool field_book_has_failed_checks(const FieldBookResult& result) {
 }
 
 void write_field_book_outputs(const FieldBook& book, const FieldBookResult& result,
-                              const FieldBookOptions& options, const std::filesystem::path& folder) {
+                              const FieldBookOptions& options,
+                              const std::filesystem::path& folder) {
   OutputSet out(folder);
   std::ostream& sections = out.open("sections.csv");
   sections << "from,to,dh,length,setups,runs,run,date,kind,flags,spread,spread_tolerance,"
@@ -56,10 +58,10 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
   for (const SetupReduction& s : result.setups) {
     setups << csv_cell(s.run) << ',' << s.setup << ',' << csv_cell(s.date) << ','
            << csv_cell(s.back) << ',' << csv_cell(s.fore) << ',' << mm5(s.back_reading) << ','
-           << mm5(s.fore_reading) << ',' << m3(s.back_distance) << ',' << m3(s.fore_distance)
-           << ',' << mm5(s.dh_observed) << ',' << mm5(s.double_difference) << ','
-           << mm5(s.collimation) << ',' << mm5(s.curvature_refraction) << ',' << mm5(s.rod_scale)
-           << ',' << mm5(s.rod_expansion) << ',' << mm5(s.dh) << ',' << m3(s.imbalance) << ','
+           << mm5(s.fore_reading) << ',' << m3(s.back_distance) << ',' << m3(s.fore_distance) << ','
+           << mm5(s.dh_observed) << ',' << mm5(s.double_difference) << ',' << mm5(s.collimation)
+           << ',' << mm5(s.curvature_refraction) << ',' << mm5(s.rod_scale) << ','
+           << mm5(s.rod_expansion) << ',' << mm5(s.dh) << ',' << m3(s.imbalance) << ','
            << csv_cell(joined(s.failed_checks, " ")) << ',' << s.first_row << '\n';
   }
 
@@ -76,15 +78,15 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
                        {"failed_setups", result.failed_setups},
                        {"flagged_sections", result.failed_sections},
                        {"setups_without_distances", result.setups_without_distances}};
-  summary["checks"] = {{"max_sight_length", options.max_sight_length},
-                       {"max_setup_imbalance", options.max_setup_imbalance},
-                       {"max_section_imbalance", options.max_section_imbalance},
-                       {"min_reading", options.min_reading},
-                       {"double_reading_tolerance", options.double_reading_tolerance},
-                       {"rod_length", options.rod_length},
-                       {"section_tolerance_mm_per_sqrt_km",
-                        options.section_tolerance_mm_per_sqrt_km},
-                       {"turning_point_prefix", options.turning_point_prefix}};
+  summary["checks"] = {
+      {"max_sight_length", options.max_sight_length},
+      {"max_setup_imbalance", options.max_setup_imbalance},
+      {"max_section_imbalance", options.max_section_imbalance},
+      {"min_reading", options.min_reading},
+      {"double_reading_tolerance", options.double_reading_tolerance},
+      {"rod_length", options.rod_length},
+      {"section_tolerance_mm_per_sqrt_km", options.section_tolerance_mm_per_sqrt_km},
+      {"turning_point_prefix", options.turning_point_prefix}};
   summary["corrections"] = {
       {"collimation_slope", options.collimation_slope()},
       {"collimation_mm_per_m", optional_json(options.collimation_mm_per_m)},
@@ -98,15 +100,18 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
   nlohmann::json flagged = nlohmann::json::array();
   for (const ReducedSection& s : result.sections) {
     if (s.flags.empty()) continue;
-    flagged.push_back({{"from", s.from}, {"to", s.to}, {"run", s.run}, {"flags", s.flags},
-                       {"rows", s.rows}});
+    flagged.push_back(
+        {{"from", s.from}, {"to", s.to}, {"run", s.run}, {"flags", s.flags}, {"rows", s.rows}});
   }
   summary["flagged_sections"] = flagged;
   nlohmann::json closures = nlohmann::json::array();
   for (const RunClosure& c : result.closures) {
-    closures.push_back({{"run", c.run}, {"point", c.point}, {"misclosure", c.misclosure},
+    closures.push_back({{"run", c.run},
+                        {"point", c.point},
+                        {"misclosure", c.misclosure},
                         {"length", optional_json(c.length)},
-                        {"tolerance", optional_json(c.tolerance)}, {"passed", c.passed},
+                        {"tolerance", optional_json(c.tolerance)},
+                        {"passed", c.passed},
                         {"row", c.row}});
   }
   summary["closures"] = closures;
@@ -122,9 +127,10 @@ std::string field_book_summary_text(const FieldBookResult& result) {
       "than once)\n",
       result.run_count, result.setups.size(), result.sections.size(), result.side_shots, merged);
   if (result.setups_without_distances > 0) {
-    text += fmt::format("{} setup(s) have no sight distances: sight checks and the curvature "
-                        "correction were not applied to them\n",
-                        result.setups_without_distances);
+    text += fmt::format(
+        "{} setup(s) have no sight distances: sight checks and the curvature "
+        "correction were not applied to them\n",
+        result.setups_without_distances);
   }
   text += fmt::format("{} setup(s) failed a field check\n", result.failed_setups);
   for (const ReducedSection& s : result.sections) {

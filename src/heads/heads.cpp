@@ -1,5 +1,4 @@
 #include "levelhead/heads.hpp"
-#include "util/json_text.hpp"
 
 #include <cpl_conv.h>
 #include <fmt/format.h>
@@ -18,6 +17,7 @@
 #include "levelhead/event_qa.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
 

@@ -1,5 +1,4 @@
 #include "levelhead/transducer.hpp"
-#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -14,6 +13,7 @@
 #include "levelhead/time.hpp"
 #include "levelhead/units.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
 

@@ -1,12 +1,13 @@
 #include "levelhead/loop_report.hpp"
-#include "util/json_text.hpp"
+
+#include <fmt/format.h>
 
 #include <cmath>
-#include <fmt/format.h>
 #include <nlohmann/json.hpp>
 
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead {
 
@@ -17,8 +18,7 @@ std::string section_label(const Network& net, std::size_t s) {
 }
 
 nlohmann::json section_json(const Network& net, std::size_t s) {
-  return {{"from", net.sections[s].from}, {"to", net.sections[s].to},
-          {"row", net.sections[s].row}};
+  return {{"from", net.sections[s].from}, {"to", net.sections[s].to}, {"row", net.sections[s].row}};
 }
 
 std::string shared_text(const Network& net, const Loop& loop) {

@@ -51,8 +51,9 @@ PointTable read_points(const Table& table) {
       return table.length_within(row, c, bounds::max_sigma, "a sigma");
     });
     if (p.sigma && *p.sigma < 0.0) {
-      throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
-                       "a standard deviation cannot be negative (empty or 0 holds the height fixed)");
+      throw InputError(
+          table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
+          "a standard deviation cannot be negative (empty or 0 holds the height fixed)");
     }
     if (p.sigma && *p.sigma > 0.0 && !p.height) {
       throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
@@ -89,18 +90,20 @@ SectionTable read_sections(const Table& table) {
     if (!dh) throw InputError(table.location(row, dh_col), "", "every section needs its dh");
     s.dh = *dh;
     if (length_col) {
-      s.length = table.length_within(row, *length_col, bounds::max_section_length,
-                                     "a section length");
+      s.length =
+          table.length_within(row, *length_col, bounds::max_section_length, "a section length");
       if (s.length && *s.length <= 0.0) {
-        throw InputError(table.location(row, *length_col), std::string(table.cell(row, *length_col)),
+        throw InputError(table.location(row, *length_col),
+                         std::string(table.cell(row, *length_col)),
                          "a section length must be > 0 m");
       }
     }
     if (sigma_col) {
       s.sigma = table.length_within(row, *sigma_col, bounds::max_sigma, "a sigma");
       if (s.sigma && *s.sigma <= 0.0) {
-        throw InputError(table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
-                         "a section sigma must be > 0 (leave it empty to weight by length or setups)");
+        throw InputError(
+            table.location(row, *sigma_col), std::string(table.cell(row, *sigma_col)),
+            "a section sigma must be > 0 (leave it empty to weight by length or setups)");
       }
     }
     if (setups_col) {
@@ -121,8 +124,9 @@ SectionTable read_sections(const Table& table) {
     sections.push_back(std::move(s));
   }
   if (sections.empty()) {
-    throw InputError(table.source(), "the table holds no sections, only a header; a network "
-                                     "needs at least one observed height difference");
+    throw InputError(table.source(),
+                     "the table holds no sections, only a header; a network "
+                     "needs at least one observed height difference");
   }
   return out;
 }
@@ -137,11 +141,11 @@ Network make_network(PointTable point_table, SectionTable section_table) {
   for (std::size_t i = 0; i < points.size(); ++i) {
     const auto [it, inserted] = net.point_index.emplace(points[i].id, i);
     if (!inserted) {
-      throw NetworkError(fmt::format("{}: point id '{}' appears twice (first at row {}); ids must "
-                                     "be unique",
-                                     describe(net.point_location(i)), points[i].id,
-                                     points[it->second].row),
-                         {points[i].id});
+      throw NetworkError(
+          fmt::format("{}: point id '{}' appears twice (first at row {}); ids must "
+                      "be unique",
+                      describe(net.point_location(i)), points[i].id, points[it->second].row),
+          {points[i].id});
     }
   }
   net.sections = std::move(section_table.sections);

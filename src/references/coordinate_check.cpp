@@ -89,8 +89,8 @@ void check_coordinates_in_crs(const Table& table, const std::string& crs_text) {
   const auto describe_point = [&](const Located& p) {
     const std::string id = id_column ? std::string(table.cell(p.row, *id_column)) : std::string();
     return fmt::format("{}, row {}{}: x = {}, y = {}", table.source(), table.source_row(p.row),
-                       id.empty() ? std::string() : " ('" + id + "')",
-                       table.cell(p.row, *x_column), table.cell(p.row, *y_column));
+                       id.empty() ? std::string() : " ('" + id + "')", table.cell(p.row, *x_column),
+                       table.cell(p.row, *y_column));
   };
 
   if (geographic(crs.get())) {
@@ -174,12 +174,14 @@ void require_metric_plane_crs(const std::string& crs_text, const std::string& op
   PjPtr cs(proj_crs_get_coordinate_system(ctx.get(), crs.get()));
   double metres = 0.0;
   const char* unit = nullptr;
-  if (!cs || !proj_cs_get_axis_info(ctx.get(), cs.get(), 0, nullptr, nullptr, nullptr, &metres,
-                                    &unit, nullptr, nullptr) ||
+  if (!cs ||
+      !proj_cs_get_axis_info(ctx.get(), cs.get(), 0, nullptr, nullptr, nullptr, &metres, &unit,
+                             nullptr, nullptr) ||
       std::abs(metres - 1.0) > 1e-12) {
-    throw OptionError(fmt::format("{} {}: its axes are in {}, not metres; give the metre CRS of "
-                                  "the same projection, with x and y in metres",
-                                  option, crs_text, unit ? unit : "another unit"));
+    throw OptionError(
+        fmt::format("{} {}: its axes are in {}, not metres; give the metre CRS of "
+                    "the same projection, with x and y in metres",
+                    option, crs_text, unit ? unit : "another unit"));
   }
 }
 

@@ -1,5 +1,4 @@
 #include "levelhead/height_conversion.hpp"
-#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 
@@ -10,6 +9,7 @@
 #include "levelhead/errors.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead {
 
@@ -94,7 +94,8 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
       transform = r.transform;
       std::vector<std::string> notes = r.flags;
       if (sigma_in || r.variance_added > 0.0) {
-        const double s = std::sqrt(sigma_in.value_or(0.0) * sigma_in.value_or(0.0) + r.variance_added);
+        const double s =
+            std::sqrt(sigma_in.value_or(0.0) * sigma_in.value_or(0.0) + r.variance_added);
         sigma_text = fmt::format("{:.5f}", s / unit);
       }
       if (!sigma_in) notes.push_back("input-sigma-missing");
@@ -140,8 +141,10 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   summary["to"] = converter.to();
   if (const VerticalTransformer* proj = converter.proj()) {
     const auto info = [](const ReferenceInfo& r) {
-      return nlohmann::json{{"definition", r.definition}, {"name", r.name},
-                            {"native_unit", r.unit}, {"metres_per_unit", r.metres_per_unit},
+      return nlohmann::json{{"definition", r.definition},
+                            {"name", r.name},
+                            {"native_unit", r.unit},
+                            {"metres_per_unit", r.metres_per_unit},
                             {"dynamic", r.dynamic}};
     };
     summary["proj_from"] = info(proj->source());
@@ -164,14 +167,16 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     for (const GridUse& g : op.grids) {
       grids.push_back({{"name", g.name}, {"path", g.path}, {"sha256", g.sha256}});
     }
-    ops.push_back({{"name", op.name},
-                   {"pipeline", op.pipeline},
-                   {"accuracy", op.accuracy ? nlohmann::json(*op.accuracy) : nlohmann::json(nullptr)},
-                   {"grids", grids},
-                   {"points", op.points}});
+    ops.push_back(
+        {{"name", op.name},
+         {"pipeline", op.pipeline},
+         {"accuracy", op.accuracy ? nlohmann::json(*op.accuracy) : nlohmann::json(nullptr)},
+         {"grids", grids},
+         {"points", op.points}});
   }
   summary["operations"] = ops;
-  summary["warnings"] = converter.proj() ? converter.proj()->warnings() : std::vector<std::string>{};
+  summary["warnings"] =
+      converter.proj() ? converter.proj()->warnings() : std::vector<std::string>{};
   nlohmann::json failed = nlohmann::json::array();
   for (std::size_t k = 0; k < results.size(); ++k) {
     if (!results[k].height) {

@@ -86,8 +86,9 @@ double finite_number(const std::string& file, const toml::node& node, const std:
   const auto v = node.value<double>();
   if (!v) throw InputError(where(file, node), fmt::format("{} must be a number", what));
   if (!std::isfinite(*v)) {
-    throw InputError(where(file, node),
-                     fmt::format("{} must be a finite number (nan and inf are not accepted)", what));
+    throw InputError(
+        where(file, node),
+        fmt::format("{} must be a finite number (nan and inf are not accepted)", what));
   }
   return *v;
 }
@@ -289,9 +290,9 @@ void require_reference_name(const std::string& name, const std::string& option) 
       "{} '{}': a reference name is ASCII letters, digits, '-' and '_', starting with a letter "
       "({}); e.g. site-1998",
       option, util::shortened(name, 40),
-      name.empty()               ? "it is empty"
-      : !starts_with_letter      ? "it starts with something else"
-                                 : fmt::format("'{}' is not allowed", std::string(1, *bad))));
+      name.empty()          ? "it is empty"
+      : !starts_with_letter ? "it starts with something else"
+                            : fmt::format("'{}' is not allowed", std::string(1, *bad))));
 }
 
 }  // namespace levelhead

@@ -1,9 +1,10 @@
 #include "levelhead/site_tie.hpp"
 
+#include <fmt/format.h>
+
 #include <Eigen/Dense>
 #include <algorithm>
 #include <cmath>
-#include <fmt/format.h>
 #include <unordered_map>
 #include <unordered_set>
 
@@ -124,8 +125,9 @@ TieResult estimate_tie(const std::vector<TiePoint>& ties, const TieOptions& opti
   const double condition_floor = 1e-10;  // relative pivot below which the slope is undetermined
   const Eigen::VectorXd d = ldlt.vectorD();
   if (ldlt.info() != Eigen::Success || d.minCoeff() <= condition_floor * d.maxCoeff()) {
-    throw InputError("ties", "the tie points lie (nearly) on a line, so a slope across it cannot "
-                             "be estimated; use the offset model or add ties off the line");
+    throw InputError("ties",
+                     "the tie points lie (nearly) on a line, so a slope across it cannot "
+                     "be estimated; use the offset model or add ties off the line");
   }
   const Eigen::MatrixXd Q = ldlt.solve(Eigen::MatrixXd::Identity(parameters, parameters));
   const Eigen::VectorXd x = Q * (A.transpose() * p.asDiagonal() * l);
@@ -158,7 +160,8 @@ TieResult estimate_tie(const std::vector<TiePoint>& ties, const TieOptions& opti
   r.hull = convex_hull(xy);
 
   result.w_critical = w_test_critical_value(options.alpha0);
-  const Eigen::MatrixXd Qvv = Eigen::MatrixXd(p.cwiseInverse().asDiagonal()) - A * Q * A.transpose();
+  const Eigen::MatrixXd Qvv =
+      Eigen::MatrixXd(p.cwiseInverse().asDiagonal()) - A * Q * A.transpose();
   for (Eigen::Index i = 0; i < n; ++i) {
     TieResidual t;
     t.difference = l[i];
@@ -170,7 +173,8 @@ TieResult estimate_tie(const std::vector<TiePoint>& ties, const TieOptions& opti
       // normal critical value as an approximation).
       const double scale_w = result.weighted ? 1.0 : *result.sigma0;
       t.w = v[i] / (scale_w * std::sqrt(Qvv(i, i)));
-      if (std::abs(*t.w) > result.w_critical) result.suspects.push_back(static_cast<std::size_t>(i));
+      if (std::abs(*t.w) > result.w_critical)
+        result.suspects.push_back(static_cast<std::size_t>(i));
     }
     result.residuals.push_back(t);
   }

@@ -1,5 +1,4 @@
 #include "levelhead/report.hpp"
-#include "util/json_text.hpp"
 
 #include <fmt/format.h>
 #include <gdal.h>
@@ -20,6 +19,7 @@
 #include "levelhead/version.hpp"
 #include "levelhead/vertical_reference.hpp"
 #include "report/svg.hpp"
+#include "util/json_text.hpp"
 
 namespace levelhead {
 

@@ -122,7 +122,8 @@ Values software_of(const Record& record) {
 // The run's own files as its record lists them: those missing or changed
 // since are named (`side` is OLD or NEW) and left out of the comparison.
 std::set<std::string> unusable_outputs(const Record& record, const fs::path& folder,
-                                       const std::string& side, std::vector<std::string>& problems) {
+                                       const std::string& side,
+                                       std::vector<std::string>& problems) {
   std::set<std::string> unusable;
   if (!record.has("outputs")) {
     problems.push_back(fmt::format(
@@ -238,8 +239,7 @@ RunDifference compare_runs(const fs::path& before, const fs::path& after, double
   compare("setting", settings_of(b), settings_of(a), d.configuration);
   compare("grid", grids_of(b), grids_of(a), d.configuration);
   compare("software", software_of(b), software_of(a), d.configuration);
-  const std::set<std::string> unusable_before =
-      unusable_outputs(b, before, "OLD", d.file_problems);
+  const std::set<std::string> unusable_before = unusable_outputs(b, before, "OLD", d.file_problems);
   const std::set<std::string> unusable_after = unusable_outputs(a, after, "NEW", d.file_problems);
 
   // One of the compared tables of both runs; a table only one run has (the
@@ -266,8 +266,7 @@ RunDifference compare_runs(const fs::path& before, const fs::path& after, double
   d.measuring_points = moved(mp_before, mp_after, tolerance, d.measuring_points_one_sided);
 
   const std::vector<std::string> texts = {"well", "depth", "mp_elevation", "state"};
-  const auto [heads_before, heads_after] =
-      both("heads/heads.csv", {"well", "time"}, "head", texts);
+  const auto [heads_before, heads_after] = both("heads/heads.csv", {"well", "time"}, "head", texts);
   std::map<std::string, WellHeadChanges> wells;
   std::map<std::string, std::set<std::string>> causes;
   const bool readings_changed = changed(d.configuration, "input", "levels");
@@ -345,13 +344,14 @@ std::string difference_text(const RunDifference& d, double tolerance) {
     if (changes.size() > 20) text += fmt::format("  ... and {} more\n", changes.size() - 20);
   };
   const auto one_sided = [&](const char* what, const OneSided& o) {
-    for (const auto& [side, keys] : {std::pair{"OLD", &o.only_before}, std::pair{"NEW", &o.only_after}}) {
+    for (const auto& [side, keys] :
+         {std::pair{"OLD", &o.only_before}, std::pair{"NEW", &o.only_after}}) {
       if (keys->empty()) continue;
-      text += fmt::format("{} only in {}: {}{}\n", what, side,
-                          fmt::join(keys->begin(), keys->begin() + std::min<std::ptrdiff_t>(
-                                                                       20, keys->size()),
-                                    ", "),
-                          keys->size() > 20 ? fmt::format(" and {} more", keys->size() - 20) : "");
+      text +=
+          fmt::format("{} only in {}: {}{}\n", what, side,
+                      fmt::join(keys->begin(),
+                                keys->begin() + std::min<std::ptrdiff_t>(20, keys->size()), ", "),
+                      keys->size() > 20 ? fmt::format(" and {} more", keys->size() - 20) : "");
     }
   };
   list("Adjusted heights", d.heights);

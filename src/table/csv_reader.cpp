@@ -4,15 +4,15 @@
 // every cell stays text and the typed accessors of Table report bad cells.
 
 #include <fcntl.h>
+#include <fmt/format.h>
 #include <sys/mman.h>
 #include <sys/stat.h>
 #include <unistd.h>
 
 #include <algorithm>
 #include <deque>
-#include <optional>
-#include <fmt/format.h>
 #include <fstream>
+#include <optional>
 #include <sstream>
 
 #include "levelhead/input_files.hpp"
@@ -200,7 +200,8 @@ void parse_delimited_batches(std::string_view text, const std::string& source,
 Table parse_delimited_text(std::string_view text, const std::string& source,
                            const TableOptions& options) {
   std::optional<Table> result;
-  parse_delimited_batches(text, source, options, 0, [&](Table& t) { result.emplace(std::move(t)); });
+  parse_delimited_batches(text, source, options, 0,
+                          [&](Table& t) { result.emplace(std::move(t)); });
   return std::move(*result);
 }
 
@@ -225,7 +226,8 @@ void read_table_in_batches(const std::filesystem::path& path, const TableOptions
   const std::size_t size = static_cast<std::size_t>(info.st_size);
   void* mapped = ::mmap(nullptr, size, PROT_READ, MAP_PRIVATE, fd, 0);
   ::close(fd);
-  if (mapped == MAP_FAILED) throw InputError(path.string(), "the file cannot be mapped for reading");
+  if (mapped == MAP_FAILED)
+    throw InputError(path.string(), "the file cannot be mapped for reading");
   ::madvise(mapped, size, MADV_SEQUENTIAL);
   struct Unmap {
     void* p;

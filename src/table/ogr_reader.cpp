@@ -4,13 +4,13 @@
 
 #include <cpl_conv.h>
 #include <cpl_error.h>
+#include <cpl_vsi.h>
 #include <fmt/format.h>
 #include <gdal.h>
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
 
 #include <algorithm>
-#include <cpl_vsi.h>
 #include <memory>
 #include <mutex>
 #include <optional>
@@ -133,7 +133,8 @@ std::vector<std::string> formula_cells_without_value(const std::string& path,
   std::string relation_id;
   for (std::size_t at = workbook->find("<sheet "); at != std::string::npos;
        at = workbook->find("<sheet ", at + 1)) {
-    const std::string_view tag = std::string_view(*workbook).substr(at, workbook->find('>', at) - at);
+    const std::string_view tag =
+        std::string_view(*workbook).substr(at, workbook->find('>', at) - at);
     if (xml_attribute(tag, "name") == sheet) relation_id = xml_attribute(tag, "r:id");
   }
   std::string target;
@@ -148,7 +149,8 @@ std::vector<std::string> formula_cells_without_value(const std::string& path,
   const auto part = read_zip_part(path, target.front() == '/' ? target.substr(1) : "xl/" + target);
   if (!part) return {};
   std::vector<std::string> cells;
-  for (std::size_t at = part->find("<c "); at != std::string::npos; at = part->find("<c ", at + 1)) {
+  for (std::size_t at = part->find("<c "); at != std::string::npos;
+       at = part->find("<c ", at + 1)) {
     const std::size_t tag_end = part->find('>', at);
     if (tag_end == std::string::npos) break;
     if ((*part)[tag_end - 1] == '/') continue;  // <c .../>: an empty cell
@@ -164,19 +166,19 @@ std::vector<std::string> formula_cells_without_value(const std::string& path,
 // ... when the first row is empty; other layers or sheets may hold the data.
 std::string missing_column_hint(GDALDatasetH dataset, OGRLayerH layer,
                                 const std::vector<std::string>& columns) {
-  const bool generated = !columns.empty() && std::all_of(columns.begin(), columns.end(),
-                                                         [](const std::string& c) {
-                                                           return c.rfind("Field", 0) == 0;
-                                                         });
+  const bool generated = !columns.empty() &&
+                         std::all_of(columns.begin(), columns.end(),
+                                     [](const std::string& c) { return c.rfind("Field", 0) == 0; });
   const int layers = GDALDatasetGetLayerCount(dataset);
   std::vector<std::string> hints;
   if (layers > 1) {
     std::vector<std::string> names;
     for (int i = 0; i < layers; ++i)
       names.emplace_back(OGR_L_GetName(GDALDatasetGetLayer(dataset, i)));
-    hints.push_back(fmt::format("This is sheet or layer '{}' of {} ({}); choose another with the "
-                                "layer option of the table (e.g. --layer, --points-layer)",
-                                OGR_L_GetName(layer), layers, fmt::join(names, ", ")));
+    hints.push_back(
+        fmt::format("This is sheet or layer '{}' of {} ({}); choose another with the "
+                    "layer option of the table (e.g. --layer, --points-layer)",
+                    OGR_L_GetName(layer), layers, fmt::join(names, ", ")));
   } else if (generated) {
     hints.push_back(
         "The first row of the sheet looks empty: levelhead takes the column names from the "
@@ -203,8 +205,8 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
   // text they are (other drivers ignore the options; the quiet handler
   // swallows their warning).
   const char* const open_options[] = {"DATE_AS_STRING=YES", "ARRAY_AS_STRING=YES", nullptr};
-  DatasetPtr dataset(GDALOpenEx(name.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr,
-                                open_options, nullptr));
+  DatasetPtr dataset(
+      GDALOpenEx(name.c_str(), GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, open_options, nullptr));
   CPLPopErrorHandler();
   if (!dataset) {
     throw InputError(name, fmt::format("GDAL cannot read this file as a table ({}); supported are "
@@ -214,7 +216,8 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
   }
   OGRLayerH layer = nullptr;
   if (options.layer.empty()) {
-    if (GDALDatasetGetLayerCount(dataset.get()) < 1) throw InputError(name, "the file has no layer");
+    if (GDALDatasetGetLayerCount(dataset.get()) < 1)
+      throw InputError(name, "the file has no layer");
     layer = GDALDatasetGetLayer(dataset.get(), 0);
   } else {
     layer = GDALDatasetGetLayerByName(dataset.get(), options.layer.c_str());
@@ -249,8 +252,7 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
     }
     return false;
   }();
-  const bool geometry_xy =
-      !has_xy && wkbFlatten(OGR_L_GetGeomType(layer)) == wkbPoint;
+  const bool geometry_xy = !has_xy && wkbFlatten(OGR_L_GetGeomType(layer)) == wkbPoint;
   if (geometry_xy) {
     columns.emplace_back("x");
     columns.emplace_back("y");
@@ -300,8 +302,8 @@ Table read_ogr_table(const std::filesystem::path& path, const TableOptions& opti
       views[i] = values[i];
       blank = blank && util::trim(values[i]).empty();
     }
-    if (blank) continue;                 // spreadsheets often end in empty rows
-    table.add_row(views, index + 1);     // header counted as row 1, as a spreadsheet shows it
+    if (blank) continue;              // spreadsheets often end in empty rows
+    table.add_row(views, index + 1);  // header counted as row 1, as a spreadsheet shows it
   }
   return table;
 }

@@ -1,14 +1,15 @@
 #include "levelhead/table.hpp"
 
+#include <fmt/format.h>
+
 #include <charconv>
 #include <cmath>
-#include <fmt/format.h>
 #include <set>
 
-#include "table/readers.hpp"
 #include "levelhead/coordinate_check.hpp"
 #include "levelhead/input_files.hpp"
 #include "levelhead/time.hpp"
+#include "table/readers.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
@@ -36,7 +37,9 @@ ColumnMap parse_column_map(std::string_view text) {
 }
 
 Table::Table(std::string source, std::vector<std::string> column_names, TableOptions options)
-    : source_(std::move(source)), column_names_(std::move(column_names)), options_(std::move(options)) {
+    : source_(std::move(source)),
+      column_names_(std::move(column_names)),
+      options_(std::move(options)) {
   std::set<std::string> seen;
   for (const auto& name : column_names_) {
     if (!seen.insert(util::to_lower(name)).second) {
@@ -70,12 +73,12 @@ std::optional<std::size_t> Table::find_column(std::string_view name) const {
 
 std::size_t Table::require_column(std::string_view name) const {
   if (auto index = find_column(name)) return *index;
-  throw InputError(source_, fmt::format("required column '{}' is missing (columns found: {}); "
-                                        "rename the column or map it with a column map{}",
-                                        name, fmt::join(column_names_, ", "),
-                                        missing_column_hint_.empty()
-                                            ? std::string()
-                                            : ". " + missing_column_hint_));
+  throw InputError(
+      source_,
+      fmt::format("required column '{}' is missing (columns found: {}); "
+                  "rename the column or map it with a column map{}",
+                  name, fmt::join(column_names_, ", "),
+                  missing_column_hint_.empty() ? std::string() : ". " + missing_column_hint_));
 }
 
 std::string_view Table::cell(std::size_t row, std::size_t column) const {
@@ -180,8 +183,9 @@ void Table::add_row(const std::vector<std::string_view>& cells, std::size_t sour
 Table read_table(const std::filesystem::path& path, const TableOptions& options) {
   std::error_code ec;
   if (!std::filesystem::is_regular_file(path, ec)) {
-    throw InputError(path.string(), "no such file (check the path; relative paths are taken from "
-                                    "the current folder)");
+    throw InputError(path.string(),
+                     "no such file (check the path; relative paths are taken from "
+                     "the current folder)");
   }
   note_input_file(path);
   const std::string extension = util::to_lower(path.extension().string());

@@ -43,8 +43,9 @@ void require_utf8_file(std::string_view text, const std::string& source) {
   }
   const auto bad = first_invalid_utf8(text);
   if (!bad) return;
-  const std::size_t line = 1 + static_cast<std::size_t>(std::count(
-                                   text.begin(), text.begin() + static_cast<std::ptrdiff_t>(*bad), '\n'));
+  const std::size_t line =
+      1 + static_cast<std::size_t>(
+              std::count(text.begin(), text.begin() + static_cast<std::ptrdiff_t>(*bad), '\n'));
   throw InputError(
       fmt::format("{}, line {}", source, line),
       fmt::format("byte 0x{:02X} at byte offset {} is not UTF-8 (a file saved as Latin-1 or "

@@ -15,7 +15,8 @@ namespace levelhead::util {
 // "points[3].sigma"), or empty. nlohmann writes NaN and inf as null, which
 // would pass for "not given" in a summary.
 inline std::string non_finite_path(const nlohmann::json& value, const std::string& path = "") {
-  if (value.is_number_float()) return std::isfinite(value.get<double>()) ? "" : (path.empty() ? "(top)" : path);
+  if (value.is_number_float())
+    return std::isfinite(value.get<double>()) ? "" : (path.empty() ? "(top)" : path);
   if (value.is_object()) {
     for (const auto& [key, item] : value.items()) {
       std::string found = non_finite_path(item, path.empty() ? key : path + "." + key);
@@ -34,9 +35,12 @@ inline std::string non_finite_path(const nlohmann::json& value, const std::strin
 // a computation, never written.
 inline std::string json_text(const nlohmann::json& value) {
   if (const std::string path = non_finite_path(value); !path.empty()) {
-    throw ComputationError("internal check: a JSON summary would hold a value that is not a "
-                           "number at '" + path + "'; nothing was written. This is a fault of "
-                           "levelhead with these inputs: please report it with them");
+    throw ComputationError(
+        "internal check: a JSON summary would hold a value that is not a "
+        "number at '" +
+        path +
+        "'; nothing was written. This is a fault of "
+        "levelhead with these inputs: please report it with them");
   }
   return value.dump(2, ' ', false, nlohmann::json::error_handler_t::replace);
 }
