@@ -7,24 +7,15 @@
 #include <sstream>
 
 #include "cli/app.hpp"
+#include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 
 using Catch::Matchers::Contains;
 namespace fs = std::filesystem;
+using levelhead::testing::CliRun;
+using levelhead::testing::run_cli;
 
 namespace {
-
-struct CliRun {
-  int code;
-  std::string out, err;
-};
-
-CliRun run_cli(std::vector<std::string> args) {
-  args.insert(args.begin(), "levelhead");
-  std::ostringstream out, err;
-  const int code = levelhead::cli::run(args, out, err);
-  return {code, out.str(), err.str()};
-}
 
 const fs::path bad = fs::path(LEVELHEAD_FIXTURES_DIR) / "bad";
 

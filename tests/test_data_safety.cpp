@@ -15,38 +15,23 @@
 #include <sstream>
 
 #include "cli/app.hpp"
+#include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 
 using Catch::Matchers::Contains;
 namespace fs = std::filesystem;
+using levelhead::testing::CliRun;
+using levelhead::testing::read_file;
+using levelhead::testing::run_cli;
 
 namespace {
-
-struct CliRun {
-  int code;
-  std::string out, err;
-};
-
-CliRun run_cli(std::vector<std::string> args) {
-  args.insert(args.begin(), "levelhead");
-  std::ostringstream out, err;
-  const int code = levelhead::cli::run(args, out, err);
-  return {code, out.str(), err.str()};
-}
-
-std::string read(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
 
 // Every file of a folder (recursively) with its contents.
 std::map<std::string, std::string> snapshot(const fs::path& folder) {
   std::map<std::string, std::string> files;
   for (const auto& entry : fs::recursive_directory_iterator(folder)) {
     if (entry.is_regular_file()) {
-      files[entry.path().lexically_relative(folder).string()] = read(entry.path());
+      files[entry.path().lexically_relative(folder).string()] = read_file(entry.path());
     }
   }
   return files;
@@ -121,11 +106,11 @@ TEST_CASE("no command replaces one of its inputs, whatever --out says", "[safety
 TEST_CASE("diff does not write its JSON over a run's audit record", "[safety][diff]") {
   DemoFolder demo;
   const std::string record = (demo.run / "run.json").string();
-  const std::string before = read(record);
+  const std::string before = read_file(record);
   const CliRun r = run_cli({"diff", demo.run.string(), demo.run.string(), "--json", record});
   CHECK(r.code == 1);
   CHECK_THAT(r.err, Contains("refusing to write") && Contains("run.json"));
-  CHECK(read(record) == before);
+  CHECK(read_file(record) == before);
 }
 
 TEST_CASE("an output reached through a hard link to an input is refused", "[safety]") {
@@ -133,12 +118,12 @@ TEST_CASE("an output reached through a hard link to an input is refused", "[safe
   const fs::path out = demo.tmp.path() / "linked";
   fs::create_directories(out);
   fs::create_hard_link(demo.inputs / "points.csv", out / "heights.csv");
-  const std::string before = read(demo.inputs / "points.csv");
+  const std::string before = read_file(demo.inputs / "points.csv");
   const CliRun r = run_cli({"adjust", "--points", demo.at("points.csv"), "--sections",
                             demo.at("sections.csv"), "--out", out.string()});
   CHECK(r.code == 1);
   CHECK_THAT(r.err, Contains("refusing to write"));
-  CHECK(read(demo.inputs / "points.csv") == before);
+  CHECK(read_file(demo.inputs / "points.csv") == before);
 }
 
 TEST_CASE("a run replaces only its own kind of folder", "[safety][project]") {
@@ -169,7 +154,7 @@ TEST_CASE("a run replaces only its own kind of folder", "[safety][project]") {
       const CliRun r = run_cli(args);
       CHECK(r.code == 1);
       CHECK_THAT(r.err, Contains("not the output of a levelhead run") && Contains("notes.txt"));
-      CHECK(read(out / "notes.txt") == "field notes\n");
+      CHECK(read_file(out / "notes.txt") == "field notes\n");
     }
   }
   SECTION("a folder holding the run's inputs is refused") {
@@ -242,7 +227,7 @@ TEST_CASE("a run killed midway is undone by the next run into the folder", "[saf
     kill_midway();
     CHECK(run_cli({"run", project, "--out", out.string(), "--quiet"}).code == 0);
     CHECK_FALSE(fs::exists(set_aside));
-    CHECK(read(out / "adjust" / "heights.csv") == complete.at("adjust/heights.csv"));
+    CHECK(read_file(out / "adjust" / "heights.csv") == complete.at("adjust/heights.csv"));
   }
 }
 
@@ -254,7 +239,7 @@ TEST_CASE("diff says what it could not compare instead of 'the runs agree'", "[s
   REQUIRE_THAT(run_cli({"diff", before.string(), after.string()}).out, Contains("The runs agree"));
   // The same edit of a file, with and without the run's checksums in run.json.
   const auto drop_row = [&](const fs::path& file, const std::string& start) {
-    std::string text = read(file);
+    std::string text = read_file(file);
     const auto at = text.find("\n" + start);
     REQUIRE(at != std::string::npos);
     text.erase(at + 1, text.find('\n', at + 1) - at);
@@ -268,7 +253,7 @@ TEST_CASE("diff says what it could not compare instead of 'the runs agree'", "[s
   }
   SECTION("a point missing from a run without output checksums") {
     for (const fs::path& run : {before, after}) {
-      auto record = nlohmann::json::parse(read(run / "run.json"));
+      auto record = nlohmann::json::parse(read_file(run / "run.json"));
       record.erase("outputs");
       std::ofstream(run / "run.json") << record.dump(2);
     }
@@ -289,7 +274,7 @@ TEST_CASE("diff says what it could not compare instead of 'the runs agree'", "[s
     CHECK_THAT(r.out, Contains("OLD heads/measuring_points.csv: missing"));
   }
   SECTION("a run.json without a part it needs is named, not a crash") {
-    auto record = nlohmann::json::parse(read(after / "run.json"));
+    auto record = nlohmann::json::parse(read_file(after / "run.json"));
     record.erase("settings_changed");
     std::ofstream(after / "run.json") << record.dump(2);
     const CliRun r = run_cli({"diff", before.string(), after.string()});
@@ -328,7 +313,7 @@ TEST_CASE("text that is not UTF-8 is refused at the edge, naming its place", "[s
     const CliRun r = adjust(folder / "points.csv");
     INFO(r.err);
     CHECK(r.code == 0);
-    CHECK(nlohmann::json::parse(read(tmp.path() / "out" / "summary.json")).is_object());
+    CHECK(nlohmann::json::parse(read_file(tmp.path() / "out" / "summary.json")).is_object());
   }
 }
 

@@ -17,31 +17,16 @@
 #include "levelhead/output_files.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/units.hpp"
+#include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 
 using Catch::Matchers::Contains;
 namespace fs = std::filesystem;
+using Run = levelhead::testing::CliRun;
+const auto cli = levelhead::testing::run_cli;
+using levelhead::testing::read_file;
 
 namespace {
-
-struct Run {
-  int code;
-  std::string out, err;
-};
-
-Run cli(std::vector<std::string> args) {
-  args.insert(args.begin(), "levelhead");
-  std::ostringstream out, err;
-  const int code = levelhead::cli::run(args, out, err);
-  return {code, out.str(), err.str()};
-}
-
-std::string read(const fs::path& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream s;
-  s << in.rdbuf();
-  return s.str();
-}
 
 // The demo's inputs and project file, copied to `folder`.
 fs::path demo_project(const fs::path& folder) {
@@ -52,7 +37,7 @@ fs::path demo_project(const fs::path& folder) {
 }
 
 void replace_in(const fs::path& file, const std::string& from, const std::string& to) {
-  std::string text = read(file);
+  std::string text = read_file(file);
   const auto at = text.find(from);
   REQUIRE(at != std::string::npos);
   text.replace(at, from.size(), to);
@@ -71,7 +56,7 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
     CHECK(fs::exists(tmp.path() / stage / "summary.json"));
   }
   CHECK(fs::exists(tmp.path() / "flow" / "flow.json"));
-  const std::string html = read(tmp.path() / "report.html");
+  const std::string html = read_file(tmp.path() / "report.html");
   for (const char* section :
        {"Findings", "Levelling network", "Loop misclosures", "Adjustment",
         "GNSS heights against the levelling", "Monitoring epochs", "Pressure transducers",
@@ -92,9 +77,9 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(html, Contains("Reference mark SBM-B is moving"));  // the sinking benchmark
   CHECK_THAT(html, Contains("transducer-drift-rejected"));       // the knocked logger
   CHECK_THAT(html, Contains("Unchecked levelling: the measuring point(s) of MW-07"));  // side shot
-  CHECK_THAT(read(tmp.path() / "report.md"), Contains("![Levelling network"));
+  CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("![Levelling network"));
   // Markdown punctuation in the text is escaped, not read as markup.
-  CHECK_THAT(read(tmp.path() / "report.md"), Contains("residual \\|w\\| of each"));
+  CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("residual \\|w\\| of each"));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
 
   std::ifstream record_file(tmp.path() / "run.json");
@@ -118,7 +103,7 @@ TEST_CASE("two runs of the demo agree apart from the report's run-time line", "[
   for (const auto& entry : fs::recursive_directory_iterator(tmp.path() / "a")) {
     if (!entry.is_regular_file()) continue;
     const fs::path relative = fs::relative(entry.path(), tmp.path() / "a");
-    std::string a = read(entry.path()), b = read(tmp.path() / "b" / relative);
+    std::string a = read_file(entry.path()), b = read_file(tmp.path() / "b" / relative);
     if (relative.filename().string().rfind("report.", 0) == 0) {
       a = std::regex_replace(a, run_time, "");
       b = std::regex_replace(b, run_time, "");
@@ -181,20 +166,20 @@ TEST_CASE("a failing stage stops the chain and keeps nothing of that run", "[pro
     CHECK_FALSE(fs::exists(out));
   }
   SECTION("over a complete run: that run stays as it was, with no file of the failed one") {
-    const std::string good_levels = read(tmp.path() / "seed" / "inputs" / "levels.csv");
-    const std::string bad_levels = read(project.parent_path() / "levels.csv");
+    const std::string good_levels = read_file(tmp.path() / "seed" / "inputs" / "levels.csv");
+    const std::string bad_levels = read_file(project.parent_path() / "levels.csv");
     std::ofstream(project.parent_path() / "levels.csv", std::ios::binary) << good_levels;
     REQUIRE(cli({"run", project.string(), "--out", out.string(), "--quiet"}).code == 0);
     std::map<std::string, std::string> before;
     for (const auto& e : fs::recursive_directory_iterator(out))
-      if (e.is_regular_file()) before[e.path().string()] = read(e.path());
+      if (e.is_regular_file()) before[e.path().string()] = read_file(e.path());
     std::ofstream(project.parent_path() / "levels.csv", std::ios::binary) << bad_levels;
     const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
     CHECK(run.code == 1);
     CHECK_THAT(run.err, Contains("holds the previous complete run"));
     std::map<std::string, std::string> after;
     for (const auto& e : fs::recursive_directory_iterator(out))
-      if (e.is_regular_file()) after[e.path().string()] = read(e.path());
+      if (e.is_regular_file()) after[e.path().string()] = read_file(e.path());
     CHECK(after == before);
     // Nothing beside the folder either: no lock, no set-aside copy.
     std::vector<std::string> beside;
@@ -363,7 +348,7 @@ TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
     // MW-03's casing-cut survey raised by 0.100 m: the heads of MW-03 from
     // then until its next survey move by exactly that, no other well's do.
     const fs::path mp = project.parent_path() / "measuring_points.csv";
-    std::string text = read(mp);
+    std::string text = read_file(mp);
     const std::string old_row = "MW-03,2026-03-10,";
     const auto at = text.find(old_row);
     REQUIRE(at != std::string::npos);
@@ -407,7 +392,8 @@ TEST_CASE("project column maps reach every stage that reads the table", "[projec
   const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
   INFO(run.err);
   REQUIRE(run.code == 0);
-  CHECK_THAT(read(out / "transducer" / "levels.csv").substr(0, 16), Contains("well,time,depth"));
-  CHECK_THAT(read(out / "report.html"), Contains("fig-heads"));
+  CHECK_THAT(read_file(out / "transducer" / "levels.csv").substr(0, 16),
+             Contains("well,time,depth"));
+  CHECK_THAT(read_file(out / "report.html"), Contains("fig-heads"));
   CHECK(fs::exists(out / "flow" / "flow.json"));
 }
