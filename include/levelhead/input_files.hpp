@@ -26,6 +26,10 @@ void note_input_file(const std::filesystem::path& file);
 // nullopt; nullopt too when `destination` does not exist.
 std::optional<std::string> input_file_at(const std::filesystem::path& destination);
 
+// Notes `file` and returns its whole content as bytes. InputError naming the
+// file when it cannot be opened or read completely.
+std::string read_input_text(const std::filesystem::path& file);
+
 class InputFileScope {
  public:
   InputFileScope();

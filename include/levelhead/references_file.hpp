@@ -54,6 +54,7 @@
 #include <filesystem>
 #include <map>
 #include <optional>
+#include <string_view>
 #include <string>
 #include <vector>
 
@@ -92,6 +93,9 @@ class ReferenceSet {
  public:
   ReferenceSet() = default;
   static ReferenceSet load(const std::filesystem::path& file);
+  // The same from the text of a references file; `file` names it in
+  // messages and relative grid paths are taken from its folder.
+  static ReferenceSet parse(std::string_view text, const std::filesystem::path& file);
   void add(ReferenceDefinition definition);
 
   const ReferenceDefinition* find(const std::string& name) const;

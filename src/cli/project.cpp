@@ -239,14 +239,17 @@ bool has_setting(const Project& p, const std::string& section, const std::string
 }  // namespace
 
 Project load_project(const fs::path& file) {
+  if (!fs::exists(file)) throw InputError(file.string(), "project file not found");
+  return parse_project(read_input_text(file), file);
+}
+
+Project parse_project(std::string_view text, const fs::path& file) {
   Project p;
   p.file = file;
   p.folder = file.has_parent_path() ? file.parent_path() : fs::path(".");
-  if (!fs::exists(file)) throw InputError(file.string(), "project file not found");
-  note_input_file(file);
   toml::table root;
   try {
-    root = toml::parse_file(file.string());
+    root = toml::parse(text, file.string());
   } catch (const toml::parse_error& e) {
     throw InputError(fmt::format("{}, line {}", file.string(), e.source().begin.line),
                      std::string(e.description()));

@@ -22,6 +22,7 @@
 #include <map>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <vector>
 
 namespace levelhead::cli {
@@ -57,6 +58,9 @@ struct Project {
 };
 
 Project load_project(const std::filesystem::path& file);
+// The same from the text of a project file; `file` names it in messages and
+// relative paths are taken from its folder.
+Project parse_project(std::string_view text, const std::filesystem::path& file);
 
 struct Stage {
   std::string name;                 // folder name and command: reduce, loops, adjust, ...

@@ -2,7 +2,10 @@
 
 #include <sys/stat.h>
 
+#include <fstream>
 #include <vector>
+
+#include "levelhead/errors.hpp"
 
 namespace levelhead {
 
@@ -31,6 +34,19 @@ std::optional<NotedFile> identify(const std::filesystem::path& file) {
 void note_input_file(const std::filesystem::path& file) {
   if (scopes().empty()) return;
   if (auto noted = identify(file)) scopes().back().push_back(std::move(*noted));
+}
+
+std::string read_input_text(const std::filesystem::path& file) {
+  std::ifstream in(file, std::ios::binary);
+  if (!in) throw InputError(file.string(), "cannot open the file for reading");
+  note_input_file(file);
+  std::string text;
+  in.seekg(0, std::ios::end);
+  text.resize(static_cast<std::size_t>(in.tellg()));
+  in.seekg(0, std::ios::beg);
+  in.read(text.data(), static_cast<std::streamsize>(text.size()));
+  if (!in) throw InputError(file.string(), "the file could not be read completely");
+  return text;
 }
 
 std::optional<std::string> input_file_at(const std::filesystem::path& destination) {

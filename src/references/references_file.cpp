@@ -137,11 +137,14 @@ const ReferenceDefinition* ReferenceSet::find(const std::string& name) const {
 }
 
 ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
+  return parse(read_input_text(path), path);
+}
+
+ReferenceSet ReferenceSet::parse(std::string_view toml_text, const std::filesystem::path& path) {
   const std::string file = path.string();
-  note_input_file(path);
   toml::table root;
   try {
-    root = toml::parse_file(file);
+    root = toml::parse(toml_text, file);
   } catch (const toml::parse_error& e) {
     throw InputError(fmt::format("{}, line {}", file, e.source().begin.line),
                      std::string(e.description()));

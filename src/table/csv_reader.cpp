@@ -241,15 +241,7 @@ void read_table_in_batches(const std::filesystem::path& path, const TableOptions
 namespace detail {
 
 Table read_delimited_file(const std::filesystem::path& path, const TableOptions& options) {
-  std::ifstream in(path, std::ios::binary);
-  if (!in) throw InputError(path.string(), "cannot open the file for reading");
-  std::string text;
-  in.seekg(0, std::ios::end);
-  text.resize(static_cast<std::size_t>(in.tellg()));
-  in.seekg(0, std::ios::beg);
-  in.read(text.data(), static_cast<std::streamsize>(text.size()));
-  if (!in) throw InputError(path.string(), "the file could not be read completely");
-  return parse_delimited_text(text, path.string(), options);
+  return parse_delimited_text(read_input_text(path), path.string(), options);
 }
 
 }  // namespace detail
