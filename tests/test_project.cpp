@@ -160,8 +160,10 @@ TEST_CASE("a failing stage stops the chain and keeps nothing of that run", "[pro
     const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
     CHECK(run.code == 1);
     CHECK(run.out.empty());
-    CHECK_THAT(run.err, Contains("stopped at stage 'heads'"));
-    CHECK_THAT(run.err, Contains("levels.csv"));
+    // The bad cell is named in the user's own table, by the first stage
+    // that reads it (not in the levels.csv the transducer stage writes).
+    CHECK_THAT(run.err, Contains("stopped at stage 'transducer'"));
+    CHECK_THAT(run.err, Contains((project.parent_path() / "levels.csv").string() + ", row 669"));
     CHECK_THAT(run.err, Contains("was not created"));
     CHECK_FALSE(fs::exists(out));
   }

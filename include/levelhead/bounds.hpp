@@ -24,4 +24,10 @@ inline constexpr double max_sigma = 1'000.0;
 // metres (common practice), and no rod can be read beyond a kilometre.
 inline constexpr double max_sight_distance = 1'000.0;
 
+// A depth to water below a measuring point (m): the deepest water wells
+// are about 2 km, monitoring wells far shallower (common practice); a larger
+// value is a unit mix-up (millimetres or feet read as metres). The same
+// bound in every stage that reads a levels table.
+inline constexpr double max_depth_to_water = 1'000.0;
+
 }  // namespace levelhead::bounds

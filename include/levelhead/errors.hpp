@@ -5,6 +5,9 @@
 // InputError      a file, row, column or value the user can fix (exit 1)
 // NetworkError    the network's structure: datum defect, unknown point (exit 1)
 // ComputationError a computation that cannot give a trustworthy answer (exit 1)
+// InternalCheckError a ComputationError from a check of levelhead's own
+//                 results (a non-finite number about to be written): a
+//                 defect of levelhead, not of the input (exit 1)
 // OptionError     an option value outside its allowed range (exit 2 from the CLI)
 // OutputError     an output that could not be written (exit 1)
 // ReferenceError  a vertical reference that cannot be resolved or converted
@@ -57,6 +60,11 @@ class NetworkError : public Error {
 class ComputationError : public Error {
  public:
   using Error::Error;
+};
+
+class InternalCheckError : public ComputationError {
+ public:
+  using ComputationError::ComputationError;
 };
 
 class OptionError : public Error {

@@ -29,6 +29,7 @@
 #include <unordered_map>
 #include <vector>
 
+#include "levelhead/bounds.hpp"
 #include "levelhead/height_converter.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/time.hpp"
@@ -47,8 +48,8 @@ struct HeadOptions {
   double repeat_window_hours = 0.25;    // readings of a well this close are repeats (15 min)
   std::optional<double> event;          // s since epoch: centre of a synoptic event
   double synoptic_window_hours = 48.0;  // the event's window (centred on it)
-  double max_depth = 1000.0;            // m; deeper readings are errors (a unit mix-up)
-  std::optional<double> map_contour_interval;  // m, for measuring points read from a map
+  double max_depth = bounds::max_depth_to_water;  // m; deeper readings are errors (a unit mix-up)
+  std::optional<double> map_contour_interval;     // m, for measuring points read from a map
   double history_tolerance = 0.30;  // m, smallest departure from a well's own trend flagged
   std::optional<double>
       environmental_reference;  // m, z_r of environmental-water heads (target reference)

@@ -184,7 +184,7 @@ void OutputSet::commit() {
   for (const auto& [name, stream] : streams_) {
     if (std::filesystem::path(name).extension() != ".csv") continue;
     if (const auto cell = find_non_finite_cell(temporary_path(name))) {
-      throw ComputationError(fmt::format(
+      throw InternalCheckError(fmt::format(
           "internal check: {} would hold a value that is not a number at {}; nothing was "
           "written. This is a fault of levelhead with these inputs: please report it with them",
           name, *cell));

@@ -15,6 +15,7 @@
 #include "levelhead/density.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/event_qa.hpp"
+#include "levelhead/levels.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
@@ -90,11 +91,11 @@ NetworkHeights read_network_heights(const Table& t) {
   const auto checked = t.find_column("checked");
   NetworkHeights out;
   for (std::size_t r = 0; r < t.row_count(); ++r) {
-    const auto h = t.length(r, height);
+    const auto h = t.height(r, height);
     if (!h) continue;
     NetworkHeight n;
     n.height = *h;
-    if (sigma) n.sigma = t.length(r, *sigma);
+    if (sigma) n.sigma = t.sigma(r, *sigma);
     if (reference) n.reference = std::string(t.cell(r, *reference));
     if (checked) n.checked = read_checked(t, r, *checked);
     out.emplace(std::string(t.cell(r, id)), n);
@@ -115,7 +116,7 @@ MonitoredHeights read_monitored_heights(const Table& t) {
           t.location(r, time), std::string(t.cell(r, time)),
           "expected an ISO 8601 time, as heights_by_epoch.csv of `levelhead epochs` has");
     }
-    const auto h = t.length(r, height);
+    const auto h = t.height(r, height);
     if (!h) throw InputError(t.location(r, height), "", "every epoch height needs a value");
     MonitoredSeries& series = out[id];
     const std::string ref(t.cell(r, reference));
@@ -127,7 +128,7 @@ MonitoredHeights read_monitored_heights(const Table& t) {
           fmt::format("point '{}' has epochs in '{}' and '{}'; one reference per point", id,
                       series.reference, ref));
     }
-    series.epochs.push_back({when->seconds, *h, sigma ? t.length(r, *sigma).value_or(0.0) : 0.0,
+    series.epochs.push_back({when->seconds, *h, sigma ? t.sigma(r, *sigma).value_or(0.0) : 0.0,
                              checked ? read_checked(t, r, *checked) : true});
   }
   for (auto& [id, series] : out) {
@@ -171,28 +172,6 @@ MonitoredValue monitored_at(const MonitoredSeries& series, double time) {
 }
 
 namespace {
-
-// The states a reading can carry instead of a depth; the one list for
-// parsing, outputs and docs.
-const std::vector<std::string>& reading_states() {
-  static const std::vector<std::string> states = {"dry",        "flowing", "frozen",
-                                                  "obstructed", "pumping", "recently-pumped"};
-  return states;
-}
-
-std::string normalise_state(std::string_view text) {
-  std::string s = util::to_lower(util::trim(text));
-  std::replace(s.begin(), s.end(), '_', '-');
-  std::replace(s.begin(), s.end(), ' ', '-');
-  return s;
-}
-
-bool parse_number(std::string_view text, double& value) {
-  text = util::trim(text);
-  if (!text.empty() && text.front() == '+') text.remove_prefix(1);
-  const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), value);
-  return ec == std::errc() && end == text.data() + text.size() && std::isfinite(value);
-}
 
 // Decimals a head deserves: about one below its standard deviation, so no
 // table shows more digits than the data carry (0.003 m -> 3, 0.02 m -> 2).
@@ -492,7 +471,6 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
     const auto temperature_col = t.find_column("temperature");
     const auto salinity_col = t.find_column("salinity");
     const auto flags_col = t.find_column("flags");  // carried from an earlier stage (transducer)
-    const double unit = metres_per_unit(t.length_unit());
     for (std::size_t r = 0; r < t.row_count(); ++r) {
       ++summary.readings;
       const std::string well_id(t.cell(r, well_col));
@@ -522,46 +500,11 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       }
 
       // Depth or state.
-      std::optional<double> depth;
-      std::string reading_state;
-      const std::string_view depth_text = t.cell(r, depth_col);
-      double value = 0.0;
-      if (parse_number(depth_text, value)) {
-        depth = value * unit;
-        if (std::abs(*depth) > options.max_depth) {
-          throw InputError(
-              t.location(r, depth_col), std::string(depth_text),
-              fmt::format("a depth of {:.0f} m is not plausible (largest accepted {:.0f} "
-                          "m); are the depths in another unit than --unit says?",
-                          *depth, options.max_depth));
-        }
-      } else if (!depth_text.empty() && (depth_text.front() == '>' || depth_text.front() == '<') &&
-                 parse_number(depth_text.substr(1), value)) {
-        reading_state = depth_text.front() == '>' ? fmt::format("deeper-than:{}", value * unit)
-                                                  : fmt::format("shallower-than:{}", value * unit);
-      } else if (!depth_text.empty()) {
-        reading_state = normalise_state(depth_text);
-        const auto& known = reading_states();
-        if (std::find(known.begin(), known.end(), reading_state) == known.end()) {
-          throw InputError(t.location(r, depth_col), std::string(depth_text),
-                           fmt::format("expected a depth (m below the measuring point), a censored "
-                                       "value such as >12.5, or one of: {}",
-                                       fmt::join(known, ", ")));
-        }
-      }
-      std::string status = status_col ? normalise_state(t.cell(r, *status_col)) : std::string();
-      if (!status.empty()) {
-        const auto& known = reading_states();
-        if (std::find(known.begin(), known.end(), status) == known.end()) {
-          throw InputError(t.location(r, *status_col), std::string(t.cell(r, *status_col)),
-                           fmt::format("expected one of: {}", fmt::join(known, ", ")));
-        }
-      }
-      if (!depth && reading_state.empty() && status.empty()) {
-        throw InputError(t.location(r, depth_col), "",
-                         "a reading needs a depth or a state (dry, flowing, ...)");
-      }
-      const std::optional<double> above = above_col ? t.length(r, *above_col) : std::nullopt;
+      const LevelValue level = read_level_value(t, r, depth_col, status_col, options.max_depth);
+      const std::optional<double> depth = level.depth;
+      const std::string& reading_state = level.state;
+      const std::string& status = level.status;
+      const std::optional<double> above = above_col ? t.depth(r, *above_col) : std::nullopt;
       const bool flowing = reading_state == "flowing" || status == "flowing";
 
       // Measuring point at that time.
@@ -614,7 +557,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
       // Head.
       std::optional<double> head;
       const double depth_sigma =
-          sigma_col && t.length(r, *sigma_col) ? *t.length(r, *sigma_col) : options.depth_sigma;
+          sigma_col && t.sigma(r, *sigma_col) ? *t.sigma(r, *sigma_col) : options.depth_sigma;
       if (depth) {
         head = mp - *depth;
         if (*depth < 0.0 && !flowing) flags.push_back("water-above-mp");

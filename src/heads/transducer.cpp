@@ -8,7 +8,9 @@
 #include <nlohmann/json.hpp>
 #include <unordered_map>
 
+#include "levelhead/bounds.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/levels.hpp"
 #include "levelhead/output_files.hpp"
 #include "levelhead/time.hpp"
 #include "levelhead/units.hpp"
@@ -101,12 +103,16 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
     }
     if (well) s.well = std::string(t.cell(r, *well));
     if (baro) s.barometer = std::string(t.cell(r, *baro));
-    if (hung) s.hung_depth = t.length(r, *hung);
+    if (hung) s.hung_depth = t.depth(r, *hung);
     if (range) s.range_kpa = t.number(r, *range);
-    if (sigma) s.sigma = t.length(r, *sigma);
+    if (s.range_kpa && !(*s.range_kpa > 0.0)) {
+      throw InputError(t.location(r, *range), std::string(t.cell(r, *range)),
+                       "a sensor's full scale must be > 0 kPa (leave it empty if unknown)");
+    }
+    if (sigma) s.sigma = t.sigma(r, *sigma);
     if (x) s.x = t.number(r, *x);
     if (y) s.y = t.number(r, *y);
-    if (elevation) s.elevation = t.length(r, *elevation);
+    if (elevation) s.elevation = t.height(r, *elevation);
     if (offset) {
       s.utc_offset_text = std::string(t.cell(r, *offset));
       const auto o = parse_offset(s.utc_offset_text);
@@ -277,6 +283,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   const std::size_t well_col = manual.require_column("well"),
                     time_col = manual.require_column("time");
   const std::size_t depth_col = manual.require_column("depth");
+  const auto status_col = manual.find_column("status");
   // The output speaks levelhead's column names, whatever the column map.
   std::vector<std::string> columns = manual.column_names();
   for (const char* ours : {"well", "time", "depth", "status", "sigma", "method", "flags", "above",
@@ -306,14 +313,15 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)),
                        "expected an ISO 8601 time");
     }
-    double depth = 0.0;
-    const std::string_view depth_text = util::trim(manual.cell(r, depth_col));
-    const auto [end, ec] =
-        std::from_chars(depth_text.data(), depth_text.data() + depth_text.size(), depth);
-    ManualReading m{when->seconds, std::nullopt};
-    if (ec == std::errc() && end == depth_text.data() + depth_text.size())
-      m.depth = depth * metres_per_unit(manual.length_unit());
-    by_well[well].push_back(m);
+    if (!wells.index.count(well)) {
+      throw InputError(manual.location(r, well_col), well, "this well is not in the wells table");
+    }
+    // Checked by the rules `heads` reads them with, so that a bad cell is
+    // named here, in the user's table, not later in the levels.csv written
+    // from it. Only a numeric depth is a check of a sensor.
+    const LevelValue level =
+        read_level_value(manual, r, depth_col, status_col, bounds::max_depth_to_water);
+    by_well[well].push_back(ManualReading{when->seconds, level.depth});
     std::string line;
     for (std::size_t c = 0; c < columns.size(); ++c) {
       if (c) line += ',';

@@ -31,11 +31,11 @@ inline std::string non_finite_path(const nlohmann::json& value, const std::strin
   return "";
 }
 
-// Throws ComputationError when `value` holds a non-finite number: a fault of
+// Throws InternalCheckError when `value` holds a non-finite number: a fault of
 // a computation, never written.
 inline std::string json_text(const nlohmann::json& value) {
   if (const std::string path = non_finite_path(value); !path.empty()) {
-    throw ComputationError(
+    throw InternalCheckError(
         "internal check: a JSON summary would hold a value that is not a "
         "number at '" +
         path +
