@@ -1,6 +1,8 @@
 // The bad-input corpus (fixtures/bad/cases.tsv): every case exits with its
 // status, names the problem where the user can find it, leaves nothing in
-// its output folder and changes no input.
+// its output folder and changes no input. {copy} and {demo} are fresh copies
+// of fixtures/bad and fixtures/demo, for cases that aim an output at the
+// inputs: each must hold exactly what it held before.
 
 #include <catch2/catch.hpp>
 #include <filesystem>
@@ -62,24 +64,37 @@ std::string contents(const fs::path& file) {
   return s.str();
 }
 
+// Every file under `folder` (hidden ones too), by relative path, with its bytes.
+std::map<std::string, std::string> snapshot(const fs::path& folder) {
+  std::map<std::string, std::string> files;
+  for (const auto& entry : fs::recursive_directory_iterator(folder)) {
+    const std::string name = fs::relative(entry.path(), folder).string();
+    files[name] = entry.is_regular_file() ? contents(entry.path()) : "(folder)";
+  }
+  return files;
+}
+
 }  // namespace
 
 TEST_CASE("every case of the bad-input corpus is refused cleanly", "[errors][safety][corpus]") {
   const std::vector<BadCase> cases = load_cases();
-  // The issue that started the corpus asks for it to grow past 150 cases;
-  // this keeps it from silently shrinking.
-  CHECK(cases.size() >= 75);
-  std::map<std::string, std::string> inputs_before;
-  for (const auto& entry : fs::directory_iterator(bad))
-    inputs_before[entry.path().filename().string()] = contents(entry.path());
+  // Keeps the corpus from silently shrinking.
+  CHECK(cases.size() >= 150);
+  const std::map<std::string, std::string> inputs_before = snapshot(bad);
+  const fs::path demo = fs::path(LEVELHEAD_FIXTURES_DIR) / "demo";
 
   for (const BadCase& c : cases) {
     levelhead::testing::TempFolder tmp;
     const fs::path out = tmp.path() / "out";
+    const fs::path copy = tmp.path() / "copy", demo_copy = tmp.path() / "demo";
+    fs::copy(bad, copy, fs::copy_options::recursive);
+    fs::copy(demo, demo_copy, fs::copy_options::recursive);
+    std::string command = replaced(c.command, "{bad}", bad.string());
+    for (const auto& [placeholder, folder] :
+         {std::pair{"{out}", out}, std::pair{"{copy}", copy}, std::pair{"{demo}", demo_copy}})
+      command = replaced(command, placeholder, folder.string());
     std::vector<std::string> args = {"levelhead"};
-    for (const std::string& word :
-         split(replaced(replaced(c.command, "{bad}", bad.string()), "{out}", out.string()), " "))
-      args.push_back(word);
+    for (const std::string& word : split(command, " ")) args.push_back(word);
     std::ostringstream stdout_text, stderr_text;
     const int code = levelhead::cli::run(args, stdout_text, stderr_text);
     const std::string err = stderr_text.str();
@@ -94,9 +109,8 @@ TEST_CASE("every case of the bad-input corpus is refused cleanly", "[errors][saf
         left.push_back(entry.path().filename().string());
     }
     CHECK(left.empty());
+    CHECK(snapshot(copy) == inputs_before);
+    CHECK(snapshot(demo_copy) == snapshot(demo));
   }
-  std::map<std::string, std::string> inputs_after;
-  for (const auto& entry : fs::directory_iterator(bad))
-    inputs_after[entry.path().filename().string()] = contents(entry.path());
-  CHECK(inputs_after == inputs_before);
+  CHECK(snapshot(bad) == inputs_before);
 }

@@ -29,6 +29,11 @@ inline constexpr double area_margin_degrees = 2.0;
 
 void check_coordinates_in_crs(const Table& table, const std::string& crs);
 
+// A CRS x and y can be taken in: PROJ knows it and it has horizontal axes
+// (projected, geographic, or a compound CRS with one of them). Throws
+// ReferenceError otherwise.
+void require_horizontal_crs(const std::string& crs);
+
 // The CRS must have metres on its horizontal axes (a gradient in m/m needs
 // distances in metres): throws OptionError naming `option` otherwise.
 void require_metric_plane_crs(const std::string& crs, const std::string& option);

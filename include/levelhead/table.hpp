@@ -75,6 +75,12 @@ class Table {
   // `what` names the quantity in the message ("a height difference").
   std::optional<double> length_within(std::size_t row, std::size_t column, double limit,
                                       const char* what) const;
+  // Shorthands of length_within with the bounds of levelhead/bounds.hpp: a
+  // height (of any reference), a depth or length below a measuring point,
+  // and a standard deviation (also refused when negative).
+  std::optional<double> height(std::size_t row, std::size_t column) const;
+  std::optional<double> depth(std::size_t row, std::size_t column) const;
+  std::optional<double> sigma(std::size_t row, std::size_t column) const;
   // An ISO 8601 date or date-time (levelhead/time.hpp), as written.
   std::optional<std::string> date(std::size_t row, std::size_t column) const;
 

@@ -79,7 +79,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     std::vector<FlowWell> used;
     std::set<std::string> seen;
     for (std::size_t r = 0; r < heads.row_count(); ++r) {
-      const auto h = heads.length(r, head_col);
+      const auto h = heads.height(r, head_col);
       if (!h) continue;
       if (contour_col && heads.cell(r, *contour_col) == "no") continue;
       const std::string id(heads.cell(r, well_col));
@@ -94,7 +94,7 @@ CommandRunner add_flow_command(CLI::App& app) {
                          "a well appears twice: a gradient needs one head per well (use event.csv "
                          "of levelhead heads --event)");
       }
-      const double sigma = sigma_col ? heads.length(r, *sigma_col).value_or(0.0) : 0.0;
+      const double sigma = sigma_col ? heads.sigma(r, *sigma_col).value_or(0.0) : 0.0;
       used.push_back({id, w.x, w.y, *h, sigma});
     }
     const FlowResult f = estimate_flow(used, options);

@@ -68,14 +68,14 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     const auto gs = gnss.find_column("sigma");
     std::unordered_map<std::string, std::size_t> levelled_rows;
     for (std::size_t r = 0; r < levelled.row_count(); ++r) {
-      if (levelled.length(r, lh)) levelled_rows.emplace(std::string(levelled.cell(r, lid)), r);
+      if (levelled.height(r, lh)) levelled_rows.emplace(std::string(levelled.cell(r, lid)), r);
     }
     std::vector<GnssMark> marks;
     std::vector<PlanePoint> points;
     std::vector<double> heights, level_sigma, gnss_sigma;
     for (std::size_t r = 0; r < gnss.row_count(); ++r) {
       const auto it = levelled_rows.find(std::string(gnss.cell(r, gid)));
-      const auto h = gnss.length(r, gh);
+      const auto h = gnss.height(r, gh);
       if (it == levelled_rows.end() || !h) continue;
       const auto x = gnss.number(r, gx), y = gnss.number(r, gy);
       if (!x || !y)
@@ -88,7 +88,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       points.push_back({*x, *y});
       heights.push_back(*h);
       level_sigma.push_back(ls ? levelled.length(it->second, *ls).value_or(0.0) : 0.0);
-      gnss_sigma.push_back(gs ? gnss.length(r, *gs).value_or(0.0) : 0.0);
+      gnss_sigma.push_back(gs ? gnss.sigma(r, *gs).value_or(0.0) : 0.0);
     }
     if (marks.empty()) {
       throw InputError(a->gnss, fmt::format("no mark has a height in both {} and {}; the ids must "

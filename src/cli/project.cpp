@@ -9,6 +9,8 @@
 #include "cli/app.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/input_files.hpp"
+#include "levelhead/table.hpp"
+#include "levelhead/units.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::cli {
@@ -133,9 +135,14 @@ void read_site(Project& p, const toml::table& site) {
       p.crs = text_value(p, node, key);
     else if (key == "target")
       p.target = text_value(p, node, key);
-    else if (key == "unit")
+    else if (key == "unit") {
       p.unit = text_value(p, node, key);
-    else if (key == "references")
+      try {
+        parse_length_unit(p.unit);
+      } catch (const OptionError& e) {
+        throw InputError(where(p, node), e.what());
+      }
+    } else if (key == "references")
       p.references = resolve(p, text_value(p, node, key));
     else if (key == "grid_path") {
       for (const std::string& g : path_values(p, node, key)) p.grid_paths.push_back(resolve(p, g));
@@ -276,6 +283,11 @@ Project parse_project(std::string_view text, const fs::path& file) {
         if (std::find(allowed.begin(), allowed.end(), key) == allowed.end())
           unknown_key(p, cnode, "columns", key, allowed);
         p.columns[key] = text_value(p, cnode, key);
+        try {
+          parse_column_map(p.columns[key]);
+        } catch (const OptionError& e) {
+          throw InputError(where(p, cnode), e.what());
+        }
       }
     } else if (name == "inputs") {
       read_inputs(p, *table);

@@ -12,6 +12,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/project.hpp"
+#include "levelhead/coordinate_check.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/heads.hpp"
 #include "levelhead/references_file.hpp"
@@ -123,6 +124,13 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
       require_metric_target(project.target, references);
     } catch (const ReferenceError& e) {
       throw ReferenceError(fmt::format("{} [site] target: {}", project.file.string(), e.what()));
+    }
+  }
+  if (!project.crs.empty()) {
+    try {
+      require_horizontal_crs(project.crs);
+    } catch (const ReferenceError& e) {
+      throw ReferenceError(fmt::format("{} [site] crs: {}", project.file.string(), e.what()));
     }
   }
   std::vector<Stage> stages = plan_stages(project, folder);

@@ -6,6 +6,7 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include <algorithm>
 #include <fstream>
 #include <nlohmann/json.hpp>
 #include <optional>
@@ -200,13 +201,14 @@ void RunFolder::check_replaceable() const {
         "give --replace to replace it, or choose another --out",
         folder_.string()));
   }
+  // The first few names in sorted order, so the message is the same each time.
   std::vector<std::string> names;
-  for (const auto& entry : fs::directory_iterator(folder_)) {
-    if (names.size() == 4) {
-      names.push_back("...");
-      break;
-    }
+  for (const auto& entry : fs::directory_iterator(folder_))
     names.push_back(entry.path().filename().string());
+  std::sort(names.begin(), names.end());
+  if (names.size() > 4) {
+    names.resize(4);
+    names.push_back("...");
   }
   throw OutputError(fmt::format(
       "the output folder '{}' is not empty and is not the output of a levelhead run (it holds {}); "

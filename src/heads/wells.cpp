@@ -28,10 +28,10 @@ WellSet read_wells(const Table& t) {
     if (!px || !py) throw InputError(t.location(r, px ? y : x), "", "every well needs x and y");
     w.x = *px;
     w.y = *py;
-    if (ground) w.ground = t.length(r, *ground);
+    if (ground) w.ground = t.height(r, *ground);
     if (ground_datum) w.ground_datum = std::string(t.cell(r, *ground_datum));
-    if (top) w.screen_top = t.length(r, *top);
-    if (bottom) w.screen_bottom = t.length(r, *bottom);
+    if (top) w.screen_top = t.depth(r, *top);
+    if (bottom) w.screen_bottom = t.depth(r, *bottom);
     if (nest) w.nest = std::string(t.cell(r, *nest));
     if (aquifer) w.aquifer = std::string(t.cell(r, *aquifer));
     if (density) w.density = t.number(r, *density);
@@ -74,9 +74,9 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
                        "expected an ISO 8601 date or time, e.g. 2026-10-06 or 2026-10-06T08:30Z");
     }
     m.valid_from = *when;
-    if (height) m.height = t.length(r, *height);
+    if (height) m.height = t.height(r, *height);
     m.table_unit = t.length_unit();
-    if (sigma) m.sigma = t.length(r, *sigma);
+    if (sigma) m.sigma = t.sigma(r, *sigma);
     m.datum = text(r, datum);
     m.point = text(r, point);
     m.source = text(r, source);

@@ -161,6 +161,19 @@ void check_coordinates_in_crs(const Table& table, const std::string& crs_text) {
                           : "are x and y in another CRS or zone, or swapped?"));
 }
 
+void require_horizontal_crs(const std::string& crs_text) {
+  ContextPtr ctx(proj_context_create());
+  proj_log_level(ctx.get(), PJ_LOG_NONE);
+  const PjPtr crs = horizontal_crs(ctx.get(), crs_text);
+  const PJ_TYPE type = crs ? proj_get_type(crs.get()) : PJ_TYPE_UNKNOWN;
+  if (!geographic(crs.get()) && type != PJ_TYPE_PROJECTED_CRS) {
+    throw ReferenceError(fmt::format(
+        "'{}', given as the CRS of x and y, has no horizontal axes (a vertical CRS?); give a "
+        "projected or geographic CRS such as EPSG:32613",
+        crs_text));
+  }
+}
+
 void require_metric_plane_crs(const std::string& crs_text, const std::string& option) {
   ContextPtr ctx(proj_context_create());
   proj_log_level(ctx.get(), PJ_LOG_NONE);

@@ -27,7 +27,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   std::vector<double> heights;
   std::vector<std::size_t> rows;  // table rows that carry a height
   for (std::size_t row = 0; row < table.row_count(); ++row) {
-    const auto height = table.length(row, height_col);
+    const auto height = table.height(row, height_col);
     if (!height) continue;  // nothing to convert; copied as is
     const auto x = table.number(row, x_col), y = table.number(row, y_col);
     if (!x || !y) {
@@ -85,7 +85,8 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   const double unit = metres_per_unit(options.output_unit);
   for (std::size_t row = 0; row < table.row_count(); ++row) {
     const auto k = result_of_row[row];
-    const std::optional<double> sigma_in = sigma_col ? table.length(row, *sigma_col) : std::nullopt;
+    std::optional<double> sigma_in;
+    if (sigma_col) sigma_in = table.sigma(row, *sigma_col);
     const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", *sigma_in / unit) : "";
     std::string height_text, sigma_text, transform, flags;
     if (k && results[*k].height) {
@@ -94,8 +95,8 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
       transform = r.transform;
       std::vector<std::string> notes = r.flags;
       if (sigma_in || r.variance_added > 0.0) {
-        const double s =
-            std::sqrt(sigma_in.value_or(0.0) * sigma_in.value_or(0.0) + r.variance_added);
+        const double given = sigma_in ? *sigma_in : 0.0;
+        const double s = std::sqrt(given * given + r.variance_added);
         sigma_text = fmt::format("{:.5f}", s / unit);
       }
       if (!sigma_in) notes.push_back("input-sigma-missing");

@@ -82,7 +82,12 @@ HeightConverter::HeightConverter(const std::string& from, const std::string& to,
   const auto make_step = [&](const ReferenceDefinition* d, int direction) {
     Step step{*d, direction, nullptr};
     if (d->kind == ReferenceDefinition::Kind::grid) {
-      step.grid = std::make_shared<SurfaceShift>(d->grid, horizontal_crs, settings);
+      try {
+        step.grid = std::make_shared<SurfaceShift>(d->grid, horizontal_crs, settings);
+      } catch (const ReferenceError& e) {
+        // Name where the grid was given, so the user knows which file to fix.
+        throw ReferenceError(fmt::format("{}: reference '{}': {}", d->file, d->name, e.what()));
+      }
     } else if (d->kind == ReferenceDefinition::Kind::vertoffset) {
       step.grid = std::make_shared<SurfaceShift>(d->offset_slope, horizontal_crs, settings);
     }

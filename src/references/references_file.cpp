@@ -4,6 +4,7 @@
 #include <proj.h>
 #include <toml++/toml.h>
 
+#include <Eigen/Eigenvalues>
 #include <algorithm>
 #include <cmath>
 #include <sstream>
@@ -27,7 +28,9 @@ std::optional<double> OffsetRelation::variance(double x, double y) const {
     for (int i = 0; i < 3; ++i) {
       for (int j = 0; j < 3; ++j) v += g[i] * (*covariance)[i][j] * g[j];
     }
-    return v;
+    // The covariance is positive semi-definite up to the digits of its file
+    // (checked on reading): a slightly negative sum is rounding.
+    return std::max(v, 0.0);
   }
   if (sigma) return *sigma * *sigma;
   return std::nullopt;
@@ -136,6 +139,44 @@ const ReferenceDefinition* ReferenceSet::find(const std::string& name) const {
   return it == definitions_.end() ? nullptr : &it->second;
 }
 
+namespace {
+
+// A covariance must be positive semi-definite: no combination of offset and
+// slopes may have a negative variance. Judged on the correlation matrix
+// R = D^-1/2 C D^-1/2, so that the offset (m^2) and the slopes ((m/m)^2)
+// weigh alike, by its smallest eigenvalue (Eigen's self-adjoint solver);
+// the tolerance 1e-6 allows for the printed digits of a file written by
+// `levelhead tie`. A zero variance needs zero covariances in its row.
+void require_positive_semidefinite(const std::string& file, const toml::node& where_node,
+                                   const std::array<std::array<double, 3>, 3>& c) {
+  constexpr double tolerance = 1e-6;
+  Eigen::Matrix3d correlation = Eigen::Matrix3d::Identity();
+  for (int i = 0; i < 3; ++i) {
+    for (int j = 0; j < 3; ++j) {
+      if (i == j) continue;
+      if (c[i][i] > 0.0 && c[j][j] > 0.0) {
+        correlation(i, j) = c[i][j] / std::sqrt(c[i][i] * c[j][j]);
+      } else if (c[i][j] != 0.0) {
+        throw InputError(where(file, where_node),
+                         "covariance: a variance of 0 with a non-zero covariance in its row is "
+                         "not possible");
+      }
+    }
+  }
+  const Eigen::SelfAdjointEigenSolver<Eigen::Matrix3d> solver(correlation, Eigen::EigenvaluesOnly);
+  if (solver.eigenvalues().minCoeff() < -tolerance) {
+    throw InputError(
+        where(file, where_node),
+        fmt::format("covariance is not positive semi-definite (smallest eigenvalue of its "
+                    "correlation matrix {:.3g}): some combination of offset and slopes would "
+                    "have a negative variance; check the entries (a correlation must lie within "
+                    "+-1) or copy the matrix as `levelhead tie` wrote it",
+                    solver.eigenvalues().minCoeff()));
+  }
+}
+
+}  // namespace
+
 ReferenceSet ReferenceSet::load(const std::filesystem::path& path) {
   return parse(read_input_text(path), path);
 }
@@ -203,6 +244,7 @@ ReferenceSet ReferenceSet::parse(std::string_view toml_text, const std::filesyst
               throw InputError(where(file, *c), "covariance must be symmetric");
           }
         }
+        require_positive_semidefinite(file, *c, m);
         r.covariance = m;
       }
       if (const toml::array* h = (*t)["hull"].as_array()) {

@@ -42,7 +42,7 @@ std::vector<TiePoint> match_tie_points(const Table& site, const Table& base) {
     }
     const auto it = base_rows.find(std::string(site.cell(r, site_id)));
     if (it == base_rows.end()) continue;
-    const auto hs = site.length(r, site_h);
+    const auto hs = site.height(r, site_h);
     const auto hb = base.length(it->second, base_h);
     if (!hs || !hb) continue;
     const auto px = site.number(r, x), py = site.number(r, y);
@@ -55,7 +55,7 @@ std::vector<TiePoint> match_tie_points(const Table& site, const Table& base) {
     t.y = *py;
     t.site_height = *hs;
     t.base_height = *hb;
-    if (site_s) t.site_sigma = site.length(r, *site_s);
+    if (site_s) t.site_sigma = site.sigma(r, *site_s);
     if (base_s) t.base_sigma = base.length(it->second, *base_s);
     ties.push_back(t);
   }

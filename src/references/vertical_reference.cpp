@@ -562,6 +562,41 @@ struct SurfaceShift::Impl {
 
 namespace {
 
+// A grid cut short (an interrupted download or copy) would make PROJ report
+// every point as outside the grid. Reading its first and last rows through
+// GDAL finds that, whichever way the format stores its rows, at the cost of
+// two rows.
+void require_complete_grid(const std::filesystem::path& grid) {
+  GDALAllRegister();
+  CPLErrorReset();
+  CPLPushErrorHandler(CPLQuietErrorHandler);
+  GDALDatasetH dataset = GDALOpen(grid.string().c_str(), GA_ReadOnly);
+  std::string problem;
+  if (!dataset) {
+    problem = CPLGetLastErrorMsg();
+  } else {
+    GDALRasterBandH band = GDALGetRasterBand(dataset, 1);
+    const int columns = GDALGetRasterXSize(dataset), rows = GDALGetRasterYSize(dataset);
+    std::vector<float> row(static_cast<std::size_t>(std::max(columns, 1)));
+    for (const int y : {0, rows - 1}) {
+      if (!band || rows < 1 ||
+          GDALRasterIO(band, GF_Read, 0, y, columns, 1, row.data(), columns, 1, GDT_Float32, 0,
+                       0) != CE_None) {
+        problem = band ? CPLGetLastErrorMsg() : "the file holds no raster band";
+        break;
+      }
+    }
+    GDALClose(dataset);
+  }
+  CPLPopErrorHandler();
+  if (!problem.empty()) {
+    throw ReferenceError(
+        fmt::format("grid file '{}' cannot be read completely ({}); it is damaged or cut short (an "
+                    "interrupted download or copy?): get the grid again",
+                    grid.string(), problem));
+  }
+}
+
 // PROJ reads GTX and GeoTIFF grids; other rasters are translated by GDAL.
 std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
                                        std::filesystem::path& converted) {
@@ -597,6 +632,7 @@ SurfaceShift::SurfaceShift(const std::filesystem::path& grid, const std::string&
   if (!std::filesystem::is_regular_file(grid)) {
     throw ReferenceError(fmt::format("grid file '{}' does not exist", grid.string()));
   }
+  require_complete_grid(grid);
   impl_->grid = GridUse{grid.filename().string(), grid.string(), file_sha256(grid)};
   const std::filesystem::path readable = readable_by_proj(grid, impl_->converted);
   // The grid name is absolute and carries no '@', so a missing or unreadable

@@ -6,6 +6,7 @@
 #include <cmath>
 #include <set>
 
+#include "levelhead/bounds.hpp"
 #include "levelhead/coordinate_check.hpp"
 #include "levelhead/input_files.hpp"
 #include "levelhead/time.hpp"
@@ -138,6 +139,23 @@ std::optional<double> Table::length_within(std::size_t row, std::size_t column, 
                      fmt::format("{} beyond {:g} m is not possible on Earth; check the value and "
                                  "the table's unit",
                                  what, limit));
+  }
+  return value;
+}
+
+std::optional<double> Table::height(std::size_t row, std::size_t column) const {
+  return length_within(row, column, bounds::max_abs_height, "a height");
+}
+
+std::optional<double> Table::depth(std::size_t row, std::size_t column) const {
+  return length_within(row, column, bounds::max_abs_height, "a depth");
+}
+
+std::optional<double> Table::sigma(std::size_t row, std::size_t column) const {
+  const auto value = length_within(row, column, bounds::max_sigma, "a sigma");
+  if (value && *value < 0.0) {
+    throw InputError(location(row, column), std::string(cell(row, column)),
+                     "a standard deviation cannot be negative");
   }
   return value;
 }

@@ -64,12 +64,32 @@ void require_utf8_cell(std::string_view text, const std::string& source, std::si
                   static_cast<unsigned char>(text[*bad]), *bad));
 }
 
+namespace {
+
+// Control characters (a NUL, a line break inside a quoted cell) shown as
+// \xNN, so that a message is one readable line and a NUL does not end it.
+std::string visible(std::string_view text) {
+  std::string out;
+  out.reserve(text.size());
+  for (const char c : text) {
+    const auto byte = static_cast<unsigned char>(c);
+    if (byte < 0x20 || byte == 0x7F) {
+      out += fmt::format("\\x{:02X}", byte);
+    } else {
+      out += c;
+    }
+  }
+  return out;
+}
+
+}  // namespace
+
 std::string shortened(std::string_view text, std::size_t limit) {
-  if (text.size() <= limit) return std::string(text);
+  if (text.size() <= limit) return visible(text);
   std::size_t cut = limit;
   // Back off to the start of a UTF-8 character (not a continuation byte).
   while (cut > 0 && (static_cast<unsigned char>(text[cut]) & 0xC0) == 0x80) --cut;
-  return fmt::format("{}... ({} bytes in all)", text.substr(0, cut), text.size());
+  return fmt::format("{}... ({} bytes in all)", visible(text.substr(0, cut)), text.size());
 }
 
 }  // namespace levelhead::util

@@ -27,7 +27,8 @@ void require_utf8_cell(std::string_view text, const std::string& source, std::si
                        const std::string& column);
 
 // `text` cut to about `limit` bytes at a character boundary, with its length
-// named when cut: for quoting user values in messages.
+// named when cut, and control characters shown as \xNN: for quoting user
+// values in messages.
 std::string shortened(std::string_view text, std::size_t limit = 80);
 
 }  // namespace levelhead::util
