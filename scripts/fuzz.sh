@@ -10,7 +10,7 @@
 # from the fixtures) and any finding in build-fuzz/findings/. Needs clang and
 # its runtime (Debian: clang, libclang-rt-14-dev). A finding is replayed with
 #   build-fuzz/tests/fuzz/fuzz_HARNESS build-fuzz/findings/HARNESS-crash-...
-# and becomes a regression case (docs/testing.md, "Fuzzing").
+# and becomes a regression case (DEVELOPERS.md, "Fuzzing").
 set -euo pipefail
 cd "$(dirname "$0")/.."
 seconds="${1:-600}"
@@ -40,7 +40,7 @@ for harness in "${harnesses[@]}"; do
   echo "== $harness: ${seconds} s"
   log="build-fuzz/findings/$harness.log"
   if ! "build-fuzz/tests/fuzz/fuzz_$harness" -max_total_time="$seconds" -print_final_stats=1 \
-      -rss_limit_mb=4096 -max_len=65536 -artifact_prefix="build-fuzz/findings/$harness-" \
+      -rss_limit_mb=4096 -max_len=4096 -artifact_prefix="build-fuzz/findings/$harness-" \
       "$corpus" >"$log" 2>&1; then
     status=1
     echo "   FINDING: see $log"

@@ -25,12 +25,12 @@
 namespace levelhead {
 
 struct ConvertedHeight {
-  std::optional<double> height;     // m
-  double variance_added = 0.0;      // m^2, from the steps whose variance is known
-  bool variance_complete = true;    // false when some step's variance is unknown
-  std::string transform;            // the steps, in order
+  std::optional<double> height;   // m
+  double variance_added = 0.0;    // m^2, from the steps whose variance is known
+  bool variance_complete = true;  // false when some step's variance is unknown
+  std::string transform;          // the steps, in order
   std::vector<std::string> flags;
-  std::string failure;              // why height is empty
+  std::string failure;  // why height is empty
 };
 
 // The unit of a reference's heights: the metre for a reference of our own
@@ -39,9 +39,9 @@ HeightUnit reference_height_unit(const std::string& reference, const ReferenceSe
 
 class HeightConverter {
  public:
-  HeightConverter(const std::string& from, const std::string& to,
-                  const std::string& horizontal_crs, const ReferenceSet& references,
-                  const ProjSettings& settings, std::optional<double> epoch = std::nullopt);
+  HeightConverter(const std::string& from, const std::string& to, const std::string& horizontal_crs,
+                  const ReferenceSet& references, const ProjSettings& settings,
+                  std::optional<double> epoch = std::nullopt);
   ~HeightConverter();
 
   std::vector<ConvertedHeight> convert(const std::vector<PlanePoint>& points,
@@ -51,6 +51,10 @@ class HeightConverter {
   const std::string& to() const { return to_; }
   // The PROJ part, when one is needed.
   const VerticalTransformer* proj() const { return proj_.get(); }
+  // The CRS the points' x and y are taken in: the horizontal CRS given, else,
+  // when PROJ converts between the two ends, the source reference's own CRS
+  // (whose horizontal part holds x and y); empty when positions are not used.
+  const std::string& points_crs() const { return points_crs_; }
   // Descriptions of the named steps, in order.
   const std::vector<std::string>& step_descriptions() const { return descriptions_; }
   // Grid files of grid references used, with checksums.
@@ -62,11 +66,11 @@ class HeightConverter {
 
  private:
   struct Step {
-    ReferenceDefinition definition;     // a copy: the converter outlives the set it came from
-    int direction;                      // +1: to its base, -1: from its base
-    std::shared_ptr<SurfaceShift> grid;    // for grid references
+    ReferenceDefinition definition;      // a copy: the converter outlives the set it came from
+    int direction;                       // +1: to its base, -1: from its base
+    std::shared_ptr<SurfaceShift> grid;  // for grid references
   };
-  std::string from_, to_;
+  std::string from_, to_, points_crs_;
   std::vector<Step> steps_before_, steps_after_;  // around the PROJ step
   std::unique_ptr<VerticalTransformer> proj_;
   std::vector<std::string> descriptions_;

@@ -7,6 +7,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
+#include "levelhead/coordinate_check.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/height_conversion.hpp"
 #include "levelhead/references_file.hpp"
@@ -26,16 +27,18 @@ struct ConvertArguments {
 
 CommandRunner add_convert_command(CLI::App& app) {
   auto a = std::make_shared<ConvertArguments>();
-  CLI::App* c = app.add_subcommand("convert", "Convert the heights of a points table to another "
-                                              "vertical reference (PROJ, no ballpark)");
+  CLI::App* c = app.add_subcommand("convert",
+                                   "Convert the heights of a points table to another "
+                                   "vertical reference (PROJ, no ballpark)");
   c->add_option("--from", a->from, "Reference of the input heights (EPSG code, WKT, PROJJSON)")
       ->required();
   c->add_option("--to", a->to, "Target reference")->required();
   c->add_option("--in", a->input, "Points table: id, x, y, height, optional sigma")->required();
   c->add_option("--out", a->output, "Output CSV (a .summary.json is written beside it)")
       ->required();
-  c->add_option("--crs", a->crs,
-                "CRS of x and y (x = easting or longitude); default: the horizontal part of --from");
+  c->add_option(
+      "--crs", a->crs,
+      "CRS of x and y (x = easting or longitude); default: the horizontal part of --from");
   auto* unit = c->add_option("--unit", a->unit,
                              "Unit of height and sigma in the table: m, ft, us-ft (default: the "
                              "unit of --from, else m)");
@@ -70,6 +73,9 @@ CommandRunner add_convert_command(CLI::App& app) {
                                         : own_unit(converter.target_unit(), converter.to());
     const Table table = read_table(
         a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer, a->crs});
+    // Without --crs, x and y are in the source reference's horizontal CRS:
+    // checked against its area of use all the same.
+    if (a->crs.empty()) check_coordinates_in_crs(table, converter.points_crs());
     std::filesystem::path output(a->output);
     std::filesystem::path summary = output;
     summary.replace_extension(".summary.json");

@@ -112,6 +112,7 @@ HeightConverter::HeightConverter(const std::string& from, const std::string& to,
   if (a.root != b.root) {
     proj_ = std::make_unique<VerticalTransformer>(a.root, b.root, horizontal_crs, settings, epoch);
   }
+  points_crs_ = !horizontal_crs.empty() ? horizontal_crs : proj_ ? a.root : std::string();
   for (const Step& s : steps_after_) descriptions_.push_back(describe(s.definition, -1));
 }
 
