@@ -2,12 +2,14 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <memory>
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/flags.hpp"
 #include "levelhead/heads.hpp"
 #include "levelhead/table.hpp"
 
@@ -79,7 +81,9 @@ CommandRunner add_heads_command(CLI::App& app) {
                 "Reference elevation z_r of environmental-water heads (m, target reference); wells "
                 "need column_density");
   c->add_flag("--no-gpkg", a->no_geopackage, "Do not write heads.gpkg");
-  c->add_flag("--strict", a->strict, "Exit with status 3 when any reading is flagged");
+  c->add_flag("--strict", a->strict,
+              "Exit with status 3 when a reading carries a flag that needs a look (not merely "
+              "information such as outside-synoptic-window)");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream&) -> int {
     HeadOptions options = a->options;
@@ -123,7 +127,12 @@ CommandRunner add_heads_command(CLI::App& app) {
       out << fmt::format("Wrote heads.csv, qa.csv, measuring_points.csv, summary.json{} in {}\n",
                          a->no_geopackage ? "" : ", heads.gpkg", a->out);
     }
-    return a->strict && !s.flags.empty() ? exit_checks_failed : exit_ok;
+    // --strict fails on the flags that say something needs a look
+    // (flags.hpp), not on information such as outside-synoptic-window.
+    const bool failing = std::any_of(s.flags.begin(), s.flags.end(), [](const auto& flag) {
+      return flag_info(flag.first).fails_strict;
+    });
+    return a->strict && failing ? exit_checks_failed : exit_ok;
   };
 }
 

@@ -8,6 +8,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/flags.hpp"
 #include "levelhead/table.hpp"
 #include "levelhead/transducer.hpp"
 #include "levelhead/units.hpp"
@@ -95,9 +96,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
     for (const SensorSummary& sensor : s.sensors) {
       std::size_t flagged = 0;
       for (const auto& [flag, count] : sensor.flags) {
-        if (flag != "transducer-beyond-checks" && flag != "baro-elevation-unchecked") {
-          flagged += count;
-        }
+        if (flag_info(flag).fails_strict) flagged += count;
       }
       problems = problems || flagged > 0;
       if (a->quiet) continue;

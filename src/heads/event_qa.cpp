@@ -14,7 +14,6 @@ bool several_units(const std::string& aquifer) {
   return aquifer.find('+') != std::string::npos || aquifer.find(';') != std::string::npos;
 }
 
-
 struct PlaneFit {
   double prediction = 0.0, sigma = 0.0;  // m
 };
@@ -38,7 +37,8 @@ std::optional<PlaneFit> fit_plane(const std::vector<EventHead>& heads, std::size
   const Eigen::Matrix3d N = A.transpose() * p.asDiagonal() * A;
   const Eigen::LDLT<Eigen::Matrix3d> ldlt(N);
   // Neighbours on a line (relative pivot below 1e-10) give no plane.
-  if (ldlt.info() != Eigen::Success || ldlt.vectorD().minCoeff() <= 1e-10 * ldlt.vectorD().maxCoeff()) {
+  if (ldlt.info() != Eigen::Success ||
+      ldlt.vectorD().minCoeff() <= 1e-10 * ldlt.vectorD().maxCoeff()) {
     return std::nullopt;
   }
   const Eigen::Vector3d x = ldlt.solve(A.transpose() * p.asDiagonal() * l);
@@ -79,7 +79,8 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
   for (std::size_t i = 0; i < heads.size(); ++i) {
     if (excluded[i]) continue;
     const auto near = neighbours(i);
-    if (!near.empty() && heads[i].sigma > std::abs(heads[i].head - heads[near.front()].head) / 3.0) {
+    if (!near.empty() &&
+        heads[i].sigma > std::abs(heads[i].head - heads[near.front()].head) / 3.0) {
       result.wells[i].flags.push_back("mp-sigma-large");
     }
   }
@@ -96,8 +97,8 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
       if (!fit) continue;
       c.prediction = fit->prediction;
       c.misfit = heads[i].head - fit->prediction;
-      const double limit = std::max(options.neighbour_tolerance,
-                                    3.0 * std::hypot(heads[i].sigma, fit->sigma));
+      const double limit =
+          std::max(options.neighbour_tolerance, 3.0 * std::hypot(heads[i].sigma, fit->sigma));
       const double ratio = std::abs(*c.misfit) / limit;
       if (ratio > worst_ratio) worst_ratio = ratio, worst = i;
     }
@@ -106,7 +107,8 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
     excluded[*worst] = 1;
   }
   for (std::size_t i = 0; i < heads.size(); ++i) {
-    if (!excluded[i] && !result.wells[i].misfit) result.wells[i].flags.push_back("neighbour-check-skipped");
+    if (!excluded[i] && !result.wells[i].misfit)
+      result.wells[i].flags.push_back("neighbour-check-skipped");
   }
 
   std::map<std::string, std::vector<std::size_t>> nests;

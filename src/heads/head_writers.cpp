@@ -1,0 +1,146 @@
+#include "heads/head_writers.hpp"
+
+#include <cpl_conv.h>
+#include <fmt/format.h>
+#include <fmt/ranges.h>
+#include <ogr_api.h>
+#include <ogr_srs_api.h>
+
+#include <algorithm>
+#include <cmath>
+#include <iterator>
+
+#include "levelhead/errors.hpp"
+#include "levelhead/output_files.hpp"
+#include "levelhead/version.hpp"
+
+namespace levelhead {
+
+int decimals_for(double sigma) {
+  if (!(sigma > 0.0)) return 3;
+  return std::clamp(static_cast<int>(std::ceil(-std::log10(sigma))), 1, 4);
+}
+
+HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
+                               const std::string& target)
+    : out_(out), target_cell_(csv_cell(target)) {
+  for (const MeasuringPointElevation& e : history.elevations()) {
+    source_cells_.push_back(csv_cell(e.source));
+    transform_cells_.push_back(csv_cell(e.transform));
+  }
+  out_ << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
+          "flags,contour,reason,transform,density,freshwater_head,environmental_head\n";
+}
+
+void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const HeadRecord& r) {
+  const int dp = decimals_for(r.sigma);
+  // One buffer per row, written at once: this runs for every reading (1e7).
+  row_.clear();
+  auto to = std::back_inserter(row_);
+  append_csv_cell(row_, well.id);
+  row_ += ',';
+  append_csv_cell(row_, reading.time_text);
+  row_ += ',';
+  if (r.head)
+    fmt::format_to(to, "{:.{}f},{:.{}f}", *r.head, dp, r.sigma, dp + 1);
+  else
+    row_ += ',';
+  row_ += ',';
+  row_ += target_cell_;
+  row_ += ',';
+  row_ += format_utc(reading.time);
+  fmt::format_to(to, ",{:.4f},{:.4f},", r.mp.height, r.mp.sigma);
+  row_ += source_cells_[r.mp.record];
+  row_ += ',';
+  if (reading.level.depth) fmt::format_to(to, "{:.4f}", *reading.level.depth);
+  row_ += ',';
+  append_csv_cell(row_, r.state);
+  row_ += ',';
+  append_csv_cell(row_, fmt::format("{}", fmt::join(r.flags, " ")));
+  row_ += r.contour() ? ",yes," : ",no,";
+  append_csv_cell(row_, r.reason);
+  row_ += ',';
+  row_ += transform_cells_[r.mp.record];
+  row_ += ',';
+  if (r.density) fmt::format_to(to, "{:.2f}", *r.density);
+  row_ += ',';
+  if (r.freshwater_head) fmt::format_to(to, "{:.{}f}", *r.freshwater_head, dp);
+  row_ += ',';
+  if (r.environmental_head) fmt::format_to(to, "{:.{}f}", *r.environmental_head, dp);
+  row_ += '\n';
+  out_.write(row_.data(), static_cast<std::streamsize>(row_.size()));
+}
+
+HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
+                                 const std::string& target)
+    : target_(target) {
+  GDALAllRegister();
+  CPLSetThreadLocalConfigOption("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");  // reproducible
+  dataset_ =
+      GDALCreate(GDALGetDriverByName("GPKG"), path.string().c_str(), 0, 0, 0, GDT_Unknown, nullptr);
+  if (!dataset_)
+    throw OutputError("cannot create heads.gpkg: " + std::string(CPLGetLastErrorMsg()));
+  OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
+  if (OSRSetFromUserInput(srs, crs.c_str()) != OGRERR_NONE) {
+    OSRDestroySpatialReference(srs);
+    throw OptionError(fmt::format("--crs '{}' is not a CRS GDAL knows", crs));
+  }
+  OSRSetAxisMappingStrategy(srs, OAMS_TRADITIONAL_GIS_ORDER);
+  layer_ = GDALDatasetCreateLayer(dataset_, "heads", srs, wkbPoint, nullptr);
+  OSRDestroySpatialReference(srs);
+  for (const auto& [name, type] :
+       std::vector<std::pair<const char*, OGRFieldType>>{{"well", OFTString},
+                                                         {"time", OFTString},
+                                                         {"time_utc", OFTString},
+                                                         {"head", OFTReal},
+                                                         {"sigma", OFTReal},
+                                                         {"datum", OFTString},
+                                                         {"mp_elevation", OFTReal},
+                                                         {"state", OFTString},
+                                                         {"flags", OFTString},
+                                                         {"contour", OFTString}}) {
+    OGRFieldDefnH field = OGR_Fld_Create(name, type);
+    OGR_L_CreateField(layer_, field, 1);
+    OGR_Fld_Destroy(field);
+  }
+  GDALSetMetadataItem(layer_, "VERTICAL_REFERENCE", target.c_str(), nullptr);
+  GDALSetMetadataItem(layer_, "HEIGHT_UNIT", "metre", nullptr);
+  GDALSetMetadataItem(layer_, "PRODUCER", version_string().c_str(), nullptr);
+  GDALDatasetStartTransaction(dataset_, 1);
+}
+
+HeadsGpkgWriter::~HeadsGpkgWriter() {
+  if (dataset_) GDALClose(dataset_);
+}
+
+void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const HeadRecord& r) {
+  OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer_));
+  OGR_F_SetFieldString(f, 0, well.id.c_str());
+  OGR_F_SetFieldString(f, 1, reading.time_text.c_str());
+  OGR_F_SetFieldString(f, 2, format_utc(reading.time).c_str());
+  if (r.head) {
+    const double scale = std::pow(10.0, decimals_for(r.sigma));
+    OGR_F_SetFieldDouble(f, 3, std::round(*r.head * scale) / scale);
+    OGR_F_SetFieldDouble(f, 4, r.sigma);
+  }
+  OGR_F_SetFieldString(f, 5, target_.c_str());
+  OGR_F_SetFieldDouble(f, 6, r.mp.height);
+  OGR_F_SetFieldString(f, 7, r.state.c_str());
+  OGR_F_SetFieldString(f, 8, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
+  OGR_F_SetFieldString(f, 9, r.contour() ? "yes" : "no");
+  OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
+  OGR_G_SetPoint_2D(g, 0, well.x, well.y);
+  OGR_F_SetGeometryDirectly(f, g);
+  const OGRErr err = OGR_L_CreateFeature(layer_, f);
+  OGR_F_Destroy(f);
+  if (err != OGRERR_NONE)
+    throw OutputError("writing heads.gpkg failed: " + std::string(CPLGetLastErrorMsg()));
+}
+
+void HeadsGpkgWriter::finish() {
+  GDALDatasetCommitTransaction(dataset_);
+  GDALClose(dataset_);
+  dataset_ = nullptr;
+}
+
+}  // namespace levelhead

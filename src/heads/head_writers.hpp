@@ -1,0 +1,53 @@
+#pragma once
+// The sinks of `heads` (head_core.hpp): heads.csv and the heads layer of
+// heads.gpkg, each written one record at a time.
+
+#include <gdal.h>
+
+#include <filesystem>
+#include <ostream>
+#include <string>
+#include <vector>
+
+#include "levelhead/head_core.hpp"
+
+namespace levelhead {
+
+// Decimals a head deserves: about one below its standard deviation, so no
+// table shows more digits than the data carry (0.003 m -> 3, 0.02 m -> 2).
+int decimals_for(double sigma);
+
+// heads.csv (columns in docs/formats.md).
+class HeadsCsvWriter final : public HeadSink {
+ public:
+  HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
+                 const std::string& target);
+  void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) override;
+
+ private:
+  std::ostream& out_;
+  std::string target_cell_, row_;
+  std::vector<std::string> source_cells_, transform_cells_;  // per measuring-point record
+};
+
+// The point layer `heads` of a new GeoPackage at `path`, in one transaction.
+// Throws OutputError when the file cannot be created or written, OptionError
+// when GDAL does not know `crs`.
+class HeadsGpkgWriter final : public HeadSink {
+ public:
+  HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
+                  const std::string& target);
+  ~HeadsGpkgWriter() override;
+  HeadsGpkgWriter(const HeadsGpkgWriter&) = delete;
+  HeadsGpkgWriter& operator=(const HeadsGpkgWriter&) = delete;
+  void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) override;
+  // Commits the transaction and closes the file.
+  void finish();
+
+ private:
+  GDALDatasetH dataset_ = nullptr;
+  OGRLayerH layer_ = nullptr;
+  std::string target_;
+};
+
+}  // namespace levelhead

@@ -1,0 +1,269 @@
+// The per-reading core of `heads` at full precision, without files: the
+// measuring point in force, one reading into a head record, the sequence
+// checks, the contouring decision and the flag table. Invented wells; every
+// expected value is worked by hand from the formulas in head_core.hpp.
+
+#include <algorithm>
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <fstream>
+#include <set>
+
+#include "levelhead/flags.hpp"
+#include "levelhead/head_core.hpp"
+#include "support/cli_run.hpp"
+#include "support/temp_folder.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::WithinAbs;
+
+namespace {
+
+// Two surveys of one well a year apart (2020-01-01, 2021-01-01: 366 days),
+// both in the target reference, so no conversion changes them.
+struct TwoSurveys {
+  WellSet wells;
+  std::vector<MeasuringPointRecord> records;
+  HeadOptions options;
+
+  TwoSurveys() {
+    Well w;
+    w.id = "W1";
+    w.x = 500000.0;
+    w.y = 4400000.0;
+    w.ground = 12.0;
+    w.screen_bottom = 20.0;
+    wells.index.emplace("W1", 0);
+    wells.wells.push_back(w);
+    records.push_back(record("2020-01-01", 10.000, 0.004, 2));
+    records.push_back(record("2021-01-01", 9.800, 0.002, 3));
+    options.target = "EPSG:5703";
+    options.crs = "EPSG:32613";
+  }
+
+  static MeasuringPointRecord record(const char* from, double height, double sigma,
+                                     std::size_t row) {
+    MeasuringPointRecord m;
+    m.well = "W1";
+    m.valid_from_text = from;
+    m.valid_from = *parse_iso8601(from);
+    m.height = height;
+    m.sigma = sigma;
+    m.datum = "EPSG:5703";
+    m.row = row;
+    return m;
+  }
+
+  MeasuringPointHistory history() const {
+    return MeasuringPointHistory(wells, records, {}, {}, ReferenceSet{}, ProjSettings{}, options);
+  }
+};
+
+double seconds(const char* time) { return parse_iso8601(time)->seconds; }
+
+ReadingInput reading_at(const char* time, std::optional<double> depth) {
+  ReadingInput r;
+  r.time_text = time;
+  r.time = seconds(time);
+  r.level.depth = depth;
+  return r;
+}
+
+bool has(const std::vector<std::string>& flags, const std::string& flag) {
+  return std::find(flags.begin(), flags.end(), flag) != flags.end();
+}
+
+}  // namespace
+
+TEST_CASE("the measuring point in force: the latest survey, or interpolated between two",
+          "[heads][core]") {
+  TwoSurveys site;
+  SECTION("without interpolation the earlier survey holds until the next") {
+    const auto at = site.history().at(0, seconds("2020-07-01"));
+    REQUIRE(at);
+    CHECK(at->record == 0);
+    CHECK_THAT(at->height, WithinAbs(10.000, 1e-12));
+    CHECK_THAT(at->sigma, WithinAbs(0.004, 1e-12));
+    CHECK(at->flags.empty());
+  }
+  SECTION("interpolated at a quarter of the interval") {
+    site.options.interpolate = true;
+    // A quarter of 366 days after 2020-01-01 is 91.5 days: 2020-04-01T12:00.
+    const auto at = site.history().at(0, seconds("2020-04-01T12:00Z"));
+    REQUIRE(at);
+    // 0.75 * 10.000 + 0.25 * 9.800 = 9.950; sigma = hypot(0.75 * 0.004, 0.25 * 0.002).
+    CHECK_THAT(at->height, WithinAbs(9.950, 1e-12));
+    CHECK_THAT(at->sigma, WithinAbs(std::hypot(0.003, 0.0005), 1e-15));
+    CHECK(has(at->flags, "mp-interpolated"));
+  }
+  SECTION("on the day of the second survey, that survey") {
+    site.options.interpolate = true;
+    const auto at = site.history().at(0, seconds("2021-01-01"));
+    REQUIRE(at);
+    CHECK(at->record == 1);
+    CHECK_THAT(at->height, WithinAbs(9.800, 1e-12));
+    CHECK_FALSE(has(at->flags, "mp-interpolated"));
+  }
+  SECTION("before the first survey: the first, marked") {
+    const auto at = site.history().at(0, seconds("2019-12-31"));
+    REQUIRE(at);
+    CHECK(at->before_first);
+    CHECK(at->record == 0);
+    CHECK(has(at->flags, "before-first-survey"));
+  }
+  SECTION("a change between surveys beyond the tolerance is in the history's QA") {
+    // |9.800 - 10.000| = 0.200 m > 0.02 m (the default tolerance).
+    const auto history = site.history();
+    REQUIRE(history.qa().size() == 1);
+    CHECK(history.qa()[0].flag == "mp-changed");
+    CHECK(history.qa()[0].row == 3);
+  }
+}
+
+TEST_CASE("a reading evaluated into a head record", "[heads][core]") {
+  TwoSurveys site;
+  const Well& well = site.wells.wells[0];
+  const auto mp = *site.history().at(0, seconds("2020-06-01"));
+  SECTION("head = measuring point - depth, sigma from both") {
+    ReadingInput r = reading_at("2020-06-01T08:00Z", 4.3217);
+    r.depth_sigma = 0.003;
+    const HeadRecord h = evaluate_reading(r, mp, well, site.options);
+    REQUIRE(h.head);
+    CHECK_THAT(*h.head, WithinAbs(10.000 - 4.3217, 1e-12));
+    CHECK_THAT(h.sigma, WithinAbs(0.005, 1e-15));  // hypot(0.004, 0.003)
+    CHECK(h.flags.empty());
+    CHECK(contouring_reason(h).empty());
+  }
+  SECTION("a flowing well: head = measuring point + water above it") {
+    ReadingInput r = reading_at("2020-06-01T08:00Z", std::nullopt);
+    r.level.state = "flowing";
+    r.above = 0.35;
+    const HeadRecord h = evaluate_reading(r, mp, well, site.options);
+    REQUIRE(h.head);
+    CHECK_THAT(*h.head, WithinAbs(10.35, 1e-12));
+    CHECK_FALSE(has(h.flags, "water-above-mp"));
+  }
+  SECTION("a negative depth without flowing is flagged and not contoured") {
+    const HeadRecord h =
+        evaluate_reading(reading_at("2020-06-01T08:00Z", -0.10), mp, well, site.options);
+    CHECK(has(h.flags, "water-above-mp"));
+    CHECK(contouring_reason(h) == "water-above-mp");
+  }
+  SECTION("a state has no head and gives the reason") {
+    ReadingInput r = reading_at("2020-06-01T08:00Z", std::nullopt);
+    r.level.state = "dry";
+    const HeadRecord h = evaluate_reading(r, mp, well, site.options);
+    CHECK_FALSE(h.head);
+    CHECK(contouring_reason(h) == "no head: dry");
+  }
+}
+
+TEST_CASE("the synoptic window's edge: just inside and just outside", "[heads][core]") {
+  TwoSurveys site;
+  site.options.event = seconds("2020-06-10T12:00Z");
+  site.options.synoptic_window_hours = 48.0;  // +-24 h
+  const Well& well = site.wells.wells[0];
+  const auto mp = *site.history().at(0, seconds("2020-06-10"));
+  const auto flags_at = [&](const char* time) {
+    return evaluate_reading(reading_at(time, 4.0), mp, well, site.options).flags;
+  };
+  CHECK_FALSE(has(flags_at("2020-06-11T11:59:59Z"), "outside-synoptic-window"));
+  CHECK_FALSE(has(flags_at("2020-06-09T12:00:01Z"), "outside-synoptic-window"));
+  CHECK(has(flags_at("2020-06-11T12:00:01Z"), "outside-synoptic-window"));
+  CHECK(has(flags_at("2020-06-09T11:59:59Z"), "outside-synoptic-window"));
+}
+
+TEST_CASE("the sequence checks of a well's readings", "[heads][core]") {
+  TwoSurveys site;
+  site.options.repeat_tolerance = 0.003;
+  site.options.repeat_window_hours = 0.25;
+  ReadingSequence sequence(site.options);
+  const auto record = [](double head) {
+    HeadRecord r;
+    r.head = head;
+    return r;
+  };
+  HeadRecord first = record(5.000);
+  CHECK(sequence.check(seconds("2020-06-01T08:00Z"), first).empty());
+  CHECK(first.flags.empty());
+  HeadRecord agrees = record(5.002);  // 2 mm within 10 min: a repeat that agrees
+  CHECK(sequence.check(seconds("2020-06-01T08:10Z"), agrees).empty());
+  CHECK(agrees.flags.empty());
+  HeadRecord disagrees = record(5.010);  // 10 mm from the first, 8 mm from the second
+  const std::string detail = sequence.check(seconds("2020-06-01T08:12Z"), disagrees);
+  CHECK(has(disagrees.flags, "repeat-disagrees"));
+  CHECK(detail.find("+0.010 m") != std::string::npos);
+  HeadRecord same_time = record(5.010);
+  sequence.check(seconds("2020-06-01T08:12Z"), same_time);
+  CHECK(has(same_time.flags, "duplicate"));
+  HeadRecord older = record(5.000);
+  sequence.check(seconds("2020-06-01T07:00Z"), older);
+  CHECK(has(older.flags, "out-of-order"));
+}
+
+TEST_CASE("the flag table decides contouring, qa.csv and --strict", "[heads][flags]") {
+  SECTION("every flag has a meaning, and the names are unique") {
+    std::set<std::string_view> names;
+    for (const FlagInfo& f : head_flags()) {
+      CHECK_FALSE(f.meaning.empty());
+      CHECK(names.insert(f.name).second);
+      // A rejection keeps the head out of contours; nothing else does.
+      CHECK(f.excludes_contouring == (f.kind == FlagClass::rejection));
+    }
+  }
+  SECTION("a parameter in parentheses is ignored for the lookup") {
+    CHECK(flag_info("outside-ties-hull(site-1998)").name == "outside-ties-hull");
+  }
+  SECTION("unknown flags: an earlier stage's rejection excludes, anything else is a caution") {
+    CHECK(flag_info("sonde-spike-rejected").excludes_contouring);
+    CHECK_FALSE(flag_info("logger-battery-low").excludes_contouring);
+    CHECK(flag_info("logger-battery-low").fails_strict);
+  }
+  SECTION("information never fails --strict") {
+    CHECK_FALSE(flag_info("outside-synoptic-window").fails_strict);
+    CHECK_FALSE(flag_info("mp-interpolated").fails_strict);
+    CHECK(flag_info("pumping").fails_strict);
+  }
+  SECTION("the reason is the first rejection in the table's order") {
+    HeadRecord r;
+    r.head = 1.0;
+    r.flags = {"before-first-survey", "pumping"};
+    CHECK(contouring_reason(r) == "pumping");
+    r.flags = {"mp-interpolated", "transducer-drift-rejected"};
+    CHECK(contouring_reason(r) == "transducer-drift-rejected");
+  }
+}
+
+TEST_CASE("heads --strict with an event does not fail on readings outside its window",
+          "[heads][cli][flags]") {
+  // Regression: every reading outside the synoptic window (information, not a
+  // defect) made `heads --strict --event` exit 3 on clean data, so `run
+  // --strict` with an event always failed.
+  levelhead::testing::TempFolder tmp;
+  const auto write = [&](const char* name, const char* text) {
+    std::ofstream(tmp.path() / name) << text;
+    return (tmp.path() / name).string();
+  };
+  const std::string wells = write("wells.csv", "id,x,y\nW1,500000,4400000\n");
+  const std::string mp = write("mp.csv",
+                               "well,valid_from,height,datum,sigma\n"
+                               "W1,2020-01-01,10.000,EPSG:5703,0.002\n");
+  const std::string levels = write("levels.csv",
+                                   "well,time,depth\n"
+                                   "W1,2020-03-01T08:00Z,4.100\n"
+                                   "W1,2020-06-10T08:00Z,4.200\n");
+  std::vector<std::string> args = {
+      "heads",   "--wells",   wells,   "--mp",       mp,        "--levels",          levels,
+      "--to",    "EPSG:5703", "--crs", "EPSG:32613", "--event", "2020-06-10T12:00Z", "--no-gpkg",
+      "--quiet", "--strict"};
+  args.insert(args.end(), {"--out", (tmp.path() / "clean").string()});
+  const auto clean = levelhead::testing::run_cli(args);
+  INFO(clean.err);
+  CHECK(clean.code == 0);
+  CHECK_THAT(levelhead::testing::read_file(tmp.path() / "clean" / "heads.csv"),
+             Catch::Matchers::Contains("outside-synoptic-window"));
+  // A flag that needs a look still fails: a negative depth without `flowing`.
+  std::ofstream(levels, std::ios::app) << "W1,2020-06-10T09:00Z,-0.2\n";
+  args.back() = (tmp.path() / "flagged").string();
+  CHECK(levelhead::testing::run_cli(args).code == 3);
+}
