@@ -6,20 +6,20 @@
 #include "support/synthetic_networks.hpp"
 
 using namespace levelhead;
-using levelhead::testing::point;
-using levelhead::testing::section;
 using Catch::Matchers::Contains;
 using Catch::Matchers::WithinAbs;
+using levelhead::testing::point;
+using levelhead::testing::section;
 
 TEST_CASE("a single loop distributes its misclosure in proportion to length", "[adjust]") {
   // Textbook property of weights 1/length (common practice; e.g. Ghilani,
   // Adjustment Computations, 6th ed., ch. 12): each section takes the share
   // -misclosure * L_i / sum(L) of the correction.
   const double misclosure = 0.012;  // m, sum of observed dh around the loop
-  const Network net = make_network(
-      {point("A", 50.0), point("B"), point("C")},
-      {section("A", "B", 1.250, 400.0), section("B", "C", -0.730, 1000.0),
-       section("C", "A", -0.520 + misclosure, 600.0)});
+  const Network net =
+      make_network({point("A", 50.0), point("B"), point("C")},
+                   {section("A", "B", 1.250, 400.0), section("B", "C", -0.730, 1000.0),
+                    section("C", "A", -0.520 + misclosure, 600.0)});
   const AdjustmentResult r = adjust(net, AdjustmentOptions{});
   const double total = 2000.0;
   // Exact in exact arithmetic; 1e-12 m covers rounding of the solve.
@@ -36,9 +36,8 @@ TEST_CASE("a single loop distributes its misclosure in proportion to length", "[
 
 TEST_CASE("a part of the network without a known height is a datum defect naming its points",
           "[adjust][errors]") {
-  const Network net = make_network(
-      {point("A", 10.0), point("B"), point("C"), point("D")},
-      {section("A", "B", 1.0), section("C", "D", 2.0)});
+  const Network net = make_network({point("A", 10.0), point("B"), point("C"), point("D")},
+                                   {section("A", "B", 1.0), section("C", "D", 2.0)});
   try {
     adjust(net, AdjustmentOptions{});
     FAIL("expected a NetworkError");
@@ -49,8 +48,8 @@ TEST_CASE("a part of the network without a known height is a datum defect naming
 }
 
 TEST_CASE("a point with neither section nor height is reported", "[adjust][errors]") {
-  const Network net = make_network({point("A", 10.0), point("B"), point("LONELY")},
-                                   {section("A", "B", 1.0)});
+  const Network net =
+      make_network({point("A", 10.0), point("B"), point("LONELY")}, {section("A", "B", 1.0)});
   CHECK_THROWS_WITH(adjust(net, AdjustmentOptions{}), Contains("LONELY"));
 }
 
@@ -77,9 +76,10 @@ TEST_CASE("a free adjustment gives residuals independent of the point held", "[a
 TEST_CASE("a free adjustment ignores a wrong known height that the constrained one flags",
           "[adjust][free]") {
   // Two weighted known heights 30 mm apart from what the levelling says.
-  const Network net = make_network(
-      {point("A", 10.000, 0.002), point("B"), point("C", 12.030, 0.002)},
-      {section("A", "B", 1.0, 500.0), section("B", "C", 1.0, 500.0), section("A", "C", 2.0, 900.0)});
+  const Network net =
+      make_network({point("A", 10.000, 0.002), point("B"), point("C", 12.030, 0.002)},
+                   {section("A", "B", 1.0, 500.0), section("B", "C", 1.0, 500.0),
+                    section("A", "C", 2.0, 900.0)});
   const AdjustmentResult constrained = adjust(net, AdjustmentOptions{});
   REQUIRE_FALSE(constrained.suspects.empty());
   AdjustmentOptions free;
@@ -93,13 +93,13 @@ TEST_CASE("heights beyond a section of zero redundancy are unchecked", "[adjust]
   // Invented network: loop A-B-C with A known; a side shot C -> S; a spur
   // chain B -> P -> Q; a second loop D-E-F hung on the single line C -> D;
   // G between two known marks A and H (a chain, so it is checked).
-  const Network net = make_network(
-      {point("A", 50.0), point("B"), point("C"), point("S"), point("P"), point("Q"), point("D"),
-       point("E"), point("F"), point("G"), point("H", 51.0)},
-      {section("A", "B", 1.0), section("B", "C", 1.0), section("C", "A", -2.001),
-       section("C", "S", 0.3), section("B", "P", 0.2), section("P", "Q", 0.1),
-       section("C", "D", 0.5), section("D", "E", 0.1), section("E", "F", 0.1),
-       section("F", "D", -0.201), section("A", "G", 0.4), section("G", "H", 0.6)});
+  const Network net =
+      make_network({point("A", 50.0), point("B"), point("C"), point("S"), point("P"), point("Q"),
+                    point("D"), point("E"), point("F"), point("G"), point("H", 51.0)},
+                   {section("A", "B", 1.0), section("B", "C", 1.0), section("C", "A", -2.001),
+                    section("C", "S", 0.3), section("B", "P", 0.2), section("P", "Q", 0.1),
+                    section("C", "D", 0.5), section("D", "E", 0.1), section("E", "F", 0.1),
+                    section("F", "D", -0.201), section("A", "G", 0.4), section("G", "H", 0.6)});
   const AdjustmentResult r = adjust(net, AdjustmentOptions{});
   const auto checked = [&](const std::string& id) {
     return r.points[net.point_index.at(id)].checked;
@@ -215,8 +215,8 @@ TEST_CASE("iterative data snooping removes the planted blunder and reports it",
 }
 
 TEST_CASE("a network with every point fixed has nothing to solve", "[adjust]") {
-  const Network net = make_network({point("A", 10.0), point("B", 11.002)},
-                                   {section("A", "B", 1.0, 1000.0)});
+  const Network net =
+      make_network({point("A", 10.0), point("B", 11.002)}, {section("A", "B", 1.0, 1000.0)});
   const AdjustmentResult r = adjust(net, AdjustmentOptions{});
   CHECK(r.unknowns == 0);
   CHECK(r.dof == 1);
@@ -230,4 +230,33 @@ TEST_CASE("options out of range are refused with the option's name", "[adjust][o
   options = {};
   options.mm_per_sqrt_km = -1;
   CHECK_THROWS_AS(options.validate(), OptionError);
+}
+
+TEST_CASE("the global test's bounds and the MDB against numbers worked by hand",
+          "[adjust][statistics]") {
+  // The single loop of the first test: misclosure w = 12 mm in 2000 m at
+  // 1 mm/sqrt(km). By hand: v_i = -w L_i / sum(L), p_i = 1 / (1e-6 L_i / 1000),
+  // so v'Pv = w^2 1e9 / sum(L) = 0.012^2 * 1e9 / 2000 = 72.
+  const Network net =
+      make_network({point("A", 50.0), point("B"), point("C")},
+                   {section("A", "B", 1.250, 400.0), section("B", "C", -0.730, 1000.0),
+                    section("C", "A", -0.520 + 0.012, 600.0)});
+  const AdjustmentResult r = adjust(net, AdjustmentOptions{});
+  REQUIRE(r.global_test);
+  CHECK_THAT(r.global_test->statistic, WithinAbs(72.0, 1e-9));
+  // Two-sided chi-square bounds for 1 degree of freedom at alpha = 0.05: the
+  // 2.5 % and 97.5 % quantiles, 0.000982069 and 5.023886 (from memory; the
+  // NIST/SEMATECH e-Handbook's chi-square table gives 0.001 and 5.024).
+  CHECK_THAT(r.global_test->lower, WithinAbs(0.000982069, 1e-8));
+  CHECK_THAT(r.global_test->upper, WithinAbs(5.023886, 1e-5));
+  CHECK_FALSE(r.global_test->passed);
+  // Baarda's w-test and MDB at alpha0 = 0.001, beta0 = 0.80: critical value
+  // 3.2905 (the normal 99.95 % quantile) and non-centrality lambda0 = 17.075
+  // (Baarda 1968, the values commonly tabulated in adjustment textbooks).
+  CHECK_THAT(r.w_critical, WithinAbs(3.29053, 1e-5));
+  CHECK_THAT(r.lambda0, WithinAbs(17.0747, 1e-3));
+  // MDB of A -> B: sigma = 1 mm * sqrt(0.4), r = 0.2:
+  // sqrt(17.0747 / 0.2) * 0.00063246 = 0.0058437 m.
+  REQUIRE(r.sections[0].mdb);
+  CHECK_THAT(*r.sections[0].mdb, WithinAbs(0.0058437, 2e-7));
 }
