@@ -268,44 +268,42 @@ struct Check {
   double time = 0.0, manual = 0.0, transducer = 0.0, offset = 0.0;
 };
 
-}  // namespace
+// The manual readings as `heads` needs them passed through: every row as
+// given (under levelhead's column names), and the depths that check sensors.
+struct ManualPart {
+  std::vector<std::string> columns;  // of the output levels table
+  std::unordered_map<std::string, std::vector<ManualReading>> by_well;  // by time
+  std::unordered_map<std::string, std::vector<double>> times;           // by time
+  std::map<std::string, std::size_t> well_rank;                         // output order
+  std::vector<std::string> lines;                                       // formatted rows
+  std::vector<OutputRow> rows;
+};
 
-TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table,
-                                     const std::filesystem::path& records,
-                                     const TableOptions& records_table, const Table& manual,
-                                     const TransducerOptions& options,
-                                     const std::filesystem::path& folder) {
-  options.validate();
-  std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
-  read_records(records, records_table, sensors);
-
-  // Manual readings: passed through as they are, and the checks.
+ManualPart read_manual(const Table& manual, const WellSet& wells,
+                       const std::map<std::string, Sensor>& sensors) {
+  ManualPart part;
   const std::size_t well_col = manual.require_column("well"),
                     time_col = manual.require_column("time");
   const std::size_t depth_col = manual.require_column("depth");
   const auto status_col = manual.find_column("status");
   // The output speaks levelhead's column names, whatever the column map.
-  std::vector<std::string> columns = manual.column_names();
+  part.columns = manual.column_names();
   for (const char* ours : {"well", "time", "depth", "status", "sigma", "method", "flags", "above",
                            "density", "temperature", "salinity"}) {
-    if (const auto c = manual.find_column(ours)) columns[*c] = ours;
+    if (const auto c = manual.find_column(ours)) part.columns[*c] = ours;
   }
   for (const char* extra : {"sigma", "method", "flags"}) {
-    if (std::find(columns.begin(), columns.end(), extra) == columns.end())
-      columns.emplace_back(extra);
+    if (std::find(part.columns.begin(), part.columns.end(), extra) == part.columns.end())
+      part.columns.emplace_back(extra);
   }
-  std::unordered_map<std::string, std::vector<ManualReading>> by_well;
   // Output order: by well id, then time.
-  std::map<std::string, std::size_t> well_rank;
   for (std::size_t r = 0; r < manual.row_count(); ++r)
-    well_rank[std::string(manual.cell(r, well_col))];
+    part.well_rank[std::string(manual.cell(r, well_col))];
   for (const auto& [id, sensor] : sensors) {
-    if (sensor.kind != "barometer") well_rank[sensor.well];
+    if (sensor.kind != "barometer") part.well_rank[sensor.well];
   }
   std::size_t rank = 0;
-  for (auto& [w, k] : well_rank) k = rank++;
-  std::vector<std::string> manual_lines;
-  std::vector<OutputRow> rows;
+  for (auto& [w, k] : part.well_rank) k = rank++;
   for (std::size_t r = 0; r < manual.row_count(); ++r) {
     const std::string well(manual.cell(r, well_col));
     const auto when = parse_iso8601(manual.cell(r, time_col));
@@ -321,33 +319,166 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     // from it. Only a numeric depth is a check of a sensor.
     const LevelValue level =
         read_level_value(manual, r, depth_col, status_col, bounds::max_depth_to_water);
-    by_well[well].push_back(ManualReading{when->seconds, level.depth});
+    part.by_well[well].push_back(ManualReading{when->seconds, level.depth});
     std::string line;
-    for (std::size_t c = 0; c < columns.size(); ++c) {
+    for (std::size_t c = 0; c < part.columns.size(); ++c) {
       if (c) line += ',';
       if (c < manual.column_names().size()) append_csv_cell(line, manual.cell(r, c));
     }
-    rows.push_back({well_rank.at(well), when->seconds, manual_row, manual_lines.size()});
-    manual_lines.push_back(std::move(line));
+    part.rows.push_back({part.well_rank.at(well), when->seconds, manual_row, part.lines.size()});
+    part.lines.push_back(std::move(line));
   }
-  std::unordered_map<std::string, std::vector<double>> manual_times;
-  for (auto& [w, list] : by_well) {
+  for (auto& [w, list] : part.by_well) {
     std::sort(list.begin(), list.end(),
               [](const ManualReading& a, const ManualReading& b) { return a.time < b.time; });
-    for (const ManualReading& m : list) manual_times[w].push_back(m.time);
+    for (const ManualReading& m : list) part.times[w].push_back(m.time);
   }
+  return part;
+}
 
-  OutputSet out(folder);
-  std::ostream& checks_csv = out.open("checks.csv");
-  checks_csv << "sensor,well,time,manual_depth,transducer_depth,offset,drift,rejected_until_next\n";
-  std::ostream& qa_csv = out.open("qa.csv");
-  qa_csv << "sensor,well,time,row,flag,detail\n";
+// A barometer too far from its well, or too far above or below it, does not
+// measure the well's air pressure: an error naming the sensor's row.
+void check_barometer(const Sensor& sensor, const Sensor& baro, const Well& well,
+                     const std::string& sensors_file, const TransducerOptions& options,
+                     SensorSummary& s) {
+  const double distance = std::hypot(*baro.x - well.x, *baro.y - well.y);
+  if (distance > options.max_baro_distance) {
+    throw InputError(
+        CellLocation{sensors_file, sensor.row, "barometer"}, baro.id,
+        fmt::format("barometer '{}' is {:.0f} m from well '{}', beyond --max-baro-distance "
+                    "({:.0f} m): its air pressure may not be the well's",
+                    baro.id, distance, well.id, options.max_baro_distance));
+  }
+  if (!well.ground) {
+    ++s.flags["baro-elevation-unchecked"];
+  } else if (std::abs(*baro.elevation - *well.ground) > options.max_baro_elevation_difference) {
+    throw InputError(CellLocation{sensors_file, sensor.row, "barometer"}, baro.id,
+                     fmt::format("barometer '{}' stands {:.0f} m above or below well '{}', beyond "
+                                 "--max-baro-elevation-difference ({:.0f} m)",
+                                 baro.id, std::abs(*baro.elevation - *well.ground), well.id,
+                                 options.max_baro_elevation_difference));
+  }
+}
 
-  TransducerSummary summary;
-  summary.manual = manual.row_count();
-  const double baro_gap = options.max_baro_gap_hours * 3600.0,
-               check_gap = options.max_check_gap_hours * 3600.0;
-  const double window = options.manual_window_hours * 3600.0;
+// Raw depths (with the hung depth, or 0 until calibrated): depth = hung -
+// p_w / (rho g), p_w the pressure less the barometer's (interpolated) for an
+// absolute sensor. A sample without a barometer sample near it gives none
+// (qa.csv: baro-gap); a pressure outside the range or below the water is
+// flagged for rejection.
+std::vector<Reading> raw_readings(const Sensor& sensor, const Sensor* baro, const SensorSummary& s,
+                                  const TransducerOptions& options, std::ostream& qa_csv,
+                                  std::map<std::string, std::size_t>& flags) {
+  std::vector<Reading> readings;
+  readings.reserve(sensor.samples.size());
+  const double hung = sensor.hung_depth.value_or(0.0);
+  const double baro_gap = options.max_baro_gap_hours * 3600.0;
+  for (const Sample& sample : sensor.samples) {
+    std::optional<double> air;
+    if (baro) air = interpolate(baro->samples, sample.time, baro_gap);
+    if (sensor.kind == "absolute" && !air) {
+      qa_csv << csv_cell(sensor.id) << ',' << csv_cell(sensor.well) << ','
+             << format_utc(sample.time) << ',' << sample.row
+             << ",baro-gap,no barometer sample within " << options.max_baro_gap_hours
+             << " h on each side\n";
+      ++flags["baro-gap"];
+      continue;
+    }
+    const double water = sensor.kind == "absolute" ? sample.pressure - *air : sample.pressure;
+    Reading reading;
+    reading.time = sample.time;
+    reading.raw = hung - water_column(water, s.density, s.gravity);
+    reading.baro_m = air ? water_column(*air, s.density, s.gravity) : 0.0;
+    reading.has_baro = air.has_value();
+    reading.row = sample.row;
+    if (sensor.range_kpa && (sample.pressure < 0.0 || sample.pressure > *sensor.range_kpa)) {
+      reading.flags |= range_rejected;
+    } else if (water < 0.0) {
+      reading.flags |= dry_rejected;
+    }
+    readings.push_back(reading);
+  }
+  return readings;
+}
+
+// The manual checks of one sensor: offset = manual depth - the nearest valid
+// raw depth; an offset that moves by more than the drift limit between two
+// checks rejects the readings between them.
+struct SensorChecks {
+  std::vector<Check> checks;
+  std::vector<bool> rejected_after;  // per check: the interval after it is rejected
+};
+
+SensorChecks find_checks(const std::vector<ManualReading>& manual,
+                         const std::vector<Reading>& readings, const TransducerOptions& options,
+                         SensorSummary& s) {
+  SensorChecks c;
+  const double check_gap = options.max_check_gap_hours * 3600.0;
+  for (const ManualReading& m : manual) {
+    if (!m.depth) continue;
+    if (const Reading* nearest = nearest_valid(readings, m.time, check_gap))
+      c.checks.push_back({m.time, *m.depth, nearest->raw, *m.depth - nearest->raw});
+  }
+  c.rejected_after.assign(c.checks.size(), false);
+  for (std::size_t i = 1; i < c.checks.size(); ++i) {
+    const double drift = c.checks[i].offset - c.checks[i - 1].offset;
+    if (std::abs(drift) > options.drift_limit) c.rejected_after[i - 1] = true;
+    s.largest_drift = std::max(s.largest_drift, std::abs(drift));
+  }
+  s.checks = c.checks.size();
+  return c;
+}
+
+void write_checks(std::ostream& checks_csv, const Sensor& sensor, const SensorChecks& c,
+                  const SensorSummary& s) {
+  for (std::size_t i = 0; i < c.checks.size(); ++i) {
+    const Check& check = c.checks[i];
+    const double drift = i ? check.offset - c.checks[i - 1].offset : 0.0;
+    checks_csv << csv_cell(sensor.id) << ',' << csv_cell(sensor.well) << ','
+               << format_utc(check.time) << ','
+               << fmt::format("{:.4f},{:.4f},{:.4f},{}", check.manual,
+                              check.transducer + (s.calibrated ? *s.hung_depth : 0.0),
+                              check.offset - (s.calibrated ? *s.hung_depth : 0.0),
+                              i ? fmt::format("{:+.4f}", drift) : "")
+               << ',' << (c.rejected_after[i] ? "yes" : "no") << '\n';
+  }
+}
+
+// The correction of a reading at `time` from the checks: linear between the
+// two around it, the nearest beyond them (flagged beyond-checks when more
+// than the check gap away), the earlier one in a rejected interval (flagged
+// drift-rejected), none without checks (flagged unchecked). `interval` is
+// the index of the check at or before the previous reading (times ascend).
+double correction_at(double time, const SensorChecks& c, double check_gap, std::size_t& interval,
+                     unsigned& flags) {
+  const std::vector<Check>& checks = c.checks;
+  if (checks.empty()) {
+    flags |= unchecked;
+    return 0.0;
+  }
+  if (time <= checks.front().time) {
+    if (time < checks.front().time - check_gap) flags |= beyond_checks;
+    return checks.front().offset;
+  }
+  if (time >= checks.back().time) {
+    if (time > checks.back().time + check_gap) flags |= beyond_checks;
+    return checks.back().offset;
+  }
+  while (checks[interval + 1].time < time) ++interval;
+  if (c.rejected_after[interval]) {
+    flags |= drift_rejected;
+    return checks[interval].offset;
+  }
+  const Check& a = checks[interval];
+  const Check& b = checks[interval + 1];
+  const double f = (time - a.time) / (b.time - a.time);
+  return a.offset + f * (b.offset - a.offset);
+}
+
+void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit unit_of_table,
+                  const std::vector<const Sensor*>& sensors,
+                  const std::vector<std::vector<Reading>>& readings,
+                  const TransducerOptions& options) {
+  const std::vector<std::string>& columns = manual.columns;
   const auto index_of = [&](const char* name) {
     return static_cast<std::size_t>(std::find(columns.begin(), columns.end(), name) -
                                     columns.begin());
@@ -356,197 +487,19 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
                     time_index = index_of("time");
   const std::size_t sigma_index = index_of("sigma"), method_index = index_of("method"),
                     flags_index = index_of("flags");
-
-  // Per well sensor, its readings, kept until the table is written.
-  std::vector<const Sensor*> written_sensors;
-  std::vector<std::vector<Reading>> sensor_readings;
-  for (auto& [id, sensor] : sensors) {
-    if (sensor.kind == "barometer") continue;
-    SensorSummary s;
-    s.sensor = id;
-    s.well = sensor.well;
-    s.kind = sensor.kind;
-    s.barometer = sensor.barometer;
-    s.records = sensor.samples.size();
-    const Well& well = wells.wells[wells.index.at(sensor.well)];
-    s.density = well.density.value_or(options.density);
-    s.gravity = options.gravity;
-    const Sensor* baro = sensor.barometer.empty() ? nullptr : &sensors.at(sensor.barometer);
-    if (baro) {
-      const double distance = std::hypot(*baro->x - well.x, *baro->y - well.y);
-      if (distance > options.max_baro_distance) {
-        throw InputError(
-            CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
-            fmt::format("barometer '{}' is {:.0f} m from well '{}', beyond --max-baro-distance "
-                        "({:.0f} m): its air pressure may not be the well's",
-                        baro->id, distance, well.id, options.max_baro_distance));
-      }
-      if (!well.ground) {
-        ++s.flags["baro-elevation-unchecked"];
-      } else if (std::abs(*baro->elevation - *well.ground) >
-                 options.max_baro_elevation_difference) {
-        throw InputError(
-            CellLocation{sensors_table.source(), sensor.row, "barometer"}, baro->id,
-            fmt::format("barometer '{}' stands {:.0f} m above or below well '{}', beyond "
-                        "--max-baro-elevation-difference ({:.0f} m)",
-                        baro->id, std::abs(*baro->elevation - *well.ground), well.id,
-                        options.max_baro_elevation_difference));
-      }
-    }
-
-    // Raw depths (with the hung depth, or 0 until calibrated).
-    std::vector<Reading> readings;
-    readings.reserve(sensor.samples.size());
-    const double hung = sensor.hung_depth.value_or(0.0);
-    for (const Sample& sample : sensor.samples) {
-      std::optional<double> air;
-      if (baro) air = interpolate(baro->samples, sample.time, baro_gap);
-      if (sensor.kind == "absolute" && !air) {
-        qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(sample.time)
-               << ',' << sample.row << ",baro-gap,no barometer sample within "
-               << options.max_baro_gap_hours << " h on each side\n";
-        ++s.flags["baro-gap"];
-        continue;
-      }
-      const double water = sensor.kind == "absolute" ? sample.pressure - *air : sample.pressure;
-      Reading reading;
-      reading.time = sample.time;
-      reading.raw = hung - water_column(water, s.density, s.gravity);
-      reading.baro_m = air ? water_column(*air, s.density, s.gravity) : 0.0;
-      reading.has_baro = air.has_value();
-      reading.row = sample.row;
-      if (sensor.range_kpa && (sample.pressure < 0.0 || sample.pressure > *sensor.range_kpa)) {
-        reading.flags |= range_rejected;
-      } else if (water < 0.0) {
-        reading.flags |= dry_rejected;
-      }
-      readings.push_back(reading);
-    }
-    // The well sensor's samples are done with (a barometer's may serve others).
-    std::vector<Sample>().swap(sensor.samples);
-
-    // Offsets at the manual checks: manual depth minus the nearest valid raw depth.
-    std::vector<Check> checks;
-    for (const ManualReading& m : by_well[sensor.well]) {
-      if (!m.depth) continue;
-      if (const Reading* nearest = nearest_valid(readings, m.time, check_gap))
-        checks.push_back({m.time, *m.depth, nearest->raw, *m.depth - nearest->raw});
-    }
-    s.checks = checks.size();
-    if (!sensor.hung_depth) {
-      if (checks.empty()) {
-        throw InputError(
-            CellLocation{sensors_table.source(), sensor.row, "hung_depth"}, "",
-            fmt::format("sensor '{}' has no hung depth and no manual reading of well '{}' within "
-                        "{} h of a record to calibrate it on; give hung_depth or a tape reading",
-                        id, sensor.well, options.max_check_gap_hours));
-      }
-      s.calibrated = true;
-      s.hung_depth = checks.front().offset;
-    } else {
-      s.hung_depth = sensor.hung_depth;
-    }
-    std::vector<bool> rejected_after(checks.size(), false);
-    for (std::size_t i = 0; i < checks.size(); ++i) {
-      const double drift = i ? checks[i].offset - checks[i - 1].offset : 0.0;
-      if (i && std::abs(drift) > options.drift_limit) rejected_after[i - 1] = true;
-      s.largest_drift = std::max(s.largest_drift, std::abs(drift));
-    }
-    for (std::size_t i = 0; i < checks.size(); ++i) {
-      const double drift = i ? checks[i].offset - checks[i - 1].offset : 0.0;
-      checks_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ','
-                 << format_utc(checks[i].time) << ','
-                 << fmt::format("{:.4f},{:.4f},{:.4f},{}", checks[i].manual,
-                                checks[i].transducer + (s.calibrated ? *s.hung_depth : 0.0),
-                                checks[i].offset - (s.calibrated ? *s.hung_depth : 0.0),
-                                i ? fmt::format("{:+.4f}", drift) : "")
-                 << ',' << (rejected_after[i] ? "yes" : "no") << '\n';
-    }
-
-    // Corrected depths, the flags, and the readings written.
-    std::vector<double> depth_changes, baro_changes;
-    const Reading* previous = nullptr;
-    const std::vector<double>& near = manual_times[sensor.well];
-    const std::size_t sensor_index = sensor_readings.size();
-    std::size_t interval = 0;  // checks[interval] <= time < checks[interval + 1]; times ascend
-    for (std::size_t k = 0; k < readings.size(); ++k) {
-      Reading& r = readings[k];
-      double correction = 0.0;
-      if (checks.empty()) {
-        r.flags |= unchecked;
-      } else if (r.time <= checks.front().time) {
-        correction = checks.front().offset;
-        if (r.time < checks.front().time - check_gap) r.flags |= beyond_checks;
-      } else if (r.time >= checks.back().time) {
-        correction = checks.back().offset;
-        if (r.time > checks.back().time + check_gap) r.flags |= beyond_checks;
-      } else {
-        while (checks[interval + 1].time < r.time) ++interval;
-        if (rejected_after[interval]) {
-          correction = checks[interval].offset;
-          r.flags |= drift_rejected;
-        } else {
-          const Check& a = checks[interval];
-          const Check& b = checks[interval + 1];
-          const double f = (r.time - a.time) / (b.time - a.time);
-          correction = a.offset + f * (b.offset - a.offset);
-        }
-      }
-      r.depth = r.raw + correction;
-      // Pairs of successive readings at most a day apart: longer steps mix
-      // in the aquifer's own changes.
-      if (previous && !previous->rejected() && !r.rejected() && r.has_baro && previous->has_baro &&
-          r.time - previous->time <= 86400.0) {
-        depth_changes.push_back(r.depth - previous->depth);
-        baro_changes.push_back(r.baro_m - previous->baro_m);
-      }
-      previous = &r;
-      if (within(near, r.time, window)) {
-        ++s.near_manual;
-        continue;
-      }
-      // A pressure outside the sensor's range or below the water gives no
-      // depth at all: listed, not written.
-      const bool no_depth = (r.flags & (range_rejected | dry_rejected)) != 0;
-      for (const auto& [flag, name] : reading_flag_names) {
-        if (!(r.flags & flag)) continue;
-        ++s.flags[name];
-        if (flag & rejecting_flags) {
-          qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ','
-                 << r.row << ',' << name << (no_depth ? ",no depth written\n" : ",not contoured\n");
-        }
-      }
-      if (no_depth) continue;
-      rows.push_back({well_rank.at(sensor.well), r.time, sensor_index, k});
-      ++s.written;
-    }
-    if (baro)
-      s.efficiency =
-          barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
-    summary.written += s.written;
-    summary.sensors.push_back(std::move(s));
-    written_sensors.push_back(&sensor);
-    sensor_readings.push_back(std::move(readings));
-  }
-
-  // One table for `heads`, by well and time, so readings arrive in order.
-  std::stable_sort(rows.begin(), rows.end(), [](const OutputRow& a, const OutputRow& b) {
-    return a.well_rank != b.well_rank ? a.well_rank < b.well_rank : a.time < b.time;
-  });
-  std::ostream& levels = out.open("levels.csv");
   for (std::size_t c = 0; c < columns.size(); ++c) levels << (c ? "," : "") << csv_cell(columns[c]);
   levels << '\n';
   // In the manual table's unit, which heads reads the whole table in.
-  const double unit = metres_per_unit(manual.length_unit());
+  const double unit = metres_per_unit(unit_of_table);
   std::vector<std::string> cells(columns.size());
   std::string line;
-  for (const OutputRow& row : rows) {
+  for (const OutputRow& row : manual.rows) {
     if (row.sensor == manual_row) {
-      levels << manual_lines[row.index] << '\n';
+      levels << manual.lines[row.index] << '\n';
       continue;
     }
-    const Sensor& sensor = *written_sensors[row.sensor];
-    const Reading& r = sensor_readings[row.sensor][row.index];
+    const Sensor& sensor = *sensors[row.sensor];
+    const Reading& r = readings[row.sensor][row.index];
     for (std::string& cell : cells) cell.clear();
     cells[well_index] = sensor.well;
     cells[time_index] = format_utc(r.time);
@@ -565,7 +518,9 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     }
     levels << line << '\n';
   }
+}
 
+std::string summary_json(const TransducerSummary& summary, const TransducerOptions& options) {
   nlohmann::json json;
   json["levelhead_version"] = version_string();
   json["command"] = "transducer";
@@ -605,7 +560,119 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     list.push_back(std::move(j));
   }
   json["sensors"] = std::move(list);
-  out.open("summary.json") << util::json_text(json) << '\n';
+  return util::json_text(json);
+}
+
+}  // namespace
+
+TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table,
+                                     const std::filesystem::path& records,
+                                     const TableOptions& records_table, const Table& manual,
+                                     const TransducerOptions& options,
+                                     const std::filesystem::path& folder) {
+  options.validate();
+  std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
+  read_records(records, records_table, sensors);
+  ManualPart part = read_manual(manual, wells, sensors);
+
+  OutputSet out(folder);
+  std::ostream& checks_csv = out.open("checks.csv");
+  checks_csv << "sensor,well,time,manual_depth,transducer_depth,offset,drift,rejected_until_next\n";
+  std::ostream& qa_csv = out.open("qa.csv");
+  qa_csv << "sensor,well,time,row,flag,detail\n";
+
+  TransducerSummary summary;
+  summary.manual = manual.row_count();
+  const double check_gap = options.max_check_gap_hours * 3600.0;
+  const double window = options.manual_window_hours * 3600.0;
+  // Per well sensor, its readings, kept until the table is written.
+  std::vector<const Sensor*> written_sensors;
+  std::vector<std::vector<Reading>> sensor_readings;
+  for (auto& [id, sensor] : sensors) {
+    if (sensor.kind == "barometer") continue;
+    SensorSummary s;
+    s.sensor = id;
+    s.well = sensor.well;
+    s.kind = sensor.kind;
+    s.barometer = sensor.barometer;
+    s.records = sensor.samples.size();
+    const Well& well = wells.wells[wells.index.at(sensor.well)];
+    s.density = well.density.value_or(options.density);
+    s.gravity = options.gravity;
+    const Sensor* baro = sensor.barometer.empty() ? nullptr : &sensors.at(sensor.barometer);
+    if (baro) check_barometer(sensor, *baro, well, sensors_table.source(), options, s);
+    std::vector<Reading> readings = raw_readings(sensor, baro, s, options, qa_csv, s.flags);
+    // The well sensor's samples are done with (a barometer's may serve others).
+    std::vector<Sample>().swap(sensor.samples);
+
+    const SensorChecks checks = find_checks(part.by_well[sensor.well], readings, options, s);
+    if (!sensor.hung_depth) {
+      if (checks.checks.empty()) {
+        throw InputError(
+            CellLocation{sensors_table.source(), sensor.row, "hung_depth"}, "",
+            fmt::format("sensor '{}' has no hung depth and no manual reading of well '{}' within "
+                        "{} h of a record to calibrate it on; give hung_depth or a tape reading",
+                        id, sensor.well, options.max_check_gap_hours));
+      }
+      s.calibrated = true;
+      s.hung_depth = checks.checks.front().offset;
+    } else {
+      s.hung_depth = sensor.hung_depth;
+    }
+    write_checks(checks_csv, sensor, checks, s);
+
+    // Corrected depths, the flags, and the readings written.
+    std::vector<double> depth_changes, baro_changes;
+    const Reading* previous = nullptr;
+    const std::vector<double>& near = part.times[sensor.well];
+    const std::size_t sensor_index = sensor_readings.size();
+    std::size_t interval = 0;
+    for (std::size_t k = 0; k < readings.size(); ++k) {
+      Reading& r = readings[k];
+      r.depth = r.raw + correction_at(r.time, checks, check_gap, interval, r.flags);
+      // Pairs of successive readings at most a day apart: longer steps mix
+      // in the aquifer's own changes.
+      if (previous && !previous->rejected() && !r.rejected() && r.has_baro && previous->has_baro &&
+          r.time - previous->time <= 86400.0) {
+        depth_changes.push_back(r.depth - previous->depth);
+        baro_changes.push_back(r.baro_m - previous->baro_m);
+      }
+      previous = &r;
+      if (within(near, r.time, window)) {
+        ++s.near_manual;
+        continue;
+      }
+      // A pressure outside the sensor's range or below the water gives no
+      // depth at all: listed, not written.
+      const bool no_depth = (r.flags & (range_rejected | dry_rejected)) != 0;
+      for (const auto& [flag, name] : reading_flag_names) {
+        if (!(r.flags & flag)) continue;
+        ++s.flags[name];
+        if (flag & rejecting_flags) {
+          qa_csv << csv_cell(id) << ',' << csv_cell(sensor.well) << ',' << format_utc(r.time) << ','
+                 << r.row << ',' << name << (no_depth ? ",no depth written\n" : ",not contoured\n");
+        }
+      }
+      if (no_depth) continue;
+      part.rows.push_back({part.well_rank.at(sensor.well), r.time, sensor_index, k});
+      ++s.written;
+    }
+    if (baro)
+      s.efficiency =
+          barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
+    summary.written += s.written;
+    summary.sensors.push_back(std::move(s));
+    written_sensors.push_back(&sensor);
+    sensor_readings.push_back(std::move(readings));
+  }
+
+  // One table for `heads`, by well and time, so readings arrive in order.
+  std::stable_sort(part.rows.begin(), part.rows.end(), [](const OutputRow& a, const OutputRow& b) {
+    return a.well_rank != b.well_rank ? a.well_rank < b.well_rank : a.time < b.time;
+  });
+  write_levels(out.open("levels.csv"), part, manual.length_unit(), written_sensors, sensor_readings,
+               options);
+  out.open("summary.json") << summary_json(summary, options) << '\n';
   out.commit();
   return summary;
 }
