@@ -53,7 +53,7 @@ TEST_CASE("uncertain measuring points, mixed aquifers and nests", "[heads][event
     const auto& f = r.wells[i].flags;
     return std::find(f.begin(), f.end(), flag) != f.end();
   };
-  CHECK(has(1, "mp-sigma-large"));   // 1 m sigma beside a 0.03 m difference to A
+  CHECK(has(1, "mp-sigma-large"));  // 1 m sigma beside a 0.03 m difference to A
   CHECK_FALSE(has(0, "mp-sigma-large"));
   CHECK(has(3, "multiple-aquifers"));
   REQUIRE(r.nests.size() == 1);

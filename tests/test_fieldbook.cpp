@@ -34,7 +34,8 @@ FieldBookOptions no_corrections() {
   return o;
 }
 
-const ReducedSection& find(const FieldBookResult& r, const std::string& from, const std::string& to) {
+const ReducedSection& find(const FieldBookResult& r, const std::string& from,
+                           const std::string& to) {
   for (const ReducedSection& s : r.sections) {
     if (s.from == from && s.to == to) return s;
   }
@@ -49,17 +50,17 @@ TEST_CASE("the hand-worked field book reduces without corrections", "[fieldbook]
   REQUIRE(r.sections.size() == 3);
   // Setups: 1.5 - 0.9 = 0.6; 1.2 - 1.6 = -0.4; 1.4 - 1.3 = 0.1.
   const ReducedSection& a = find(r, "BM1", "MW1");
-  CHECK_THAT(a.dh, WithinAbs(0.2, 1e-9));             // 0.6 - 0.4
-  CHECK_THAT(*a.length, WithinAbs(110.0, 1e-9));      // 30 + 28 + 25 + 27
+  CHECK_THAT(a.dh, WithinAbs(0.2, 1e-9));         // 0.6 - 0.4
+  CHECK_THAT(*a.length, WithinAbs(110.0, 1e-9));  // 30 + 28 + 25 + 27
   CHECK(a.setups == 2);
-  CHECK_THAT(*a.imbalance, WithinAbs(0.0, 1e-9));     // (30 - 28) + (25 - 27)
+  CHECK_THAT(*a.imbalance, WithinAbs(0.0, 1e-9));  // (30 - 28) + (25 - 27)
   const ReducedSection& b = find(r, "MW1", "BM2");
   CHECK_THAT(b.dh, WithinAbs(0.1, 1e-9));
   CHECK_THAT(*b.length, WithinAbs(68.0, 1e-9));
   const ReducedSection& side = find(r, "BM1", "MW2");
   CHECK(side.side_shot);
-  CHECK_THAT(side.dh, WithinAbs(0.7, 1e-9));          // 0.6 + (1.2 - 1.1)
-  CHECK_THAT(*side.length, WithinAbs(103.0, 1e-9));   // 58 + 25 + 20
+  CHECK_THAT(side.dh, WithinAbs(0.7, 1e-9));         // 0.6 + (1.2 - 1.1)
+  CHECK_THAT(*side.length, WithinAbs(103.0, 1e-9));  // 58 + 25 + 20
   CHECK(side.setups == 2);
   CHECK(r.failed_setups == 0);
 }
@@ -71,11 +72,11 @@ TEST_CASE("collimation from a two-peg test corrects each setup's imbalance", "[f
   FieldBookOptions o = no_corrections();
   o.collimation_mm_per_m = 0.02;
   const FieldBookResult r = reduce_text(hand_worked, o);
-  CHECK_THAT(r.setups[0].collimation, WithinAbs(-2e-5 * 2.0, 1e-12));   // 30 - 28
-  CHECK_THAT(r.setups[1].collimation, WithinAbs(+2e-5 * 2.0, 1e-12));   // 25 - 27
-  CHECK_THAT(find(r, "BM1", "MW1").dh, WithinAbs(0.2, 1e-9));           // balanced: cancels
-  CHECK_THAT(find(r, "MW1", "BM2").dh, WithinAbs(0.09996, 1e-9));       // 0.1 - 0.00004
-  CHECK_THAT(find(r, "BM1", "MW2").dh, WithinAbs(0.69986, 1e-9));       // 0.7 - 0.00004 - 0.0001
+  CHECK_THAT(r.setups[0].collimation, WithinAbs(-2e-5 * 2.0, 1e-12));  // 30 - 28
+  CHECK_THAT(r.setups[1].collimation, WithinAbs(+2e-5 * 2.0, 1e-12));  // 25 - 27
+  CHECK_THAT(find(r, "BM1", "MW1").dh, WithinAbs(0.2, 1e-9));          // balanced: cancels
+  CHECK_THAT(find(r, "MW1", "BM2").dh, WithinAbs(0.09996, 1e-9));      // 0.1 - 0.00004
+  CHECK_THAT(find(r, "BM1", "MW2").dh, WithinAbs(0.69986, 1e-9));      // 0.7 - 0.00004 - 0.0001
   // The same error as an angle: 0.02 mm/m = atan(2e-5) rad = 4.1253 arc seconds.
   FieldBookOptions angle = no_corrections();
   angle.collimation_arcsec = std::atan(2e-5) * 180.0 * 3600.0 / M_PI;
@@ -162,7 +163,7 @@ TEST_CASE("forward and backward runs are merged and their spread judged", "[fiel
   const ReducedSection& s = r.sections[0];
   CHECK(s.runs == 2);
   CHECK(s.run == "F+K");
-  CHECK_THAT(s.dh, WithinAbs(1.0015, 1e-9));          // mean of 1.0 and 1.003
+  CHECK_THAT(s.dh, WithinAbs(1.0015, 1e-9));  // mean of 1.0 and 1.003
   CHECK_THAT(*s.spread, WithinAbs(0.003, 1e-9));
   CHECK_THAT(*s.length, WithinAbs(500.0, 1e-9));
   CHECK_THAT(*s.levelled_length, WithinAbs(1000.0, 1e-9));
@@ -180,14 +181,15 @@ TEST_CASE("a run closed on its start gives a closure", "[fieldbook]") {
   CHECK(r.sections.empty());
   REQUIRE(r.closures.size() == 1);
   CHECK_THAT(r.closures[0].misclosure, WithinAbs(-0.0012, 1e-9));  // 0.2 - 0.2012
-  CHECK(r.closures[0].passed);  // 12 mm * sqrt(0.12) = 4.2 mm
+  CHECK(r.closures[0].passed);                                     // 12 mm * sqrt(0.12) = 4.2 mm
 }
 
 TEST_CASE("bad field books name the row", "[fieldbook][errors]") {
   FieldBookOptions o = no_corrections();
   // A setup without its fore sight.
-  CHECK_THROWS_WITH(reduce_text("run,setup,sight,point,reading\nR,1,b,A,1\nR,2,b,,1\nR,2,f,B,1\n", o),
-                    Contains("setup 1") && Contains("no fore sight") && Contains("row 2"));
+  CHECK_THROWS_WITH(
+      reduce_text("run,setup,sight,point,reading\nR,1,b,A,1\nR,2,b,,1\nR,2,f,B,1\n", o),
+      Contains("setup 1") && Contains("no fore sight") && Contains("row 2"));
   // A reading that is text.
   CHECK_THROWS_WITH(reduce_text("run,setup,sight,point,reading\nR,1,b,A,1.2x\nR,1,f,B,1\n", o),
                     Contains("row 2") && Contains("column 'reading'") && Contains("'1.2x'"));
@@ -196,7 +198,8 @@ TEST_CASE("bad field books name the row", "[fieldbook][errors]") {
                     Contains("row 3") && Contains("must close on a named point"));
   // A broken chain.
   CHECK_THROWS_WITH(
-      reduce_text("run,setup,sight,point,reading\nR,1,b,A,1\nR,1,f,TP1,1\nR,2,b,TP2,1\nR,2,f,B,1\n", o),
+      reduce_text("run,setup,sight,point,reading\nR,1,b,A,1\nR,1,f,TP1,1\nR,2,b,TP2,1\nR,2,f,B,1\n",
+                  o),
       Contains("row 4") && Contains("'TP2'") && Contains("'TP1'"));
   // An implausible reading (mm typed into a metre column).
   CHECK_THROWS_WITH(reduce_text("run,setup,sight,point,reading\nR,1,b,A,1523\nR,1,f,B,1\n", o),

@@ -24,11 +24,11 @@ TEST_CASE("the classic geoid mistakes are told apart by size and sign", "[gnss]"
   const double H = 120.0, h = H + n;
   const std::vector<GnssMark> marks = {
       mark("ok", H + 0.01, h, n),
-      mark("orthometric-as-ellipsoidal", H, H, n),   // h column holds H: geoid applied twice
-      mark("ellipsoidal-levelled", h, h, n),         // levelled value is really h: d = N too
-      mark("wrong-sign", H, H - n, n),               // "h" made as H - N: d = 2N
-      mark("moved", H + 0.35, h, n),                 // a disturbed mark
-      mark("geoid-off-levelled", H - n, h, n),       // N taken off a levelled H: d = -N
+      mark("orthometric-as-ellipsoidal", H, H, n),  // h column holds H: geoid applied twice
+      mark("ellipsoidal-levelled", h, h, n),        // levelled value is really h: d = N too
+      mark("wrong-sign", H, H - n, n),              // "h" made as H - N: d = 2N
+      mark("moved", H + 0.35, h, n),                // a disturbed mark
+      mark("geoid-off-levelled", H - n, h, n),      // N taken off a levelled H: d = -N
   };
   const GnssCheckResult r = check_gnss_marks(marks, 0.05);
   CHECK(r.marks[0].verdict == GnssVerdict::consistent);

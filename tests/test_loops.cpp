@@ -7,10 +7,10 @@
 #include "support/synthetic_networks.hpp"
 
 using namespace levelhead;
-using levelhead::testing::point;
-using levelhead::testing::section;
 using Catch::Matchers::Contains;
 using Catch::Matchers::WithinAbs;
+using levelhead::testing::point;
+using levelhead::testing::section;
 
 namespace {
 
@@ -23,8 +23,10 @@ void check_loops_are_consistent(const Network& net, const LoopResult& r) {
     double misclosure = 0.0, length = 0.0;
     for (std::size_t k = 0; k < loop.steps.size(); ++k) {
       const LoopStep& step = loop.steps[k];
-      const std::size_t from = step.forward ? net.from_index[step.section] : net.to_index[step.section];
-      const std::size_t to = step.forward ? net.to_index[step.section] : net.from_index[step.section];
+      const std::size_t from =
+          step.forward ? net.from_index[step.section] : net.to_index[step.section];
+      const std::size_t to =
+          step.forward ? net.to_index[step.section] : net.from_index[step.section];
       CHECK(from == loop.points[k]);
       CHECK(to == loop.points[k + 1]);
       misclosure += step.forward ? net.sections[step.section].dh : -net.sections[step.section].dh;

@@ -21,8 +21,8 @@ TEST_CASE("points and sections are read from tables", "[network]") {
   CHECK_THAT(*points.points[2].sigma, WithinAbs(0.003048, 1e-15));
   CHECK(points.points[1].row == 3);
 
-  const auto sections = read_sections(parse_delimited_text(
-      "From,To,dH,Length,Setups,run\nA,B,1.5,300,4,r1\n", "s.csv"));
+  const auto sections = read_sections(
+      parse_delimited_text("From,To,dH,Length,Setups,run\nA,B,1.5,300,4,r1\n", "s.csv"));
   REQUIRE(sections.sections.size() == 1);
   CHECK(*sections.sections[0].setups == 4);
   CHECK(sections.sections[0].run == "r1");

@@ -87,8 +87,10 @@ TEST_CASE("references files are parsed strictly", "[references][errors]") {
   CHECK_FALSE(set.find("old")->relation.inside_hull(15, 5));
   CHECK(set.find("egm")->definition == "EPSG:4326+5773");
 
-  std::ofstream(path) << "[references.old]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffest = 1.5\n";
-  CHECK_THROWS_WITH(ReferenceSet::load(path), Contains("line 4") && Contains("did you mean 'offset'"));
+  std::ofstream(path)
+      << "[references.old]\nkind = \"offset\"\nbase = \"EPSG:5703\"\noffest = 1.5\n";
+  CHECK_THROWS_WITH(ReferenceSet::load(path),
+                    Contains("line 4") && Contains("did you mean 'offset'"));
   std::ofstream(path) << "[references.old]\nkind = \"offset\"\noffset = 1.5\n";
   CHECK_THROWS_WITH(ReferenceSet::load(path), Contains("needs 'base'"));
   std::ofstream(path) << "[references.old\nkind = 1\n";
@@ -110,7 +112,8 @@ TEST_CASE("points outside the hull of a tie are flagged as extrapolated", "[refe
   CHECK(r[1].flags == std::vector<std::string>{"outside-ties-hull(site)"});
 }
 
-TEST_CASE("a tie recovers a known offset and slope, and a bad tie stands out", "[references][tie]") {
+TEST_CASE("a tie recovers a known offset and slope, and a bad tie stands out",
+          "[references][tie]") {
   // Invented ties: offset 95.25 m, slopes 20 and -10 mm/km, noise 1 mm, one tie 25 mm off.
   std::mt19937_64 rng(11);
   std::normal_distribution<double> noise(0.0, 0.001);
@@ -122,7 +125,8 @@ TEST_CASE("a tie recovers a known offset and slope, and a bad tie stands out", "
     t.x = coordinate(rng);
     t.y = coordinate(rng);
     t.site_height = 10.0 + i;
-    t.base_height = t.site_height + 95.25 + 2e-5 * (t.x - 1000.0) - 1e-5 * (t.y - 1000.0) + noise(rng);
+    t.base_height =
+        t.site_height + 95.25 + 2e-5 * (t.x - 1000.0) - 1e-5 * (t.y - 1000.0) + noise(rng);
     t.site_sigma = t.base_sigma = 0.001 / std::sqrt(2.0);
     ties.push_back(t);
   }
@@ -155,7 +159,8 @@ TEST_CASE("ties refuse too few points and collinear slopes", "[references][tie][
   CHECK_THROWS_AS(parse_tie_model("tilt"), OptionError);
 }
 
-TEST_CASE("an EPSG 1046 offset and slope matches the formula worked by hand", "[references][proj]") {
+TEST_CASE("an EPSG 1046 offset and slope matches the formula worked by hand",
+          "[references][proj]") {
   // EPSG Guidance Note 7-2, method 1046 (Vertical Offset and Slope):
   //   shift = A + slope_lat rho0 (lat - lat0) + slope_lon nu0 (lon - lon0) cos(lat),
   // slopes in radians (here 2" and -1"). Worked by hand for GRS80

@@ -16,9 +16,9 @@ using Catch::Matchers::WithinAbs;
 namespace {
 
 struct DenseSolution {
-  Eigen::VectorXd height;      // per point
-  Eigen::VectorXd sigma;       // a posteriori, per point
-  Eigen::VectorXd w_section;   // per section
+  Eigen::VectorXd height;     // per point
+  Eigen::VectorXd sigma;      // a posteriori, per point
+  Eigen::VectorXd w_section;  // per section
   double sigma0 = 0;
 };
 
@@ -39,10 +39,17 @@ DenseSolution dense_adjustment(const Network& net) {
   for (std::size_t s = 0; s < net.sections.size(); ++s) {
     const auto f = net.from_index[s], t = net.to_index[s];
     double value = net.sections[s].dh;
-    if (unknown[t] >= 0) A(s, unknown[t]) = 1.0; else value -= *net.points[t].height;
-    if (unknown[f] >= 0) A(s, unknown[f]) = -1.0; else value += *net.points[f].height;
+    if (unknown[t] >= 0)
+      A(s, unknown[t]) = 1.0;
+    else
+      value -= *net.points[t].height;
+    if (unknown[f] >= 0)
+      A(s, unknown[f]) = -1.0;
+    else
+      value += *net.points[f].height;
     l[s] = value;
-    sigma[s] = 1e-3 * testing::synthetic_mm_per_sqrt_km * std::sqrt(*net.sections[s].length / 1000.0);
+    sigma[s] =
+        1e-3 * testing::synthetic_mm_per_sqrt_km * std::sqrt(*net.sections[s].length / 1000.0);
   }
   for (std::size_t k = 0; k < weighted.size(); ++k) {
     const auto row = static_cast<Eigen::Index>(net.sections.size() + k);
@@ -67,7 +74,8 @@ DenseSolution dense_adjustment(const Network& net) {
     out.sigma[i] = unknown[i] >= 0 ? out.sigma0 * std::sqrt(Q(unknown[i], unknown[i])) : 0.0;
   }
   out.w_section.resize(static_cast<Eigen::Index>(net.sections.size()));
-  for (std::size_t s = 0; s < net.sections.size(); ++s) out.w_section[s] = v[s] / std::sqrt(Qvv(s, s));
+  for (std::size_t s = 0; s < net.sections.size(); ++s)
+    out.w_section[s] = v[s] / std::sqrt(Qvv(s, s));
   return out;
 }
 

@@ -38,9 +38,9 @@ struct Bench {
     write("records.csv", records);
     write("levels.csv", levels);
     return reduce_transducers(read_wells(read_table(tmp.path() / "wells.csv")),
-                              read_table(tmp.path() / "sensors.csv"),
-                              tmp.path() / "records.csv", TableOptions{},
-                              read_table(tmp.path() / "levels.csv"), options, tmp.path() / "out");
+                              read_table(tmp.path() / "sensors.csv"), tmp.path() / "records.csv",
+                              TableOptions{}, read_table(tmp.path() / "levels.csv"), options,
+                              tmp.path() / "out");
   }
   void write(const char* name, const std::string& text) {
     std::ofstream(tmp.path() / name) << text;

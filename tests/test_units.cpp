@@ -23,7 +23,8 @@ TEST_CASE("unit names parse case-insensitively and unknown ones are refused", "[
   CHECK(parse_length_unit(" ft ") == LengthUnit::international_foot);
   CHECK(parse_length_unit("US-FT") == LengthUnit::us_survey_foot);
   CHECK_THROWS_WITH(parse_length_unit("yard"), Contains("yard") && Contains("us-ft"));
-  for (LengthUnit u : {LengthUnit::metre, LengthUnit::international_foot, LengthUnit::us_survey_foot}) {
+  for (LengthUnit u :
+       {LengthUnit::metre, LengthUnit::international_foot, LengthUnit::us_survey_foot}) {
     CHECK(parse_length_unit(to_string(u)) == u);
   }
 }

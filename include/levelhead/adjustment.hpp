@@ -38,15 +38,15 @@ enum class WeightRule { given_sigma, length, setups };
 std::string to_string(WeightRule rule);
 
 struct AdjustmentOptions {
-  double mm_per_sqrt_km = 1.0;        // sigma = k * sqrt(length in km) when no sigma (mm)
-  double mm_per_setup = 0.3;          // sigma = s * sqrt(setups) when no sigma, no length (mm)
-  double alpha = 0.05;                // global test, two-sided
-  double alpha0 = 0.001;              // data snooping, per observation, two-sided
-  double beta0 = 0.80;                // power for the minimal detectable bias
+  double mm_per_sqrt_km = 1.0;            // sigma = k * sqrt(length in km) when no sigma (mm)
+  double mm_per_setup = 0.3;              // sigma = s * sqrt(setups) when no sigma, no length (mm)
+  double alpha = 0.05;                    // global test, two-sided
+  double alpha0 = 0.001;                  // data snooping, per observation, two-sided
+  double beta0 = 0.80;                    // power for the minimal detectable bias
   std::optional<std::string> free_point;  // hold only this point (free network check)
-  bool iterative_snooping = false;    // remove the worst suspect and re-adjust, repeatedly
-  std::size_t max_removals = 5;       // cap on removals in iterative snooping
-  double max_factor_nonzeros = 2e8;   // refuse larger factors (memory)
+  bool iterative_snooping = false;        // remove the worst suspect and re-adjust, repeatedly
+  std::size_t max_removals = 5;           // cap on removals in iterative snooping
+  double max_factor_nonzeros = 2e8;       // refuse larger factors (memory)
 
   // Throws OptionError naming the option, its value and the rule.
   void validate() const;
@@ -56,10 +56,10 @@ enum class ControlKind { adjusted, fixed, weighted };
 std::string to_string(ControlKind kind);
 
 struct AdjustedPoint {
-  std::size_t point = 0;          // index into Network::points
-  double height = 0.0;            // m
-  std::optional<double> sigma;    // m, a posteriori (sigma0 * sqrt(q)); nullopt when dof = 0
-  double sigma_apriori = 0.0;     // m, sqrt(q) with a-priori unit weight
+  std::size_t point = 0;        // index into Network::points
+  double height = 0.0;          // m
+  std::optional<double> sigma;  // m, a posteriori (sigma0 * sqrt(q)); nullopt when dof = 0
+  double sigma_apriori = 0.0;   // m, sqrt(q) with a-priori unit weight
   ControlKind control = ControlKind::adjusted;
   // For weighted control points: the residual (adjusted - given, m), w and MDB.
   std::optional<double> control_residual, control_w, control_mdb, control_redundancy;
@@ -71,17 +71,17 @@ struct AdjustedPoint {
 };
 
 struct AdjustedSection {
-  std::size_t section = 0;        // index into Network::sections
+  std::size_t section = 0;  // index into Network::sections
   WeightRule rule = WeightRule::given_sigma;
-  double sigma = 0.0;             // m, a-priori sigma of the observation
-  bool removed = false;           // removed by iterative data snooping
+  double sigma = 0.0;                       // m, a-priori sigma of the observation
+  bool removed = false;                     // removed by iterative data snooping
   std::optional<std::size_t> removal_step;  // 1-based step of its removal
   // Below: from the final adjustment (for a removed section: its misfit there).
-  double adjusted_dh = 0.0;       // m
-  double residual = 0.0;          // m, adjusted - observed
-  double redundancy = 0.0;        // r = qvv / qll, 0..1
-  std::optional<double> w;        // normalised residual; nullopt when r ~ 0 (no check)
-  std::optional<double> mdb;      // m, minimal detectable bias; nullopt when r ~ 0
+  double adjusted_dh = 0.0;   // m
+  double residual = 0.0;      // m, adjusted - observed
+  double redundancy = 0.0;    // r = qvv / qll, 0..1
+  std::optional<double> w;    // normalised residual; nullopt when r ~ 0 (no check)
+  std::optional<double> mdb;  // m, minimal detectable bias; nullopt when r ~ 0
 };
 
 struct Suspect {
@@ -113,11 +113,11 @@ struct AdjustmentResult {
   std::size_t unknowns = 0, observations = 0, fixed_points = 0, weighted_points = 0;
   std::size_t dof = 0;
   double vtpv = 0.0;
-  std::optional<double> sigma0;         // nullopt when dof = 0
+  std::optional<double> sigma0;           // nullopt when dof = 0
   std::optional<GlobalTest> global_test;  // nullopt when dof = 0
   double w_critical = 0.0, lambda0 = 0.0;
-  std::vector<Suspect> suspects;        // |w| > w_critical, worst first
-  std::vector<Removal> removals;        // iterative data snooping, in order
+  std::vector<Suspect> suspects;                  // |w| > w_critical, worst first
+  std::vector<Removal> removals;                  // iterative data snooping, in order
   std::size_t weight_rule_counts[3] = {0, 0, 0};  // indexed by WeightRule
   std::optional<std::string> free_point;
   // The vertical reference of the adjusted heights: the common `datum` of the

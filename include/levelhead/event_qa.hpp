@@ -28,20 +28,20 @@ namespace levelhead {
 struct EventHead {
   std::string well, aquifer, nest, time;
   double x = 0.0, y = 0.0;
-  double head = 0.0, sigma = 0.0;                 // m
-  std::optional<double> screen_middle;            // m below ground
+  double head = 0.0, sigma = 0.0;       // m
+  std::optional<double> screen_middle;  // m below ground
 };
 
 struct EventCheck {
-  std::optional<double> prediction, misfit;       // m
+  std::optional<double> prediction, misfit;  // m
   std::vector<std::string> flags;
 };
 
 struct NestPair {
   std::string nest, shallow, deep;
-  double dh = 0.0, sigma = 0.0;                    // m
-  std::string direction;                           // downward, upward
-  bool significant = false;                        // |dh| > 2 sigma
+  double dh = 0.0, sigma = 0.0;  // m
+  std::string direction;         // downward, upward
+  bool significant = false;      // |dh| > 2 sigma
 };
 
 struct EventQaOptions {
@@ -53,7 +53,7 @@ struct EventQaOptions {
 };
 
 struct EventQaResult {
-  std::vector<EventCheck> wells;   // in input order
+  std::vector<EventCheck> wells;  // in input order
   std::vector<NestPair> nests;
 };
 

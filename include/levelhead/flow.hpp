@@ -37,18 +37,18 @@ struct FlowOptions {
 };
 
 struct FlowResult {
-  double gradient = 0.0, gradient_sigma = 0.0;  // m/m
-  double azimuth = 0.0, azimuth_sigma = 0.0;    // degrees clockwise from grid north
-  double dh_dx = 0.0, dh_dy = 0.0;              // m/m
+  double gradient = 0.0, gradient_sigma = 0.0;      // m/m
+  double azimuth = 0.0, azimuth_sigma = 0.0;        // degrees clockwise from grid north
+  double dh_dx = 0.0, dh_dy = 0.0;                  // m/m
   double cov_xx = 0.0, cov_xy = 0.0, cov_yy = 0.0;  // of (dh/dx, dh/dy)
-  double intercept = 0.0, x0 = 0.0, y0 = 0.0;   // plane at the centroid
-  std::vector<double> residuals;                // m, fitted - observed, per well
+  double intercept = 0.0, x0 = 0.0, y0 = 0.0;       // plane at the centroid
+  std::vector<double> residuals;                    // m, fitted - observed, per well
   std::size_t dof = 0;
   std::optional<double> sigma0;
-  bool nearly_collinear = false;                // geometry weak (see methods)
-  std::optional<Range> specific_discharge;      // m/s
-  std::optional<Range> velocity;                // m/s
-  std::optional<Range> travel_time;             // s
+  bool nearly_collinear = false;            // geometry weak (see methods)
+  std::optional<Range> specific_discharge;  // m/s
+  std::optional<Range> velocity;            // m/s
+  std::optional<Range> travel_time;         // s
 };
 
 FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& options);

@@ -28,13 +28,20 @@ namespace levelhead {
 
 struct GnssMark {
   std::string id;
-  double levelled = 0.0;      // m
-  double gnss = 0.0;          // m, as given (e.g. ellipsoidal)
+  double levelled = 0.0;        // m
+  double gnss = 0.0;            // m, as given (e.g. ellipsoidal)
   double gnss_converted = 0.0;  // m, in the levelling reference
-  double sigma = 0.0;         // m, of d (levelled and GNSS combined); 0 if unknown
+  double sigma = 0.0;           // m, of d (levelled and GNSS combined); 0 if unknown
 };
 
-enum class GnssVerdict { consistent, geoid_twice, geoid_sign, geoid_removed, systematic, inconsistent };
+enum class GnssVerdict {
+  consistent,
+  geoid_twice,
+  geoid_sign,
+  geoid_removed,
+  systematic,
+  inconsistent
+};
 std::string to_string(GnssVerdict verdict);
 std::string explain(GnssVerdict verdict);
 

@@ -56,11 +56,11 @@ struct LoopStep {
 };
 
 struct Loop {
-  std::vector<LoopStep> steps;        // in order around the loop
-  std::vector<std::size_t> points;    // point indices in order, first repeated at the end
-  double length = 0.0;                // m
-  double misclosure = 0.0;            // m
-  double tolerance = 0.0;             // m
+  std::vector<LoopStep> steps;      // in order around the loop
+  std::vector<std::size_t> points;  // point indices in order, first repeated at the end
+  double length = 0.0;              // m
+  double misclosure = 0.0;          // m
+  double tolerance = 0.0;           // m
   bool passed = true;
   // Sections of this loop that also lie in another failing loop, with those loops (0-based).
   std::vector<std::pair<std::size_t, std::vector<std::size_t>>> shared_with_failing;
@@ -68,11 +68,11 @@ struct Loop {
 
 struct LoopResult {
   std::vector<Loop> loops;
-  std::size_t cyclomatic_number = 0;       // expected loop count
-  std::size_t connected_parts = 0;         // among points touched by sections
+  std::size_t cyclomatic_number = 0;  // expected loop count
+  std::size_t connected_parts = 0;    // among points touched by sections
   std::size_t points_in_sections = 0;
-  std::vector<std::size_t> unchecked_sections;    // in no loop
-  std::vector<std::size_t> single_observations;   // no other section joins the same points
+  std::vector<std::size_t> unchecked_sections;   // in no loop
+  std::vector<std::size_t> single_observations;  // no other section joins the same points
   std::size_t failed = 0;
   double mm_per_sqrt_km = 0.0;
 };

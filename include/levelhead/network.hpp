@@ -40,9 +40,9 @@ struct Point {
 
 struct Section {
   std::string from, to;
-  double dh = 0.0;                // m, H(to) - H(from)
-  std::optional<double> length;   // m, > 0
-  std::optional<double> sigma;    // m, > 0
+  double dh = 0.0;               // m, H(to) - H(from)
+  std::optional<double> length;  // m, > 0
+  std::optional<double> sigma;   // m, > 0
   std::optional<long long> setups;
   // dh is the mean of this many independent runs (from field-book
   // reduction); sigmas from length or setups are divided by sqrt(runs).

@@ -54,8 +54,8 @@
 #include <filesystem>
 #include <map>
 #include <optional>
-#include <string_view>
 #include <string>
+#include <string_view>
 #include <vector>
 
 #include "levelhead/vertical_reference.hpp"

@@ -31,7 +31,7 @@ std::string to_string(TieModel model);
 struct TiePoint {
   std::string id;
   double x = 0.0, y = 0.0;
-  double site_height = 0.0, base_height = 0.0;  // m
+  double site_height = 0.0, base_height = 0.0;   // m
   std::optional<double> site_sigma, base_sigma;  // m
 };
 
@@ -55,7 +55,7 @@ struct TieResult {
   std::optional<double> sigma0;
   bool weighted = true;
   double w_critical = 0.0;
-  std::vector<std::size_t> suspects;   // worst first
+  std::vector<std::size_t> suspects;  // worst first
 };
 
 // Common points of the two tables (id, x, y, height, optional sigma), in the

@@ -110,8 +110,8 @@ struct TransducerSummary {
 // bytes per record.
 TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors,
                                      const std::filesystem::path& records,
-                                     const TableOptions& records_table,
-                                     const Table& manual_levels, const TransducerOptions& options,
+                                     const TableOptions& records_table, const Table& manual_levels,
+                                     const TransducerOptions& options,
                                      const std::filesystem::path& folder);
 
 }  // namespace levelhead

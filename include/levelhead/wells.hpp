@@ -45,7 +45,7 @@ struct MeasuringPointRecord {
   std::string well;
   Instant valid_from;
   std::string valid_from_text;
-  std::optional<double> height;  // m, in `datum`
+  std::optional<double> height;               // m, in `datum`
   LengthUnit table_unit = LengthUnit::metre;  // the unit the table gave it in
   std::string datum;
   std::optional<double> sigma;  // m

@@ -1,11 +1,11 @@
 #include "adjust/normal_solver.hpp"
 
 #include <cholmod.h>
+#include <fmt/format.h>
 
 #include <algorithm>
 #include <chrono>
 #include <cmath>
-#include <fmt/format.h>
 
 #include "levelhead/errors.hpp"
 
@@ -62,12 +62,14 @@ NormalSolver::NormalSolver(const LowerMatrix& lower, const SolverLimits& limits)
   auto start = std::chrono::steady_clock::now();
   cholmod_->factor = cholmod_analyze(&view, &c);
   figures_.analyse_seconds = seconds_since(start);
-  if (!cholmod_->factor) throw ComputationError("symbolic analysis failed: " + last_cholmod_message);
+  if (!cholmod_->factor)
+    throw ComputationError("symbolic analysis failed: " + last_cholmod_message);
   figures_.factor_nonzeros = c.lnz;
   figures_.factor_flops = c.fl;
   if (c.lnz > limits.max_factor_nonzeros) {
     throw ComputationError(fmt::format(
-        "the network's normal matrix would need a factor with {:.3g} nonzeros (about {:.1f} GB with "
+        "the network's normal matrix would need a factor with {:.3g} nonzeros (about {:.1f} GB "
+        "with "
         "the sigmas), above the limit of {:.3g}. Long lines crossing a dense mesh cause this fill; "
         "adjust the network in parts, or raise the limit if the machine has the memory",
         c.lnz, c.lnz * 20e-9, limits.max_factor_nonzeros));
@@ -80,7 +82,8 @@ NormalSolver::NormalSolver(const LowerMatrix& lower, const SolverLimits& limits)
     throw ComputationError(
         "the normal matrix is not positive definite: some heights are not determined by the "
         "observations and known heights (a datum defect), or the weights span too many orders of "
-        "magnitude. " + last_cholmod_message);
+        "magnitude. " +
+        last_cholmod_message);
   }
   // Simplicial LDL' with sorted, packed columns: the layout of the selected inverse.
   if (!cholmod_change_factor(CHOLMOD_REAL, 0, 0, 1, 1, cholmod_->factor, &c)) {
@@ -170,8 +173,8 @@ void NormalSolver::compute_selected_inverse() {
       for (int e = Lp[k] + 1; e < Lp[k] + Lnz[k]; ++e) {
         const int s = slot[static_cast<std::size_t>(Li[e])];
         if (s < 0) continue;
-        acc[static_cast<std::size_t>(s)] += l_kj * Z[e];             // Z_rk L_kj into row r
-        acc[static_cast<std::size_t>(q)] += Lx[begin + s] * Z[e];    // Z_kr L_rj into row k
+        acc[static_cast<std::size_t>(s)] += l_kj * Z[e];           // Z_rk L_kj into row r
+        acc[static_cast<std::size_t>(q)] += Lx[begin + s] * Z[e];  // Z_kr L_rj into row k
       }
     }
     double diagonal = 1.0 / Lx[Lp[j]];
@@ -206,7 +209,8 @@ double NormalSolver::inverse_entry(int i, int j) const {
 Eigen::VectorXd NormalSolver::inverse_diagonal() const {
   Eigen::VectorXd d(n_);
   const int* Lp = static_cast<const int*>(cholmod_->factor->p);
-  for (int i = 0; i < n_; ++i) d[i] = inverse_[static_cast<std::size_t>(Lp[position_[static_cast<std::size_t>(i)]])];
+  for (int i = 0; i < n_; ++i)
+    d[i] = inverse_[static_cast<std::size_t>(Lp[position_[static_cast<std::size_t>(i)]])];
   return d;
 }
 

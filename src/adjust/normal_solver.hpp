@@ -56,7 +56,7 @@ class NormalSolver {
   std::unique_ptr<Cholmod> cholmod_;
   SolverFigures figures_;
   int n_ = 0;
-  std::vector<int> position_;  // unknown -> row of the permuted factor
+  std::vector<int> position_;    // unknown -> row of the permuted factor
   std::vector<double> inverse_;  // N^-1 on the factor pattern, same layout as L->x
 };
 

@@ -14,8 +14,10 @@ ReferenceSet ReferenceInputs::load() const {
 }
 
 void add_reference_options(CLI::App& command, ReferenceInputs& inputs) {
-  command.add_option("--references", inputs.references, "References file (TOML) of our own references");
-  command.add_option("--grid-path", inputs.grid_paths, "Folder searched for grids before PROJ_DATA");
+  command.add_option("--references", inputs.references,
+                     "References file (TOML) of our own references");
+  command.add_option("--grid-path", inputs.grid_paths,
+                     "Folder searched for grids before PROJ_DATA");
   command.add_flag("--network", inputs.network, "Let PROJ download missing grids (off by default)");
 }
 

@@ -1,8 +1,9 @@
 #include "levelhead/flow.hpp"
 
+#include <fmt/format.h>
+
 #include <Eigen/Dense>
 #include <cmath>
-#include <fmt/format.h>
 #include <numbers>
 
 #include "levelhead/errors.hpp"
@@ -11,8 +12,9 @@ namespace levelhead {
 
 FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& options) {
   if (wells.size() < 3) {
-    throw InputError("heads", fmt::format("a gradient needs heads in at least 3 wells; there are {}",
-                                          wells.size()));
+    throw InputError(
+        "heads",
+        fmt::format("a gradient needs heads in at least 3 wells; there are {}", wells.size()));
   }
   const auto n = static_cast<Eigen::Index>(wells.size());
   FlowResult r;
@@ -43,8 +45,9 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
   // rounding); nearly so below 5 % (the gradient across the line is then
   // twenty times less well determined than along it).
   if (!(wide > 0.0) || narrow < 1e-6 * wide) {
-    throw InputError("heads", "the wells lie on a line: the gradient across it cannot be "
-                              "determined; add a well off the line");
+    throw InputError("heads",
+                     "the wells lie on a line: the gradient across it cannot be "
+                     "determined; add a well off the line");
   }
   r.nearly_collinear = narrow < 0.05 * wide;
 
@@ -75,20 +78,20 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
     // i = sqrt(b^2 + c^2): di = (b, c) / i; azimuth = atan2(-b, -c):
     // d az = (-c, b) / i^2 (radians).
     const double gb = b / r.gradient, gc = c / r.gradient;
-    r.gradient_sigma =
-        std::sqrt(gb * gb * r.cov_xx + 2 * gb * gc * r.cov_xy + gc * gc * r.cov_yy);
+    r.gradient_sigma = std::sqrt(gb * gb * r.cov_xx + 2 * gb * gc * r.cov_xy + gc * gc * r.cov_yy);
     const double ab = -c / (r.gradient * r.gradient), ac = b / (r.gradient * r.gradient);
     r.azimuth_sigma = std::sqrt(ab * ab * r.cov_xx + 2 * ab * ac * r.cov_xy + ac * ac * r.cov_yy) *
                       180.0 / std::numbers::pi;
   }
   if (options.conductivity) {
-    r.specific_discharge = Range{options.conductivity->low * r.gradient,
-                                 options.conductivity->high * r.gradient};
+    r.specific_discharge =
+        Range{options.conductivity->low * r.gradient, options.conductivity->high * r.gradient};
     if (options.porosity) {
       r.velocity = Range{r.specific_discharge->low / options.porosity->high,
                          r.specific_discharge->high / options.porosity->low};
       if (options.distance && r.velocity->low > 0.0) {
-        r.travel_time = Range{*options.distance / r.velocity->high, *options.distance / r.velocity->low};
+        r.travel_time =
+            Range{*options.distance / r.velocity->high, *options.distance / r.velocity->low};
       }
     }
   }

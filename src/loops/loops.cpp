@@ -1,8 +1,9 @@
 #include "levelhead/loops.hpp"
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <cmath>
-#include <fmt/format.h>
 #include <map>
 #include <numeric>
 #include <queue>
@@ -34,8 +35,8 @@ const ToleranceClass& find_tolerance_class(std::string_view name) {
     if (c.name == key) return c;
     names.push_back(c.name);
   }
-  throw OptionError(fmt::format("unknown closure class '{}': use one of {}", name,
-                                fmt::join(names, ", ")));
+  throw OptionError(
+      fmt::format("unknown closure class '{}': use one of {}", name, fmt::join(names, ", ")));
 }
 
 void LoopOptions::validate() const {
@@ -48,7 +49,7 @@ constexpr std::size_t none = static_cast<std::size_t>(-1);
 
 // A chain of sections between two junctions (or a ring back to its start).
 struct Chain {
-  std::size_t a = 0, b = 0;    // point indices at its ends
+  std::size_t a = 0, b = 0;     // point indices at its ends
   std::vector<LoopStep> steps;  // in order from a to b
   double length = 0.0;
 };
@@ -376,7 +377,8 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
     Candidate c;
     c.walk.emplace_back(e, true);
     // The path runs a -> b; the loop returns from b to a along it reversed.
-    for (auto it = path->rbegin(); it != path->rend(); ++it) c.walk.emplace_back(it->first, !it->second);
+    for (auto it = path->rbegin(); it != path->rend(); ++it)
+      c.walk.emplace_back(it->first, !it->second);
     finish_candidate(c, chains);
     candidates.push_back(std::move(c));
   }
@@ -399,15 +401,16 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
     take(fundamental);
   }
   if (chosen.size() != target) {
-    throw std::logic_error(fmt::format("loop basis has {} loops, expected {}", chosen.size(), target));
+    throw std::logic_error(
+        fmt::format("loop basis has {} loops, expected {}", chosen.size(), target));
   }
 
   // 4. Expand chains into sections and close each loop.
   std::vector<std::vector<std::size_t>> loops_of_section(m);
   for (const Candidate& c : chosen) {
     Loop loop;
-    std::size_t p = c.walk.front().second ? chains[c.walk.front().first].a
-                                          : chains[c.walk.front().first].b;
+    std::size_t p =
+        c.walk.front().second ? chains[c.walk.front().first].a : chains[c.walk.front().first].b;
     loop.points.push_back(p);
     for (const auto& [chain_id, forward] : c.walk) {
       const Chain& chain = chains[chain_id];
@@ -430,7 +433,8 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
     loop.tolerance = options.mm_per_sqrt_km * 1e-3 * std::sqrt(loop.length / 1000.0);
     loop.passed = std::abs(loop.misclosure) <= loop.tolerance;
     result.failed += !loop.passed;
-    for (const LoopStep& step : loop.steps) loops_of_section[step.section].push_back(result.loops.size());
+    for (const LoopStep& step : loop.steps)
+      loops_of_section[step.section].push_back(result.loops.size());
     result.loops.push_back(std::move(loop));
   }
 

@@ -67,7 +67,8 @@ GnssCheckResult check_gnss_marks(const std::vector<GnssMark>& marks, double tole
     std::nth_element(sorted.begin(), sorted.begin() + sorted.size() / 2, sorted.end());
     const double median = sorted[sorted.size() / 2];
     std::size_t near = 0;
-    for (std::size_t i = 0; i < marks.size(); ++i) near += std::abs(differences[i] - median) <= accepted(i);
+    for (std::size_t i = 0; i < marks.size(); ++i)
+      near += std::abs(differences[i] - median) <= accepted(i);
     if (2 * near > marks.size() && std::abs(median) > tolerance) result.common_offset = median;
   }
   for (std::size_t i = 0; i < marks.size(); ++i) {

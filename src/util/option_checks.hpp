@@ -2,8 +2,9 @@
 // Validation of numeric options, with messages that name the option, its
 // value and the rule broken.
 
-#include <cmath>
 #include <fmt/format.h>
+
+#include <cmath>
 
 #include "levelhead/errors.hpp"
 

@@ -16,15 +16,15 @@
 //        bench_adjust --solvers  Eigen SimplicialLDLT vs CHOLMOD factorisation
 //        bench_adjust --loops    loop finding on the same shapes
 
-#include <Eigen/Dense>
-#include <Eigen/SparseCholesky>
+#include <fmt/format.h>
 #include <sys/resource.h>
 
+#include <Eigen/Dense>
+#include <Eigen/SparseCholesky>
 #include <chrono>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
-#include <fmt/format.h>
 #include <fstream>
 #include <string>
 
@@ -90,10 +90,11 @@ int run_case(const std::string& shape, std::size_t n) {
   if (!std::getenv("LEVELHEAD_BENCH_KEEP")) std::filesystem::remove_all(folder);
 
   const AdjustmentTimings& t = r.timings;
-  fmt::print("{:<9}{:>9}{:>9}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>9.3g}{:>9.0f}"
-             "   sigma0 {:.3f}\n",
-             shape, n_points, n_sections, read_seconds, t.assembly, t.ordering, t.factorisation,
-             t.solve, t.sigmas, total, r.factor_nonzeros, peak_rss_mb(), r.sigma0.value_or(0.0));
+  fmt::print(
+      "{:<9}{:>9}{:>9}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>9.3g}{:>9.0f}"
+      "   sigma0 {:.3f}\n",
+      shape, n_points, n_sections, read_seconds, t.assembly, t.ordering, t.factorisation, t.solve,
+      t.sigmas, total, r.factor_nonzeros, peak_rss_mb(), r.sigma0.value_or(0.0));
   return 0;
 }
 
@@ -113,8 +114,8 @@ NormalEquations assemble(const Network& net) {
   NormalEquations out;
   out.rhs = Eigen::VectorXd::Zero(m);
   for (std::size_t s = 0; s < net.sections.size(); ++s) {
-    const double sigma = AdjustmentOptions{}.mm_per_sqrt_km * 1e-3 *
-                         std::sqrt(*net.sections[s].length / 1000.0);
+    const double sigma =
+        AdjustmentOptions{}.mm_per_sqrt_km * 1e-3 * std::sqrt(*net.sections[s].length / 1000.0);
     const double p = 1.0 / (sigma * sigma);
     const int f = unknown[net.from_index[s]], t = unknown[net.to_index[s]];
     double l = net.sections[s].dh;
@@ -208,10 +209,11 @@ int run_dense_ratio(std::size_t n) {
   const Eigen::MatrixXd Q = N.llt().solve(Eigen::MatrixXd::Identity(m, m));
   const Eigen::VectorXd x = Q * b;
   const double dense_seconds = seconds_since(start);
-  fmt::print("dense reference, {} points, {} sections: sparse {:.4f} s, dense {:.4f} s, "
-             "dense/sparse = {:.1f}  (check: {:.2e} m)\n",
-             net.points.size(), net.sections.size(), sparse_seconds, dense_seconds,
-             dense_seconds / sparse_seconds, std::abs(x[m - 1] - sparse.points.back().height));
+  fmt::print(
+      "dense reference, {} points, {} sections: sparse {:.4f} s, dense {:.4f} s, "
+      "dense/sparse = {:.1f}  (check: {:.2e} m)\n",
+      net.points.size(), net.sections.size(), sparse_seconds, dense_seconds,
+      dense_seconds / sparse_seconds, std::abs(x[m - 1] - sparse.points.back().height));
   return 0;
 }
 

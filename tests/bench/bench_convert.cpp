@@ -5,12 +5,13 @@
 //
 // usage: bench_convert [N]   (default 1000000)
 
+#include <fmt/format.h>
+
 #include <chrono>
 #include <cmath>
 #include <cstdio>
 #include <cstdlib>
 #include <filesystem>
-#include <fmt/format.h>
 #include <fstream>
 #include <random>
 #include <sstream>
@@ -49,9 +50,9 @@ int main(int argc, char** argv) {
     }
   }
   start = Clock::now();
-  const std::string command = fmt::format("cct -d 6 {} '{}' > '{}'", pipeline,
-                                          (folder / "in.txt").string(),
-                                          (folder / "out.txt").string());
+  const std::string command =
+      fmt::format("cct -d 6 {} '{}' > '{}'", pipeline, (folder / "in.txt").string(),
+                  (folder / "out.txt").string());
   const int status = std::system(command.c_str());
   const double cct = std::chrono::duration<double>(Clock::now() - start).count();
   if (status != 0) {
@@ -69,7 +70,8 @@ int main(int argc, char** argv) {
   }
   std::filesystem::remove_all(folder);
   fmt::print("{} points through {}\n", n, t.operations().front().name);
-  fmt::print("levelhead: {:.3f} s ({:.2f} M points/s; setup {:.3f} s)\n", ours, n / ours / 1e6, setup);
+  fmt::print("levelhead: {:.3f} s ({:.2f} M points/s; setup {:.3f} s)\n", ours, n / ours / 1e6,
+             setup);
   fmt::print("cct:       {:.3f} s ({:.2f} M points/s, text in and out)\n", cct, n / cct / 1e6);
   fmt::print("cct / levelhead time = {:.2f}; largest difference {:.1e} m (cct prints 6 decimals)\n",
              cct / ours, worst);

@@ -22,12 +22,10 @@ TEST_CASE("EGM96 geoid heights from the proj-data grid match NGA's test values",
   struct Case {
     double lat, lon, n;
   };
-  const Case cases[] = {{38.6281550, 269.7791550 - 360.0, -31.628},
-                        {-14.6212170, 305.0211140 - 360.0, -2.969},
-                        {46.8743190, 102.4487290, -43.575},
-                        {-23.6174460, 133.8747120, 15.871},
-                        {38.6254730, 359.9995000 - 360.0, 50.066},
-                        {-0.4667440, 0.0023000, 17.329}};
+  const Case cases[] = {
+      {38.6281550, 269.7791550 - 360.0, -31.628}, {-14.6212170, 305.0211140 - 360.0, -2.969},
+      {46.8743190, 102.4487290, -43.575},         {-23.6174460, 133.8747120, 15.871},
+      {38.6254730, 359.9995000 - 360.0, 50.066},  {-0.4667440, 0.0023000, 17.329}};
   VerticalTransformer t("EPSG:4979", "EPSG:4326+5773", "EPSG:4326", ProjSettings{});
   std::vector<PlanePoint> points;
   for (const Case& c : cases) points.push_back({c.lon, c.lat});  // x = longitude
@@ -141,7 +139,8 @@ TEST_CASE("a batch split over threads gives the same heights as small serial cal
     const auto part = serial.convert(p, h);
     for (std::size_t i = 0; i < part.size(); ++i) {
       REQUIRE(part[i].height.has_value() == all[start + i].height.has_value());
-      if (part[i].height) CHECK(*part[i].height == *all[start + i].height);  // same arithmetic, bit for bit
+      if (part[i].height)
+        CHECK(*part[i].height == *all[start + i].height);  // same arithmetic, bit for bit
     }
   }
   for (const auto& op : batch.operations()) counted += op.points;

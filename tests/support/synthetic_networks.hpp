@@ -59,7 +59,8 @@ inline void set_control(SyntheticNetwork& net, const std::vector<std::size_t>& f
 
 // Random points in a 5 km square; a random spanning tree to near earlier
 // points, plus `extra` sections between random near pairs (loops).
-inline SyntheticNetwork random_network(std::size_t n_points, std::size_t extra, std::uint64_t seed) {
+inline SyntheticNetwork random_network(std::size_t n_points, std::size_t extra,
+                                       std::uint64_t seed) {
   std::mt19937_64 rng(seed);
   SyntheticNetwork net;
   std::uniform_real_distribution<double> coordinate(0.0, 5000.0);
@@ -71,8 +72,8 @@ inline SyntheticNetwork random_network(std::size_t n_points, std::size_t extra, 
     double best_d = INFINITY;
     for (int tries = 0; tries < 5; ++tries) {
       const std::size_t j = std::uniform_int_distribution<std::size_t>(0, i - 1)(rng);
-      const double d = std::hypot(*net.points[i].x - *net.points[j].x,
-                                  *net.points[i].y - *net.points[j].y);
+      const double d =
+          std::hypot(*net.points[i].x - *net.points[j].x, *net.points[i].y - *net.points[j].y);
       if (d < best_d) best_d = d, best = j;
     }
     return best;
@@ -132,8 +133,8 @@ inline SyntheticNetwork national_network(std::size_t target_points, std::size_t 
 inline SyntheticNetwork mesh_network(std::size_t target_points, std::uint64_t seed) {
   std::mt19937_64 rng(seed);
   SyntheticNetwork net;
-  const std::size_t side =
-      std::max<std::size_t>(2, static_cast<std::size_t>(std::sqrt(static_cast<double>(target_points))));
+  const std::size_t side = std::max<std::size_t>(
+      2, static_cast<std::size_t>(std::sqrt(static_cast<double>(target_points))));
   for (std::size_t r = 0; r < side; ++r) {
     for (std::size_t c = 0; c < side; ++c) {
       add_point(net, "M" + std::to_string(r) + "_" + std::to_string(c), c * 50.0, r * 50.0, rng);
@@ -141,8 +142,10 @@ inline SyntheticNetwork mesh_network(std::size_t target_points, std::uint64_t se
   }
   for (std::size_t r = 0; r < side; ++r) {
     for (std::size_t c = 0; c < side; ++c) {
-      if (c + 1 < side) net.sections.push_back(noisy_section(net, r * side + c, r * side + c + 1, rng));
-      if (r + 1 < side) net.sections.push_back(noisy_section(net, r * side + c, (r + 1) * side + c, rng));
+      if (c + 1 < side)
+        net.sections.push_back(noisy_section(net, r * side + c, r * side + c + 1, rng));
+      if (r + 1 < side)
+        net.sections.push_back(noisy_section(net, r * side + c, (r + 1) * side + c, rng));
     }
   }
   set_control(net, {0, side - 1, side * (side - 1), side * side - 1}, {}, 0.0, rng);
