@@ -21,6 +21,7 @@ packages=(
   libutfcpp-dev
   catch2
   python3 python3-numpy
+  clang-format
 )
 if [ "${1:-}" = "--browser" ]; then packages+=(chromium); fi
 
