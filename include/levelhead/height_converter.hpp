@@ -20,7 +20,7 @@
 #include <vector>
 
 #include "levelhead/references_file.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/surface_shift.hpp"
 
 namespace levelhead {
 

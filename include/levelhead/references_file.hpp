@@ -58,7 +58,7 @@
 #include <string_view>
 #include <vector>
 
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/surface_shift.hpp"
 
 namespace levelhead {
 

@@ -117,51 +117,7 @@ class VerticalTransformer {
   std::unique_ptr<Impl> impl_;
 };
 
-// Vertical Offset and Slope (EPSG method 1046), PROJ's vertoffset:
-//   shift = offset + slope_lat * rho0 * (lat - lat0) + slope_lon * nu0 * (lon - lon0) * cos(lat)
-// with rho0, nu0 the meridian and prime-vertical radii at lat0 and slopes in
-// arc seconds (converted to radians).
-struct VerticalOffsetSlope {
-  double offset = 0.0;                      // m
-  double slope_lat = 0.0, slope_lon = 0.0;  // arc seconds
-  double lat0 = 0.0, lon0 = 0.0;            // degrees
-  std::string ellipsoid = "GRS80";          // a PROJ ellipsoid name
-};
-
-// A height surface over longitude and latitude evaluated at points: a grid
-// of our own, or an EPSG 1046 offset and slope.
-// Grids: values of a grid of our own (geoid or offset grid) at points, through
-// PROJ's vgridshift (bilinear, nodes at pixel centres). A raster PROJ cannot
-// read (anything but GTX and GeoTIFF) is first converted to GeoTIFF with
-// GDAL. The grid must be in geographic longitude and latitude; the points'
-// x, y are brought to longitude and latitude (WGS 84) for the lookup.
-class SurfaceShift {
- public:
-  SurfaceShift(const std::filesystem::path& grid, const std::string& points_crs,
-               const ProjSettings& settings);
-  SurfaceShift(const VerticalOffsetSlope& relation, const std::string& points_crs,
-               const ProjSettings& settings);
-  ~SurfaceShift();
-  SurfaceShift(const SurfaceShift&) = delete;
-  SurfaceShift& operator=(const SurfaceShift&) = delete;
-
-  // The surface's value (m) at each point; nullopt outside a grid or on nodata.
-  std::vector<std::optional<double>> values(const std::vector<PlanePoint>& points);
-  const GridUse& grid() const;  // empty name for an EPSG 1046 relation
-
- private:
-  void set_up(const std::string& pipeline, const std::string& points_crs,
-              const ProjSettings& settings, const std::string& what);
-  struct Impl;
-  std::unique_ptr<Impl> impl_;
-};
-
 // PROJ and its database, for provenance: "PROJ 9.1.1, EPSG v10.076".
 std::string proj_version_text();
-
-// SHA-256 of a file as lowercase hex (for grid provenance).
-std::string file_sha256(const std::filesystem::path& path);
-// SHA-256 of a text as lowercase hex.
-std::string text_sha256(const std::string& text);
 
 }  // namespace levelhead

@@ -9,19 +9,14 @@
 #include <vector>
 
 #include "levelhead/errors.hpp"
+#include "references/proj_handles.hpp"
 
 namespace levelhead {
 
 namespace {
 
-struct ContextDeleter {
-  void operator()(PJ_CONTEXT* c) const { proj_context_destroy(c); }
-};
-struct PjDeleter {
-  void operator()(PJ* p) const { proj_destroy(p); }
-};
-using ContextPtr = std::unique_ptr<PJ_CONTEXT, ContextDeleter>;
-using PjPtr = std::unique_ptr<PJ, PjDeleter>;
+using proj::ContextPtr;
+using proj::PjPtr;
 
 struct Area {
   double west, south, east, north;

@@ -11,6 +11,7 @@
 #include <nlohmann/json.hpp>
 #include <set>
 
+#include "levelhead/checksums.hpp"
 #include "levelhead/contours.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/output_files.hpp"

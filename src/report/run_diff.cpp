@@ -10,6 +10,7 @@
 #include <optional>
 #include <set>
 
+#include "levelhead/checksums.hpp"
 #include "levelhead/errors.hpp"
 #include "levelhead/input_files.hpp"
 #include "levelhead/table.hpp"
