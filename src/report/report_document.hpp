@@ -1,0 +1,129 @@
+#pragma once
+// Rendering of the report: one document written as Markdown and as
+// self-contained HTML, and the readers of stage outputs it is built from.
+
+#include <fmt/format.h>
+
+#include <filesystem>
+#include <nlohmann/json.hpp>
+#include <optional>
+#include <string>
+#include <utility>
+#include <vector>
+
+#include "levelhead/report.hpp"
+#include "levelhead/table.hpp"
+#include "report/svg.hpp"
+
+namespace levelhead::report {
+
+namespace fs = std::filesystem;
+
+// A stage's CSV output, read by column name.
+class Csv {
+ public:
+  explicit Csv(const fs::path& path) : table_(read_table(path)) {}
+  // An input of the project, read with its column map.
+  explicit Csv(const ReportInput& input)
+      : table_(
+            read_table(input.resolved,
+                       TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}, {}})) {}
+  std::size_t rows() const { return table_.row_count(); }
+  bool has(const std::string& column) const { return table_.find_column(column).has_value(); }
+  std::string get(std::size_t row, const std::string& column) const {
+    const auto c = table_.find_column(column);
+    return c ? std::string(table_.cell(row, *c)) : std::string();
+  }
+  std::optional<double> number(std::size_t row, const std::string& column) const {
+    const auto c = table_.find_column(column);
+    return c ? table_.number(row, *c) : std::nullopt;
+  }
+
+ private:
+  Table table_;
+};
+
+// A stage's JSON summary; InputError naming the file when it cannot be read.
+nlohmann::json read_json(const fs::path& path);
+
+std::vector<std::string> split(const std::string& text, char separator);
+
+// Text taken literally in Markdown (ids and file names may hold markup).
+std::string markdown_text(const std::string& text);
+
+// One document rendered twice: Markdown (figures as files) and HTML (inline).
+class Document {
+ public:
+  void heading(int level, const std::string& text) {
+    md_ += fmt::format("\n{} {}\n\n", std::string(static_cast<std::size_t>(level), '#'),
+                       markdown_text(text));
+    html_ += fmt::format("<h{0}>{1}</h{0}>\n", level, report::escape_xml(text));
+  }
+  void paragraph(const std::string& text) {
+    md_ += markdown_text(text) + "\n\n";
+    html_ += "<p>" + report::escape_xml(text) + "</p>\n";
+  }
+  void bullets(const std::vector<std::string>& items) {
+    if (items.empty()) return;
+    html_ += "<ul>\n";
+    for (const std::string& i : items) {
+      md_ += "- " + markdown_text(i) + "\n";
+      html_ += "<li>" + report::escape_xml(i) + "</li>\n";
+    }
+    md_ += "\n";
+    html_ += "</ul>\n";
+  }
+  void table(const std::vector<std::string>& header,
+             const std::vector<std::vector<std::string>>& rows, std::size_t limit = 60) {
+    md_ += "|";
+    html_ += "<table>\n<thead><tr>";
+    for (const std::string& h : header) {
+      md_ += fmt::format(" {} |", markdown_text(h));
+      html_ += "<th>" + report::escape_xml(h) + "</th>";
+    }
+    md_ += "\n|";
+    for (std::size_t i = 0; i < header.size(); ++i) md_ += "---|";
+    md_ += "\n";
+    html_ += "</tr></thead>\n<tbody>\n";
+    for (std::size_t r = 0; r < rows.size() && r < limit; ++r) {
+      md_ += "|";
+      html_ += "<tr>";
+      for (const std::string& c : rows[r]) {
+        md_ += fmt::format(" {} |", markdown_text(c));
+        html_ += "<td>" + report::escape_xml(c) + "</td>";
+      }
+      md_ += "\n";
+      html_ += "</tr>\n";
+    }
+    html_ += "</tbody></table>\n";
+    md_ += "\n";
+    if (rows.size() > limit) {
+      paragraph(fmt::format("({} more rows in the stage's table.)", rows.size() - limit));
+    }
+  }
+  void figure(const std::string& name, const Svg& svg, const std::string& caption) {
+    const std::string file = "figures/" + name + ".svg";
+    figures_.emplace_back(file, svg.str());
+    md_ += fmt::format("![{0}]({1})\n\n*{0}*\n\n", markdown_text(caption), file);
+    html_ += fmt::format("<figure id=\"fig-{}\">\n{}<figcaption>{}</figcaption>\n</figure>\n", name,
+                         svg.str(), report::escape_xml(caption));
+  }
+  const std::string& markdown() const { return md_; }
+  const std::string& html() const { return html_; }
+  const std::vector<std::pair<std::string, std::string>>& figures() const { return figures_; }
+
+ private:
+  std::string md_, html_;
+  std::vector<std::pair<std::string, std::string>> figures_;
+};
+
+// The report's style sheet (screen and print).
+extern const char* const css;
+
+// Versions for the audit record.
+std::string gdal_version();
+std::string epsg_version();
+
+std::string fixed(double value, int decimals);
+
+}  // namespace levelhead::report

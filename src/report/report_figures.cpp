@@ -1,0 +1,349 @@
+#include "report/report_figures.hpp"
+
+#include <fmt/format.h>
+
+#include <algorithm>
+#include <cmath>
+#include <set>
+
+#include "levelhead/contours.hpp"
+#include "levelhead/time.hpp"
+
+namespace levelhead::report {
+
+// The levelling network: sections coloured and dashed by |w|, removed
+// sections dotted, failing loops outlined.
+std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
+                               const fs::path& run) {
+  if (points.size() < 2 || !fs::exists(run / "adjust" / "residuals.csv")) return std::nullopt;
+  Bounds b;
+  for (const auto& [id, p] : points) b.add(p.x, p.y);
+  Svg svg(800, 520, "Levelling network: sections by normalised residual |w|");
+  const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 30, 30, 540, 450);
+  const Csv residuals(run / "adjust" / "residuals.csv");
+  if (fs::exists(run / "loops" / "loops.csv")) {
+    const Csv loops(run / "loops" / "loops.csv");
+    for (std::size_t r = 0; r < loops.rows(); ++r) {
+      if (loops.get(r, "passed") == "yes") continue;
+      std::vector<std::pair<double, double>> ring;
+      for (const std::string& id : split(loops.get(r, "points"), '>')) {
+        const auto it = points.find(id);
+        if (it != points.end()) ring.emplace_back(frame.x(it->second.x), frame.y(it->second.y));
+      }
+      if (ring.size() >= 3) svg.polyline(ring, Stroke{"#d9bfe4", 10, ""}, "#f7f0fa");
+    }
+  }
+  for (std::size_t r = 0; r < residuals.rows(); ++r) {
+    const auto f = points.find(residuals.get(r, "from")), t = points.find(residuals.get(r, "to"));
+    if (f == points.end() || t == points.end()) continue;
+    const auto w = residuals.number(r, "w");
+    Stroke s{"#7d8b8f", 1.5, ""};
+    if (!residuals.get(r, "removed_step").empty()) {
+      s = Stroke{"#b2352b", 3, "2 4"};
+    } else if (w && std::abs(*w) > 3.29) {
+      s = Stroke{"#b2352b", 3, "8 3"};
+    } else if (w && std::abs(*w) > 1.96) {
+      s = Stroke{"#d08c1a", 2.5, "4 2"};
+    } else if (!w) {
+      s = Stroke{"#444444", 1.2, "1 2"};
+    }
+    svg.line(frame.x(f->second.x), frame.y(f->second.y), frame.x(t->second.x), frame.y(t->second.y),
+             s);
+  }
+  for (const auto& [id, p] : points) {
+    svg.circle(frame.x(p.x), frame.y(p.y), 4, "#ffffff", Stroke{"#222222", 1.3});
+    svg.text(frame.x(p.x) + 6, frame.y(p.y) - 6, id, 10);
+  }
+  // Legend.
+  const double lx = 630;
+  double ly = 60;
+  const std::vector<std::pair<Stroke, std::string>> legend = {
+      {{"#7d8b8f", 1.5, ""}, "|w| <= 1.96"},
+      {{"#d08c1a", 2.5, "4 2"}, "1.96 < |w| <= 3.29"},
+      {{"#b2352b", 3, "8 3"}, "|w| > 3.29 (suspect)"},
+      {{"#b2352b", 3, "2 4"}, "removed by snooping"},
+      {{"#444444", 1.2, "1 2"}, "no check (r = 0)"},
+      {{"#d9bfe4", 10, ""}, "failed loop (band)"}};
+  for (const auto& [stroke, label] : legend) {
+    svg.line(lx, ly, lx + 30, ly, stroke);
+    svg.text(lx + 36, ly + 4, label, 10);
+    ly += 20;
+  }
+  north_arrow(svg, 700, 330);
+  scale_bar(svg, frame, 630, 420, 540);
+  return svg;
+}
+
+// Bars of |misclosure| / tolerance per loop, the limit at 1.
+Svg loop_chart(const Csv& loops) {
+  const double row = 18, top = 30, left = 60, width = 500;
+  Svg svg(640, top + row * static_cast<double>(loops.rows()) + 40,
+          "Loop misclosures against tolerance");
+  double largest = 1.5;
+  for (std::size_t r = 0; r < loops.rows(); ++r) {
+    const auto m = loops.number(r, "misclosure"), t = loops.number(r, "tolerance");
+    if (m && t && *t > 0) largest = std::max(largest, std::abs(*m) / *t);
+  }
+  const double scale = width / largest;
+  for (std::size_t r = 0; r < loops.rows(); ++r) {
+    const auto m = loops.number(r, "misclosure"), t = loops.number(r, "tolerance");
+    const double ratio = m && t && *t > 0 ? std::abs(*m) / *t : 0.0;
+    const bool passed = loops.get(r, "passed") == "yes";
+    const double y = top + row * static_cast<double>(r);
+    svg.text(left - 6, y + 12, "loop " + loops.get(r, "loop"), 10, "end");
+    svg.rect(left, y + 3, ratio * scale, row - 6, passed ? "#2f8f83" : "#b2352b",
+             Stroke{"#222222", 0.8, passed ? "" : "3 2"});
+    svg.text(left + ratio * scale + 4, y + 12, fmt::format("{:.2f}", ratio), 9);
+  }
+  const double limit_y = top + row * static_cast<double>(loops.rows());
+  svg.line(left + scale, top - 5, left + scale, limit_y + 5, Stroke{"#222222", 1.2, "6 3"});
+  svg.text(left + scale, top - 10, "tolerance", 10, "middle");
+  svg.text(left, limit_y + 25, "|misclosure| / tolerance", 10);
+  return svg;
+}
+
+// Heads of the contouring round: wells coloured by head, quick-look
+// contours, the flow arrow.
+std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json,
+                            std::optional<double> interval,
+                            std::optional<QuickContours>& contours) {
+  std::map<std::string, PlacedPoint> placed;
+  for (std::size_t r = 0; r < wells.rows(); ++r) {
+    const auto x = wells.number(r, "x"), y = wells.number(r, "y");
+    if (x && y) placed[wells.get(r, "id")] = {*x, *y};
+  }
+  struct Shown {
+    PlacedPoint at;
+    double head;
+    std::string well;
+  };
+  // One aquifer is contoured: the one the flow fit used, when it names one.
+  std::string aquifer;
+  if (fs::exists(flow_json)) aquifer = read_json(flow_json).value("aquifer", std::string());
+  std::vector<Shown> shown, other_aquifers;
+  Bounds b;
+  for (std::size_t r = 0; r < event.rows(); ++r) {
+    const auto it = placed.find(event.get(r, "well"));
+    const auto h = event.number(r, "head");
+    if (it == placed.end() || !h) continue;
+    auto& list = aquifer.empty() || event.get(r, "aquifer") == aquifer ? shown : other_aquifers;
+    list.push_back({it->second, *h, it->first});
+    b.add(it->second.x, it->second.y);
+  }
+  if (shown.size() < 2) return std::nullopt;
+  double low = INFINITY, high = -INFINITY;
+  for (const Shown& s : shown) {
+    low = std::min(low, s.head);
+    high = std::max(high, s.head);
+  }
+  Svg svg(760, 520, "Heads of the contouring round");
+  const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 50, 40, 540, 430);
+  std::vector<HeadAtWell> at_wells;
+  for (const Shown& s : shown) at_wells.push_back({s.at.x, s.at.y, s.head});
+  contours = quick_contours(at_wells, interval);
+  if (contours) {
+    for (const ContourLine& line : contours->lines) {
+      std::vector<std::pair<double, double>> path;
+      for (const auto& [x, y] : line.vertices) path.emplace_back(frame.x(x), frame.y(y));
+      svg.polyline(path, Stroke{"#5d6d7e", 1.0, "5 2"});
+      const auto& [lx, ly] = path[path.size() / 2];
+      svg.text(lx, ly - 2, fixed(line.level, contours->interval < 0.1 ? 2 : 1), 8.5, "middle",
+               "#3d4b5a");
+    }
+  }
+  if (fs::exists(flow_json)) {
+    const nlohmann::json flow = read_json(flow_json);
+    const double azimuth = flow["azimuth"]["value"].get<double>() * M_PI / 180.0;
+    const double x0 = flow["plane"]["x0"].get<double>(), y0 = flow["plane"]["y0"].get<double>();
+    const double cx = frame.x(x0), cy = frame.y(y0), length = 90;
+    const double dx = std::sin(azimuth) * length, dy = -std::cos(azimuth) * length;
+    const Stroke arrow{"#b2352b", 3.5, ""};
+    svg.line(cx - dx / 2, cy - dy / 2, cx + dx / 2, cy + dy / 2, arrow);
+    const double hx = cx + dx / 2, hy = cy + dy / 2, ux = dx / length, uy = dy / length;
+    svg.polyline({{hx, hy},
+                  {hx - 14 * ux - 7 * uy, hy - 14 * uy + 7 * ux},
+                  {hx - 14 * ux + 7 * uy, hy - 14 * uy - 7 * ux},
+                  {hx, hy}},
+                 Stroke{"#b2352b", 1}, "#b2352b");
+    // Its label in the key, clear of the wells' labels.
+    svg.line(640, 396, 668, 396, arrow);
+    svg.text(674, 392, fmt::format("flow {:.0f}°", flow["azimuth"]["value"].get<double>()), 10,
+             "start", "#b2352b", true);
+    svg.text(674, 405, fmt::format("i = {:.2g}", flow["gradient"]["value"].get<double>()), 10,
+             "start", "#b2352b");
+  }
+  for (const Shown& s : other_aquifers) {
+    const double x = frame.x(s.at.x), y = frame.y(s.at.y);
+    svg.rect(x - 4, y - 4, 8, 8, "#ffffff", Stroke{"#777777", 1});
+    svg.text(x + 7, y + 12, s.well, 8, "start", "#777777");
+  }
+  // Labels beside their well: right, left, below right or above left,
+  // whichever first misses the labels already placed (boxes of about
+  // 55 x 24 px, kept by their left edge and baseline).
+  std::vector<std::pair<double, double>> placed_labels;
+  for (const Shown& s : shown) {
+    const double x = frame.x(s.at.x), y = frame.y(s.at.y);
+    svg.circle(x, y, 7, report::ramp_colour(s.head, low, high), Stroke{"#111111", 1});
+    const auto clashes = [&](double left_edge, double baseline) {
+      return std::any_of(placed_labels.begin(), placed_labels.end(), [&](const auto& o) {
+        return std::abs(o.first - left_edge) < 55 && std::abs(o.second - baseline) < 24;
+      });
+    };
+    struct Spot {
+      double dx, dy;
+      bool to_left;
+    };
+    const Spot spots[] = {{9, 0, false}, {-9, 0, true}, {9, 24, false}, {-9, -24, true}};
+    Spot chosen = spots[0];
+    for (const Spot& spot : spots) {
+      if (!clashes(x + spot.dx - (spot.to_left ? 55 : 0), y + spot.dy)) {
+        chosen = spot;
+        break;
+      }
+    }
+    const double lx = x + chosen.dx, ly = y + chosen.dy;
+    const std::string anchor = chosen.to_left ? "end" : "start";
+    svg.text(lx, ly - 3, s.well, 10, anchor);
+    svg.text(lx, ly + 9, fixed(s.head, 2), 9, anchor, "#333333");
+    placed_labels.emplace_back(chosen.to_left ? lx - 55 : lx, ly);
+  }
+  // Colour key.
+  for (int i = 0; i <= 10; ++i) {
+    const double v = low + (high - low) * i / 10.0;
+    svg.rect(640, 80 + 20 * (10 - i), 20, 20, report::ramp_colour(v, low, high),
+             Stroke{"#555555", 0.5});
+  }
+  svg.text(665, 95, fixed(high, 2) + " m", 10);
+  svg.text(665, 295, fixed(low, 2) + " m", 10);
+  svg.text(640, 70, "head", 10, "start", "#222222", true);
+  if (contours) {
+    svg.line(640, 315, 670, 315, Stroke{"#5d6d7e", 1.0, "5 2"});
+    svg.text(675, 319, fmt::format("contours, {:g} m", contours->interval), 10);
+  }
+  if (!aquifer.empty()) svg.text(640, 50, aquifer, 10, "start", "#222222", true);
+  if (!other_aquifers.empty()) {
+    svg.rect(641, 326, 8, 8, "#ffffff", Stroke{"#777777", 1});
+    svg.text(655, 334, "other aquifers", 10);
+  }
+  north_arrow(svg, 700, 354);
+  scale_bar(svg, frame, 620, 440, 540);
+  return svg;
+}
+
+// Heads over time per well, measuring-point changes as vertical lines.
+std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
+  struct Reading {
+    double time, head;
+    bool excluded;  // kept out of contouring for a reason other than the window
+    bool operator<(const Reading& o) const { return time < o.time; }
+  };
+  std::map<std::string, std::vector<Reading>> series;
+  double t0 = INFINITY, t1 = -INFINITY;
+  for (std::size_t r = 0; r < heads.rows(); ++r) {
+    const auto h = heads.number(r, "head");
+    const auto when = parse_iso8601(heads.get(r, "time_utc"));
+    if (!h || !when) continue;
+    const std::string reason = heads.get(r, "reason");
+    series[heads.get(r, "well")].push_back(
+        {when->seconds, *h, !reason.empty() && reason != "outside-synoptic-window"});
+    t0 = std::min(t0, when->seconds);
+    t1 = std::max(t1, when->seconds);
+  }
+  if (series.empty() || !(t1 > t0)) return std::nullopt;
+  std::map<std::string, std::vector<double>> changes;
+  for (std::size_t r = 0; r < mps.rows(); ++r) {
+    const auto when = parse_iso8601(mps.get(r, "valid_from"));
+    if (when) changes[mps.get(r, "well")].push_back(when->seconds);
+  }
+  const std::size_t columns = 3;
+  const double cell_w = 245, cell_h = 120;
+  const std::size_t rows = (series.size() + columns - 1) / columns;
+  Svg svg(columns * cell_w + 10, static_cast<double>(rows) * cell_h + 10, "Hydrographs per well");
+  std::size_t i = 0;
+  for (auto& [well, points] : series) {
+    std::sort(points.begin(), points.end());
+    const double ox = 10 + static_cast<double>(i % columns) * cell_w,
+                 oy = 5 + static_cast<double>(i / columns) * cell_h;
+    double lo = INFINITY, hi = -INFINITY;
+    for (const Reading& p : points) {
+      lo = std::min(lo, p.head);
+      hi = std::max(hi, p.head);
+    }
+    if (hi - lo < 0.1) {
+      const double mid = 0.5 * (hi + lo);
+      lo = mid - 0.05;
+      hi = mid + 0.05;
+    }
+    const double px = ox + 40, pw = cell_w - 55, py = oy + 18, ph = cell_h - 42;
+    const auto X = [&](double t) { return px + (t - t0) / (t1 - t0) * pw; };
+    const auto Y = [&](double h) { return py + ph - (h - lo) / (hi - lo) * ph; };
+    svg.rect(px, py, pw, ph, "#fbfbf8", Stroke{"#999999", 0.6});
+    svg.text(ox + 2, oy + 12, well, 11, "start", "#222222", true);
+    svg.text(px - 3, py + 8, fixed(hi, 2), 8, "end");
+    svg.text(px - 3, py + ph, fixed(lo, 2), 8, "end");
+    for (double c : changes[well]) {
+      if (c > t0 && c < t1) svg.line(X(c), py, X(c), py + ph, Stroke{"#b2352b", 1, "3 2"});
+    }
+    std::vector<std::pair<double, double>> line;
+    for (const Reading& p : points) {
+      if (!p.excluded) line.emplace_back(X(p.time), Y(p.head));
+    }
+    svg.polyline(line, Stroke{"#2c347a", 1.3});
+    for (const Reading& p : points) {
+      svg.circle(X(p.time), Y(p.head), p.excluded ? 2.6 : 1.6, p.excluded ? "#ffffff" : "#2c347a",
+                 Stroke{p.excluded ? "#b2352b" : "#2c347a", p.excluded ? 1.2 : 0.5});
+    }
+    ++i;
+  }
+  svg.text(
+      10, static_cast<double>(rows) * cell_h + 5,
+      fmt::format(
+          "{} to {}; dashed: measuring point changed; open red: not for contouring (pumping, ...)",
+          format_utc(t0).substr(0, 10), format_utc(t1).substr(0, 10)),
+      9);
+  return svg;
+}
+
+// Displacements since the first epoch with their confidence intervals.
+Svg displacement_chart(const Csv& moves, const std::string& last_epoch) {
+  struct Bar {
+    std::string point;
+    double d, low, high;
+    bool significant, datum;
+  };
+  std::vector<Bar> bars;
+  for (std::size_t r = 0; r < moves.rows(); ++r) {
+    if (moves.get(r, "against") != "first" || moves.get(r, "to_epoch") != last_epoch) continue;
+    bars.push_back({moves.get(r, "point"), 1000 * moves.number(r, "displacement").value_or(0),
+                    1000 * moves.number(r, "ci_low").value_or(0),
+                    1000 * moves.number(r, "ci_high").value_or(0),
+                    moves.get(r, "significant") == "yes", !moves.get(r, "note").empty()});
+  }
+  double extent = 1.0;
+  for (const Bar& b : bars) extent = std::max({extent, std::abs(b.low), std::abs(b.high)});
+  const double row = 18, top = 30, mid = 330, half = 250;
+  Svg svg(640, top + row * static_cast<double>(bars.size()) + 40,
+          "Displacement since the first epoch (mm) with 95 % interval");
+  const double scale = half / extent;
+  for (std::size_t i = 0; i < bars.size(); ++i) {
+    const Bar& b = bars[i];
+    const double y = top + row * static_cast<double>(i);
+    svg.text(mid - half - 8, y + 12, b.point, 10, "end");
+    const double x0 = mid + std::min(0.0, b.d) * scale;
+    svg.rect(x0, y + 4, std::abs(b.d) * scale, row - 8,
+             b.datum         ? "#cccccc"
+             : b.significant ? "#b2352b"
+                             : "#7d8b8f",
+             Stroke{"#222222", 0.6, b.significant ? "" : "2 2"});
+    svg.line(mid + b.low * scale, y + row / 2, mid + b.high * scale, y + row / 2,
+             Stroke{"#111111", 1});
+  }
+  const double bottom = top + row * static_cast<double>(bars.size());
+  svg.line(mid, top - 5, mid, bottom + 5, Stroke{"#222222", 1});
+  svg.text(mid - half, bottom + 22, fmt::format("{:+.1f} mm", -extent), 9, "middle");
+  svg.text(mid + half, bottom + 22, fmt::format("{:+.1f} mm", extent), 9, "middle");
+  svg.text(mid, bottom + 22, "0", 9, "middle");
+  return svg;
+}
+
+}  // namespace levelhead::report

@@ -1,0 +1,52 @@
+#pragma once
+// The report's figures: the levelling network, loop misclosures, the head
+// map of the contouring round, hydrographs and displacements, as SVG.
+
+#include <algorithm>
+#include <cmath>
+#include <filesystem>
+#include <map>
+#include <optional>
+#include <string>
+
+#include "levelhead/contours.hpp"
+#include "report/report_document.hpp"
+#include "report/svg.hpp"
+
+namespace levelhead::report {
+
+struct PlacedPoint {
+  double x = 0, y = 0;
+};
+
+struct Bounds {
+  double min_x = INFINITY, min_y = INFINITY, max_x = -INFINITY, max_y = -INFINITY;
+  void add(double x, double y) {
+    min_x = std::min(min_x, x);
+    max_x = std::max(max_x, x);
+    min_y = std::min(min_y, y);
+    max_y = std::max(max_y, y);
+  }
+  bool empty() const { return !(max_x >= min_x); }
+};
+
+// The levelling network: sections coloured and dashed by |w|, removed
+// sections dotted, failing loops outlined.
+std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
+                               const fs::path& run);
+
+// Bars of |misclosure| / tolerance per loop, the limit at 1.
+Svg loop_chart(const Csv& loops);
+
+// Heads of the contouring round: wells coloured by head, quick-look
+// contours, the flow arrow.
+std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json,
+                            std::optional<double> interval, std::optional<QuickContours>& contours);
+
+// Heads over time per well, measuring-point changes as vertical lines.
+std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps);
+
+// Displacements since the first epoch with their confidence intervals.
+Svg displacement_chart(const Csv& moves, const std::string& last_epoch);
+
+}  // namespace levelhead::report
