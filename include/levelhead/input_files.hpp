@@ -26,6 +26,11 @@ void note_input_file(const std::filesystem::path& file);
 // nullopt; nullopt too when `destination` does not exist.
 std::optional<std::string> input_file_at(const std::filesystem::path& destination);
 
+// Whether `path` names something that exists; false too when it cannot be
+// examined (a name too long, no permission), never an exception: for paths
+// that come from the user's files and command line.
+bool path_exists(const std::filesystem::path& path) noexcept;
+
 // Notes `file` and returns its whole content as bytes. InputError naming the
 // file when it cannot be opened or read completely.
 std::string read_input_text(const std::filesystem::path& file);

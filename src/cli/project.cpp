@@ -165,7 +165,7 @@ void read_inputs(Project& p, const toml::table& inputs) {
                                         : std::vector<std::string>{text_value(p, node, key)};
     for (const std::string& v : values) {
       const fs::path path = resolve(p, v);
-      if (!fs::exists(path)) {
+      if (!path_exists(path)) {
         throw InputError(where(p, node), fmt::format("[inputs] {}: file '{}' not found (paths are "
                                                      "relative to the project file)",
                                                      key, v));
@@ -246,7 +246,7 @@ bool has_setting(const Project& p, const std::string& section, const std::string
 }  // namespace
 
 Project load_project(const fs::path& file) {
-  if (!fs::exists(file)) throw InputError(file.string(), "project file not found");
+  if (!path_exists(file)) throw InputError(file.string(), "project file not found");
   return parse_project(read_input_text(file), file);
 }
 

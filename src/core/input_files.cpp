@@ -36,6 +36,11 @@ void note_input_file(const std::filesystem::path& file) {
   if (auto noted = identify(file)) scopes().back().push_back(std::move(*noted));
 }
 
+bool path_exists(const std::filesystem::path& path) noexcept {
+  std::error_code error;
+  return std::filesystem::exists(path, error) && !error;
+}
+
 std::string read_input_text(const std::filesystem::path& file) {
   std::ifstream in(file, std::ios::binary);
   if (!in) throw InputError(file.string(), "cannot open the file for reading");

@@ -57,14 +57,14 @@ namespace {
 std::filesystem::path locate_grid(const std::filesystem::path& folder,
                                   const std::filesystem::path& grid) {
   const std::filesystem::path beside = folder / grid;
-  if (std::filesystem::exists(beside)) return beside;
+  if (path_exists(beside)) return beside;
   const std::string paths = proj_info().searchpath ? proj_info().searchpath : "";
   std::size_t start = 0;
   while (start <= paths.size()) {
     const std::size_t end = std::min(paths.find(':', start), paths.size());
     const std::filesystem::path candidate =
         std::filesystem::path(paths.substr(start, end - start)) / grid;
-    if (end > start && std::filesystem::exists(candidate)) return candidate;
+    if (end > start && path_exists(candidate)) return candidate;
     start = end + 1;
   }
   return beside;  // missing: the converter reports it with the paths searched
@@ -279,7 +279,9 @@ ReferenceSet ReferenceSet::parse(std::string_view toml_text, const std::filesyst
       d.base = text(file, *t, "base", true, name);
       std::filesystem::path grid = text(file, *t, "grid", true, name);
       if (grid.is_relative()) grid = locate_grid(path.parent_path(), grid);
-      d.grid = std::filesystem::absolute(grid).lexically_normal();
+      std::error_code no_folder;
+      const std::filesystem::path absolute = std::filesystem::absolute(grid, no_folder);
+      d.grid = (no_folder ? grid : absolute).lexically_normal();
       d.grid_multiplier = number(file, *t, "multiplier", 1.0);
       if (!(std::abs(d.grid_multiplier) > 0.0)) {
         throw InputError(where(file, *t->get("multiplier")), "'multiplier' must not be 0");

@@ -13,7 +13,9 @@
 
 #include "levelhead/checksums.hpp"
 #include "levelhead/errors.hpp"
+#include "levelhead/input_files.hpp"
 #include "references/proj_handles.hpp"
+#include "util/encoding.hpp"
 
 namespace levelhead {
 
@@ -76,7 +78,7 @@ void require_complete_grid(const std::filesystem::path& grid) {
     throw ReferenceError(
         fmt::format("grid file '{}' cannot be read completely ({}); it is damaged or cut short (an "
                     "interrupted download or copy?): get the grid again",
-                    grid.string(), problem));
+                    util::shortened(grid.string(), 200), problem));
   }
 }
 
@@ -89,8 +91,8 @@ std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
   GDALAllRegister();
   GDALDatasetH source = GDALOpen(grid.string().c_str(), GA_ReadOnly);
   if (!source) {
-    throw ReferenceError(
-        fmt::format("grid '{}' cannot be read by GDAL: {}", grid.string(), CPLGetLastErrorMsg()));
+    throw ReferenceError(fmt::format("grid '{}' cannot be read by GDAL: {}",
+                                     util::shortened(grid.string(), 200), CPLGetLastErrorMsg()));
   }
   converted = std::filesystem::temp_directory_path() /
               fmt::format("levelhead-grid-{}-{}.tif", getpid(), grid.stem().string());
@@ -101,7 +103,7 @@ std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
   GDALClose(source);
   if (!out) {
     throw ReferenceError(fmt::format("grid '{}' could not be converted to GeoTIFF for PROJ: {}",
-                                     grid.string(), CPLGetLastErrorMsg()));
+                                     util::shortened(grid.string(), 200), CPLGetLastErrorMsg()));
   }
   GDALClose(out);
   return converted;
@@ -112,8 +114,10 @@ std::filesystem::path readable_by_proj(const std::filesystem::path& grid,
 SurfaceShift::SurfaceShift(const std::filesystem::path& grid, const std::string& points_crs,
                            const ProjSettings& settings)
     : impl_(std::make_unique<Impl>()) {
-  if (!std::filesystem::is_regular_file(grid)) {
-    throw ReferenceError(fmt::format("grid file '{}' does not exist", grid.string()));
+  std::error_code not_a_file;
+  if (!std::filesystem::is_regular_file(grid, not_a_file)) {
+    throw ReferenceError(
+        fmt::format("grid file '{}' does not exist", util::shortened(grid.string(), 200)));
   }
   require_complete_grid(grid);
   impl_->grid = GridUse{grid.filename().string(), grid.string(), file_sha256(grid)};
@@ -122,7 +126,7 @@ SurfaceShift::SurfaceShift(const std::filesystem::path& grid, const std::string&
   // grid fails here instead of being skipped; the multiplier is written out
   // (PROJ's default is -1).
   set_up(fmt::format("+step +proj=vgridshift +grids={} +multiplier=1", readable.string()),
-         points_crs, settings, "grid " + grid.string());
+         points_crs, settings, "grid " + util::shortened(grid.string(), 200));
 }
 
 SurfaceShift::SurfaceShift(const VerticalOffsetSlope& r, const std::string& points_crs,

@@ -167,7 +167,7 @@ std::map<std::string, Row> read_keyed(const fs::path& file, const std::vector<st
                                       const std::string& value,
                                       const std::vector<std::string>& texts) {
   std::map<std::string, Row> out;
-  if (!fs::exists(file)) return out;
+  if (!path_exists(file)) return out;
   const Table t = read_table(file);
   std::vector<std::size_t> key_columns;
   for (const std::string& k : keys) key_columns.push_back(t.require_column(k));
@@ -249,7 +249,7 @@ RunDifference compare_runs(const fs::path& before, const fs::path& after, double
   const auto both = [&](const std::string& name, const std::vector<std::string>& keys,
                         const std::string& value, const std::vector<std::string>& texts) {
     const bool usable = !unusable_before.count(name) && !unusable_after.count(name);
-    const bool in_before = fs::exists(before / name), in_after = fs::exists(after / name);
+    const bool in_before = path_exists(before / name), in_after = path_exists(after / name);
     if (usable && in_before != in_after) {
       d.file_problems.push_back(fmt::format("{} {}: not written by that run (stage not run?)",
                                             in_before ? "NEW" : "OLD", name));
