@@ -267,3 +267,47 @@ TEST_CASE("heads --strict with an event does not fail on readings outside its wi
   args.back() = (tmp.path() / "flagged").string();
   CHECK(levelhead::testing::run_cli(args).code == 3);
 }
+
+TEST_CASE("heads --keep-going sets bad readings aside and finishes with status 4",
+          "[heads][cli][rejects]") {
+  levelhead::testing::TempFolder tmp;
+  const auto write = [&](const char* name, const char* text) {
+    std::ofstream(tmp.path() / name) << text;
+    return (tmp.path() / name).string();
+  };
+  const std::string wells = write("wells.csv", "id,x,y\nW1,500000,4400000\n");
+  const std::string mp = write("mp.csv",
+                               "well,valid_from,height,datum,sigma\n"
+                               "W1,2020-01-01,10.000,EPSG:5703,0.002\n");
+  const std::string levels = write("levels.csv",
+                                   "well,time,depth\n"
+                                   "W1,2020-03-01T08:00Z,4.100\n"
+                                   "W9,2020-03-02T08:00Z,4.150\n"
+                                   "W1,2020-03-03T08:00Z,deep\n"
+                                   "W1,2020-03-04T08:00Z,4.200\n");
+  std::vector<std::string> args = {
+      "heads",      "--wells",   wells,     "--mp",      mp,
+      "--levels",   levels,      "--to",    "EPSG:5703", "--crs",
+      "EPSG:32613", "--no-gpkg", "--quiet", "--out",     (tmp.path() / "stop").string()};
+  SECTION("without it the first bad reading stops the stage, nothing written") {
+    const auto run = levelhead::testing::run_cli(args);
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Catch::Matchers::Contains("row 3"));
+    CHECK_FALSE(std::filesystem::exists(tmp.path() / "stop"));
+  }
+  SECTION("with it the others are processed and the rejects listed") {
+    args.back() = (tmp.path() / "going").string();
+    args.push_back("--keep-going");
+    const auto run = levelhead::testing::run_cli(args);
+    CHECK(run.code == 4);
+    CHECK_THAT(run.err, Catch::Matchers::Contains("2 reading(s) set aside in rejects.csv"));
+    const std::string rejects = levelhead::testing::read_file(tmp.path() / "going" / "rejects.csv");
+    CHECK_THAT(rejects, Catch::Matchers::StartsWith("file,row,column,problem\n"));
+    CHECK_THAT(rejects, Catch::Matchers::Contains(",3,well,") &&
+                            Catch::Matchers::Contains("this well is not in the wells table"));
+    CHECK_THAT(rejects,
+               Catch::Matchers::Contains(",4,depth,") && Catch::Matchers::Contains("'deep'"));
+    const std::string heads = levelhead::testing::read_file(tmp.path() / "going" / "heads.csv");
+    CHECK(std::count(heads.begin(), heads.end(), '\n') == 3);  // header and the two good rows
+  }
+}

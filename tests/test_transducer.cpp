@@ -238,3 +238,31 @@ TEST_CASE("transducer levels feed heads: rejected readings are not contoured",
   }
   CHECK(rejected == 99);
 }
+
+TEST_CASE("keep_going sets bad records and manual readings aside in rejects.csv",
+          "[transducer][rejects]") {
+  Bench b;
+  b.sensors = "sensor,kind,well,hung_depth\nT1,vented,W1,20.0\n";
+  b.hourly("T1", 24, [](int) { return kpa(15.0); });
+  b.records += "T9," + b.at(30) + ",150.0\n";  // a sensor not in the sensors table
+  b.records += "T1," + b.at(31) + ",high\n";   // a pressure in words
+  b.levels += "W1," + b.at(2) + ",5.000\n";
+  b.levels += "W1," + b.at(3) + ",five\n";  // a depth in words
+  SECTION("without it the first bad row stops the stage") { CHECK_THROWS_AS(b.run(), InputError); }
+  SECTION("with it the others are reduced and each reject is named") {
+    b.options.keep_going = true;
+    const TransducerSummary s = b.run();
+    CHECK(s.rejected == 3);
+    const Table rejects = b.output("rejects.csv");
+    REQUIRE(rejects.row_count() == 3);
+    CHECK(rejects.cell(0, *rejects.find_column("column")) == "sensor");
+    CHECK(rejects.cell(1, *rejects.find_column("column")) == "pressure");
+    CHECK(rejects.cell(2, *rejects.find_column("column")) == "depth");
+    // The good manual reading checks the sensor; the bad one is not passed on.
+    CHECK(s.sensors.at(0).checks == 1);
+    CHECK(s.manual == 2);
+    const Table levels = b.output("levels.csv");
+    for (std::size_t r = 0; r < levels.row_count(); ++r)
+      CHECK(levels.cell(r, *levels.find_column("depth")) != "five");
+  }
+}

@@ -53,6 +53,10 @@ struct HeadOptions {
   double history_tolerance = 0.30;  // m, smallest departure from a well's own trend flagged
   std::optional<double>
       environmental_reference;  // m, z_r of environmental-water heads (target reference)
+  // A reading that cannot be read (a bad cell, an unknown well, no survey in
+  // force) goes to rejects.csv and the others go on (levelhead/rejects.hpp);
+  // false: the first one stops the stage.
+  bool keep_going = false;
   void validate() const;
 };
 
@@ -138,14 +142,16 @@ struct QaEntry {
 struct HeadsSummary {
   std::size_t readings = 0, heads = 0, states = 0, contourable = 0;
   std::size_t remeasure = 0;                 // wells on the re-measure list (with an event)
+  std::size_t rejected = 0;                  // readings set aside (keep_going)
   std::map<std::string, std::size_t> flags;  // flag -> count
   std::map<std::string, std::size_t> states_by_kind;
 };
 
 class HeadWriter;  // defined in heads.cpp
 
-// Writes heads.csv, qa.csv, measuring_points.csv, summary.json and (unless
-// no_geopackage) heads.gpkg into `folder`, all-or-nothing; with an event also
+// Writes heads.csv, qa.csv, measuring_points.csv, summary.json, (unless
+// no_geopackage) heads.gpkg and (with keep_going) rejects.csv into
+// `folder`, all-or-nothing; with an event also
 // event.csv (one head per well, neighbour checks; event_qa.hpp), nests.csv
 // (vertical differences in piezometer nests) and remeasure.csv.
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,

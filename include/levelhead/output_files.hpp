@@ -44,6 +44,7 @@ class OutputSet {
   std::filesystem::path folder_;
   std::map<std::string, std::ofstream> streams_;
   std::vector<std::string> reserved_;
+  std::vector<std::filesystem::path> created_folders_;  // by the constructor, innermost first
   bool committed_ = false;
 };
 

@@ -67,6 +67,9 @@ struct TransducerOptions {
   double manual_window_hours = 0.25;  // record samples this close to a manual reading are left out
   std::size_t min_efficiency_pairs =
       48;  // paired changes needed to estimate a barometric efficiency
+  // A record or manual reading that cannot be read goes to rejects.csv and
+  // the others go on (levelhead/rejects.hpp); false: the first one stops.
+  bool keep_going = false;
   void validate() const;
 };
 
@@ -103,6 +106,7 @@ struct SensorSummary {
 struct TransducerSummary {
   std::vector<SensorSummary> sensors;
   std::size_t manual = 0, written = 0;
+  std::size_t rejected = 0;  // records and manual readings set aside (keep_going)
 };
 
 // The records table is read from `records` in batches (it may hold tens of

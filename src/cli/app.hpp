@@ -10,7 +10,14 @@
 
 namespace levelhead::cli {
 
-enum ExitCode : int { exit_ok = 0, exit_failure = 1, exit_usage = 2, exit_checks_failed = 3 };
+// 4: the command finished but set records aside (--keep-going, rejects.csv).
+enum ExitCode : int {
+  exit_ok = 0,
+  exit_failure = 1,
+  exit_usage = 2,
+  exit_checks_failed = 3,
+  exit_rejected = 4
+};
 
 // An option of a command, as the project file sees it.
 struct OptionInfo {

@@ -56,6 +56,9 @@ CommandRunner add_heads_command(CLI::App& app) {
                 "Column map for the readings, e.g. depth=DTW");
   c->add_flag("--interpolate", o.interpolate,
               "Interpolate the measuring point linearly between surveys (moving ground)");
+  c->add_flag("--keep-going", o.keep_going,
+              "Set a reading that cannot be read aside in rejects.csv and go on with the others "
+              "(exit status 4 at the end); without it the first bad reading stops the stage");
   c->add_flag("--allow-before-first", o.allow_before_first,
               "Use the first survey for older readings (flagged) instead of failing");
   c->add_option("--event", a->event, "Centre of a synoptic measurement event (ISO 8601)");
@@ -85,7 +88,7 @@ CommandRunner add_heads_command(CLI::App& app) {
               "Exit with status 3 when a reading carries a flag that needs a look (not merely "
               "information such as outside-synoptic-window)");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) -> int {
+  return [a](std::ostream& out, std::ostream& err) -> int {
     HeadOptions options = a->options;
     if (!a->event.empty()) {
       const auto when = parse_iso8601(a->event);
@@ -132,6 +135,13 @@ CommandRunner add_heads_command(CLI::App& app) {
     const bool failing = std::any_of(s.flags.begin(), s.flags.end(), [](const auto& flag) {
       return flag_info(flag.first).fails_strict;
     });
+    if (s.rejected > 0) {
+      err << fmt::format(
+          "levelhead heads: {} reading(s) set aside in rejects.csv (each with its file, row and "
+          "problem); the others were processed\n",
+          s.rejected);
+      return exit_rejected;
+    }
     return a->strict && failing ? exit_checks_failed : exit_ok;
   };
 }

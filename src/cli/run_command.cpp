@@ -161,7 +161,7 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
   std::ostream& stage_out = a.quiet ? quiet_sink : out;
   // With --strict a failed QA check does not stop the chain: the work is done
   // and reported, and the run's status says which stages failed their checks.
-  std::vector<std::string> failed_checks;
+  std::vector<std::string> failed_checks, rejected_in;
   for (std::size_t i = 0; i < stages.size(); ++i) {
     const Stage& stage = stages[i];
     if (progress) err << fmt::format("[{}/{}] {}\n", i + 1, stages.size() + 1, stage.name);
@@ -172,6 +172,8 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
     const int code = run(args, stage_out, err);
     if (code == exit_checks_failed) {
       failed_checks.push_back(stage.name);
+    } else if (code == exit_rejected) {
+      rejected_in.push_back(stage.name);  // complete but for the rows set aside (keep_going)
     } else if (code != exit_ok) {
       err << fmt::format(
           "levelhead run: stopped at stage '{}' (reading {}). Nothing of this run was kept: {}\n",
@@ -196,12 +198,16 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
         "levelhead run: QA checks failed in {} (see each stage's summary and the report's "
         "findings); all outputs are complete.\n",
         fmt::join(failed_checks, ", "));
-    return exit_checks_failed;
   }
-  return exit_ok;
+  if (!rejected_in.empty()) {
+    err << fmt::format(
+        "levelhead run: records were set aside in {} (each stage's rejects.csv); "
+        "the results rest on the others.\n",
+        fmt::join(rejected_in, ", "));
+    return exit_rejected;
+  }
+  return failed_checks.empty() ? exit_ok : exit_checks_failed;
 }
-
-namespace {}  // namespace
 
 CommandRunner add_run_command(CLI::App& app) {
   auto a = std::make_shared<RunArguments>();

@@ -74,10 +74,13 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_option("--manual-window", o.manual_window_hours,
                 "Records this close to a manual reading are left out (h)")
       ->capture_default_str();
+  c->add_flag("--keep-going", o.keep_going,
+              "Set a record or manual reading that cannot be read aside in rejects.csv and go on "
+              "(exit status 4 at the end); without it the first bad row stops the stage");
   c->add_flag("--strict", a->strict,
               "Exit with status 3 when a reading is rejected or left uncomputed");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) -> int {
+  return [a](std::ostream& out, std::ostream& err) -> int {
     a->options.validate();
     const TableOptions table{{}, parse_length_unit(a->unit), {}, {}};
     for (const std::string* map : {&a->wells_columns, &a->levels_columns}) parse_column_map(*map);
@@ -116,6 +119,13 @@ CommandRunner add_transducer_command(CLI::App& app) {
     }
     if (!a->quiet)
       out << fmt::format("Wrote levels.csv, checks.csv, qa.csv and summary.json in {}\n", a->out);
+    if (s.rejected > 0) {
+      err << fmt::format(
+          "levelhead transducer: {} row(s) set aside in rejects.csv (each with its file, row and "
+          "problem); the others were processed\n",
+          s.rejected);
+      return exit_rejected;
+    }
     return a->strict && problems ? exit_checks_failed : exit_ok;
   };
 }

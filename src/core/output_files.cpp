@@ -11,6 +11,7 @@
 
 #include "levelhead/errors.hpp"
 #include "levelhead/input_files.hpp"
+#include "levelhead/rejects.hpp"
 
 namespace levelhead {
 
@@ -106,6 +107,13 @@ std::optional<std::string> find_non_finite_cell(const std::filesystem::path& fil
 }  // namespace
 
 OutputSet::OutputSet(std::filesystem::path folder) : folder_(std::move(folder)) {
+  // The folders this set creates, innermost first: removed again when it
+  // is never committed, so a failed command leaves no empty folder behind.
+  for (std::filesystem::path missing = folder_; !missing.empty() && !path_exists(missing);
+       missing = missing.parent_path()) {
+    created_folders_.push_back(missing);
+    if (missing == missing.parent_path()) break;
+  }
   std::error_code ec;
   std::filesystem::create_directories(folder_, ec);
   if (ec || !std::filesystem::is_directory(folder_)) {
@@ -124,6 +132,11 @@ OutputSet::~OutputSet() {
   for (const std::string& name : reserved_) {
     std::error_code ignored;
     std::filesystem::remove(temporary_path(name), ignored);
+  }
+  // Only while empty: remove() leaves a folder that holds anything.
+  for (const std::filesystem::path& created : created_folders_) {
+    std::error_code ignored;
+    if (!std::filesystem::remove(created, ignored)) break;
   }
 }
 
@@ -221,6 +234,15 @@ std::string csv_cell(const std::string& text) {
   std::string out;
   append_csv_cell(out, text);
   return out;
+}
+
+void write_rejects(std::ostream& out, const std::vector<RejectedRecord>& rejects) {
+  out << "file,row,column,problem\n";
+  for (const RejectedRecord& r : rejects) {
+    out << csv_cell(r.where.file) << ',';
+    if (r.where.row) out << r.where.row;
+    out << ',' << csv_cell(r.where.column) << ',' << csv_cell(r.problem) << '\n';
+  }
 }
 
 }  // namespace levelhead

@@ -20,6 +20,7 @@
 #include "levelhead/head_core.hpp"
 #include "levelhead/levels.hpp"
 #include "levelhead/output_files.hpp"
+#include "levelhead/rejects.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
@@ -372,14 +373,23 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   // 2. Readings, streamed through the core into the sinks.
   HeadsSummary summary;
   std::vector<WellState> state(wells.wells.size(), WellState(options));
+  std::vector<RejectedRecord> rejects;
   read_table_in_batches(levels, levels_table, 100000, [&](Table& t) {
     const LevelsColumns columns(t);
     for (std::size_t r = 0; r < t.row_count(); ++r) {
       ++summary.readings;
-      process_reading(read_reading(t, r, columns, wells, options), t, r, columns, wells, history,
-                      options, state, sinks, qa_csv, summary);
+      try {
+        process_reading(read_reading(t, r, columns, wells, options), t, r, columns, wells, history,
+                        options, state, sinks, qa_csv, summary);
+      } catch (const InputError& e) {
+        // A row fails before anything of it is written or counted.
+        if (!options.keep_going) throw;
+        rejects.push_back(rejected_from(e));
+      }
     }
   });
+  summary.rejected = rejects.size();
+  if (options.keep_going) write_rejects(out.open("rejects.csv"), rejects);
   if (gpkg) gpkg->finish();
 
   // 3. Each well against its own history.
@@ -463,11 +473,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   s["target_reference"] = options.target;
   s["units"] = "m";
   s["time_rule"] = "times with a zone are converted to UTC; times without one are read as UTC";
-  s["counts"] = {{"readings", summary.readings},
-                 {"heads", summary.heads},
-                 {"states", summary.states},
-                 {"contourable", summary.contourable},
-                 {"measuring_point_records", records.size()},
+  s["counts"] = {{"readings", summary.readings}, {"heads", summary.heads},
+                 {"states", summary.states},     {"contourable", summary.contourable},
+                 {"rejected", summary.rejected}, {"measuring_point_records", records.size()},
                  {"wells", wells.wells.size()}};
   s["flags"] = summary.flags;
   s["states"] = summary.states_by_kind;
@@ -479,6 +487,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                   {"repeat_window_hours", options.repeat_window_hours},
                   {"synoptic_window_hours", options.synoptic_window_hours},
                   {"max_depth", options.max_depth},
+                  {"keep_going", options.keep_going},
                   {"history_tolerance", options.history_tolerance},
                   {"event", options.event ? nlohmann::json(format_utc(*options.event))
                                           : nlohmann::json(nullptr)}};

@@ -12,6 +12,7 @@
 #include "levelhead/errors.hpp"
 #include "levelhead/levels.hpp"
 #include "levelhead/output_files.hpp"
+#include "levelhead/rejects.hpp"
 #include "levelhead/time.hpp"
 #include "levelhead/units.hpp"
 #include "levelhead/version.hpp"
@@ -153,31 +154,34 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
 // Records are read in batches and kept as samples only: archives of
 // loggers run to tens of millions of rows.
 void read_records(const std::filesystem::path& path, const TableOptions& table,
-                  std::map<std::string, Sensor>& sensors) {
+                  std::map<std::string, Sensor>& sensors, std::vector<RejectedRecord>* rejects) {
   read_table_in_batches(path, table, 100000, [&](Table& t) {
     const std::size_t sensor = t.require_column("sensor"), time = t.require_column("time");
     const std::size_t pressure = t.require_column("pressure");
     Sensor* last = nullptr;  // records come in runs of one sensor
-    for (std::size_t r = 0; r < t.row_count(); ++r) {
-      const std::string_view id = t.cell(r, sensor);
-      if (!last || last->id != id) {
-        const auto it = sensors.find(std::string(id));
-        if (it == sensors.end())
-          throw InputError(t.location(r, sensor), std::string(id),
-                           "this sensor is not in the sensors table");
-        last = &it->second;
+    for (std::size_t r = 0; r < t.row_count(); ++r) try {
+        const std::string_view id = t.cell(r, sensor);
+        if (!last || last->id != id) {
+          const auto it = sensors.find(std::string(id));
+          if (it == sensors.end())
+            throw InputError(t.location(r, sensor), std::string(id),
+                             "this sensor is not in the sensors table");
+          last = &it->second;
+        }
+        const auto when = parse_iso8601(t.cell(r, time));
+        if (!when)
+          throw InputError(t.location(r, time), std::string(t.cell(r, time)),
+                           "expected an ISO 8601 time");
+        const auto p = t.number(r, pressure);
+        if (!p)
+          throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
+        // Logger clocks kept in a local zone are brought to UTC.
+        const double utc = when->had_zone ? when->seconds : when->seconds - last->utc_offset;
+        last->samples.push_back({utc, *p, t.source_row(r)});
+      } catch (const InputError& e) {
+        if (!rejects) throw;
+        rejects->push_back(rejected_from(e));
       }
-      const auto when = parse_iso8601(t.cell(r, time));
-      if (!when)
-        throw InputError(t.location(r, time), std::string(t.cell(r, time)),
-                         "expected an ISO 8601 time");
-      const auto p = t.number(r, pressure);
-      if (!p)
-        throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
-      // Logger clocks kept in a local zone are brought to UTC.
-      const double utc = when->had_zone ? when->seconds : when->seconds - last->utc_offset;
-      last->samples.push_back({utc, *p, t.source_row(r)});
-    }
   });
   for (auto& [id, s] : sensors) {
     std::stable_sort(s.samples.begin(), s.samples.end(),
@@ -280,7 +284,8 @@ struct ManualPart {
 };
 
 ManualPart read_manual(const Table& manual, const WellSet& wells,
-                       const std::map<std::string, Sensor>& sensors) {
+                       const std::map<std::string, Sensor>& sensors,
+                       std::vector<RejectedRecord>* rejects) {
   ManualPart part;
   const std::size_t well_col = manual.require_column("well"),
                     time_col = manual.require_column("time");
@@ -304,30 +309,33 @@ ManualPart read_manual(const Table& manual, const WellSet& wells,
   }
   std::size_t rank = 0;
   for (auto& [w, k] : part.well_rank) k = rank++;
-  for (std::size_t r = 0; r < manual.row_count(); ++r) {
-    const std::string well(manual.cell(r, well_col));
-    const auto when = parse_iso8601(manual.cell(r, time_col));
-    if (!when) {
-      throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)),
-                       "expected an ISO 8601 time");
+  for (std::size_t r = 0; r < manual.row_count(); ++r) try {
+      const std::string well(manual.cell(r, well_col));
+      const auto when = parse_iso8601(manual.cell(r, time_col));
+      if (!when) {
+        throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)),
+                         "expected an ISO 8601 time");
+      }
+      if (!wells.index.count(well)) {
+        throw InputError(manual.location(r, well_col), well, "this well is not in the wells table");
+      }
+      // Checked by the rules `heads` reads them with, so that a bad cell is
+      // named here, in the user's table, not later in the levels.csv written
+      // from it. Only a numeric depth is a check of a sensor.
+      const LevelValue level =
+          read_level_value(manual, r, depth_col, status_col, bounds::max_depth_to_water);
+      part.by_well[well].push_back(ManualReading{when->seconds, level.depth});
+      std::string line;
+      for (std::size_t c = 0; c < part.columns.size(); ++c) {
+        if (c) line += ',';
+        if (c < manual.column_names().size()) append_csv_cell(line, manual.cell(r, c));
+      }
+      part.rows.push_back({part.well_rank.at(well), when->seconds, manual_row, part.lines.size()});
+      part.lines.push_back(std::move(line));
+    } catch (const InputError& e) {
+      if (!rejects) throw;
+      rejects->push_back(rejected_from(e));  // left out of levels.csv
     }
-    if (!wells.index.count(well)) {
-      throw InputError(manual.location(r, well_col), well, "this well is not in the wells table");
-    }
-    // Checked by the rules `heads` reads them with, so that a bad cell is
-    // named here, in the user's table, not later in the levels.csv written
-    // from it. Only a numeric depth is a check of a sensor.
-    const LevelValue level =
-        read_level_value(manual, r, depth_col, status_col, bounds::max_depth_to_water);
-    part.by_well[well].push_back(ManualReading{when->seconds, level.depth});
-    std::string line;
-    for (std::size_t c = 0; c < part.columns.size(); ++c) {
-      if (c) line += ',';
-      if (c < manual.column_names().size()) append_csv_cell(line, manual.cell(r, c));
-    }
-    part.rows.push_back({part.well_rank.at(well), when->seconds, manual_row, part.lines.size()});
-    part.lines.push_back(std::move(line));
-  }
   for (auto& [w, list] : part.by_well) {
     std::sort(list.begin(), list.end(),
               [](const ManualReading& a, const ManualReading& b) { return a.time < b.time; });
@@ -526,6 +534,7 @@ std::string summary_json(const TransducerSummary& summary, const TransducerOptio
   json["command"] = "transducer";
   json["manual_readings"] = summary.manual;
   json["transducer_readings_written"] = summary.written;
+  json["rejected"] = summary.rejected;
   json["options"] = {{"density_kg_m3", options.density},
                      {"gravity_m_s2", options.gravity},
                      {"max_baro_distance_m", options.max_baro_distance},
@@ -572,8 +581,10 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
                                      const std::filesystem::path& folder) {
   options.validate();
   std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
-  read_records(records, records_table, sensors);
-  ManualPart part = read_manual(manual, wells, sensors);
+  std::vector<RejectedRecord> rejects;
+  std::vector<RejectedRecord>* set_aside = options.keep_going ? &rejects : nullptr;
+  read_records(records, records_table, sensors, set_aside);
+  ManualPart part = read_manual(manual, wells, sensors, set_aside);
 
   OutputSet out(folder);
   std::ostream& checks_csv = out.open("checks.csv");
@@ -672,6 +683,8 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   });
   write_levels(out.open("levels.csv"), part, manual.length_unit(), written_sensors, sensor_readings,
                options);
+  summary.rejected = rejects.size();
+  if (options.keep_going) write_rejects(out.open("rejects.csv"), rejects);
   out.open("summary.json") << summary_json(summary, options) << '\n';
   out.commit();
   return summary;
