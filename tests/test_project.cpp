@@ -399,3 +399,19 @@ TEST_CASE("project column maps reach every stage that reads the table", "[projec
   CHECK_THAT(read_file(out / "report.html"), Contains("fig-heads"));
   CHECK(fs::exists(out / "flow" / "flow.json"));
 }
+
+TEST_CASE("keep_going in the project: the chain finishes, exits 4 and the report says why",
+          "[project][rejects]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  std::ofstream(project.parent_path() / "levels.csv", std::ios::app)
+      << "MW-01,2026-10-12T09:00,deep,\n";
+  std::ofstream(project, std::ios::app) << "\n[transducer]\nkeep_going = true\n";
+  const fs::path out = tmp.path() / "out";
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+  CHECK(run.code == 4);
+  CHECK_THAT(run.err, Contains("records were set aside in transducer"));
+  CHECK_THAT(read_file(out / "transducer" / "rejects.csv"), Contains(",669,depth,"));
+  CHECK_THAT(read_file(out / "report.md"),
+             Contains("transducer: 1 record(s) or tape reading(s) could not be read"));
+}

@@ -228,6 +228,19 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
     findings.items.push_back("Monitoring: " + w.get<std::string>());
 }
 
+// Rows a stage set aside with --keep-going: its results rest on the others.
+void set_aside_finding(Findings& findings, const nlohmann::json& summary, const std::string& stage,
+                       const std::string& what) {
+  const nlohmann::json* counted = &summary;
+  if (summary.contains("counts")) counted = &summary["counts"];
+  const std::size_t rejected = counted->value("rejected", std::size_t{0});
+  if (rejected == 0) return;
+  findings.items.push_back(
+      fmt::format("{}: {} {} could not be read and were set aside ({}/rejects.csv, each with its "
+                  "row and problem); the results rest on the others. Correct them and run again.",
+                  stage, rejected, what, stage));
+}
+
 void transducer_section(Document& doc, Findings& findings, const fs::path& run) {
   if (!fs::exists(run / "transducer" / "summary.json")) return;
   const nlohmann::json s = read_json(run / "transducer" / "summary.json");
@@ -266,12 +279,14 @@ void transducer_section(Document& doc, Findings& findings, const fs::path& run) 
   doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)",
              "barometric efficiency", "rho (kg/m^3)", "flags"},
             rows);
+  set_aside_finding(findings, s, "transducer", "record(s) or tape reading(s)");
 }
 
 void heads_section(Document& doc, Findings& findings, const ReportContext& c, const fs::path& run,
                    std::optional<QuickContours>& contours) {
   if (!fs::exists(run / "heads" / "summary.json")) return;
   const nlohmann::json s = read_json(run / "heads" / "summary.json");
+  set_aside_finding(findings, s, "heads", "reading(s)");
   const Csv mps(run / "heads" / "measuring_points.csv");
   doc.heading(2, "Measuring points");
   doc.paragraph(fmt::format("Every measuring-point survey brought into {}:", c.target));
