@@ -16,6 +16,7 @@
 
 using namespace levelhead;
 using Catch::Matchers::WithinAbs;
+namespace fs = std::filesystem;
 
 namespace {
 
@@ -72,6 +73,38 @@ ReadingInput reading_at(const char* time, std::optional<double> depth) {
 bool has(const std::vector<std::string>& flags, const std::string& flag) {
   return std::find(flags.begin(), flags.end(), flag) != flags.end();
 }
+
+// One well with one survey, for the command-line cases: `heads_args` runs
+// `heads` on `levels` (lines after the header) into `out`.
+struct OneWellFiles {
+  levelhead::testing::TempFolder tmp;
+  std::string wells = write("wells.csv", "id,x,y\nW1,500000,4400000\n");
+  std::string mp = write("mp.csv",
+                         "well,valid_from,height,datum,sigma\n"
+                         "W1,2020-01-01,10.000,EPSG:5703,0.002\n");
+
+  std::string write(const char* name, const std::string& text) {
+    std::ofstream(tmp.path() / name) << text;
+    return (tmp.path() / name).string();
+  }
+  std::vector<std::string> heads_args(const std::string& levels, const char* out) {
+    return {"heads",
+            "--wells",
+            wells,
+            "--mp",
+            mp,
+            "--levels",
+            write("levels.csv", "well,time,depth\n" + levels),
+            "--to",
+            "EPSG:5703",
+            "--crs",
+            "EPSG:32613",
+            "--no-gpkg",
+            "--quiet",
+            "--out",
+            (tmp.path() / out).string()};
+  }
+};
 
 }  // namespace
 
@@ -239,75 +272,49 @@ TEST_CASE("heads --strict with an event does not fail on readings outside its wi
   // Regression: every reading outside the synoptic window (information, not a
   // defect) made `heads --strict --event` exit 3 on clean data, so `run
   // --strict` with an event always failed.
-  levelhead::testing::TempFolder tmp;
-  const auto write = [&](const char* name, const char* text) {
-    std::ofstream(tmp.path() / name) << text;
-    return (tmp.path() / name).string();
-  };
-  const std::string wells = write("wells.csv", "id,x,y\nW1,500000,4400000\n");
-  const std::string mp = write("mp.csv",
-                               "well,valid_from,height,datum,sigma\n"
-                               "W1,2020-01-01,10.000,EPSG:5703,0.002\n");
-  const std::string levels = write("levels.csv",
-                                   "well,time,depth\n"
-                                   "W1,2020-03-01T08:00Z,4.100\n"
-                                   "W1,2020-06-10T08:00Z,4.200\n");
-  std::vector<std::string> args = {
-      "heads",   "--wells",   wells,   "--mp",       mp,        "--levels",          levels,
-      "--to",    "EPSG:5703", "--crs", "EPSG:32613", "--event", "2020-06-10T12:00Z", "--no-gpkg",
-      "--quiet", "--strict"};
-  args.insert(args.end(), {"--out", (tmp.path() / "clean").string()});
+  OneWellFiles files;
+  const std::string readings = "W1,2020-03-01T08:00Z,4.100\nW1,2020-06-10T08:00Z,4.200\n";
+  std::vector<std::string> args = files.heads_args(readings, "clean");
+  args.insert(args.end(), {"--event", "2020-06-10T12:00Z", "--strict"});
   const auto clean = levelhead::testing::run_cli(args);
   INFO(clean.err);
   CHECK(clean.code == 0);
-  CHECK_THAT(levelhead::testing::read_file(tmp.path() / "clean" / "heads.csv"),
+  CHECK_THAT(levelhead::testing::read_file(files.tmp.path() / "clean" / "heads.csv"),
              Catch::Matchers::Contains("outside-synoptic-window"));
   // A flag that needs a look still fails: a negative depth without `flowing`.
-  std::ofstream(levels, std::ios::app) << "W1,2020-06-10T09:00Z,-0.2\n";
-  args.back() = (tmp.path() / "flagged").string();
+  args = files.heads_args(readings + "W1,2020-06-10T09:00Z,-0.2\n", "flagged");
+  args.insert(args.end(), {"--event", "2020-06-10T12:00Z", "--strict"});
   CHECK(levelhead::testing::run_cli(args).code == 3);
 }
 
 TEST_CASE("heads --keep-going sets bad readings aside and finishes with status 4",
           "[heads][cli][rejects]") {
-  levelhead::testing::TempFolder tmp;
-  const auto write = [&](const char* name, const char* text) {
-    std::ofstream(tmp.path() / name) << text;
-    return (tmp.path() / name).string();
-  };
-  const std::string wells = write("wells.csv", "id,x,y\nW1,500000,4400000\n");
-  const std::string mp = write("mp.csv",
-                               "well,valid_from,height,datum,sigma\n"
-                               "W1,2020-01-01,10.000,EPSG:5703,0.002\n");
-  const std::string levels = write("levels.csv",
-                                   "well,time,depth\n"
-                                   "W1,2020-03-01T08:00Z,4.100\n"
-                                   "W9,2020-03-02T08:00Z,4.150\n"
-                                   "W1,2020-03-03T08:00Z,deep\n"
-                                   "W1,2020-03-04T08:00Z,4.200\n");
-  std::vector<std::string> args = {
-      "heads",      "--wells",   wells,     "--mp",      mp,
-      "--levels",   levels,      "--to",    "EPSG:5703", "--crs",
-      "EPSG:32613", "--no-gpkg", "--quiet", "--out",     (tmp.path() / "stop").string()};
+  OneWellFiles files;
+  const std::string readings =
+      "W1,2020-03-01T08:00Z,4.100\n"
+      "W9,2020-03-02T08:00Z,4.150\n"
+      "W1,2020-03-03T08:00Z,deep\n"
+      "W1,2020-03-04T08:00Z,4.200\n";
   SECTION("without it the first bad reading stops the stage, nothing written") {
-    const auto run = levelhead::testing::run_cli(args);
+    const auto run = levelhead::testing::run_cli(files.heads_args(readings, "stop"));
     CHECK(run.code == 1);
     CHECK_THAT(run.err, Catch::Matchers::Contains("row 3"));
-    CHECK_FALSE(std::filesystem::exists(tmp.path() / "stop"));
+    CHECK_FALSE(std::filesystem::exists(files.tmp.path() / "stop"));
   }
   SECTION("with it the others are processed and the rejects listed") {
-    args.back() = (tmp.path() / "going").string();
+    std::vector<std::string> args = files.heads_args(readings, "going");
     args.push_back("--keep-going");
     const auto run = levelhead::testing::run_cli(args);
     CHECK(run.code == 4);
     CHECK_THAT(run.err, Catch::Matchers::Contains("2 reading(s) set aside in rejects.csv"));
-    const std::string rejects = levelhead::testing::read_file(tmp.path() / "going" / "rejects.csv");
+    const fs::path out = files.tmp.path() / "going";
+    const std::string rejects = levelhead::testing::read_file(out / "rejects.csv");
     CHECK_THAT(rejects, Catch::Matchers::StartsWith("file,row,column,problem\n"));
     CHECK_THAT(rejects, Catch::Matchers::Contains(",3,well,") &&
                             Catch::Matchers::Contains("this well is not in the wells table"));
     CHECK_THAT(rejects,
                Catch::Matchers::Contains(",4,depth,") && Catch::Matchers::Contains("'deep'"));
-    const std::string heads = levelhead::testing::read_file(tmp.path() / "going" / "heads.csv");
+    const std::string heads = levelhead::testing::read_file(out / "heads.csv");
     CHECK(std::count(heads.begin(), heads.end(), '\n') == 3);  // header and the two good rows
   }
 }

@@ -1,5 +1,7 @@
 #include "cli/app.hpp"
 
+#include <fmt/format.h>
+
 #include <cmath>
 #include <cstdlib>
 #include <optional>
@@ -155,6 +157,16 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
         << "\nno output was written by the failing step; please report this with the inputs\n";
     return exit_failure;
   }
+}
+
+int report_rejected(std::ostream& err, const std::string& command, std::size_t rejected,
+                    const std::string& what) {
+  if (rejected == 0) return exit_ok;
+  err << fmt::format(
+      "levelhead {}: {} {} set aside in rejects.csv (each with its file, row and problem); the "
+      "others were processed\n",
+      command, rejected, what);
+  return exit_rejected;
 }
 
 }  // namespace levelhead::cli

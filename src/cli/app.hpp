@@ -45,4 +45,9 @@ bool options_check_only();
 // args[0] is the program name, as in argv.
 int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err);
 
+// The exit status of a command that set `rejected` rows aside (--keep-going),
+// saying so on `err`; exit_ok when there were none.
+int report_rejected(std::ostream& err, const std::string& command, std::size_t rejected,
+                    const std::string& what);
+
 }  // namespace levelhead::cli

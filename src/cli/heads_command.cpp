@@ -135,13 +135,7 @@ CommandRunner add_heads_command(CLI::App& app) {
     const bool failing = std::any_of(s.flags.begin(), s.flags.end(), [](const auto& flag) {
       return flag_info(flag.first).fails_strict;
     });
-    if (s.rejected > 0) {
-      err << fmt::format(
-          "levelhead heads: {} reading(s) set aside in rejects.csv (each with its file, row and "
-          "problem); the others were processed\n",
-          s.rejected);
-      return exit_rejected;
-    }
+    if (s.rejected > 0) return report_rejected(err, "heads", s.rejected, "reading(s)");
     return a->strict && failing ? exit_checks_failed : exit_ok;
   };
 }

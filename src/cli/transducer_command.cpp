@@ -119,13 +119,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
     }
     if (!a->quiet)
       out << fmt::format("Wrote levels.csv, checks.csv, qa.csv and summary.json in {}\n", a->out);
-    if (s.rejected > 0) {
-      err << fmt::format(
-          "levelhead transducer: {} row(s) set aside in rejects.csv (each with its file, row and "
-          "problem); the others were processed\n",
-          s.rejected);
-      return exit_rejected;
-    }
+    if (s.rejected > 0) return report_rejected(err, "transducer", s.rejected, "row(s)");
     return a->strict && problems ? exit_checks_failed : exit_ok;
   };
 }
