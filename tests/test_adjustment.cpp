@@ -1,7 +1,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "levelhead/adjustment.hpp"
+#include "levelhead/levelling/adjustment.hpp"
 #include "support/network_builders.hpp"
 #include "support/synthetic_networks.hpp"
 

@@ -3,8 +3,8 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "levelhead/contours.hpp"
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/flow/contours.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;

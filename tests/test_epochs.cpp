@@ -8,8 +8,8 @@
 #include <fstream>
 #include <random>
 
-#include "levelhead/epochs.hpp"
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/levelling/epochs.hpp"
 #include "support/network_builders.hpp"
 
 using namespace levelhead;

@@ -1,6 +1,6 @@
 #include <catch2/catch.hpp>
 
-#include "levelhead/event_qa.hpp"
+#include "levelhead/heads/event_qa.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::WithinAbs;

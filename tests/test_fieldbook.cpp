@@ -6,7 +6,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "levelhead/fieldbook.hpp"
+#include "levelhead/levelling/fieldbook.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::Contains;

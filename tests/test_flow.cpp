@@ -2,8 +2,8 @@
 #include <cmath>
 #include <random>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/flow.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/flow/flow.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::Contains;

@@ -1,7 +1,7 @@
 #include <catch2/catch.hpp>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/gnss_check.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/references/gnss_check.hpp"
 
 using namespace levelhead;
 

@@ -8,8 +8,8 @@
 #include <catch2/catch.hpp>
 #include <fstream>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/height_converter.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/references/height_converter.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;

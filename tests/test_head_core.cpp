@@ -9,8 +9,8 @@
 #include <fstream>
 #include <set>
 
-#include "levelhead/flags.hpp"
-#include "levelhead/head_core.hpp"
+#include "levelhead/heads/flags.hpp"
+#include "levelhead/heads/head_core.hpp"
 #include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 

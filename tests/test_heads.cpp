@@ -5,8 +5,8 @@
 #include <catch2/catch.hpp>
 #include <fstream>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/heads.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/heads/heads.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;

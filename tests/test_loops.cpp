@@ -2,7 +2,7 @@
 #include <cmath>
 #include <set>
 
-#include "levelhead/loops.hpp"
+#include "levelhead/levelling/loops.hpp"
 #include "support/network_builders.hpp"
 #include "support/synthetic_networks.hpp"
 

@@ -1,6 +1,6 @@
 #include <catch2/catch.hpp>
 
-#include "levelhead/network.hpp"
+#include "levelhead/levelling/network.hpp"
 #include "support/network_builders.hpp"
 
 using namespace levelhead;

@@ -14,9 +14,9 @@
 #include <sstream>
 
 #include "cli/app.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
 #include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 

@@ -3,10 +3,10 @@
 #include <fstream>
 #include <random>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/height_converter.hpp"
-#include "levelhead/references_file.hpp"
-#include "levelhead/site_tie.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/references/height_converter.hpp"
+#include "levelhead/references/references_file.hpp"
+#include "levelhead/references/site_tie.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;

@@ -7,7 +7,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "levelhead/adjustment.hpp"
+#include "levelhead/levelling/adjustment.hpp"
 #include "support/synthetic_networks.hpp"
 
 using namespace levelhead;

@@ -6,8 +6,8 @@
 #include <filesystem>
 #include <fstream>
 
-#include "levelhead/table.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;

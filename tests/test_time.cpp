@@ -1,6 +1,6 @@
 #include <catch2/catch.hpp>
 
-#include "levelhead/time.hpp"
+#include "levelhead/core/time.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::WithinAbs;

@@ -10,9 +10,9 @@
 #include <sstream>
 
 #include "cli/app.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/time.hpp"
-#include "levelhead/transducer.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/heads/transducer.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;

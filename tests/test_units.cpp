@@ -1,7 +1,7 @@
 #include <catch2/catch.hpp>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/units.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::Contains;

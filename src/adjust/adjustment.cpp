@@ -1,4 +1,4 @@
-#include "levelhead/adjustment.hpp"
+#include "levelhead/levelling/adjustment.hpp"
 
 #include <fmt/format.h>
 
@@ -8,7 +8,7 @@
 #include <optional>
 
 #include "adjust/normal_solver.hpp"
-#include "levelhead/statistics.hpp"
+#include "levelhead/levelling/statistics.hpp"
 #include "util/option_checks.hpp"
 
 namespace levelhead {

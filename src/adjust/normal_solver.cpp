@@ -7,7 +7,7 @@
 #include <chrono>
 #include <cmath>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead::detail {
 

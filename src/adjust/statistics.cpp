@@ -1,4 +1,4 @@
-#include "levelhead/statistics.hpp"
+#include "levelhead/levelling/statistics.hpp"
 
 #include <fmt/format.h>
 
@@ -7,7 +7,7 @@
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/students_t.hpp>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

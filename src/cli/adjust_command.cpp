@@ -8,10 +8,10 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/network_inputs.hpp"
-#include "levelhead/adjustment.hpp"
-#include "levelhead/adjustment_report.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/adjustment_report.hpp"
 
 namespace levelhead::cli {
 

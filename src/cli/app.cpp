@@ -9,8 +9,8 @@
 #include <utility>
 
 #include "cli/commands.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
 #include "levelhead/version.hpp"
 
 namespace levelhead::cli {

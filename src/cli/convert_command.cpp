@@ -7,12 +7,12 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
-#include "levelhead/coordinate_check.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/height_conversion.hpp"
-#include "levelhead/references_file.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/references/coordinate_check.hpp"
+#include "levelhead/references/height_conversion.hpp"
+#include "levelhead/references/references_file.hpp"
 
 namespace levelhead::cli {
 

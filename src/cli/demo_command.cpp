@@ -9,8 +9,8 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/demo_data.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/run_folder.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/run_folder.hpp"
 
 namespace levelhead::cli {
 

@@ -7,9 +7,9 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/run_diff.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/report/run_diff.hpp"
 #include "util/json_text.hpp"
 
 namespace levelhead::cli {

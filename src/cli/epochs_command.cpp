@@ -8,11 +8,11 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/network_inputs.hpp"
-#include "levelhead/epoch_report.hpp"
-#include "levelhead/epochs.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/levelling/epoch_report.hpp"
+#include "levelhead/levelling/epochs.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::cli {

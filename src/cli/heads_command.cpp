@@ -8,10 +8,10 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/flags.hpp"
-#include "levelhead/heads.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/heads/flags.hpp"
+#include "levelhead/heads/heads.hpp"
 
 namespace levelhead::cli {
 

@@ -7,8 +7,8 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/network_inputs.hpp"
-#include "levelhead/loop_report.hpp"
-#include "levelhead/loops.hpp"
+#include "levelhead/levelling/loop_report.hpp"
+#include "levelhead/levelling/loops.hpp"
 
 namespace levelhead::cli {
 

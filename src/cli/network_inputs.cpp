@@ -2,9 +2,9 @@
 
 #include <map>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 namespace levelhead::cli {
 

@@ -4,8 +4,8 @@
 #include <CLI/CLI.hpp>
 #include <string>
 
-#include "levelhead/network.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/levelling/network.hpp"
 
 namespace levelhead::cli {
 

@@ -7,10 +7,10 @@
 #include <set>
 
 #include "cli/app.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::cli {

@@ -6,9 +6,9 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
-#include "levelhead/fieldbook.hpp"
-#include "levelhead/fieldbook_report.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/levelling/fieldbook.hpp"
+#include "levelhead/levelling/fieldbook_report.hpp"
 
 namespace levelhead::cli {
 

@@ -6,8 +6,8 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/references_file.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/references/references_file.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 namespace levelhead::cli {
 

@@ -12,12 +12,12 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/project.hpp"
-#include "levelhead/coordinate_check.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/heads.hpp"
-#include "levelhead/references_file.hpp"
-#include "levelhead/report.hpp"
-#include "levelhead/run_folder.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/run_folder.hpp"
+#include "levelhead/heads/heads.hpp"
+#include "levelhead/references/coordinate_check.hpp"
+#include "levelhead/references/references_file.hpp"
+#include "levelhead/report/report.hpp"
 
 namespace levelhead::cli {
 

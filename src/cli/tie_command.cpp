@@ -6,13 +6,13 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/references_file.hpp"
-#include "levelhead/site_tie.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/units.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/references/references_file.hpp"
+#include "levelhead/references/site_tie.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 namespace levelhead::cli {
 

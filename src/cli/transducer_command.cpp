@@ -7,11 +7,11 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/flags.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/transducer.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/heads/flags.hpp"
+#include "levelhead/heads/transducer.hpp"
 
 namespace levelhead::cli {
 

@@ -1,4 +1,4 @@
-#include "levelhead/checksums.hpp"
+#include "levelhead/core/checksums.hpp"
 
 #include <fmt/format.h>
 #include <openssl/evp.h>
@@ -7,7 +7,7 @@
 #include <memory>
 #include <vector>
 
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/input_files.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 #include <fmt/format.h>
 

@@ -1,11 +1,11 @@
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/input_files.hpp"
 
 #include <sys/stat.h>
 
 #include <fstream>
 #include <vector>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/output_files.hpp"
+#include "levelhead/core/output_files.hpp"
 
 #include <fcntl.h>
 #include <fmt/format.h>
@@ -9,9 +9,9 @@
 #include <cctype>
 #include <optional>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
-#include "levelhead/rejects.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
+#include "levelhead/core/rejects.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/run_folder.hpp"
+#include "levelhead/core/run_folder.hpp"
 
 #include <fcntl.h>
 #include <fmt/format.h>
@@ -11,7 +11,7 @@
 #include <nlohmann/json.hpp>
 #include <optional>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/time.hpp"
+#include "levelhead/core/time.hpp"
 
 #include <fmt/format.h>
 

@@ -1,11 +1,11 @@
-#include "levelhead/units.hpp"
+#include "levelhead/core/units.hpp"
 
 #include <algorithm>
 #include <array>
 #include <cmath>
 #include <utility>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {

@@ -1,4 +1,4 @@
-#include "levelhead/epoch_report.hpp"
+#include "levelhead/levelling/epoch_report.hpp"
 
 #include <fmt/format.h>
 
@@ -6,8 +6,8 @@
 #include <cmath>
 #include <nlohmann/json.hpp>
 
-#include "levelhead/output_files.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/time.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 

@@ -1,4 +1,4 @@
-#include "levelhead/epochs.hpp"
+#include "levelhead/levelling/epochs.hpp"
 
 #include <fmt/format.h>
 
@@ -12,9 +12,9 @@
 #include <unordered_map>
 
 #include "adjust/normal_solver.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/statistics.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/levelling/statistics.hpp"
 
 namespace levelhead {
 

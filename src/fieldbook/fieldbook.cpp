@@ -1,4 +1,4 @@
-#include "levelhead/fieldbook.hpp"
+#include "levelhead/levelling/fieldbook.hpp"
 
 #include <fmt/format.h>
 
@@ -8,8 +8,8 @@
 #include <numbers>
 #include <set>
 
-#include "levelhead/bounds.hpp"
-#include "levelhead/errors.hpp"
+#include "levelhead/core/bounds.hpp"
+#include "levelhead/core/errors.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
 

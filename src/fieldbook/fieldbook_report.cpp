@@ -1,10 +1,10 @@
-#include "levelhead/fieldbook_report.hpp"
+#include "levelhead/levelling/fieldbook_report.hpp"
 
 #include <fmt/format.h>
 
 #include <nlohmann/json.hpp>
 
-#include "levelhead/output_files.hpp"
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 

@@ -1,4 +1,4 @@
-#include "levelhead/contours.hpp"
+#include "levelhead/flow/contours.hpp"
 
 #include <cpl_conv.h>
 #include <cpl_error.h>
@@ -12,7 +12,7 @@
 #include <cmath>
 #include <memory>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/flow.hpp"
+#include "levelhead/flow/flow.hpp"
 
 #include <fmt/format.h>
 
@@ -6,7 +6,7 @@
 #include <cmath>
 #include <numbers>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

@@ -1,10 +1,10 @@
-#include "levelhead/density.hpp"
+#include "levelhead/heads/density.hpp"
 
 #include <fmt/format.h>
 
 #include <cmath>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

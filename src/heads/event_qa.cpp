@@ -1,4 +1,4 @@
-#include "levelhead/event_qa.hpp"
+#include "levelhead/heads/event_qa.hpp"
 
 #include <Eigen/Dense>
 #include <algorithm>

@@ -1,4 +1,4 @@
-#include "levelhead/flags.hpp"
+#include "levelhead/heads/flags.hpp"
 
 #include <algorithm>
 

@@ -1,4 +1,4 @@
-#include "levelhead/head_core.hpp"
+#include "levelhead/heads/head_core.hpp"
 
 #include <fmt/format.h>
 #include <fmt/ranges.h>
@@ -6,9 +6,9 @@
 #include <algorithm>
 #include <cmath>
 
-#include "levelhead/density.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/flags.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/heads/density.hpp"
+#include "levelhead/heads/flags.hpp"
 
 namespace levelhead {
 

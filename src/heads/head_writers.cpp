@@ -10,8 +10,8 @@
 #include <cmath>
 #include <iterator>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/output_files.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/version.hpp"
 
 namespace levelhead {

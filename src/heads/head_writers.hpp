@@ -9,7 +9,7 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/head_core.hpp"
+#include "levelhead/heads/head_core.hpp"
 
 namespace levelhead {
 

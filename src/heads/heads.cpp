@@ -1,4 +1,4 @@
-#include "levelhead/heads.hpp"
+#include "levelhead/heads/heads.hpp"
 
 #include <cpl_conv.h>
 #include <fmt/format.h>
@@ -13,14 +13,14 @@
 #include <nlohmann/json.hpp>
 
 #include "heads/head_writers.hpp"
-#include "levelhead/density.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/event_qa.hpp"
-#include "levelhead/flags.hpp"
-#include "levelhead/head_core.hpp"
-#include "levelhead/levels.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/rejects.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/rejects.hpp"
+#include "levelhead/heads/density.hpp"
+#include "levelhead/heads/event_qa.hpp"
+#include "levelhead/heads/flags.hpp"
+#include "levelhead/heads/head_core.hpp"
+#include "levelhead/heads/levels.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"

@@ -1,4 +1,4 @@
-#include "levelhead/levels.hpp"
+#include "levelhead/heads/levels.hpp"
 
 #include <fmt/format.h>
 #include <fmt/ranges.h>
@@ -7,7 +7,7 @@
 #include <charconv>
 #include <cmath>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {

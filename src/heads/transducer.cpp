@@ -1,4 +1,4 @@
-#include "levelhead/transducer.hpp"
+#include "levelhead/heads/transducer.hpp"
 
 #include <fmt/format.h>
 
@@ -8,13 +8,13 @@
 #include <nlohmann/json.hpp>
 #include <unordered_map>
 
-#include "levelhead/bounds.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/levels.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/rejects.hpp"
-#include "levelhead/time.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/bounds.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/rejects.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/heads/levels.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"

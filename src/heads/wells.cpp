@@ -1,8 +1,8 @@
-#include "levelhead/wells.hpp"
+#include "levelhead/heads/wells.hpp"
 
 #include <fmt/format.h>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {

@@ -1,11 +1,11 @@
-#include "levelhead/loop_report.hpp"
+#include "levelhead/levelling/loop_report.hpp"
 
 #include <fmt/format.h>
 
 #include <cmath>
 #include <nlohmann/json.hpp>
 
-#include "levelhead/output_files.hpp"
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 

@@ -1,4 +1,4 @@
-#include "levelhead/loops.hpp"
+#include "levelhead/levelling/loops.hpp"
 
 #include <fmt/format.h>
 
@@ -8,7 +8,7 @@
 #include <numeric>
 #include <queue>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
 

@@ -1,8 +1,8 @@
-#include "levelhead/network.hpp"
+#include "levelhead/levelling/network.hpp"
 
 #include <fmt/format.h>
 
-#include "levelhead/bounds.hpp"
+#include "levelhead/core/bounds.hpp"
 
 namespace levelhead {
 

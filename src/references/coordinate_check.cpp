@@ -1,4 +1,4 @@
-#include "levelhead/coordinate_check.hpp"
+#include "levelhead/references/coordinate_check.hpp"
 
 #include <fmt/format.h>
 #include <proj.h>
@@ -8,7 +8,7 @@
 #include <optional>
 #include <vector>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 #include "references/proj_handles.hpp"
 
 namespace levelhead {

@@ -1,4 +1,4 @@
-#include "levelhead/gnss_check.hpp"
+#include "levelhead/references/gnss_check.hpp"
 
 #include <algorithm>
 #include <cmath>

@@ -1,4 +1,4 @@
-#include "levelhead/height_conversion.hpp"
+#include "levelhead/references/height_conversion.hpp"
 
 #include <fmt/format.h>
 
@@ -6,8 +6,8 @@
 #include <cmath>
 #include <nlohmann/json.hpp>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/output_files.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 

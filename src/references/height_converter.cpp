@@ -1,11 +1,11 @@
-#include "levelhead/height_converter.hpp"
+#include "levelhead/references/height_converter.hpp"
 
 #include <fmt/format.h>
 
 #include <algorithm>
 #include <cmath>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/references_file.hpp"
+#include "levelhead/references/references_file.hpp"
 
 #include <fmt/format.h>
 #include <proj.h>
@@ -9,9 +9,9 @@
 #include <cmath>
 #include <sstream>
 
-#include "levelhead/bounds.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/bounds.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
 #include "util/encoding.hpp"
 #include "util/text.hpp"
 

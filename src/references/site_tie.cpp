@@ -1,4 +1,4 @@
-#include "levelhead/site_tie.hpp"
+#include "levelhead/references/site_tie.hpp"
 
 #include <fmt/format.h>
 
@@ -8,8 +8,8 @@
 #include <unordered_map>
 #include <unordered_set>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/statistics.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/levelling/statistics.hpp"
 
 namespace levelhead {
 

@@ -1,4 +1,4 @@
-#include "levelhead/surface_shift.hpp"
+#include "levelhead/references/surface_shift.hpp"
 
 #include <cpl_error.h>
 #include <fmt/format.h>
@@ -11,9 +11,9 @@
 #include <cmath>
 #include <vector>
 
-#include "levelhead/checksums.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/checksums.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
 #include "references/proj_handles.hpp"
 #include "util/encoding.hpp"
 

@@ -1,4 +1,4 @@
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 #include <fmt/format.h>
 #include <proj.h>
@@ -8,9 +8,9 @@
 #include <cmath>
 #include <thread>
 
-#include "levelhead/checksums.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/checksums.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
 #include "references/proj_handles.hpp"
 
 namespace levelhead {

@@ -1,4 +1,4 @@
-#include "levelhead/report.hpp"
+#include "levelhead/report/report.hpp"
 
 #include <fmt/format.h>
 #include <gdal.h>
@@ -11,14 +11,14 @@
 #include <nlohmann/json.hpp>
 #include <set>
 
-#include "levelhead/checksums.hpp"
-#include "levelhead/contours.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/output_files.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/checksums.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/flow/contours.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 #include "levelhead/version.hpp"
-#include "levelhead/vertical_reference.hpp"
 #include "report/report_document.hpp"
 #include "report/report_figures.hpp"
 #include "report/svg.hpp"

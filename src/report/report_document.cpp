@@ -6,7 +6,7 @@
 #include <fstream>
 #include <string_view>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead::report {
 

@@ -11,8 +11,8 @@
 #include <utility>
 #include <vector>
 
-#include "levelhead/report.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/report/report.hpp"
 #include "report/svg.hpp"
 
 namespace levelhead::report {

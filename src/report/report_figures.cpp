@@ -6,8 +6,8 @@
 #include <cmath>
 #include <set>
 
-#include "levelhead/contours.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/flow/contours.hpp"
 
 namespace levelhead::report {
 

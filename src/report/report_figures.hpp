@@ -9,7 +9,7 @@
 #include <optional>
 #include <string>
 
-#include "levelhead/contours.hpp"
+#include "levelhead/flow/contours.hpp"
 #include "report/report_document.hpp"
 #include "report/svg.hpp"
 

@@ -1,4 +1,4 @@
-#include "levelhead/run_diff.hpp"
+#include "levelhead/report/run_diff.hpp"
 
 #include <fmt/format.h>
 
@@ -10,11 +10,11 @@
 #include <optional>
 #include <set>
 
-#include "levelhead/checksums.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/input_files.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/core/checksums.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/input_files.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 namespace levelhead {
 

@@ -15,7 +15,7 @@
 #include <optional>
 #include <sstream>
 
-#include "levelhead/input_files.hpp"
+#include "levelhead/core/input_files.hpp"
 #include "table/readers.hpp"
 #include "util/encoding.hpp"
 #include "util/text.hpp"

@@ -3,7 +3,7 @@
 
 #include <filesystem>
 
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
 
 namespace levelhead::detail {
 

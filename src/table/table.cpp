@@ -1,4 +1,4 @@
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
 
 #include <fmt/format.h>
 
@@ -6,10 +6,10 @@
 #include <cmath>
 #include <set>
 
-#include "levelhead/bounds.hpp"
-#include "levelhead/coordinate_check.hpp"
-#include "levelhead/input_files.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/bounds.hpp"
+#include "levelhead/core/input_files.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/references/coordinate_check.hpp"
 #include "table/readers.hpp"
 #include "util/text.hpp"
 

@@ -5,7 +5,7 @@
 
 #include <algorithm>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead::util {
 

@@ -6,7 +6,7 @@
 
 #include <cmath>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead::util {
 

@@ -29,9 +29,9 @@
 #include <string>
 
 #include "adjust/normal_solver.hpp"
-#include "levelhead/adjustment.hpp"
-#include "levelhead/loops.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/loops.hpp"
 #include "support/synthetic_networks.hpp"
 
 using namespace levelhead;

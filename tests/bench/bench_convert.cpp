@@ -16,7 +16,7 @@
 #include <random>
 #include <sstream>
 
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 using namespace levelhead;
 using Clock = std::chrono::steady_clock;

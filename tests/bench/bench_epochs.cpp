@@ -14,8 +14,8 @@
 #include <unordered_map>
 #include <vector>
 
-#include "levelhead/adjustment.hpp"
-#include "levelhead/epochs.hpp"
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/epochs.hpp"
 #include "support/synthetic_networks.hpp"
 
 using namespace levelhead;

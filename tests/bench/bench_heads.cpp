@@ -13,7 +13,7 @@
 #include <fstream>
 #include <random>
 
-#include "levelhead/heads.hpp"
+#include "levelhead/heads/heads.hpp"
 
 using namespace levelhead;
 using Clock = std::chrono::steady_clock;

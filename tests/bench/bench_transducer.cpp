@@ -15,8 +15,8 @@
 #include <fstream>
 #include <random>
 
-#include "levelhead/table.hpp"
-#include "levelhead/transducer.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/heads/transducer.hpp"
 
 using namespace levelhead;
 using Clock = std::chrono::steady_clock;

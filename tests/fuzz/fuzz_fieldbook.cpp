@@ -1,13 +1,13 @@
 // Fuzz harness: the levelling field book, read and reduced with the default
-// options (levelhead/fieldbook.hpp).
+// options (levelhead/levelling/fieldbook.hpp).
 // Checks: every reduced setup, section and run closure is finite.
 
 #include <cstddef>
 #include <cstdint>
 
 #include "fuzz_support.hpp"
-#include "levelhead/fieldbook.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/levelling/fieldbook.hpp"
 
 using namespace levelhead;
 

@@ -7,7 +7,7 @@
 #include <cstdint>
 
 #include "fuzz_support.hpp"
-#include "levelhead/references_file.hpp"
+#include "levelhead/references/references_file.hpp"
 
 using namespace levelhead;
 

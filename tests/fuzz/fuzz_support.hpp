@@ -3,7 +3,7 @@
 //
 // The contract a harness checks: for any bytes, a reader either returns data
 // that passes the harness's checks or throws one of levelhead's typed errors
-// (levelhead/errors.hpp), which the CLI turns into a message. Any other
+// (levelhead/core/errors.hpp), which the CLI turns into a message. Any other
 // exception escapes the harness (the fuzzer reports it as a crash), and a
 // broken check aborts with a line saying which.
 
@@ -12,7 +12,7 @@
 #include <cstdlib>
 #include <string_view>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead::fuzz {
 

@@ -8,8 +8,8 @@
 #include <cstdint>
 
 #include "fuzz_support.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
 
 using namespace levelhead;
 

@@ -7,7 +7,7 @@
 #include <cstdint>
 
 #include "fuzz_support.hpp"
-#include "levelhead/time.hpp"
+#include "levelhead/core/time.hpp"
 
 using namespace levelhead;
 

@@ -1,5 +1,5 @@
 // Fuzz harness: transducer records and manual water-level readings, reduced
-// against the demo's wells and sensors (levelhead/transducer.hpp).
+// against the demo's wells and sensors (levelhead/heads/transducer.hpp).
 // Input: the records table, then a line "#levels", then the levels table.
 // Checks: the stage either writes its files (whose numbers the output
 // check finds finite) or throws a typed error.
@@ -13,9 +13,9 @@
 #include <string>
 
 #include "fuzz_support.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/transducer.hpp"
-#include "levelhead/wells.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/heads/transducer.hpp"
+#include "levelhead/heads/wells.hpp"
 
 using namespace levelhead;
 namespace fs = std::filesystem;

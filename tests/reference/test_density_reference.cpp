@@ -1,8 +1,8 @@
 #include <catch2/catch.hpp>
 
-#include "levelhead/density.hpp"
-#include "levelhead/errors.hpp"
-#include "levelhead/transducer.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/heads/density.hpp"
+#include "levelhead/heads/transducer.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::WithinAbs;

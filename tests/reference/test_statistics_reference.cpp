@@ -2,8 +2,8 @@
 
 #include <catch2/catch.hpp>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/statistics.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/levelling/statistics.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::WithinAbs;

@@ -2,7 +2,7 @@
 
 #include <catch2/catch.hpp>
 
-#include "levelhead/transducer.hpp"
+#include "levelhead/heads/transducer.hpp"
 
 using Catch::Matchers::WithinAbs;
 

@@ -3,9 +3,9 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/units.hpp"
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::Contains;

@@ -9,7 +9,7 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/network.hpp"
+#include "levelhead/levelling/network.hpp"
 
 namespace levelhead::testing {
 

@@ -25,7 +25,7 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/units.hpp"
+#include "levelhead/core/units.hpp"
 
 namespace levelhead {
 

@@ -23,8 +23,8 @@
 #include <string_view>
 #include <vector>
 
-#include "levelhead/errors.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/errors.hpp"
+#include "levelhead/core/units.hpp"
 
 namespace levelhead {
 
@@ -42,7 +42,7 @@ struct TableOptions {
   // come from a layer's point geometry in another CRS, reading fails (an
   // InputError naming both) rather than mixing degrees and metres; read_table
   // also checks x and y against the CRS's area of use
-  // (levelhead/coordinate_check.hpp). Empty: not checked.
+  // (levelhead/references/coordinate_check.hpp). Empty: not checked.
   std::string xy_crs;
 };
 
@@ -71,17 +71,17 @@ class Table {
   std::optional<double> length(std::size_t row, std::size_t column) const;
   // A whole number >= 0.
   std::optional<long long> count(std::size_t row, std::size_t column) const;
-  // As length(), refusing a value beyond +-limit metres (levelhead/bounds.hpp);
+  // As length(), refusing a value beyond +-limit metres (levelhead/core/bounds.hpp);
   // `what` names the quantity in the message ("a height difference").
   std::optional<double> length_within(std::size_t row, std::size_t column, double limit,
                                       const char* what) const;
-  // Shorthands of length_within with the bounds of levelhead/bounds.hpp: a
+  // Shorthands of length_within with the bounds of levelhead/core/bounds.hpp: a
   // height (of any reference), a depth or length below a measuring point,
   // and a standard deviation (also refused when negative).
   std::optional<double> height(std::size_t row, std::size_t column) const;
   std::optional<double> depth(std::size_t row, std::size_t column) const;
   std::optional<double> sigma(std::size_t row, std::size_t column) const;
-  // An ISO 8601 date or date-time (levelhead/time.hpp), as written.
+  // An ISO 8601 date or date-time (levelhead/core/time.hpp), as written.
   std::optional<std::string> date(std::size_t row, std::size_t column) const;
 
   // Building (used by the readers).

@@ -12,7 +12,7 @@
 #include <filesystem>
 #include <string>
 
-#include "levelhead/loops.hpp"
+#include "levelhead/levelling/loops.hpp"
 
 namespace levelhead {
 

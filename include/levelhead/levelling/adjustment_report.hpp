@@ -16,8 +16,8 @@
 #include <filesystem>
 #include <string>
 
-#include "levelhead/adjustment.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/levelling/adjustment.hpp"
 
 namespace levelhead {
 

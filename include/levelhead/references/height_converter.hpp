@@ -19,8 +19,8 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/references_file.hpp"
-#include "levelhead/surface_shift.hpp"
+#include "levelhead/references/references_file.hpp"
+#include "levelhead/references/surface_shift.hpp"
 
 namespace levelhead {
 

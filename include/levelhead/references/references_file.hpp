@@ -58,7 +58,7 @@
 #include <string_view>
 #include <vector>
 
-#include "levelhead/surface_shift.hpp"
+#include "levelhead/references/surface_shift.hpp"
 
 namespace levelhead {
 

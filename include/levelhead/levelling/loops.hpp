@@ -31,7 +31,7 @@
 #include <string_view>
 #include <vector>
 
-#include "levelhead/network.hpp"
+#include "levelhead/levelling/network.hpp"
 
 namespace levelhead {
 

@@ -22,9 +22,9 @@
 #include <unordered_map>
 #include <vector>
 
-#include "levelhead/table.hpp"
-#include "levelhead/time.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/core/units.hpp"
 
 namespace levelhead {
 

@@ -5,7 +5,7 @@
 // temporary files are removed and no file that looks finished is left.
 // Existing files of the same names are replaced only at commit.
 //
-// A file that is an input of the running command (levelhead/input_files.hpp)
+// A file that is an input of the running command (levelhead/core/input_files.hpp)
 // is never replaced: open, reserve and commit throw OutputError naming it.
 // At commit every file is flushed to disk before the renames, and the
 // renames are not interrupted by Ctrl-C or kill (those signals wait until

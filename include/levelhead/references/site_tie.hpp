@@ -19,8 +19,8 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/references_file.hpp"
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/references/references_file.hpp"
 
 namespace levelhead {
 

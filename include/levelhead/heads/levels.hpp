@@ -22,7 +22,7 @@
 #include <string_view>
 #include <vector>
 
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
 
 namespace levelhead {
 

@@ -18,7 +18,7 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/vertical_reference.hpp"
+#include "levelhead/references/vertical_reference.hpp"
 
 namespace levelhead {
 

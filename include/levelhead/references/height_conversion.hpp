@@ -21,9 +21,9 @@
 #include <optional>
 #include <string>
 
-#include "levelhead/height_converter.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/units.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/units.hpp"
+#include "levelhead/references/height_converter.hpp"
 
 namespace levelhead {
 

@@ -2,7 +2,7 @@
 // SHA-256 checksums (OpenSSL), for provenance: grids used, stage outputs in
 // run.json, the texts a report rests on.
 //
-// In:  a file (noted as an input, levelhead/input_files.hpp) or a text.
+// In:  a file (noted as an input, levelhead/core/input_files.hpp) or a text.
 // Out: the digest as 64 lowercase hex digits; "" when the file cannot be read.
 // Errors: none.
 

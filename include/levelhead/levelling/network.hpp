@@ -21,7 +21,7 @@
 #include <unordered_map>
 #include <vector>
 
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
 
 namespace levelhead {
 

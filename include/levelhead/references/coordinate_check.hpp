@@ -18,7 +18,7 @@
 
 #include <string>
 
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
 
 namespace levelhead {
 

@@ -13,7 +13,7 @@
 #include <ostream>
 #include <vector>
 
-#include "levelhead/errors.hpp"
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 

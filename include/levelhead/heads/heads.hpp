@@ -29,11 +29,11 @@
 #include <unordered_map>
 #include <vector>
 
-#include "levelhead/bounds.hpp"
-#include "levelhead/height_converter.hpp"
-#include "levelhead/table.hpp"
-#include "levelhead/time.hpp"
-#include "levelhead/wells.hpp"
+#include "levelhead/core/bounds.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
+#include "levelhead/heads/wells.hpp"
+#include "levelhead/references/height_converter.hpp"
 
 namespace levelhead {
 
@@ -54,7 +54,7 @@ struct HeadOptions {
   std::optional<double>
       environmental_reference;  // m, z_r of environmental-water heads (target reference)
   // A reading that cannot be read (a bad cell, an unknown well, no survey in
-  // force) goes to rejects.csv and the others go on (levelhead/rejects.hpp);
+  // force) goes to rejects.csv and the others go on (levelhead/core/rejects.hpp);
   // false: the first one stops the stage.
   bool keep_going = false;
   void validate() const;

@@ -50,8 +50,8 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/table.hpp"
-#include "levelhead/wells.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/heads/wells.hpp"
 
 namespace levelhead {
 
@@ -68,7 +68,7 @@ struct TransducerOptions {
   std::size_t min_efficiency_pairs =
       48;  // paired changes needed to estimate a barometric efficiency
   // A record or manual reading that cannot be read goes to rejects.csv and
-  // the others go on (levelhead/rejects.hpp); false: the first one stops.
+  // the others go on (levelhead/core/rejects.hpp); false: the first one stops.
   bool keep_going = false;
   void validate() const;
 };

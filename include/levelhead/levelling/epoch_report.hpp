@@ -21,7 +21,7 @@
 #include <filesystem>
 #include <string>
 
-#include "levelhead/epochs.hpp"
+#include "levelhead/levelling/epochs.hpp"
 
 namespace levelhead {
 

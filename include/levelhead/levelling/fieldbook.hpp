@@ -29,7 +29,7 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/table.hpp"
+#include "levelhead/core/table.hpp"
 
 namespace levelhead {
 

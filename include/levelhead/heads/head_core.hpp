@@ -22,8 +22,8 @@
 #include <utility>
 #include <vector>
 
-#include "levelhead/heads.hpp"
-#include "levelhead/levels.hpp"
+#include "levelhead/heads/heads.hpp"
+#include "levelhead/heads/levels.hpp"
 
 namespace levelhead {
 

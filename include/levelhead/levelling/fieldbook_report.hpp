@@ -12,7 +12,7 @@
 #include <filesystem>
 #include <string>
 
-#include "levelhead/fieldbook.hpp"
+#include "levelhead/levelling/fieldbook.hpp"
 
 namespace levelhead {
 

@@ -42,8 +42,8 @@
 #include <string>
 #include <vector>
 
-#include "levelhead/adjustment.hpp"
-#include "levelhead/network.hpp"
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/network.hpp"
 
 namespace levelhead {
 
