@@ -253,32 +253,91 @@ int season_of(double seconds) {
   return ((utc.tm_mon + 1) % 12) / 3;  // Dec-Feb, Mar-May, Jun-Aug, Sep-Nov
 }
 
-EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const Model& m,
-                          const std::vector<char>& candidate, const EpochOptions& options,
-                          std::vector<Observation>& observations, std::size_t epoch_index) {
+// An epoch is one campaign: its sections were levelled within days or weeks.
+// A section dated far from the rest of its campaign (a year typed wrong:
+// 2034 for 2024) would move the campaign's mid-time and could flip the sign
+// of every rate, so it is refused naming its row; so are campaigns that
+// overlap in time or share a date, which cannot be told apart in time.
+// The limit is generous (a campaign of a large network can take months).
+constexpr double max_days_from_campaign_median = 365.0;
+
+struct CampaignSpan {
+  std::size_t epoch;
+  double first = 0.0, last = 0.0;  // s
+  const Section* first_section = nullptr;
+  const Section* last_section = nullptr;
+};
+
+// Returns each epoch's span, in the order of `epochs`.
+std::vector<CampaignSpan> check_campaign_dates(const std::vector<EpochSections>& epochs) {
+  std::vector<CampaignSpan> spans;
+  for (std::size_t k = 0; k < epochs.size(); ++k) {
+    const SectionTable& table = epochs[k].sections;
+    std::vector<std::pair<double, const Section*>> dated;
+    for (const Section& s : table.sections) {
+      const auto when = parse_iso8601(s.date);
+      if (!when) {
+        throw InputError(CellLocation{table.file, s.row, "date"}, s.date,
+                         "each section of an epoch needs a date (ISO 8601, e.g. 2026-05-14) so "
+                         "the epoch can be placed in time");
+      }
+      dated.emplace_back(when->seconds, &s);
+    }
+    if (dated.empty()) {
+      spans.push_back({k});
+      continue;
+    }
+    std::stable_sort(dated.begin(), dated.end(),
+                     [](const auto& a, const auto& b) { return a.first < b.first; });
+    const double median = dated[(dated.size() - 1) / 2].first;  // the lower median
+    for (const auto& [time, section] : dated) {
+      const double days = std::abs(time - median) / 86400.0;
+      if (days > max_days_from_campaign_median) {
+        throw InputError(
+            CellLocation{table.file, section->row, "date"}, section->date,
+            fmt::format("this section of epoch '{}' is dated {:.0f} days from the middle of its "
+                        "campaign ({}); a campaign spans days or weeks: correct the date (a "
+                        "mistyped year?) or put the section in its own epoch",
+                        epochs[k].name, days, format_utc(median).substr(0, 10)));
+      }
+    }
+    spans.push_back(
+        {k, dated.front().first, dated.back().first, dated.front().second, dated.back().second});
+  }
+  std::vector<CampaignSpan> by_time;
+  for (const CampaignSpan& span : spans) {
+    if (span.first_section) by_time.push_back(span);
+  }
+  std::sort(by_time.begin(), by_time.end(),
+            [](const CampaignSpan& a, const CampaignSpan& b) { return a.first < b.first; });
+  for (std::size_t i = 1; i < by_time.size(); ++i) {
+    const CampaignSpan &earlier = by_time[i - 1], &later = by_time[i];
+    if (later.first > earlier.last) continue;
+    throw InputError(
+        CellLocation{epochs[later.epoch].sections.file, later.first_section->row, "date"},
+        later.first_section->date,
+        fmt::format("epoch '{}' begins on {} before epoch '{}' ends ({}, row {}): epochs are "
+                    "campaigns apart in time, and rates need a time between them; correct the "
+                    "dates, or merge the two into one epoch",
+                    epochs[later.epoch].name, later.first_section->date, epochs[earlier.epoch].name,
+                    earlier.last_section->date, earlier.last_section->row));
+  }
+  return spans;
+}
+
+// `span`: the epoch's dates, checked by check_campaign_dates.
+EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const CampaignSpan& span,
+                          const Model& m, const std::vector<char>& candidate,
+                          const EpochOptions& options, std::vector<Observation>& observations,
+                          std::size_t epoch_index) {
   EpochQuality q;
   q.name = epoch.name;
   const SectionTable& table = epoch.sections;
   if (table.sections.empty())
     throw NetworkError(fmt::format("epoch '{}' has no sections", epoch.name), {});
-  double first = std::numeric_limits<double>::infinity(), last = -first;
-  for (const Section& s : table.sections) {
-    const auto when = parse_iso8601(s.date);
-    if (!when) {
-      throw InputError(CellLocation{table.file, s.row, "date"}, s.date,
-                       "each section of an epoch needs a date (ISO 8601, e.g. 2026-05-14) so the "
-                       "epoch can be placed in time");
-    }
-    if (when->seconds < first) {
-      first = when->seconds;
-      q.first_date = s.date;
-    }
-    if (when->seconds > last) {
-      last = when->seconds;
-      q.last_date = s.date;
-    }
-  }
-  q.time = 0.5 * (first + last);
+  q.first_date = span.first_section->date;
+  q.last_date = span.last_section->date;
+  q.time = 0.5 * (span.first + span.last);
 
   // A free network of the points this epoch observes, one candidate held.
   std::vector<char> in_epoch(points.points.size(), 0);
@@ -361,69 +420,6 @@ std::optional<std::pair<double, double>> fit_rate(const std::vector<double>& yea
   return std::make_pair(estimate(1), std::sqrt(std::max(inverse(1, 1), 0.0)));
 }
 
-// An epoch is one campaign: its sections were levelled within days or weeks.
-// A section dated far from the rest of its campaign (a year typed wrong:
-// 2034 for 2024) would move the campaign's mid-time and could flip the sign
-// of every rate, so it is refused naming its row; so are campaigns that
-// overlap in time or share a date, which cannot be told apart in time.
-// The limit is generous (a campaign of a large network can take months).
-constexpr double max_days_from_campaign_median = 365.0;
-
-struct CampaignSpan {
-  std::size_t epoch;
-  double first = 0.0, last = 0.0;  // s
-  const Section* first_section = nullptr;
-  const Section* last_section = nullptr;
-};
-
-void check_campaign_dates(const std::vector<EpochSections>& epochs) {
-  std::vector<CampaignSpan> spans;
-  for (std::size_t k = 0; k < epochs.size(); ++k) {
-    const SectionTable& table = epochs[k].sections;
-    std::vector<std::pair<double, const Section*>> dated;
-    for (const Section& s : table.sections) {
-      const auto when = parse_iso8601(s.date);
-      if (!when) {
-        throw InputError(CellLocation{table.file, s.row, "date"}, s.date,
-                         "each section of an epoch needs a date (ISO 8601, e.g. 2026-05-14) so "
-                         "the epoch can be placed in time");
-      }
-      dated.emplace_back(when->seconds, &s);
-    }
-    if (dated.empty()) continue;
-    std::sort(dated.begin(), dated.end(),
-              [](const auto& a, const auto& b) { return a.first < b.first; });
-    const double median = dated[(dated.size() - 1) / 2].first;  // the lower median
-    for (const auto& [time, section] : dated) {
-      const double days = std::abs(time - median) / 86400.0;
-      if (days > max_days_from_campaign_median) {
-        throw InputError(
-            CellLocation{table.file, section->row, "date"}, section->date,
-            fmt::format("this section of epoch '{}' is dated {:.0f} days from the middle of its "
-                        "campaign ({}); a campaign spans days or weeks: correct the date (a "
-                        "mistyped year?) or put the section in its own epoch",
-                        epochs[k].name, days, format_utc(median).substr(0, 10)));
-      }
-    }
-    spans.push_back(
-        {k, dated.front().first, dated.back().first, dated.front().second, dated.back().second});
-  }
-  std::sort(spans.begin(), spans.end(),
-            [](const CampaignSpan& a, const CampaignSpan& b) { return a.first < b.first; });
-  for (std::size_t i = 1; i < spans.size(); ++i) {
-    const CampaignSpan &earlier = spans[i - 1], &later = spans[i];
-    if (later.first > earlier.last) continue;
-    throw InputError(
-        CellLocation{epochs[later.epoch].sections.file, later.first_section->row, "date"},
-        later.first_section->date,
-        fmt::format("epoch '{}' begins on {} before epoch '{}' ends ({}, row {}): epochs are "
-                    "campaigns apart in time, and rates need a time between them; correct the "
-                    "dates, or merge the two into one epoch",
-                    epochs[later.epoch].name, later.first_section->date, epochs[earlier.epoch].name,
-                    earlier.last_section->date, earlier.last_section->row));
-  }
-}
-
 }  // namespace
 
 EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections> epochs,
@@ -445,7 +441,7 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
     }
   }
 
-  check_campaign_dates(epochs);
+  const std::vector<CampaignSpan> spans = check_campaign_dates(epochs);
 
   Model m;
   m.epochs = epochs.size();
@@ -474,7 +470,8 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
 
   // 1. Each epoch on its own, in time order.
   for (std::size_t k = 0; k < epochs.size(); ++k) {
-    out.epochs.push_back(adjust_epoch(points, epochs[k], m, candidate, options, m.observations, k));
+    out.epochs.push_back(
+        adjust_epoch(points, epochs[k], spans[k], m, candidate, options, m.observations, k));
   }
   std::vector<std::size_t> order(epochs.size());
   std::iota(order.begin(), order.end(), 0);
