@@ -345,6 +345,68 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
   for (HeadSink* sink : sinks) sink->write(well, reading, record);
 }
 
+// Across wells, for the synoptic event: one head per well (the contourable
+// reading nearest the centre), checked against its neighbours and in nests
+// (event_qa.hpp); event.csv, nests.csv and remeasure.csv. Returns the
+// event's part of summary.json.
+nlohmann::json write_event(
+    const WellSet& wells, const std::vector<WellState>& state,
+    const std::map<std::string, std::vector<std::string>>& history_departures,
+    const HeadOptions& options, OutputSet& out, HeadsSummary& summary) {
+  std::vector<EventHead> event_heads;
+  for (const WellState& ws : state) {
+    if (ws.event) event_heads.push_back(*ws.event);
+  }
+  const EventQaResult e = check_event(event_heads, EventQaOptions{});
+  std::ostream& ev = out.open("event.csv");
+  ev << "well,time,head,sigma,aquifer,nest,prediction,misfit,flags\n";
+  std::map<std::string, std::vector<std::string>> remeasure;
+  for (std::size_t i = 0; i < event_heads.size(); ++i) {
+    const EventHead& h = event_heads[i];
+    const EventCheck& c = e.wells[i];
+    const int dp = decimals_for(h.sigma);
+    ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
+       << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ',' << csv_cell(h.aquifer)
+       << ',' << csv_cell(h.nest) << ','
+       << (c.prediction ? fmt::format("{:.{}f}", *c.prediction, dp) : "") << ','
+       << (c.misfit ? fmt::format("{:+.{}f}", *c.misfit, dp) : "") << ','
+       << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
+    for (const std::string& f : c.flags) {
+      if (f == "neighbour-misfit") {
+        remeasure[h.well].push_back(
+            fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
+      }
+      if (f == "mp-sigma-large")
+        remeasure[h.well].push_back("measuring point too uncertain beside its neighbours");
+    }
+  }
+  for (std::size_t w = 0; w < wells.wells.size(); ++w) {
+    if (!state[w].event)
+      remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
+    if (state[w].repeat_problem) remeasure[wells.wells[w].id].push_back("repeat readings disagree");
+    if (const auto d = history_departures.find(wells.wells[w].id); d != history_departures.end())
+      for (const std::string& departure : d->second) remeasure[d->first].push_back(departure);
+  }
+  std::ostream& nests = out.open("nests.csv");
+  nests << "nest,shallow,deep,dh,sigma,direction,significant\n";
+  for (const NestPair& n : e.nests) {
+    nests << csv_cell(n.nest) << ',' << csv_cell(n.shallow) << ',' << csv_cell(n.deep) << ','
+          << fmt::format("{:+.4f},{:.4f}", n.dh, n.sigma) << ',' << n.direction << ','
+          << (n.significant ? "yes" : "no") << '\n';
+  }
+  std::ostream& rm = out.open("remeasure.csv");
+  rm << "well,reasons\n";
+  for (const auto& [well_id, reasons] : remeasure) {
+    rm << csv_cell(well_id) << ',' << csv_cell(fmt::format("{}", fmt::join(reasons, "; "))) << '\n';
+  }
+  nlohmann::json event_summary = {{"centre", format_utc(*options.event)},
+                                  {"wells_with_reading", event_heads.size()},
+                                  {"remeasure", remeasure.size()},
+                                  {"nest_pairs", e.nests.size()}};
+  summary.remeasure = remeasure.size();
+  return event_summary;
+}
+
 }  // namespace
 
 HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
@@ -408,63 +470,9 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   }
 
   // 4. Across wells, for the synoptic event.
-  nlohmann::json event_summary = nullptr;
-  if (options.event) {
-    std::vector<EventHead> event_heads;
-    for (const WellState& ws : state) {
-      if (ws.event) event_heads.push_back(*ws.event);
-    }
-    const EventQaResult e = check_event(event_heads, EventQaOptions{});
-    std::ostream& ev = out.open("event.csv");
-    ev << "well,time,head,sigma,aquifer,nest,prediction,misfit,flags\n";
-    std::map<std::string, std::vector<std::string>> remeasure;
-    for (std::size_t i = 0; i < event_heads.size(); ++i) {
-      const EventHead& h = event_heads[i];
-      const EventCheck& c = e.wells[i];
-      const int dp = decimals_for(h.sigma);
-      ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
-         << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ','
-         << csv_cell(h.aquifer) << ',' << csv_cell(h.nest) << ','
-         << (c.prediction ? fmt::format("{:.{}f}", *c.prediction, dp) : "") << ','
-         << (c.misfit ? fmt::format("{:+.{}f}", *c.misfit, dp) : "") << ','
-         << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
-      for (const std::string& f : c.flags) {
-        if (f == "neighbour-misfit") {
-          remeasure[h.well].push_back(
-              fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
-        }
-        if (f == "mp-sigma-large")
-          remeasure[h.well].push_back("measuring point too uncertain beside its neighbours");
-      }
-    }
-    for (std::size_t w = 0; w < wells.wells.size(); ++w) {
-      if (!state[w].event)
-        remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
-      if (state[w].repeat_problem)
-        remeasure[wells.wells[w].id].push_back("repeat readings disagree");
-      for (const std::string& d : history_departures[wells.wells[w].id]) {
-        remeasure[wells.wells[w].id].push_back(d);
-      }
-    }
-    std::ostream& nests = out.open("nests.csv");
-    nests << "nest,shallow,deep,dh,sigma,direction,significant\n";
-    for (const NestPair& n : e.nests) {
-      nests << csv_cell(n.nest) << ',' << csv_cell(n.shallow) << ',' << csv_cell(n.deep) << ','
-            << fmt::format("{:+.4f},{:.4f}", n.dh, n.sigma) << ',' << n.direction << ','
-            << (n.significant ? "yes" : "no") << '\n';
-    }
-    std::ostream& rm = out.open("remeasure.csv");
-    rm << "well,reasons\n";
-    for (const auto& [well_id, reasons] : remeasure) {
-      rm << csv_cell(well_id) << ',' << csv_cell(fmt::format("{}", fmt::join(reasons, "; ")))
-         << '\n';
-    }
-    event_summary = {{"centre", format_utc(*options.event)},
-                     {"wells_with_reading", event_heads.size()},
-                     {"remeasure", remeasure.size()},
-                     {"nest_pairs", e.nests.size()}};
-    summary.remeasure = remeasure.size();
-  }
+  const nlohmann::json event_summary =
+      options.event ? write_event(wells, state, history_departures, options, out, summary)
+                    : nlohmann::json(nullptr);
 
   nlohmann::json s;
   s["event"] = event_summary;
