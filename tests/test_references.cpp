@@ -189,3 +189,66 @@ TEST_CASE("an EPSG 1046 offset and slope matches the formula worked by hand",
   HeightConverter from_file("old", "EPSG:5703", "EPSG:4326", loaded, ProjSettings{});
   CHECK_THAT(*from_file.convert({{8.0, 47.0}}, {100.0})[0].height, WithinAbs(101.5709196, 1e-6));
 }
+
+TEST_CASE("a tie without sigmas flags a blunder with Pope's tau test", "[references][tie]") {
+  // Regression: without sigmas each residual was studentised by sigma0 and
+  // compared with the normal quantile 3.29; such a statistic never exceeds
+  // sqrt(redundancy) (3.0 for 10 ties of an offset), so a 5 m error in one of
+  // 10 ties was never flagged and moved the offset by 0.5 m.
+  std::vector<TiePoint> ties;
+  for (int i = 0; i < 10; ++i) {
+    TiePoint t;
+    t.id = "T" + std::to_string(i);
+    t.x = 100.0 * i;
+    t.y = 50.0 * (i % 3);
+    t.site_height = 10.0 + i;
+    // Invented: offset 95.25 m with +-2 mm of scatter.
+    t.base_height = t.site_height + 95.25 + 0.002 * ((i % 3) - 1);
+    ties.push_back(t);
+  }
+  const TieResult clean = estimate_tie(ties, TieOptions{});
+  CHECK_FALSE(clean.weighted);
+  CHECK(clean.test == "tau (Pope)");
+  CHECK(clean.suspects.empty());
+  ties[6].base_height += 5.0;
+  const TieResult bad = estimate_tie(ties, TieOptions{});
+  // r = 9: the critical value is 2.616 (reference test above); the blunder's
+  // tau is close to its bound 3.0.
+  CHECK_THAT(bad.w_critical, WithinAbs(2.616, 5e-4));
+  REQUIRE(bad.suspects.size() == 1);
+  CHECK(bad.suspects.front() == 6);
+}
+
+TEST_CASE("tie points on the corners and edges of their own hull are inside it",
+          "[references][tie]") {
+  // Regression: the ray-crossing test put some corners of the tie area
+  // outside (flagged outside-ties-hull) and others inside.
+  std::vector<TiePoint> ties;
+  const double corners[][2] = {{512000.125, 4409000.5}, {513000.25, 4409000.5},
+                               {513000.25, 4410000.75}, {512000.125, 4410000.75},
+                               {512500.0, 4409500.0},   {512500.0, 4409000.5}};
+  for (std::size_t i = 0; i < std::size(corners); ++i) {
+    TiePoint t;
+    t.id = "T" + std::to_string(i);
+    t.x = corners[i][0];
+    t.y = corners[i][1];
+    t.site_height = 10.0;
+    t.base_height = 105.25 + 0.001 * static_cast<double>(i % 2);
+    ties.push_back(t);
+  }
+  const TieResult tie = estimate_tie(ties, TieOptions{});
+  // Through the references file and back, as `convert` meets it.
+  ReferenceDefinition d = offset_reference("site", "EPSG:5703", 0.0);
+  d.relation = tie.relation;
+  const std::string toml_text = to_toml(d);
+  const ReferenceSet set = ReferenceSet::parse(toml_text, "references.toml");
+  const OffsetRelation& read_back = set.find("site")->relation;
+  for (const TiePoint& t : ties) {
+    INFO(t.id);
+    CHECK(tie.relation.inside_hull(t.x, t.y));
+    CHECK(read_back.inside_hull(t.x, t.y));
+  }
+  // 1 mm outside an edge is outside.
+  CHECK_FALSE(read_back.inside_hull(512000.124, 4409500.0));
+  CHECK_FALSE(read_back.inside_hull(512500.0, 4409000.499));
+}

@@ -6,6 +6,7 @@
 #include <boost/math/distributions/fisher_f.hpp>
 #include <boost/math/distributions/normal.hpp>
 #include <boost/math/distributions/students_t.hpp>
+#include <cmath>
 
 #include "levelhead/core/errors.hpp"
 
@@ -59,6 +60,18 @@ double w_test_critical_value(double alpha0) {
   require_probability(alpha0, "alpha0");
   const boost::math::normal_distribution<double> normal;
   return boost::math::quantile(boost::math::complement(normal, alpha0 / 2.0));
+}
+
+double tau_test_critical_value(double alpha0, double redundancy) {
+  require_probability(alpha0, "alpha0");
+  if (!(redundancy >= 2.0)) {
+    throw ComputationError(fmt::format(
+        "the tau test needs a redundancy of at least 2 (here {:g}): with less, every studentised "
+        "residual is +-1 and no outlier can show",
+        redundancy));
+  }
+  const double t = student_t_quantile(1.0 - alpha0 / 2.0, redundancy - 1.0);
+  return std::sqrt(redundancy) * t / std::sqrt(redundancy - 1.0 + t * t);
 }
 
 double baarda_noncentrality(double alpha0, double beta0) {

@@ -108,9 +108,16 @@ CommandRunner add_tie_command(CLI::App& app) {
       }
       out << fmt::format("\n  sigma0 {:.3f}, redundancy {}\n", result.sigma0.value_or(0.0),
                          result.dof);
+      const std::string statistic = result.weighted ? "w" : "tau";
+      if (result.w_critical > 0.0) {
+        out << fmt::format("  outlier test: {}, |{}| > {:.2f} at alpha0 = {:g} per tie\n",
+                           result.test, statistic, result.w_critical, options.alpha0);
+      } else {
+        out << fmt::format("  outlier test: {}: no tie can be tested; add ties\n", result.test);
+      }
       for (std::size_t k : result.suspects) {
-        out << fmt::format("  SUSPECT tie {}: residual {:.1f} mm, w = {:.2f}\n", ties[k].id,
-                           result.residuals[k].residual * 1e3, *result.residuals[k].w);
+        out << fmt::format("  SUSPECT tie {}: residual {:.1f} mm, {} = {:.2f}\n", ties[k].id,
+                           result.residuals[k].residual * 1e3, statistic, *result.residuals[k].w);
       }
       out << fmt::format("Wrote {} and {}\n", path.string(),
                          (path.parent_path() / (a->name + ".ties.csv")).string());

@@ -36,18 +36,38 @@ std::optional<double> OffsetRelation::variance(double x, double y) const {
   return std::nullopt;
 }
 
-// Point in polygon by ray crossing (hull vertices in order).
+// Point in polygon by ray crossing (hull vertices in order); a point on the
+// boundary counts as inside: within a tolerance of an edge that covers the
+// digits the hull was written with (12 significant, to_toml) and the
+// rounding of the crossing test, 1e-11 of the coordinates' size plus 1e-9
+// of the hull's extent.
 bool OffsetRelation::inside_hull(double x, double y) const {
   if (hull.size() < 3) return true;
   bool inside = false;
+  double size = std::max(std::abs(x), std::abs(y));
+  double min_x = hull[0][0], max_x = min_x, min_y = hull[0][1], max_y = min_y;
   for (std::size_t i = 0, j = hull.size() - 1; i < hull.size(); j = i++) {
     const auto& a = hull[i];
     const auto& b = hull[j];
     if ((a[1] > y) != (b[1] > y) && x < (b[0] - a[0]) * (y - a[1]) / (b[1] - a[1]) + a[0]) {
       inside = !inside;
     }
+    size = std::max({size, std::abs(a[0]), std::abs(a[1])});
+    min_x = std::min(min_x, a[0]), max_x = std::max(max_x, a[0]);
+    min_y = std::min(min_y, a[1]), max_y = std::max(max_y, a[1]);
   }
-  return inside;
+  if (inside) return true;
+  const double tolerance = 1e-11 * size + 1e-9 * std::max(max_x - min_x, max_y - min_y);
+  for (std::size_t i = 0, j = hull.size() - 1; i < hull.size(); j = i++) {
+    // Distance from (x, y) to the segment a-b.
+    const double ax = hull[j][0], ay = hull[j][1];
+    const double dx = hull[i][0] - ax, dy = hull[i][1] - ay;
+    const double length2 = dx * dx + dy * dy;
+    const double f =
+        length2 > 0.0 ? std::clamp(((x - ax) * dx + (y - ay) * dy) / length2, 0.0, 1.0) : 0.0;
+    if (std::hypot(x - (ax + f * dx), y - (ay + f * dy)) <= tolerance) return true;
+  }
+  return false;
 }
 
 namespace {
@@ -301,9 +321,9 @@ std::string to_toml(const ReferenceDefinition& d) {
   const OffsetRelation& r = d.relation;
   std::string out =
       fmt::format("[references.{}]\nkind = \"offset\"\nbase = \"{}\"\n", d.name, d.base);
-  out +=
-      fmt::format("offset = {:.6f}\nslope_x = {:.9e}\nslope_y = {:.9e}\nx0 = {:.3f}\ny0 = {:.3f}\n",
-                  r.offset, r.slope_x, r.slope_y, r.x0, r.y0);
+  out += fmt::format(
+      "offset = {:.6f}\nslope_x = {:.9e}\nslope_y = {:.9e}\nx0 = {:.12g}\ny0 = {:.12g}\n", r.offset,
+      r.slope_x, r.slope_y, r.x0, r.y0);
   if (!r.crs.empty()) out += fmt::format("crs = \"{}\"\n", r.crs);
   if (r.sigma) out += fmt::format("sigma = {:.6f}\n", *r.sigma);
   if (r.covariance) {
@@ -316,7 +336,7 @@ std::string to_toml(const ReferenceDefinition& d) {
   if (!r.hull.empty()) {
     out += "hull = [";
     for (std::size_t i = 0; i < r.hull.size(); ++i) {
-      out += fmt::format("{}[{:.3f}, {:.3f}]", i ? ", " : "", r.hull[i][0], r.hull[i][1]);
+      out += fmt::format("{}[{:.12g}, {:.12g}]", i ? ", " : "", r.hull[i][0], r.hull[i][1]);
     }
     out += "]\n";
   }

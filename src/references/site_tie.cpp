@@ -159,7 +159,19 @@ TieResult estimate_tie(const std::vector<TiePoint>& ties, const TieOptions& opti
   for (const TiePoint& t : ties) xy.push_back({t.x, t.y});
   r.hull = convex_hull(xy);
 
-  result.w_critical = w_test_critical_value(options.alpha0);
+  // Weighted: Baarda's w with the a-priori sigmas. Unweighted: sigma0 is
+  // estimated from these residuals, so they are studentised and tested with
+  // Pope's tau distribution (statistics.hpp), which needs a redundancy >= 2.
+  const bool testable = result.weighted || result.dof >= 2;
+  if (result.weighted) {
+    result.test = "w (Baarda)";
+    result.w_critical = w_test_critical_value(options.alpha0);
+  } else if (testable) {
+    result.test = "tau (Pope)";
+    result.w_critical = tau_test_critical_value(options.alpha0, static_cast<double>(result.dof));
+  } else {
+    result.test = "none (redundancy < 2)";
+  }
   const Eigen::MatrixXd Qvv =
       Eigen::MatrixXd(p.cwiseInverse().asDiagonal()) - A * Q * A.transpose();
   for (Eigen::Index i = 0; i < n; ++i) {
@@ -167,12 +179,10 @@ TieResult estimate_tie(const std::vector<TiePoint>& ties, const TieOptions& opti
     t.difference = l[i];
     t.residual = v[i];
     t.redundancy = Qvv(i, i) * p[i];
-    if (t.redundancy > 1e-6) {
-      // Weighted: Baarda's w with the a-priori sigma; unweighted: the
-      // residual studentised by sigma0 (Pope's tau, compared with the same
-      // normal critical value as an approximation).
+    if (testable && t.redundancy > 1e-6) {
       const double scale_w = result.weighted ? 1.0 : *result.sigma0;
-      t.w = v[i] / (scale_w * std::sqrt(Qvv(i, i)));
+      // A perfect fit without sigmas (sigma0 = 0): every residual is 0.
+      t.w = scale_w > 0.0 ? v[i] / (scale_w * std::sqrt(Qvv(i, i))) : 0.0;
       if (std::abs(*t.w) > result.w_critical)
         result.suspects.push_back(static_cast<std::size_t>(i));
     }

@@ -1,6 +1,7 @@
 // Quantiles against published statistical tables.
 
 #include <catch2/catch.hpp>
+#include <cmath>
 
 #include "levelhead/core/errors.hpp"
 #include "levelhead/levelling/statistics.hpp"
@@ -54,4 +55,20 @@ TEST_CASE("Baarda's non-centrality for alpha0 = 0.1 %, beta0 = 80 %", "[referenc
 TEST_CASE("probabilities outside (0, 1) are refused", "[statistics]") {
   CHECK_THROWS_AS(normal_quantile(1.0), OptionError);
   CHECK_THROWS_AS(chi_square_quantile(0.0, 3), OptionError);
+}
+
+TEST_CASE("Pope's tau critical value from the t table", "[reference][statistics]") {
+  // tau = sqrt(r) t / sqrt(r - 1 + t^2) (Pope 1976, NOAA Technical Report
+  // NOS 65 NGS 1) with t the Student t quantile of r - 1 degrees of freedom.
+  // r = 9, alpha0 = 0.001: t(0.9995, 8) = 5.041 (NIST/SEMATECH e-Handbook
+  // 1.3.6.7.2, 3-decimal table value) -> tau = 3 * 5.041 / sqrt(8 + 25.41)
+  // = 2.616.
+  CHECK_THAT(student_t_quantile(0.9995, 8), WithinAbs(5.041, 5e-4));
+  CHECK_THAT(tau_test_critical_value(0.001, 9), WithinAbs(2.616, 5e-4));
+  // The statistic is bounded by sqrt(r), so the critical value must be too.
+  for (const double r : {2.0, 3.0, 5.0, 30.0, 1000.0})
+    CHECK(tau_test_critical_value(0.001, r) < std::sqrt(r));
+  // For a large redundancy tau tends to the normal quantile (common practice).
+  CHECK_THAT(tau_test_critical_value(0.001, 1e6), WithinAbs(w_test_critical_value(0.001), 1e-3));
+  CHECK_THROWS_AS(tau_test_critical_value(0.001, 1.0), ComputationError);
 }

@@ -25,6 +25,15 @@ double student_t_quantile(double p, double dof);
 // geodetic networks", Netherlands Geodetic Commission, Publ. on Geodesy 2(5).
 double w_test_critical_value(double alpha0);
 
+// Critical value of Pope's tau test, for residuals studentised with a sigma0
+// estimated from the same data (redundancy r >= 2): tau = sqrt(r) t /
+// sqrt(r - 1 + t^2) with t = t(1 - alpha0/2) of Student's t with r - 1
+// degrees of freedom. |tau| can never exceed sqrt(r), so the normal
+// quantile of the w-test would make the test unable to fire for small r.
+// Reference: Pope (1976), "The statistics of residuals and the detection of
+// outliers", NOAA Technical Report NOS 65 NGS 1.
+double tau_test_critical_value(double alpha0, double redundancy);
+
 // Non-centrality parameter lambda0 of the one-dimensional w-test for
 // significance alpha0 and power beta0: lambda0 = (z(1 - alpha0/2) + z(beta0))^2
 // (Baarda 1968; e.g. 17.07 for alpha0 = 0.001, beta0 = 0.80).

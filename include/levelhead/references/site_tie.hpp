@@ -11,7 +11,11 @@
 //   residuals (sigma0).
 // Out: the relation (an OffsetRelation with covariance and the convex hull of
 //      the ties), each tie's residual v = fitted - observed d (m), its
-//      redundancy and normalised residual w, sigma0, suspects (|w| > critical).
+//      redundancy and test statistic, sigma0, suspects (|statistic| >
+//      critical). With sigmas: Baarda's w-test (a priori sigma, normal
+//      critical value). Without: sigma0 comes from the same residuals, so
+//      the residuals are studentised and tested with Pope's tau test
+//      (statistics.hpp); with a redundancy below 2 no tie can be tested.
 // Errors: InputError for fewer ties than the minimum, or ties too nearly
 //      collinear for a slope.
 
@@ -54,7 +58,8 @@ struct TieResult {
   std::size_t dof = 0;
   std::optional<double> sigma0;
   bool weighted = true;
-  double w_critical = 0.0;
+  std::string test;                   // "w (Baarda)", "tau (Pope)" or "none (redundancy < 2)"
+  double w_critical = 0.0;            // critical value of that test at alpha0; 0 when none
   std::vector<std::size_t> suspects;  // worst first
 };
 
