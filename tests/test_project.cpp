@@ -80,6 +80,11 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("![Levelling network"));
   // Markdown punctuation in the text is escaped, not read as markup.
   CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("residual \\|w\\| of each"));
+  // The snooping verdict names its test and says "after the removals" only
+  // when something was removed (the demo removes its planted misreading).
+  CHECK_THAT(read_file(tmp.path() / "report.md"),
+             Contains("No observation fails data snooping (Baarda's w-test, \\|w\\| \\> 3.29 at "
+                      "alpha0 = 0.001) after the removals."));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
 
   std::ifstream record_file(tmp.path() / "run.json");

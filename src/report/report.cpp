@@ -131,8 +131,20 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
     suspects.push_back(
         {r["from"].get<std::string>(), r["to"].get<std::string>(), fixed(r["w"].get<double>(), 2)});
   }
-  doc.paragraph(suspects.empty() ? "No observation fails data snooping after the removals."
-                                 : "Observations still failing data snooping:");
+  // The test as the summary states it: Baarda's w against the normal
+  // critical value at alpha0 per observation.
+  const auto& snooping = s["data_snooping"];
+  const std::string test =
+      fmt::format("Baarda's w-test, |w| > {:.2f} at alpha0 = {:g}",
+                  snooping["w_critical"].get<double>(), snooping["alpha0"].get<double>());
+  if (suspects.empty()) {
+    doc.paragraph(
+        removed.empty()
+            ? fmt::format("No observation fails data snooping ({}).", test)
+            : fmt::format("No observation fails data snooping ({}) after the removals.", test));
+  } else {
+    doc.paragraph(fmt::format("Observations failing data snooping ({}):", test));
+  }
   if (!suspects.empty()) doc.table({"from", "to", "w"}, suspects);
   const Csv heights(run / "adjust" / "heights.csv");
   std::vector<std::vector<std::string>> rows;
