@@ -80,6 +80,14 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("![Levelling network"));
   // Markdown punctuation in the text is escaped, not read as markup.
   CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("residual \\|w\\| of each"));
+  // Regression: the console counted displacements since the first epoch, the
+  // report every significant pair (twice as many); both now say the same.
+  const std::string console_count = " significant displacement(s) since the first epoch";
+  const std::size_t at = run.out.find(console_count);
+  REQUIRE(at != std::string::npos);
+  const std::size_t start = run.out.rfind('\n', at) + 1;
+  const std::string count = run.out.substr(start, at - start);
+  CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("- " + count + console_count));
   // The snooping verdict names its test and says "after the removals" only
   // when something was removed (the demo removes its planted misreading).
   CHECK_THAT(read_file(tmp.path() / "report.md"),

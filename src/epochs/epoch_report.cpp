@@ -162,9 +162,15 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
                          {"mm_per_sqrt_km", options.adjustment.mm_per_sqrt_km},
                          {"mm_per_setup", options.adjustment.mm_per_setup},
                          {"alpha0", options.adjustment.alpha0}};
-  summary["significant_displacements"] =
-      std::count_if(a.displacements.begin(), a.displacements.end(),
-                    [](const Displacement& d) { return d.significant; });
+  // Each count says what it counts: a point and epoch pair appears both
+  // against the first epoch and against the previous one.
+  const auto significant = [&](bool against_first) {
+    return std::count_if(
+        a.displacements.begin(), a.displacements.end(),
+        [&](const Displacement& d) { return d.significant && d.against_first == against_first; });
+  };
+  summary["significant_displacements"] = {{"since_first_epoch", significant(true)},
+                                          {"since_previous_epoch", significant(false)}};
   summary["warnings"] = a.warnings;
   out.open("summary.json") << util::json_text(summary) << '\n';
   out.commit();

@@ -229,10 +229,14 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
     doc.paragraph("Rates (mm per year, weighted least squares over the epochs):");
     doc.table({"point", "epochs", "rate", "sigma", "significant"}, rows);
   }
-  const long significant = s["significant_displacements"].get<long>();
+  // The console's count: displacements since the first epoch, one per point
+  // and later epoch (the same pairs against the previous epoch are not
+  // counted again).
+  const long significant = s["significant_displacements"]["since_first_epoch"].get<long>();
   if (significant > 0) {
     findings.items.push_back(
-        fmt::format("{} significant displacement(s) between epochs; measuring points on "
+        fmt::format("{} significant displacement(s) since the first epoch (a point in a later "
+                    "epoch against the first; epochs/displacements.csv); measuring points on "
                     "monitored points follow them.",
                     significant));
   }
