@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <utility>
 
 #include "levelhead/core/errors.hpp"
 #include "levelhead/heads/density.hpp"
@@ -266,21 +267,21 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
   return at;
 }
 
-HeadRecord evaluate_reading(const ReadingInput& reading, const MeasuringPointAt& mp,
-                            const Well& well, const HeadOptions& options) {
+HeadRecord evaluate_reading(const ReadingInput& reading, MeasuringPointAt mp, const Well& well,
+                            const HeadOptions& options) {
   HeadRecord r;
-  r.mp = mp;
   r.flags = reading.carried_flags;
   r.flags.insert(r.flags.end(), mp.flags.begin(), mp.flags.end());
+  r.mp = std::move(mp);
   const LevelValue& level = reading.level;
   const bool flowing = level.state == "flowing" || level.status == "flowing";
   if (level.depth) {
-    r.head = mp.height - *level.depth;
+    r.head = r.mp.height - *level.depth;
     if (*level.depth < 0.0 && !flowing) r.flags.push_back("water-above-mp");
   } else if (flowing && reading.above) {
-    r.head = mp.height + *reading.above;
+    r.head = r.mp.height + *reading.above;
   }
-  r.sigma = std::hypot(mp.sigma, reading.depth_sigma.value_or(options.depth_sigma));
+  r.sigma = std::hypot(r.mp.sigma, reading.depth_sigma.value_or(options.depth_sigma));
   // Saline wells: the density of this reading, else from its temperature and
   // salinity, else the well's; then the freshwater head at the screen.
   r.density = reading.density;

@@ -311,7 +311,7 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
                     well.id,
                     history.records()[history.records_of(reading.well).front()].valid_from_text));
   }
-  HeadRecord record = evaluate_reading(reading, *mp, well, options);
+  HeadRecord record = evaluate_reading(reading, std::move(*mp), well, options);
   WellState& ws = state[reading.well];
   const std::string repeat_detail = ws.sequence.check(reading.time, record);
   if (!repeat_detail.empty()) {

@@ -39,6 +39,7 @@ struct MeasuringPointAt {
 // Every measuring-point record in the target reference, per well in time
 // order, with the QA of the records (mp-unchecked once per record, mp-changed
 // between surveys).
+// It keeps pointers into `monitored`, which must outlive it.
 class MeasuringPointHistory {
  public:
   MeasuringPointHistory(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
@@ -105,8 +106,8 @@ struct HeadRecord {
 // sigma = hypot(mp sigma, depth sigma), the freshwater and environmental
 // heads for a saline well (density.hpp), and the flags of the reading alone.
 // The reason is left empty: it is decided after the sequence checks.
-HeadRecord evaluate_reading(const ReadingInput& reading, const MeasuringPointAt& mp,
-                            const Well& well, const HeadOptions& options);
+HeadRecord evaluate_reading(const ReadingInput& reading, MeasuringPointAt mp, const Well& well,
+                            const HeadOptions& options);
 
 // The checks that need a well's earlier readings, in table order: duplicate
 // (same time), out-of-order (older than the latest so far), repeat-disagrees
