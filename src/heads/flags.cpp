@@ -1,6 +1,6 @@
 #include "levelhead/heads/flags.hpp"
 
-#include <algorithm>
+#include <unordered_map>
 
 namespace levelhead {
 
@@ -64,12 +64,21 @@ const std::vector<FlagInfo>& head_flags() {
   return table;
 }
 
+std::size_t flag_rank(std::string_view flag) {
+  // Looked up for every flag of every reading: an index by name.
+  static const std::unordered_map<std::string_view, std::size_t> index = [] {
+    std::unordered_map<std::string_view, std::size_t> by_name;
+    for (std::size_t i = 0; i < head_flags().size(); ++i) by_name.emplace(head_flags()[i].name, i);
+    return by_name;
+  }();
+  const auto it = index.find(flag.substr(0, flag.find('(')));
+  return it == index.end() ? head_flags().size() : it->second;
+}
+
 FlagInfo flag_info(std::string_view flag) {
+  const std::size_t rank = flag_rank(flag);
+  if (rank < head_flags().size()) return head_flags()[rank];
   const std::string_view name = flag.substr(0, flag.find('('));
-  const auto& table = head_flags();
-  const auto it =
-      std::find_if(table.begin(), table.end(), [&](const FlagInfo& f) { return f.name == name; });
-  if (it != table.end()) return *it;
   constexpr std::string_view rejected = "-rejected";
   const bool rejects = name.size() > rejected.size() && name.ends_with(rejected);
   return {flag,

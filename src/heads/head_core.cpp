@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <iterator>
 #include <utility>
 
 #include "levelhead/core/errors.hpp"
@@ -270,8 +271,16 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
 HeadRecord evaluate_reading(const ReadingInput& reading, MeasuringPointAt mp, const Well& well,
                             const HeadOptions& options) {
   HeadRecord r;
+  // The reading's carried flags, then the measuring point's, moved (this
+  // runs for every reading: no copy where none is needed).
   r.flags = reading.carried_flags;
-  r.flags.insert(r.flags.end(), mp.flags.begin(), mp.flags.end());
+  if (r.flags.empty()) {
+    r.flags.swap(mp.flags);
+  } else {
+    r.flags.insert(r.flags.end(), std::make_move_iterator(mp.flags.begin()),
+                   std::make_move_iterator(mp.flags.end()));
+  }
+  mp.flags.clear();
   r.mp = std::move(mp);
   const LevelValue& level = reading.level;
   const bool flowing = level.state == "flowing" || level.status == "flowing";
@@ -352,16 +361,18 @@ std::string contouring_reason(const HeadRecord& record) {
   // The first rejection in the table's order (flags.hpp), then any rejection
   // the table does not know (an earlier stage's "-rejected"), in the
   // reading's order.
-  for (const FlagInfo& known : head_flags()) {
-    if (!known.excludes_contouring) continue;
-    for (const std::string& f : record.flags) {
-      if (f == known.name) return f;
+  const std::string* reason = nullptr;
+  std::size_t reason_rank = 0;
+  for (const std::string& f : record.flags) {
+    const std::size_t rank = flag_rank(f);
+    const bool excludes = rank < head_flags().size() ? head_flags()[rank].excludes_contouring
+                                                     : flag_info(f).excludes_contouring;
+    if (excludes && (!reason || rank < reason_rank)) {
+      reason = &f;
+      reason_rank = rank;
     }
   }
-  for (const std::string& f : record.flags) {
-    if (flag_info(f).excludes_contouring) return f;
-  }
-  return "";
+  return reason ? *reason : std::string();
 }
 
 }  // namespace levelhead

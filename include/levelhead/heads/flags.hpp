@@ -15,6 +15,7 @@
 //      it ends in "-rejected" (an earlier stage rejected the reading).
 // Errors: none.
 
+#include <cstddef>
 #include <string_view>
 #include <vector>
 
@@ -49,5 +50,9 @@ const std::vector<FlagInfo>& head_flags();
 // The entry of `flag` (parameter ignored), or the rule for flags the table
 // does not know (see the header comment).
 FlagInfo flag_info(std::string_view flag);
+
+// The position of `flag` in head_flags() (parameter ignored);
+// head_flags().size() for a flag the table does not know.
+std::size_t flag_rank(std::string_view flag);
 
 }  // namespace levelhead

@@ -94,8 +94,8 @@ struct ReadingInput {
 struct HeadRecord {
   std::optional<double> head;  // m, target reference; empty for a state
   double sigma = 0.0;          // m
-  MeasuringPointAt mp;
-  std::string state;  // the reading's state, else its status
+  MeasuringPointAt mp;         // the measuring point used; its flags are in `flags`
+  std::string state;           // the reading's state, else its status
   std::optional<double> density, freshwater_head, environmental_head;  // kg/m^3, m, m
   std::vector<std::string> flags;
   std::string reason;  // why it is not contoured; empty: contoured
