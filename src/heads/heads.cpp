@@ -249,7 +249,8 @@ void write_qa(std::ostream& qa_csv, const QaEntry& e) {
 
 void write_measuring_points(std::ostream& mp_csv, const MeasuringPointHistory& history,
                             std::size_t well_count, const std::string& target) {
-  mp_csv << "well,valid_from,height,sigma,reference,source,method,reason,transform,flags,row\n";
+  mp_csv << "well,valid_from,height,sigma,reference,source,method,reason,transform,flags,row,"
+            "given_height,given_datum\n";
   for (std::size_t w = 0; w < well_count; ++w) {
     for (std::size_t k : history.records_of(w)) {
       const MeasuringPointRecord& m = history.records()[k];
@@ -258,7 +259,8 @@ void write_measuring_points(std::ostream& mp_csv, const MeasuringPointHistory& h
              << fmt::format("{:.4f},{:.4f}", e.height, e.sigma) << ',' << csv_cell(target) << ','
              << csv_cell(e.source) << ',' << csv_cell(m.method) << ',' << csv_cell(m.reason) << ','
              << csv_cell(e.transform) << ',' << csv_cell(fmt::format("{}", fmt::join(e.flags, " ")))
-             << ',' << m.row << '\n';
+             << ',' << m.row << ',' << (m.height ? fmt::format("{:.4f}", *m.height) : std::string())
+             << ',' << csv_cell(m.height ? m.datum : std::string()) << '\n';
     }
   }
 }

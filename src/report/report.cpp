@@ -315,19 +315,15 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c, co
   doc.table({"well", "valid from", "height (m)", "sigma (m)", "source", "reason", "flags"}, rows,
             200);
 
-  // The datum mix-up a naive merge would have made.
-  if (const ReportInput* given = input(c, "measuring_points")) {
-    const Csv original(*given);
+  // The datum mix-up a naive merge would have made: each record's height
+  // as given (in metres, as heads read it) against its converted height.
+  {
     std::map<std::string, std::pair<double, std::set<std::string>>> shift_by_datum;
     for (std::size_t r = 0; r < mps.rows(); ++r) {
-      const auto row = mps.number(r, "row");
       const auto converted = mps.number(r, "height");
-      if (!row || !converted) continue;
-      const std::size_t index = static_cast<std::size_t>(*row) - 2;
-      if (index >= original.rows()) continue;
-      const std::string datum = original.get(index, "datum");
-      const auto height = original.number(index, "height");
-      if (!height || datum.empty() || datum == c.target) continue;
+      const auto height = mps.number(r, "given_height");
+      const std::string datum = mps.get(r, "given_datum");
+      if (!converted || !height || datum.empty() || datum == c.target) continue;
       auto& entry = shift_by_datum[datum];
       entry.first = *converted - *height;
       entry.second.insert(mps.get(r, "well"));
