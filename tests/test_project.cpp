@@ -307,6 +307,9 @@ TEST_CASE(
   };
   CHECK_THAT(flow("ft")["azimuth"]["value"].get<double>(),
              Catch::Matchers::WithinAbs(flow("m")["azimuth"]["value"].get<double>(), 0.5));
+  // The report's datum findings rest on the heights as given (in metres):
+  // the same in both runs (they once re-read the user's table as metres).
+  CHECK_THAT(read_file(tmp.path() / "ft" / "report.md"), Contains("95.250 m too low"));
 }
 
 TEST_CASE("the order of the input tables' rows does not change a result", "[project]") {
