@@ -13,6 +13,7 @@
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/time.hpp"
 #include "levelhead/heads/transducer.hpp"
+#include "levelhead/heads/transducer_core.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;
@@ -265,4 +266,39 @@ TEST_CASE("keep_going sets bad records and manual readings aside in rejects.csv"
     for (std::size_t r = 0; r < levels.row_count(); ++r)
       CHECK(levels.cell(r, *levels.find_column("depth")) != "five");
   }
+}
+
+TEST_CASE("the transducer core: drift between checks and the correction of a reading",
+          "[transducer][core]") {
+  // Invented checks: offsets 10, 30 and 31 mm at t = 0, 1000 and 2000 s.
+  namespace td = levelhead::transducer;
+  td::SensorChecks c;
+  c.checks = {{0.0, 5.0, 4.990, 0.010}, {1000.0, 5.0, 4.970, 0.030}, {2000.0, 5.0, 4.969, 0.031}};
+  // Drifts 20 mm and 1 mm: only the first interval exceeds a 15 mm limit.
+  CHECK_THAT(td::mark_drift(c, 0.015), WithinAbs(0.020, 1e-12));
+  CHECK(c.rejected_after == std::vector<bool>{true, false, false});
+  std::size_t interval = 0;
+  const double gap = 3600.0;
+  const auto at = [&](double time, unsigned& flags) {
+    return td::correction_at(time, c, gap, interval, flags);
+  };
+  unsigned flags = 0;
+  CHECK_THAT(at(-4000.0, flags), WithinAbs(0.010, 1e-15));  // more than the gap before
+  CHECK(flags == td::beyond_checks);
+  flags = 0;
+  CHECK_THAT(at(-10.0, flags), WithinAbs(0.010, 1e-15));  // within the gap: the first offset
+  CHECK(flags == 0);
+  CHECK_THAT(at(500.0, flags), WithinAbs(0.010, 1e-15));  // a rejected interval keeps the earlier
+  CHECK(flags == td::drift_rejected);
+  flags = 0;
+  // A quarter of the way from 1000 to 2000 s: 0.030 + 0.25 * 0.001 = 0.03025 m.
+  CHECK_THAT(at(1250.0, flags), WithinAbs(0.03025, 1e-15));
+  CHECK(flags == 0);
+  CHECK_THAT(at(6000.0, flags), WithinAbs(0.031, 1e-15));  // beyond the last, past the gap
+  CHECK(flags == td::beyond_checks);
+  td::SensorChecks none;
+  std::size_t from = 0;
+  flags = 0;
+  CHECK_THAT(td::correction_at(10.0, none, gap, from, flags), WithinAbs(0.0, 1e-15));
+  CHECK(flags == td::unchecked);
 }

@@ -15,12 +15,15 @@
 #include "levelhead/core/time.hpp"
 #include "levelhead/core/units.hpp"
 #include "levelhead/heads/levels.hpp"
+#include "levelhead/heads/transducer_core.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
 
 namespace levelhead {
+
+using namespace transducer;
 
 void TransducerOptions::validate() const {
   const auto positive = util::require_positive;
@@ -206,22 +209,6 @@ struct ManualReading {
   std::optional<double> depth;
 };
 
-// Flags of a transducer reading, in the order they are written.
-enum ReadingFlag : unsigned {
-  range_rejected = 1u << 0,
-  dry_rejected = 1u << 1,
-  unchecked = 1u << 2,
-  beyond_checks = 1u << 3,
-  drift_rejected = 1u << 4,
-};
-constexpr std::pair<ReadingFlag, const char*> reading_flag_names[] = {
-    {range_rejected, "transducer-range-rejected"},
-    {dry_rejected, "transducer-dry-rejected"},
-    {unchecked, "transducer-unchecked"},
-    {beyond_checks, "transducer-beyond-checks"},
-    {drift_rejected, "transducer-drift-rejected"}};
-constexpr unsigned rejecting_flags = range_rejected | dry_rejected | drift_rejected;
-
 // A reading of a well sensor: raw depth (with the hung depth, or 0 until
 // calibrated), the barometer as water column, and the corrected depth.
 struct Reading {
@@ -267,10 +254,6 @@ const Reading* nearest_valid(const std::vector<Reading>& readings, double time, 
   }
   return best;
 }
-
-struct Check {
-  double time = 0.0, manual = 0.0, transducer = 0.0, offset = 0.0;
-};
 
 // The manual readings as `heads` needs them passed through: every row as
 // given (under levelhead's column names), and the depths that check sensors.
@@ -409,13 +392,7 @@ std::vector<Reading> raw_readings(const Sensor& sensor, const Sensor* baro, cons
 }
 
 // The manual checks of one sensor: offset = manual depth - the nearest valid
-// raw depth; an offset that moves by more than the drift limit between two
-// checks rejects the readings between them.
-struct SensorChecks {
-  std::vector<Check> checks;
-  std::vector<bool> rejected_after;  // per check: the interval after it is rejected
-};
-
+// raw depth.
 SensorChecks find_checks(const std::vector<ManualReading>& manual,
                          const std::vector<Reading>& readings, const TransducerOptions& options,
                          SensorSummary& s) {
@@ -426,12 +403,7 @@ SensorChecks find_checks(const std::vector<ManualReading>& manual,
     if (const Reading* nearest = nearest_valid(readings, m.time, check_gap))
       c.checks.push_back({m.time, *m.depth, nearest->raw, *m.depth - nearest->raw});
   }
-  c.rejected_after.assign(c.checks.size(), false);
-  for (std::size_t i = 1; i < c.checks.size(); ++i) {
-    const double drift = c.checks[i].offset - c.checks[i - 1].offset;
-    if (std::abs(drift) > options.drift_limit) c.rejected_after[i - 1] = true;
-    s.largest_drift = std::max(s.largest_drift, std::abs(drift));
-  }
+  s.largest_drift = mark_drift(c, options.drift_limit);
   s.checks = c.checks.size();
   return c;
 }
@@ -449,37 +421,6 @@ void write_checks(std::ostream& checks_csv, const Sensor& sensor, const SensorCh
                               i ? fmt::format("{:+.4f}", drift) : "")
                << ',' << (c.rejected_after[i] ? "yes" : "no") << '\n';
   }
-}
-
-// The correction of a reading at `time` from the checks: linear between the
-// two around it, the nearest beyond them (flagged beyond-checks when more
-// than the check gap away), the earlier one in a rejected interval (flagged
-// drift-rejected), none without checks (flagged unchecked). `interval` is
-// the index of the check at or before the previous reading (times ascend).
-double correction_at(double time, const SensorChecks& c, double check_gap, std::size_t& interval,
-                     unsigned& flags) {
-  const std::vector<Check>& checks = c.checks;
-  if (checks.empty()) {
-    flags |= unchecked;
-    return 0.0;
-  }
-  if (time <= checks.front().time) {
-    if (time < checks.front().time - check_gap) flags |= beyond_checks;
-    return checks.front().offset;
-  }
-  if (time >= checks.back().time) {
-    if (time > checks.back().time + check_gap) flags |= beyond_checks;
-    return checks.back().offset;
-  }
-  while (checks[interval + 1].time < time) ++interval;
-  if (c.rejected_after[interval]) {
-    flags |= drift_rejected;
-    return checks[interval].offset;
-  }
-  const Check& a = checks[interval];
-  const Check& b = checks[interval + 1];
-  const double f = (time - a.time) / (b.time - a.time);
-  return a.offset + f * (b.offset - a.offset);
 }
 
 void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit unit_of_table,
@@ -514,7 +455,7 @@ void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit uni
     cells[depth_index] = fmt::format("{:.4f}", r.depth / unit);
     cells[sigma_index] = fmt::format("{:.4f}", sensor.sigma.value_or(options.sensor_sigma) / unit);
     cells[method_index] = "transducer";
-    for (const auto& [flag, name] : reading_flag_names) {
+    for (const auto& [flag, name] : flag_names) {
       if (!(r.flags & flag)) continue;
       if (!cells[flags_index].empty()) cells[flags_index] += ' ';
       cells[flags_index] += name;
@@ -656,7 +597,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
       // A pressure outside the sensor's range or below the water gives no
       // depth at all: listed, not written.
       const bool no_depth = (r.flags & (range_rejected | dry_rejected)) != 0;
-      for (const auto& [flag, name] : reading_flag_names) {
+      for (const auto& [flag, name] : flag_names) {
         if (!(r.flags & flag)) continue;
         ++s.flags[name];
         if (flag & rejecting_flags) {
@@ -691,3 +632,46 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
 }
 
 }  // namespace levelhead
+
+namespace levelhead::transducer {
+
+double mark_drift(SensorChecks& c, double drift_limit) {
+  c.rejected_after.assign(c.checks.size(), false);
+  double largest = 0.0;
+  for (std::size_t i = 1; i < c.checks.size(); ++i) {
+    const double drift = c.checks[i].offset - c.checks[i - 1].offset;
+    if (std::abs(drift) > drift_limit) c.rejected_after[i - 1] = true;
+    largest = std::max(largest, std::abs(drift));
+  }
+  return largest;
+}
+
+// Linear interpolation of the check offsets in time (the drift correction
+// of common logger practice), with the flags of transducer_core.hpp.
+double correction_at(double time, const SensorChecks& c, double check_gap, std::size_t& interval,
+                     unsigned& flags) {
+  const std::vector<Check>& checks = c.checks;
+  if (checks.empty()) {
+    flags |= unchecked;
+    return 0.0;
+  }
+  if (time <= checks.front().time) {
+    if (time < checks.front().time - check_gap) flags |= beyond_checks;
+    return checks.front().offset;
+  }
+  if (time >= checks.back().time) {
+    if (time > checks.back().time + check_gap) flags |= beyond_checks;
+    return checks.back().offset;
+  }
+  while (checks[interval + 1].time < time) ++interval;
+  if (c.rejected_after[interval]) {
+    flags |= drift_rejected;
+    return checks[interval].offset;
+  }
+  const Check& a = checks[interval];
+  const Check& b = checks[interval + 1];
+  const double f = (time - a.time) / (b.time - a.time);
+  return a.offset + f * (b.offset - a.offset);
+}
+
+}  // namespace levelhead::transducer
