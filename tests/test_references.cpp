@@ -252,3 +252,30 @@ TEST_CASE("tie points on the corners and edges of their own hull are inside it",
   CHECK_FALSE(read_back.inside_hull(512000.124, 4409500.0));
   CHECK_FALSE(read_back.inside_hull(512500.0, 4409000.499));
 }
+
+TEST_CASE("the tau test of ties without sigmas raises false alarms at its alpha0",
+          "[references][tie][statistics]") {
+  // Simulated blunder-free ties (invented: offset 95.25 m, normal scatter
+  // 3 mm, no sigmas given), 2000 sets of 10: each tie's tau is tested at
+  // alpha0 = 0.001, so about 2000 * 10 * 0.001 = 20 ties are flagged by
+  // chance (binomial, standard deviation 4.5). Accept 5..45 (beyond 3
+  // standard deviations either way).
+  std::mt19937_64 rng(2026);
+  std::normal_distribution<double> noise(0.0, 0.003);
+  std::size_t flagged = 0;
+  for (int set = 0; set < 2000; ++set) {
+    std::vector<TiePoint> ties;
+    for (int i = 0; i < 10; ++i) {
+      TiePoint t;
+      t.id = "T" + std::to_string(i);
+      t.x = 100.0 * i;
+      t.y = 37.0 * (i % 4);
+      t.site_height = 10.0;
+      t.base_height = 105.25 + noise(rng);
+      ties.push_back(t);
+    }
+    flagged += estimate_tie(ties, TieOptions{}).suspects.size();
+  }
+  CHECK(flagged >= 5);
+  CHECK(flagged <= 45);
+}
