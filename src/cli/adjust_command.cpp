@@ -12,6 +12,7 @@
 #include "levelhead/core/units.hpp"
 #include "levelhead/levelling/adjustment.hpp"
 #include "levelhead/levelling/adjustment_report.hpp"
+#include "levelhead/report/stage_results.hpp"
 
 namespace levelhead::cli {
 
@@ -60,15 +61,15 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
   command.add_flag("--quiet", a.quiet, "Print nothing on success");
 }
 
-int adjust_files(const AdjustArguments& a, std::ostream& out) {
+int adjust_files(const AdjustArguments& a, std::ostream& out, StageResults* chain) {
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
   options.validate();
   check_network_input_options(a.inputs);
   if (options_check_only()) return exit_ok;
 
-  const Network network = load_network(a.inputs);
-  const AdjustmentResult result = adjust(network, options);
+  Network network = load_network(a.inputs);
+  AdjustmentResult result = adjust(network, options);
   write_adjustment_outputs(
       network, result, options,
       AdjustmentInputs{a.inputs.points, a.inputs.sections, parse_length_unit(a.inputs.unit)},
@@ -77,7 +78,13 @@ int adjust_files(const AdjustArguments& a, std::ostream& out) {
     out << adjustment_summary_text(network, result);
     out << fmt::format("Wrote heights.csv, residuals.csv and summary.json in {}\n", a.inputs.out);
   }
-  return a.strict && adjustment_has_failed_checks(result) ? exit_checks_failed : exit_ok;
+  const int status =
+      a.strict && adjustment_has_failed_checks(result) ? exit_checks_failed : exit_ok;
+  if (chain) {
+    chain->adjust = AdjustStage{std::move(network), std::move(result), options,
+                                std::filesystem::path(a.inputs.out) / "heights.csv"};
+  }
+  return status;
 }
 
 }  // namespace
@@ -88,7 +95,9 @@ CommandRunner add_adjust_command(CLI::App& app) {
       "adjust", "Least-squares adjustment of a levelling network with blunder checks");
   add_network_input_options(*command, args->inputs);
   add_adjustment_options(*command, *args);
-  return [args](std::ostream& out, std::ostream&) { return adjust_files(*args, out); };
+  return [args](std::ostream& out, std::ostream&, StageResults* chain) {
+    return adjust_files(*args, out, chain);
+  };
 }
 
 }  // namespace levelhead::cli

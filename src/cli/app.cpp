@@ -109,7 +109,7 @@ std::optional<std::string> usage_error(const std::vector<std::string>& args) {
   std::ostream no_output(nullptr);
   try {
     for (const auto& [name, runner] : commands) {
-      if (app.got_subcommand(name)) runner(no_output, no_output);
+      if (app.got_subcommand(name)) runner(no_output, no_output, nullptr);
     }
   } catch (const OptionError& e) {
     return std::string(e.what());
@@ -118,6 +118,11 @@ std::optional<std::string> usage_error(const std::vector<std::string>& args) {
 }
 
 int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err) {
+  return run(args, out, err, nullptr);
+}
+
+int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err,
+        StageResults* chain) {
   CLI::App app{description, "levelhead"};
   const CommandList commands = add_commands(app);
 
@@ -137,7 +142,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   const InputFileScope inputs;
   try {
     for (const auto& [name, runner] : commands) {
-      if (app.got_subcommand(name)) return runner(out, err);
+      if (app.got_subcommand(name)) return runner(out, err, chain);
     }
     return exit_usage;
   } catch (const OptionError& e) {

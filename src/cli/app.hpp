@@ -8,6 +8,10 @@
 #include <string>
 #include <vector>
 
+namespace levelhead {
+struct StageResults;
+}
+
 namespace levelhead::cli {
 
 // 4: the command finished but set records aside (--keep-going, rejects.csv).
@@ -44,6 +48,12 @@ bool options_check_only();
 
 // args[0] is the program name, as in argv.
 int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err);
+
+// One stage of `levelhead run`: as above, and the command takes what it can
+// of its inputs from the earlier stages' results in `chain` and adds its
+// own (stage_results.hpp).
+int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& err,
+        StageResults* chain);
 
 // The exit status of a command that set `rejected` rows aside (--keep-going),
 // saying so on `err`; exit_ok when there were none.

@@ -9,11 +9,14 @@
 
 namespace levelhead {
 class RunFolder;
-}
+struct StageResults;
+}  // namespace levelhead
 
 namespace levelhead::cli {
 
-using CommandRunner = std::function<int(std::ostream& out, std::ostream& err)>;
+// `chain`: the results of the stages before this one in `levelhead run`, to
+// which this stage adds its own (stage_results.hpp); null for a single command.
+using CommandRunner = std::function<int(std::ostream& out, std::ostream& err, StageResults* chain)>;
 
 CommandRunner add_adjust_command(CLI::App& app);
 CommandRunner add_demo_command(CLI::App& app);

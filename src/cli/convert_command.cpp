@@ -52,7 +52,7 @@ CommandRunner add_convert_command(CLI::App& app) {
   c->add_flag("--lenient", a->lenient,
               "Write the points that convert and flag the others instead of failing");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a, unit, out_unit](std::ostream& out, std::ostream&) {
+  return [a, unit, out_unit](std::ostream& out, std::ostream&, StageResults*) {
     const ProjSettings settings = a->refs.settings();
     const ReferenceSet references = a->refs.load();
     HeightConverter converter(a->from, a->to, a->crs, references, settings, a->epoch);

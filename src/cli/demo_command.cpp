@@ -19,7 +19,7 @@ CommandRunner add_demo_command(CLI::App& app) {
   CLI::App* command = app.add_subcommand(
       "demo", "Run levelhead on its built-in demo site: writes the inputs and the results");
   command->add_option("--out", *out_folder, "Output folder")->required();
-  return [out_folder](std::ostream& out, std::ostream& err) {
+  return [out_folder](std::ostream& out, std::ostream& err, StageResults*) {
     const std::filesystem::path folder(*out_folder);
     const std::filesystem::path inputs = folder / "inputs";
     // The demo's inputs live in its run folder, so they go and come with it.

@@ -64,7 +64,7 @@ CommandRunner add_diff_command(CLI::App& app) {
   c->add_option("--tolerance", a->tolerance, "Smallest change of a height or head reported (m)")
       ->capture_default_str();
   c->add_option("--json", a->json, "Also write the differences to this JSON file");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&, StageResults*) {
     if (!(a->tolerance >= 0.0)) throw OptionError("--tolerance must be 0 or more (m)");
     const RunDifference d = compare_runs(a->before, a->after, a->tolerance);
     out << difference_text(d, a->tolerance);

@@ -13,6 +13,7 @@
 #include "levelhead/core/units.hpp"
 #include "levelhead/levelling/epoch_report.hpp"
 #include "levelhead/levelling/epochs.hpp"
+#include "levelhead/report/stage_results.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::cli {
@@ -71,7 +72,7 @@ std::vector<std::string> candidate_marks(const EpochArguments& a, const PointTab
   return marks;
 }
 
-int run_epochs(const EpochArguments& a, std::ostream& out) {
+int run_epochs(const EpochArguments& a, std::ostream& out, StageResults* chain) {
   EpochOptions options = a.options;
   if (a.variance == "pooled") {
     options.variance = VarianceFactor::pooled;
@@ -87,7 +88,7 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
   const PointTable points = read_points(
       read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}, {}}));
   require_point_units(points, unit);
-  const EpochAnalysis analysis =
+  EpochAnalysis analysis =
       analyse_epochs(points, read_epochs(a, unit), candidate_marks(a, points), options);
   write_epoch_outputs(analysis, options, EpochInputs{a.points, a.sections}, a.out);
   if (!a.quiet) {
@@ -97,7 +98,12 @@ int run_epochs(const EpochArguments& a, std::ostream& out) {
         "heights_by_epoch.csv and summary.json in {}\n",
         a.out);
   }
-  return a.strict && epochs_have_failed_checks(analysis) ? exit_checks_failed : exit_ok;
+  const int status = a.strict && epochs_have_failed_checks(analysis) ? exit_checks_failed : exit_ok;
+  if (chain) {
+    chain->epochs =
+        EpochsStage{std::move(analysis), std::filesystem::path(a.out) / "heights_by_epoch.csv"};
+  }
+  return status;
 }
 
 }  // namespace
@@ -154,7 +160,9 @@ CommandRunner add_epochs_command(CLI::App& app) {
   command->add_flag("--strict", a->strict,
                     "Exit with status 3 when an epoch fails its test or a mark moved");
   command->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) { return run_epochs(*a, out); };
+  return [a](std::ostream& out, std::ostream&, StageResults* chain) {
+    return run_epochs(*a, out, chain);
+  };
 }
 
 }  // namespace levelhead::cli

@@ -15,6 +15,7 @@
 #include "levelhead/flow/flow.hpp"
 #include "levelhead/heads/wells.hpp"
 #include "levelhead/references/coordinate_check.hpp"
+#include "levelhead/report/stage_results.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
@@ -61,7 +62,7 @@ CommandRunner add_flow_command(CLI::App& app) {
   c->add_option("--porosity", a->porosity, "Effective porosity range LOW HIGH (0..1)")->expected(2);
   c->add_option("--distance", a->distance, "Distance for the travel time (m)");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) -> int {
+  return [a](std::ostream& out, std::ostream&, StageResults* chain) -> int {
     FlowOptions options;
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
@@ -72,32 +73,51 @@ CommandRunner add_flow_command(CLI::App& app) {
     options.distance = a->distance;
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs}));
-    const Table heads = read_table(a->heads);
-    const std::size_t well_col = heads.require_column("well"),
-                      head_col = heads.require_column("head");
-    const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
     std::vector<FlowWell> used;
-    std::set<std::string> seen;
-    for (std::size_t r = 0; r < heads.row_count(); ++r) {
-      const auto h = heads.height(r, head_col);
-      if (!h) continue;
-      if (contour_col && heads.cell(r, *contour_col) == "no") continue;
-      const std::string id(heads.cell(r, well_col));
-      const auto it = wells.index.find(id);
-      if (it == wells.index.end()) {
-        throw InputError(heads.location(r, well_col), id, "this well is not in the wells table");
+    // Whether a well enters the fit: of the aquifer asked for (the wells table says).
+    const auto in_aquifer = [&](const Well& w) {
+      return a->aquifer.empty() || w.aquifer == a->aquifer;
+    };
+    if (chain && chain->heads && chain->heads->result.event &&
+        names_file(a->heads, chain->heads->written_to)) {
+      // The event's own heads at full precision, one per well.
+      for (const EventHead& h : chain->heads->result.event->heads) {
+        const auto it = wells.index.find(h.well);
+        if (it == wells.index.end()) {
+          throw InputError(a->wells,
+                           fmt::format("well '{}' of the event is not in the wells table", h.well));
+        }
+        if (in_aquifer(wells.wells[it->second]))
+          used.push_back(
+              {h.well, wells.wells[it->second].x, wells.wells[it->second].y, h.head, h.sigma});
       }
-      const Well& w = wells.wells[it->second];
-      if (!a->aquifer.empty() && w.aquifer != a->aquifer) continue;
-      if (!seen.insert(id).second) {
-        throw InputError(heads.location(r, well_col), id,
-                         "a well appears twice: a gradient needs one head per well (use event.csv "
-                         "of levelhead heads --event)");
+    } else {
+      const Table heads = read_table(a->heads);
+      const std::size_t well_col = heads.require_column("well"),
+                        head_col = heads.require_column("head");
+      const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
+      std::set<std::string> seen;
+      for (std::size_t r = 0; r < heads.row_count(); ++r) {
+        const auto h = heads.height(r, head_col);
+        if (!h) continue;
+        if (contour_col && heads.cell(r, *contour_col) == "no") continue;
+        const std::string id(heads.cell(r, well_col));
+        const auto it = wells.index.find(id);
+        if (it == wells.index.end()) {
+          throw InputError(heads.location(r, well_col), id, "this well is not in the wells table");
+        }
+        const Well& w = wells.wells[it->second];
+        if (!in_aquifer(w)) continue;
+        if (!seen.insert(id).second) {
+          throw InputError(heads.location(r, well_col), id,
+                           "a well appears twice: a gradient needs one head per well (use "
+                           "event.csv of levelhead heads --event)");
+        }
+        const double sigma = sigma_col ? heads.sigma(r, *sigma_col).value_or(0.0) : 0.0;
+        used.push_back({id, w.x, w.y, *h, sigma});
       }
-      const double sigma = sigma_col ? heads.sigma(r, *sigma_col).value_or(0.0) : 0.0;
-      used.push_back({id, w.x, w.y, *h, sigma});
     }
-    const FlowResult f = estimate_flow(used, options);
+    FlowResult f = estimate_flow(used, options);
 
     OutputSet files(a->out);
     std::ostream& csv = files.open("flow_wells.csv");
@@ -152,6 +172,7 @@ CommandRunner add_flow_command(CLI::App& app) {
       }
       out << fmt::format("Wrote flow.json and flow_wells.csv in {}\n", a->out);
     }
+    if (chain) chain->flow = FlowStage{std::move(f), used.size(), a->aquifer, options.distance};
     return static_cast<int>(exit_ok);
   };
 }

@@ -17,6 +17,7 @@
 #include "levelhead/core/table.hpp"
 #include "levelhead/references/gnss_check.hpp"
 #include "levelhead/references/height_converter.hpp"
+#include "levelhead/report/stage_results.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 
@@ -54,40 +55,50 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       ->capture_default_str();
   c->add_flag("--strict", a->strict, "Exit with status 3 when a mark is not consistent");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) -> int {
+  return [a](std::ostream& out, std::ostream&, StageResults* chain) -> int {
     const LengthUnit unit = parse_length_unit(a->unit);
     const LengthUnit levelled_unit =
         a->levelled_unit.empty() ? unit : parse_length_unit(a->levelled_unit);
     if (options_check_only()) return exit_ok;
-    const Table levelled = read_table(a->levelled, TableOptions{{}, levelled_unit, {}, {}});
+    // id -> levelled height and sigma (m): the adjustment's own result in
+    // the chain, else the table.
+    std::unordered_map<std::string, std::pair<double, double>> levelled;
+    if (chain && chain->adjust && names_file(a->levelled, chain->adjust->written_to)) {
+      for (const auto& [id, h] : chain->adjust->heights())
+        levelled.emplace(id, std::pair{h.height, h.sigma.value_or(0.0)});
+    } else {
+      const Table table = read_table(a->levelled, TableOptions{{}, levelled_unit, {}, {}});
+      const std::size_t lid = table.require_column("id"), lh = table.require_column("height");
+      const auto ls = table.find_column("sigma");
+      for (std::size_t r = 0; r < table.row_count(); ++r) {
+        if (const auto h = table.height(r, lh)) {
+          levelled.emplace(std::string(table.cell(r, lid)),
+                           std::pair{*h, ls ? table.length(r, *ls).value_or(0.0) : 0.0});
+        }
+      }
+    }
     const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}, a->crs});
-    const std::size_t lid = levelled.require_column("id"), lh = levelled.require_column("height");
-    const auto ls = levelled.find_column("sigma");
     const std::size_t gid = gnss.require_column("id"), gh = gnss.require_column("height");
     const std::size_t gx = gnss.require_column("x"), gy = gnss.require_column("y");
     const auto gs = gnss.find_column("sigma");
-    std::unordered_map<std::string, std::size_t> levelled_rows;
-    for (std::size_t r = 0; r < levelled.row_count(); ++r) {
-      if (levelled.height(r, lh)) levelled_rows.emplace(std::string(levelled.cell(r, lid)), r);
-    }
     std::vector<GnssMark> marks;
     std::vector<PlanePoint> points;
     std::vector<double> heights, level_sigma, gnss_sigma;
     for (std::size_t r = 0; r < gnss.row_count(); ++r) {
-      const auto it = levelled_rows.find(std::string(gnss.cell(r, gid)));
+      const auto it = levelled.find(std::string(gnss.cell(r, gid)));
       const auto h = gnss.height(r, gh);
-      if (it == levelled_rows.end() || !h) continue;
+      if (it == levelled.end() || !h) continue;
       const auto x = gnss.number(r, gx), y = gnss.number(r, gy);
       if (!x || !y)
         throw InputError(gnss.location(r, x ? gy : gx), "", "a GNSS mark needs x and y");
       GnssMark m;
       m.id = std::string(gnss.cell(r, gid));
-      m.levelled = *levelled.length(it->second, lh);
+      m.levelled = it->second.first;
       m.gnss = *h;
       marks.push_back(m);
       points.push_back({*x, *y});
       heights.push_back(*h);
-      level_sigma.push_back(ls ? levelled.length(it->second, *ls).value_or(0.0) : 0.0);
+      level_sigma.push_back(it->second.second);
       gnss_sigma.push_back(gs ? gnss.sigma(r, *gs).value_or(0.0) : 0.0);
     }
     if (marks.empty()) {
@@ -115,7 +126,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       marks[i].sigma = std::sqrt(level_sigma[i] * level_sigma[i] + gnss_sigma[i] * gnss_sigma[i] +
                                  converted[i].variance_added);
     }
-    const GnssCheckResult result = check_gnss_marks(marks, a->tolerance);
+    GnssCheckResult result = check_gnss_marks(marks, a->tolerance);
 
     OutputSet files(a->out);
     std::ostream& csv = files.open("gnss_check.csv");
@@ -158,6 +169,9 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
                          counts["consistent"], a->out);
     }
     const bool all_consistent = counts["consistent"] == marks.size();
+    if (chain) {
+      chain->gnss = GnssStage{std::move(marks), std::move(result), a->gnss_ref, a->levelled_ref};
+    }
     return a->strict && !all_consistent ? exit_checks_failed : exit_ok;
   };
 }

@@ -11,7 +11,9 @@
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/heads/flags.hpp"
+#include "levelhead/heads/head_core.hpp"
 #include "levelhead/heads/heads.hpp"
+#include "levelhead/report/stage_results.hpp"
 
 namespace levelhead::cli {
 
@@ -88,7 +90,7 @@ CommandRunner add_heads_command(CLI::App& app) {
               "Exit with status 3 when a reading carries a flag that needs a look (not merely "
               "information such as outside-synoptic-window)");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream& err) -> int {
+  return [a](std::ostream& out, std::ostream& err, StageResults* chain) -> int {
     HeadOptions options = a->options;
     if (!a->event.empty()) {
       const auto when = parse_iso8601(a->event);
@@ -104,16 +106,27 @@ CommandRunner add_heads_command(CLI::App& app) {
         a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}, a->options.crs}));
     const auto records = read_measuring_points(
         read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}, {}}), wells);
-    const NetworkHeights network =
-        a->adjusted.empty() ? NetworkHeights{} : read_network_heights(read_table(a->adjusted));
+    // In the chain, the adjustment's and the epochs' own results at full
+    // precision; else the files.
+    NetworkHeights network;
+    if (chain && chain->adjust && names_file(a->adjusted, chain->adjust->written_to))
+      network = chain->adjust->heights();
+    else if (!a->adjusted.empty())
+      network = read_network_heights(read_table(a->adjusted));
+    MonitoredHeights monitored;
+    if (chain && chain->epochs && names_file(a->monitored, chain->epochs->written_to))
+      monitored = chain->epochs->monitored();
+    else if (!a->monitored.empty())
+      monitored = read_monitored_heights(read_table(a->monitored));
     const ReferenceSet references = a->refs.load();
     const ProjSettings settings = a->refs.settings();
-    const MonitoredHeights monitored = a->monitored.empty()
-                                           ? MonitoredHeights{}
-                                           : read_monitored_heights(read_table(a->monitored));
-    const HeadsSummary s =
+    HeadSeriesSink series;
+    std::vector<HeadSink*> more_sinks;
+    if (chain) more_sinks.push_back(&series);
+    HeadsResult result =
         compute_heads(wells, records, network, monitored, references, settings, options, a->levels,
-                      table_options, a->out, !a->no_geopackage);
+                      table_options, a->out, !a->no_geopackage, more_sinks);
+    const HeadsSummary& s = result.summary;
     if (!a->quiet) {
       std::vector<std::string> states;
       for (const auto& [state, count] : s.states_by_kind)
@@ -135,8 +148,13 @@ CommandRunner add_heads_command(CLI::App& app) {
     const bool failing = std::any_of(s.flags.begin(), s.flags.end(), [](const auto& flag) {
       return flag_info(flag.first).fails_strict;
     });
-    if (s.rejected > 0) return report_rejected(err, "heads", s.rejected, "reading(s)");
-    return a->strict && failing ? exit_checks_failed : exit_ok;
+    const int status = s.rejected > 0 ? report_rejected(err, "heads", s.rejected, "reading(s)")
+                                      : (a->strict && failing ? exit_checks_failed : exit_ok);
+    if (chain) {
+      chain->heads = HeadsStage{std::move(result), options.target, series.release(),
+                                std::filesystem::path(a->out) / "event.csv"};
+    }
+    return status;
   };
 }
 

@@ -9,6 +9,7 @@
 #include "cli/network_inputs.hpp"
 #include "levelhead/levelling/loop_report.hpp"
 #include "levelhead/levelling/loops.hpp"
+#include "levelhead/report/stage_results.hpp"
 
 namespace levelhead::cli {
 
@@ -40,22 +41,31 @@ CommandRunner add_loops_command(CLI::App& app) {
       ->excludes(k);
   command->add_flag("--strict", args->strict, "Exit with status 3 when a loop fails");
   command->add_flag("--quiet", args->quiet, "Print nothing on success");
-  return [args](std::ostream& out, std::ostream&) {
+  return [args](std::ostream& out, std::ostream&, StageResults* chain) {
     LoopOptions options = args->options;
     if (!args->closure_class.empty()) {
       options.mm_per_sqrt_km = find_tolerance_class(args->closure_class).mm_per_sqrt_km;
     }
     options.validate();
     check_network_input_options(args->inputs);
-    if (options_check_only()) return exit_ok;
+    if (options_check_only()) return static_cast<int>(exit_ok);
     const Network network = load_network(args->inputs);
-    const LoopResult result = find_loops(network, options);
+    LoopResult result = find_loops(network, options);
     write_loop_outputs(network, result, args->inputs.out);
     if (!args->quiet) {
       out << loop_summary_text(network, result);
       out << fmt::format("Wrote loops.csv and summary.json in {}\n", args->inputs.out);
     }
-    return args->strict && result.failed > 0 ? exit_checks_failed : exit_ok;
+    const int status = args->strict && result.failed > 0 ? exit_checks_failed : exit_ok;
+    if (chain) {
+      LoopsStage stage{std::move(result), {}};
+      for (const Loop& loop : stage.result.loops) {
+        std::vector<std::string>& ids = stage.loop_points.emplace_back();
+        for (std::size_t p : loop.points) ids.push_back(network.points[p].id);
+      }
+      chain->loops = std::move(stage);
+    }
+    return status;
   };
 }
 

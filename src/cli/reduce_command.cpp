@@ -9,6 +9,7 @@
 #include "levelhead/core/table.hpp"
 #include "levelhead/levelling/fieldbook.hpp"
 #include "levelhead/levelling/fieldbook_report.hpp"
+#include "levelhead/report/stage_results.hpp"
 
 namespace levelhead::cli {
 
@@ -76,22 +77,25 @@ CommandRunner add_reduce_command(CLI::App& app) {
       ->capture_default_str();
   c->add_flag("--strict", a->strict, "Exit with status 3 when a field check fails");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&, StageResults* chain) {
     FieldBookOptions options = a->options;
     options.double_reading_tolerance = a->double_tolerance_mm * 1e-3;
     options.curvature_refraction = !a->no_curvature;
     options.validate();
     const TableOptions table_options{
         parse_column_map(a->columns), parse_length_unit(a->unit), a->layer, {}};
-    if (options_check_only()) return exit_ok;
+    if (options_check_only()) return static_cast<int>(exit_ok);
     const FieldBook book = read_field_book(read_table(a->field_book, table_options));
-    const FieldBookResult result = reduce_field_book(book, options);
+    FieldBookResult result = reduce_field_book(book, options);
     write_field_book_outputs(book, result, options, a->out);
     if (!a->quiet) {
       out << field_book_summary_text(result);
       out << fmt::format("Wrote sections.csv, setups.csv and summary.json in {}\n", a->out);
     }
-    return a->strict && field_book_has_failed_checks(result) ? exit_checks_failed : exit_ok;
+    const int status =
+        a->strict && field_book_has_failed_checks(result) ? exit_checks_failed : exit_ok;
+    if (chain) chain->reduce = FieldBookStage{std::move(result), book.sights.size()};
+    return status;
   };
 }
 

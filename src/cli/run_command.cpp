@@ -162,6 +162,7 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
   // With --strict a failed QA check does not stop the chain: the work is done
   // and reported, and the run's status says which stages failed their checks.
   std::vector<std::string> failed_checks, rejected_in;
+  StageResults results;  // handed on in memory: to later stages and to the report
   for (std::size_t i = 0; i < stages.size(); ++i) {
     const Stage& stage = stages[i];
     if (progress) err << fmt::format("[{}/{}] {}\n", i + 1, stages.size() + 1, stage.name);
@@ -169,7 +170,7 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
     if (a.verbose) out << fmt::format("levelhead {}\n", fmt::join(stage.args, " "));
     std::vector<std::string> args = {"levelhead"};
     args.insert(args.end(), stage.args.begin(), stage.args.end());
-    const int code = run(args, stage_out, err);
+    const int code = run(args, stage_out, err, &results);
     if (code == exit_checks_failed) {
       failed_checks.push_back(stage.name);
     } else if (code == exit_rejected) {
@@ -187,7 +188,7 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
   if (progress) err << fmt::format("[{}/{}] report\n", stages.size() + 1, stages.size() + 1);
   ReportContext context = report_context(project, stages);
   context.run_time = local_run_time();
-  write_report(context, folder);
+  write_report(context, results, folder);
   open_folder->commit();
   if (!a.quiet) {
     out << fmt::format("\nReport: {} (also report.md); audit record: run.json\n",
@@ -222,7 +223,7 @@ CommandRunner add_run_command(CLI::App& app) {
   c->add_flag("--strict", a->chain.strict,
               "Pass --strict to every stage that has it; run the whole chain, then exit with "
               "status 3 when any stage's QA check failed");
-  return [a](std::ostream& out, std::ostream& err) {
+  return [a](std::ostream& out, std::ostream& err, StageResults*) {
     return run_chain(a->project, a->out, a->chain, out, err, nullptr);
   };
 }

@@ -48,7 +48,7 @@ CommandRunner add_tie_command(CLI::App& app) {
   c->add_option("--base-columns", a->base_columns, "Column map of the base table");
   c->add_flag("--strict", a->strict, "Exit with status 3 when a tie is a suspect");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream&) {
+  return [a](std::ostream& out, std::ostream&, StageResults*) {
     require_reference_name(a->name, "--name");
     try {
       height_unit_of(a->base_reference);

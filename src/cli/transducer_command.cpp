@@ -12,6 +12,7 @@
 #include "levelhead/core/units.hpp"
 #include "levelhead/heads/flags.hpp"
 #include "levelhead/heads/transducer.hpp"
+#include "levelhead/report/stage_results.hpp"
 
 namespace levelhead::cli {
 
@@ -80,7 +81,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_flag("--strict", a->strict,
               "Exit with status 3 when a reading is rejected or left uncomputed");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a](std::ostream& out, std::ostream& err) -> int {
+  return [a](std::ostream& out, std::ostream& err, StageResults* chain) -> int {
     a->options.validate();
     const TableOptions table{{}, parse_length_unit(a->unit), {}, {}};
     for (const std::string* map : {&a->wells_columns, &a->levels_columns}) parse_column_map(*map);
@@ -88,7 +89,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
     const WellSet wells = read_wells(read_table(
         a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}, a->crs}));
     const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}, {}};
-    const TransducerSummary s =
+    TransducerSummary s =
         reduce_transducers(wells, read_table(a->sensors, table), a->records, TableOptions{},
                            read_table(a->levels, levels), a->options, a->out);
     bool problems = false;
@@ -119,8 +120,10 @@ CommandRunner add_transducer_command(CLI::App& app) {
     }
     if (!a->quiet)
       out << fmt::format("Wrote levels.csv, checks.csv, qa.csv and summary.json in {}\n", a->out);
-    if (s.rejected > 0) return report_rejected(err, "transducer", s.rejected, "row(s)");
-    return a->strict && problems ? exit_checks_failed : exit_ok;
+    const int status = s.rejected > 0 ? report_rejected(err, "transducer", s.rejected, "row(s)")
+                                      : (a->strict && problems ? exit_checks_failed : exit_ok);
+    if (chain) chain->transducer = TransducerStage{std::move(s), a->options.gravity};
+    return status;
   };
 }
 

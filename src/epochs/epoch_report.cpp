@@ -164,13 +164,9 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
                          {"alpha0", options.adjustment.alpha0}};
   // Each count says what it counts: a point and epoch pair appears both
   // against the first epoch and against the previous one.
-  const auto significant = [&](bool against_first) {
-    return std::count_if(
-        a.displacements.begin(), a.displacements.end(),
-        [&](const Displacement& d) { return d.significant && d.against_first == against_first; });
-  };
-  summary["significant_displacements"] = {{"since_first_epoch", significant(true)},
-                                          {"since_previous_epoch", significant(false)}};
+  summary["significant_displacements"] = {
+      {"since_first_epoch", significant_displacements(a, true)},
+      {"since_previous_epoch", significant_displacements(a, false)}};
   summary["warnings"] = a.warnings;
   out.open("summary.json") << util::json_text(summary) << '\n';
   out.commit();

@@ -720,4 +720,10 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   return out;
 }
 
+std::size_t significant_displacements(const EpochAnalysis& analysis, bool against_first) {
+  return static_cast<std::size_t>(std::count_if(
+      analysis.displacements.begin(), analysis.displacements.end(),
+      [&](const Displacement& d) { return d.significant && d.against_first == against_first; }));
+}
+
 }  // namespace levelhead

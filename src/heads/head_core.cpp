@@ -375,4 +375,11 @@ std::string contouring_reason(const HeadRecord& record) {
   return reason ? *reason : std::string();
 }
 
+void HeadSeriesSink::write(const Well& well, const ReadingInput& reading,
+                           const HeadRecord& record) {
+  if (!record.head) return;
+  series_[well.id].push_back({reading.time, *record.head,
+                              !record.contour() && record.reason != "outside-synoptic-window"});
+}
+
 }  // namespace levelhead

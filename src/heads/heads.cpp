@@ -135,7 +135,12 @@ MonitoredHeights read_monitored_heights(const Table& t) {
     series.epochs.push_back({when->seconds, *h, sigma ? t.sigma(r, *sigma).value_or(0.0) : 0.0,
                              checked ? read_checked(t, r, *checked) : true});
   }
-  for (auto& [id, series] : out) {
+  order_monitored_epochs(out, t.source());
+  return out;
+}
+
+void order_monitored_epochs(MonitoredHeights& heights, const std::string& source) {
+  for (auto& [id, series] : heights) {
     std::stable_sort(
         series.epochs.begin(), series.epochs.end(),
         [](const MonitoredEpoch& a, const MonitoredEpoch& b) { return a.time < b.time; });
@@ -143,7 +148,7 @@ MonitoredHeights read_monitored_heights(const Table& t) {
     // leave no time between them (a division by zero).
     for (std::size_t i = 1; i < series.epochs.size(); ++i) {
       if (series.epochs[i].time - series.epochs[i - 1].time < 1.0) {
-        throw InputError(t.source(),
+        throw InputError(source,
                          fmt::format("point '{}' has two epochs at {}; epochs must be apart in "
                                      "time (merge them, or correct the dates in `levelhead "
                                      "epochs`)",
@@ -151,7 +156,6 @@ MonitoredHeights read_monitored_heights(const Table& t) {
       }
     }
   }
-  return out;
 }
 
 // Linear in time between the two epochs around `time`, or through the
@@ -247,21 +251,30 @@ void write_qa(std::ostream& qa_csv, const QaEntry& e) {
          << e.flag << ',' << csv_cell(e.detail) << '\n';
 }
 
-void write_measuring_points(std::ostream& mp_csv, const MeasuringPointHistory& history,
-                            std::size_t well_count, const std::string& target) {
-  mp_csv << "well,valid_from,height,sigma,reference,source,method,reason,transform,flags,row,"
-            "given_height,given_datum\n";
+std::vector<MeasuringPointSurvey> measuring_point_surveys(const MeasuringPointHistory& history,
+                                                          std::size_t well_count) {
+  std::vector<MeasuringPointSurvey> surveys;
   for (std::size_t w = 0; w < well_count; ++w) {
     for (std::size_t k : history.records_of(w)) {
-      const MeasuringPointRecord& m = history.records()[k];
       const MeasuringPointElevation& e = history.elevations()[k];
-      mp_csv << csv_cell(m.well) << ',' << csv_cell(m.valid_from_text) << ','
-             << fmt::format("{:.4f},{:.4f}", e.height, e.sigma) << ',' << csv_cell(target) << ','
-             << csv_cell(e.source) << ',' << csv_cell(m.method) << ',' << csv_cell(m.reason) << ','
-             << csv_cell(e.transform) << ',' << csv_cell(fmt::format("{}", fmt::join(e.flags, " ")))
-             << ',' << m.row << ',' << (m.height ? fmt::format("{:.4f}", *m.height) : std::string())
-             << ',' << csv_cell(m.height ? m.datum : std::string()) << '\n';
+      surveys.push_back({history.records()[k], e.height, e.sigma, e.source, e.transform, e.flags});
     }
+  }
+  return surveys;
+}
+
+void write_measuring_points(std::ostream& mp_csv, const std::vector<MeasuringPointSurvey>& surveys,
+                            const std::string& target) {
+  mp_csv << "well,valid_from,height,sigma,reference,source,method,reason,transform,flags,row,"
+            "given_height,given_datum\n";
+  for (const MeasuringPointSurvey& e : surveys) {
+    const MeasuringPointRecord& m = e.record;
+    mp_csv << csv_cell(m.well) << ',' << csv_cell(m.valid_from_text) << ','
+           << fmt::format("{:.4f},{:.4f}", e.height, e.sigma) << ',' << csv_cell(target) << ','
+           << csv_cell(e.source) << ',' << csv_cell(m.method) << ',' << csv_cell(m.reason) << ','
+           << csv_cell(e.transform) << ',' << csv_cell(fmt::format("{}", fmt::join(e.flags, " ")))
+           << ',' << m.row << ',' << (m.height ? fmt::format("{:.4f}", *m.height) : std::string())
+           << ',' << csv_cell(m.height ? m.datum : std::string()) << '\n';
   }
 }
 
@@ -349,23 +362,45 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
 
 // Across wells, for the synoptic event: one head per well (the contourable
 // reading nearest the centre), checked against its neighbours and in nests
-// (event_qa.hpp); event.csv, nests.csv and remeasure.csv. Returns the
-// event's part of summary.json.
-nlohmann::json write_event(
-    const WellSet& wells, const std::vector<WellState>& state,
-    const std::map<std::string, std::vector<std::string>>& history_departures,
-    const HeadOptions& options, OutputSet& out, HeadsSummary& summary) {
-  std::vector<EventHead> event_heads;
+// (event_qa.hpp), and the wells to re-measure.
+HeadEvent synoptic_event(const WellSet& wells, const std::vector<WellState>& state,
+                         const std::map<std::string, std::vector<std::string>>& history_departures,
+                         double centre) {
+  HeadEvent event;
+  event.centre = centre;
   for (const WellState& ws : state) {
-    if (ws.event) event_heads.push_back(*ws.event);
+    if (ws.event) event.heads.push_back(*ws.event);
   }
-  const EventQaResult e = check_event(event_heads, EventQaOptions{});
+  event.checks = check_event(event.heads, EventQaOptions{});
+  for (std::size_t i = 0; i < event.heads.size(); ++i) {
+    const EventCheck& c = event.checks.wells[i];
+    for (const std::string& f : c.flags) {
+      if (f == "neighbour-misfit") {
+        event.remeasure[event.heads[i].well].push_back(
+            fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
+      }
+      if (f == "mp-sigma-large")
+        event.remeasure[event.heads[i].well].push_back(
+            "measuring point too uncertain beside its neighbours");
+    }
+  }
+  for (std::size_t w = 0; w < wells.wells.size(); ++w) {
+    const std::string& id = wells.wells[w].id;
+    if (!state[w].event) event.remeasure[id].push_back("no usable reading in the event window");
+    if (state[w].repeat_problem) event.remeasure[id].push_back("repeat readings disagree");
+    if (const auto d = history_departures.find(id); d != history_departures.end())
+      for (const std::string& departure : d->second) event.remeasure[id].push_back(departure);
+  }
+  return event;
+}
+
+// event.csv, nests.csv and remeasure.csv; returns the event's part of summary.json.
+nlohmann::json write_event(const HeadEvent& event, OutputSet& out) {
   std::ostream& ev = out.open("event.csv");
   ev << "well,time,head,sigma,aquifer,nest,prediction,misfit,flags\n";
-  std::map<std::string, std::vector<std::string>> remeasure;
-  for (std::size_t i = 0; i < event_heads.size(); ++i) {
-    const EventHead& h = event_heads[i];
-    const EventCheck& c = e.wells[i];
+  for (std::size_t i = 0; i < event.heads.size(); ++i) {
+    const EventHead& h = event.heads[i];
+    const EventCheck& c = event.checks.wells[i];
     const int dp = decimals_for(h.sigma);
     ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
        << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ',' << csv_cell(h.aquifer)
@@ -373,58 +408,43 @@ nlohmann::json write_event(
        << (c.prediction ? fmt::format("{:.{}f}", *c.prediction, dp) : "") << ','
        << (c.misfit ? fmt::format("{:+.{}f}", *c.misfit, dp) : "") << ','
        << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
-    for (const std::string& f : c.flags) {
-      if (f == "neighbour-misfit") {
-        remeasure[h.well].push_back(
-            fmt::format("head {:+.3f} m off its neighbours' plane", *c.misfit));
-      }
-      if (f == "mp-sigma-large")
-        remeasure[h.well].push_back("measuring point too uncertain beside its neighbours");
-    }
-  }
-  for (std::size_t w = 0; w < wells.wells.size(); ++w) {
-    if (!state[w].event)
-      remeasure[wells.wells[w].id].push_back("no usable reading in the event window");
-    if (state[w].repeat_problem) remeasure[wells.wells[w].id].push_back("repeat readings disagree");
-    if (const auto d = history_departures.find(wells.wells[w].id); d != history_departures.end())
-      for (const std::string& departure : d->second) remeasure[d->first].push_back(departure);
   }
   std::ostream& nests = out.open("nests.csv");
   nests << "nest,shallow,deep,dh,sigma,direction,significant\n";
-  for (const NestPair& n : e.nests) {
+  for (const NestPair& n : event.checks.nests) {
     nests << csv_cell(n.nest) << ',' << csv_cell(n.shallow) << ',' << csv_cell(n.deep) << ','
           << fmt::format("{:+.4f},{:.4f}", n.dh, n.sigma) << ',' << n.direction << ','
           << (n.significant ? "yes" : "no") << '\n';
   }
   std::ostream& rm = out.open("remeasure.csv");
   rm << "well,reasons\n";
-  for (const auto& [well_id, reasons] : remeasure) {
+  for (const auto& [well_id, reasons] : event.remeasure) {
     rm << csv_cell(well_id) << ',' << csv_cell(fmt::format("{}", fmt::join(reasons, "; "))) << '\n';
   }
-  nlohmann::json event_summary = {{"centre", format_utc(*options.event)},
-                                  {"wells_with_reading", event_heads.size()},
-                                  {"remeasure", remeasure.size()},
-                                  {"nest_pairs", e.nests.size()}};
-  summary.remeasure = remeasure.size();
-  return event_summary;
+  return {{"centre", format_utc(event.centre)},
+          {"wells_with_reading", event.heads.size()},
+          {"remeasure", event.remeasure.size()},
+          {"nest_pairs", event.checks.nests.size()}};
 }
 
 }  // namespace
 
-HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
-                           const NetworkHeights& network, const MonitoredHeights& monitored,
-                           const ReferenceSet& references, const ProjSettings& settings,
-                           const HeadOptions& options, const std::filesystem::path& levels,
-                           const TableOptions& levels_table, const std::filesystem::path& folder,
-                           bool geopackage) {
+HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
+                          const NetworkHeights& network, const MonitoredHeights& monitored,
+                          const ReferenceSet& references, const ProjSettings& settings,
+                          const HeadOptions& options, const std::filesystem::path& levels,
+                          const TableOptions& levels_table, const std::filesystem::path& folder,
+                          bool geopackage, const std::vector<HeadSink*>& more_sinks) {
   options.validate();
   require_metric_target(options.target, references);
   // 1. Every measuring point in the target reference, and its history.
   const MeasuringPointHistory history(wells, records, network, monitored, references, settings,
                                       options);
+  HeadsResult result;
+  result.measuring_points = measuring_point_surveys(history, wells.wells.size());
+  result.measuring_point_qa = history.qa();
   OutputSet out(folder);
-  write_measuring_points(out.open("measuring_points.csv"), history, wells.wells.size(),
-                         options.target);
+  write_measuring_points(out.open("measuring_points.csv"), result.measuring_points, options.target);
   std::optional<HeadsGpkgWriter> gpkg;
   if (geopackage) gpkg.emplace(out.reserve("heads.gpkg"), options.crs, options.target);
   std::ostream& qa_csv = out.open("qa.csv");
@@ -433,9 +453,10 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   HeadsCsvWriter heads_csv(out.open("heads.csv"), history, options.target);
   std::vector<HeadSink*> sinks = {&heads_csv};
   if (gpkg) sinks.push_back(&*gpkg);
+  sinks.insert(sinks.end(), more_sinks.begin(), more_sinks.end());
 
   // 2. Readings, streamed through the core into the sinks.
-  HeadsSummary summary;
+  HeadsSummary& summary = result.summary;
   std::vector<WellState> state(wells.wells.size(), WellState(options));
   std::vector<RejectedRecord> rejects;
   read_table_in_batches(levels, levels_table, 100000, [&](Table& t) {
@@ -472,9 +493,12 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
   }
 
   // 4. Across wells, for the synoptic event.
-  const nlohmann::json event_summary =
-      options.event ? write_event(wells, state, history_departures, options, out, summary)
-                    : nlohmann::json(nullptr);
+  nlohmann::json event_summary = nullptr;
+  if (options.event) {
+    result.event = synoptic_event(wells, state, history_departures, *options.event);
+    summary.remeasure = result.event->remeasure.size();
+    event_summary = write_event(*result.event, out);
+  }
 
   nlohmann::json s;
   s["event"] = event_summary;
@@ -503,7 +527,7 @@ HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPoin
                                           : nlohmann::json(nullptr)}};
   out.open("summary.json") << util::json_text(s) << '\n';
   out.commit();
-  return summary;
+  return result;
 }
 
 }  // namespace levelhead

@@ -37,106 +37,88 @@ struct Findings {
   std::vector<std::string> items;
 };
 
-std::map<std::string, PlacedPoint> read_points(const ReportContext& c) {
-  std::map<std::string, PlacedPoint> points;
-  for (const ReportInput& i : c.inputs) {
-    if (i.role != "points") continue;
-    const Csv t(i);
-    for (std::size_t r = 0; r < t.rows(); ++r) {
-      const auto x = t.number(r, "x"), y = t.number(r, "y");
-      if (x && y) points[t.get(r, "id")] = {*x, *y};
-    }
-  }
-  return points;
-}
+std::string yes_no(bool value) { return value ? "yes" : "no"; }
 
-const ReportInput* input(const ReportContext& c, const std::string& role) {
-  for (const ReportInput& i : c.inputs) {
-    if (i.role == role) return &i;
-  }
-  return nullptr;
-}
-
-void levelling_section(Document& doc, Findings& findings, const ReportContext& c,
-                       const fs::path& run) {
-  if (!fs::exists(run / "adjust")) return;
+void levelling_section(Document& doc, Findings& findings, const StageResults& results) {
+  if (!results.adjust) return;
+  const AdjustStage& adjust = *results.adjust;
+  const Network& net = adjust.network;
+  const AdjustmentResult& a = adjust.result;
   doc.heading(2, "Levelling network");
-  if (fs::exists(run / "reduce" / "summary.json")) {
-    const nlohmann::json r = read_json(run / "reduce" / "summary.json");
-    const auto& n = r["counts"];
+  if (results.reduce) {
+    const FieldBookResult& r = results.reduce->result;
     doc.paragraph(fmt::format(
         "Field book: {} runs, {} setups and {} sights reduced to {} sections; {} setup(s) "
         "and {} section(s) failed a field check (reduce/setups.csv, reduce/sections.csv).",
-        n.value("runs", 0), n.value("setups", 0), n.value("sights", 0), n.value("sections", 0),
-        n.value("failed_setups", 0), n.value("flagged_sections", 0)));
+        r.run_count, r.setups.size(), results.reduce->sights, r.sections.size(), r.failed_setups,
+        r.failed_sections));
   }
-  if (auto map = network_map(read_points(c), run)) {
+  if (auto map = network_map(adjust, results.loops ? &*results.loops : nullptr)) {
     doc.figure("network", *map,
                "Levelling network. Line colour and dash give the normalised residual |w| of each "
                "section after adjustment; failed loops are outlined.");
   }
-  if (fs::exists(run / "loops" / "loops.csv")) {
-    const Csv loops(run / "loops" / "loops.csv");
+  if (results.loops) {
+    const LoopsStage& loops = *results.loops;
     doc.heading(3, "Loop misclosures");
     std::vector<std::vector<std::string>> rows;
-    std::size_t failed = 0;
-    for (std::size_t r = 0; r < loops.rows(); ++r) {
-      failed += loops.get(r, "passed") != "yes";
-      rows.push_back({loops.get(r, "loop"), loops.get(r, "points"), loops.get(r, "length"),
-                      fixed(1000 * loops.number(r, "misclosure").value_or(0), 2),
-                      fixed(1000 * loops.number(r, "tolerance").value_or(0), 2),
-                      loops.get(r, "passed")});
+    for (std::size_t k = 0; k < loops.result.loops.size(); ++k) {
+      const Loop& loop = loops.result.loops[k];
+      rows.push_back({std::to_string(k + 1),
+                      fmt::format("{}", fmt::join(loops.loop_points[k], ">")),
+                      fixed(loop.length, 3), fixed(1000 * loop.misclosure, 2),
+                      fixed(1000 * loop.tolerance, 2), yes_no(loop.passed)});
     }
     doc.table({"loop", "points", "length (m)", "misclosure (mm)", "tolerance (mm)", "passed"},
               rows);
-    if (loops.rows() > 0)
-      doc.figure("loops", loop_chart(loops), "Loop misclosures as a fraction of their tolerance.");
-    if (failed > 0) {
-      findings.items.push_back(fmt::format(
-          "{} of {} levelling loops failed their closure tolerance.", failed, loops.rows()));
+    if (!loops.result.loops.empty())
+      doc.figure("loops", loop_chart(loops.result),
+                 "Loop misclosures as a fraction of their tolerance.");
+    if (loops.result.failed > 0) {
+      findings.items.push_back(
+          fmt::format("{} of {} levelling loops failed their closure tolerance.",
+                      loops.result.failed, loops.result.loops.size()));
     }
   }
-  const nlohmann::json s = read_json(run / "adjust" / "summary.json");
   doc.heading(3, "Adjustment");
   std::vector<std::vector<std::string>> stats = {
-      {"redundancy (dof)", std::to_string(s["dof"].get<long>())},
-      {"sigma0 (a posteriori)", s["sigma0"].is_null() ? "-" : fixed(s["sigma0"].get<double>(), 3)},
-      {"reference of the heights", s.value("reference", std::string())}};
-  if (!s["global_test"].is_null()) {
-    const auto& g = s["global_test"];
+      {"redundancy (dof)", std::to_string(a.dof)},
+      {"sigma0 (a posteriori)", a.sigma0 ? fixed(*a.sigma0, 3) : "-"},
+      {"reference of the heights", a.reference}};
+  if (a.global_test) {
+    const GlobalTest& g = *a.global_test;
     stats.push_back({"global test (chi-square)",
-                     fmt::format("{:.2f} in [{:.2f}, {:.2f}]: {}", g["statistic"].get<double>(),
-                                 g["lower"].get<double>(), g["upper"].get<double>(),
-                                 g["passed"].get<bool>() ? "passed" : "failed")});
+                     fmt::format("{:.2f} in [{:.2f}, {:.2f}]: {}", g.statistic, g.lower, g.upper,
+                                 g.passed ? "passed" : "failed")});
   }
   doc.table({"quantity", "value"}, stats);
   std::vector<std::vector<std::string>> removed;
-  for (const auto& r : s["removals"]) {
-    removed.push_back({std::to_string(r["step"].get<long>()), r["from"].get<std::string>(),
-                       r["to"].get<std::string>(), fixed(r["w"].get<double>(), 1),
-                       std::to_string(r["row"].get<long>())});
+  for (std::size_t k = 0; k < a.removals.size(); ++k) {
+    const Removal& r = a.removals[k];
+    const Section& section = net.sections[r.section];
+    removed.push_back({std::to_string(k + 1), section.from, section.to, fixed(r.w, 1),
+                       std::to_string(section.row)});
     findings.items.push_back(
         fmt::format("Blunder: the section {} -> {} (sections row {}) failed data snooping with w = "
-                    "{:.1f} and was "
-                    "removed; re-level it.",
-                    r["from"].get<std::string>(), r["to"].get<std::string>(), r["row"].get<long>(),
-                    r["w"].get<double>()));
+                    "{:.1f} and was removed; re-level it.",
+                    section.from, section.to, section.row, r.w));
   }
   if (!removed.empty()) {
     doc.paragraph("Sections removed by iterative data snooping (Baarda's w-test), in order:");
     doc.table({"step", "from", "to", "w", "row"}, removed);
   }
   std::vector<std::vector<std::string>> suspects;
-  for (const auto& r : s["suspects"]) {
-    suspects.push_back(
-        {r["from"].get<std::string>(), r["to"].get<std::string>(), fixed(r["w"].get<double>(), 2)});
+  for (const Suspect& s : a.suspects) {
+    if (s.kind == Suspect::Kind::section) {
+      suspects.push_back({net.sections[s.index].from, net.sections[s.index].to, fixed(s.w, 2)});
+    } else {
+      suspects.push_back({"", net.points[s.index].id, fixed(s.w, 2)});
+    }
   }
   // The test as the summary states it: Baarda's w against the normal
   // critical value at alpha0 per observation.
-  const auto& snooping = s["data_snooping"];
-  const std::string test =
-      fmt::format("Baarda's w-test, |w| > {:.2f} at alpha0 = {:g}",
-                  snooping["w_critical"].get<double>(), snooping["alpha0"].get<double>());
+  const std::string test = fmt::format("Baarda's w-test, |w| > {:.2f} at alpha0 = {:g}",
+                                       a.w_critical, adjust.options.alpha0);
   if (suspects.empty()) {
     doc.paragraph(
         removed.empty()
@@ -144,86 +126,83 @@ void levelling_section(Document& doc, Findings& findings, const ReportContext& c
             : fmt::format("No observation fails data snooping ({}) after the removals.", test));
   } else {
     doc.paragraph(fmt::format("Observations failing data snooping ({}):", test));
+    doc.table({"from", "to", "w"}, suspects);
   }
-  if (!suspects.empty()) doc.table({"from", "to", "w"}, suspects);
-  const Csv heights(run / "adjust" / "heights.csv");
   std::vector<std::vector<std::string>> rows;
-  for (std::size_t r = 0; r < heights.rows(); ++r) {
-    rows.push_back({heights.get(r, "id"), heights.get(r, "height"), heights.get(r, "sigma"),
-                    heights.get(r, "control")});
+  for (const AdjustedPoint& p : a.points) {
+    rows.push_back({net.points[p.point].id, fixed(p.height, 5), p.sigma ? fixed(*p.sigma, 5) : "",
+                    to_string(p.control)});
   }
   doc.paragraph("Adjusted heights (m):");
   doc.table({"point", "height", "sigma", "control"}, rows);
 }
 
-void gnss_section(Document& doc, Findings& findings, const fs::path& run) {
-  if (!fs::exists(run / "gnss-check" / "gnss_check.csv")) return;
-  const nlohmann::json s = read_json(run / "gnss-check" / "summary.json");
-  const Csv marks(run / "gnss-check" / "gnss_check.csv");
+void gnss_section(Document& doc, Findings& findings, const StageResults& results) {
+  if (!results.gnss) return;
+  const GnssStage& g = *results.gnss;
   doc.heading(2, "GNSS heights against the levelling");
-  doc.paragraph(fmt::format(
-      "GNSS heights ({}) brought into {} through the references, against the adjusted "
-      "heights of the same marks; the differences are the residuals of the tie.",
-      s["gnss_reference"].get<std::string>(), s["levelled_reference"].get<std::string>()));
+  doc.paragraph(
+      fmt::format("GNSS heights ({}) brought into {} through the references, against the adjusted "
+                  "heights of the same marks; the differences are the residuals of the tie.",
+                  g.gnss_reference, g.levelled_reference));
   std::vector<std::vector<std::string>> rows;
   std::size_t failing = 0;
-  for (std::size_t r = 0; r < marks.rows(); ++r) {
-    const std::string verdict = marks.get(r, "verdict");
-    failing += verdict != "consistent";
-    rows.push_back({marks.get(r, "id"), marks.get(r, "levelled"), marks.get(r, "gnss_converted"),
-                    fixed(1000 * marks.number(r, "difference").value_or(0), 1),
-                    fixed(1000 * marks.number(r, "sigma").value_or(0), 1), verdict});
+  for (std::size_t i = 0; i < g.marks.size(); ++i) {
+    const GnssCheck& check = g.result.marks[i];
+    failing += check.verdict != GnssVerdict::consistent;
+    rows.push_back({g.marks[i].id, fixed(g.marks[i].levelled, 4),
+                    fixed(g.marks[i].gnss_converted, 4), fixed(1000 * check.difference, 1),
+                    fixed(1000 * g.marks[i].sigma, 1), to_string(check.verdict)});
   }
   doc.table(
       {"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)", "verdict"},
       rows);
   if (failing > 0) {
-    findings.items.push_back(fmt::format(
-        "{} of {} marks disagree between GNSS and levelling (gnss-check).", failing, marks.rows()));
+    findings.items.push_back(
+        fmt::format("{} of {} marks disagree between GNSS and levelling (gnss-check).", failing,
+                    g.marks.size()));
   }
 }
 
-void monitoring_section(Document& doc, Findings& findings, const fs::path& run) {
-  if (!fs::exists(run / "epochs" / "summary.json")) return;
-  const nlohmann::json s = read_json(run / "epochs" / "summary.json");
+void monitoring_section(Document& doc, Findings& findings, const StageResults& results) {
+  if (!results.epochs) return;
+  const EpochAnalysis& e = results.epochs->analysis;
   doc.heading(2, "Monitoring epochs");
   std::vector<std::vector<std::string>> rows;
-  for (const auto& e : s["epochs"]) {
-    rows.push_back({e["name"].get<std::string>(), e["first_date"].get<std::string>(),
-                    e["last_date"].get<std::string>(), std::to_string(e["sections"].get<long>()),
-                    e["sigma0"].is_null() ? "-" : fixed(e["sigma0"].get<double>(), 2),
-                    e["global_test"].is_null()               ? "none"
-                    : e["global_test"]["passed"].get<bool>() ? "passed"
-                                                             : "failed"});
+  for (const EpochQuality& q : e.epochs) {
+    rows.push_back({q.name, q.first_date, q.last_date, std::to_string(q.sections),
+                    q.sigma0 ? fixed(*q.sigma0, 2) : "-",
+                    !q.global_test          ? "none"
+                    : q.global_test->passed ? "passed"
+                                            : "failed"});
   }
   doc.table({"epoch", "from", "to", "sections", "sigma0", "global test"}, rows);
-  const auto& first = s["congruence_tests"][0];
-  doc.paragraph(fmt::format(
-      "Global congruence test of the candidate reference marks: {} = {:.3f} against {:.3f}: {}.",
-      first["distribution"].get<std::string>(), first["statistic"].get<double>(),
-      first["critical"].get<double>(), first["passed"].get<bool>() ? "passed" : "failed"));
+  if (!e.tests.empty()) {
+    const CongruenceTest& first = e.tests.front();
+    doc.paragraph(fmt::format(
+        "Global congruence test of the candidate reference marks: {} = {:.3f} against {:.3f}: {}.",
+        first.distribution, first.statistic, first.critical, first.passed ? "passed" : "failed"));
+  }
   rows.clear();
-  for (const auto& m : s["marks"]) {
-    rows.push_back({m["mark"].get<std::string>(), m["verdict"].get<std::string>(),
-                    m["reason"].get<std::string>()});
-    if (m["verdict"] != "stable") {
+  for (const MarkVerdict& m : e.marks) {
+    rows.push_back({m.mark, to_string(m.kind), m.reason});
+    if (m.kind != MarkVerdict::Kind::stable) {
       findings.items.push_back(
-          fmt::format("Reference mark {} is {}: {}", m["mark"].get<std::string>(),
-                      m["verdict"].get<std::string>(), m["reason"].get<std::string>()));
+          fmt::format("Reference mark {} is {}: {}", m.mark, to_string(m.kind), m.reason));
     }
   }
   doc.table({"mark", "verdict", "reason"}, rows);
-  const Csv moves(run / "epochs" / "displacements.csv");
-  const std::string last = s["epochs"].back()["name"].get<std::string>();
-  doc.figure("displacements", displacement_chart(moves, last),
-             fmt::format("Displacement of every point from the first epoch to {} (mm); solid red: "
-                         "significant, grey: stable reference mark.",
-                         last));
-  const Csv rates(run / "epochs" / "rates.csv");
+  if (!e.epochs.empty()) {
+    const std::string& last = e.epochs.back().name;
+    doc.figure("displacements", displacement_chart(e),
+               fmt::format("Displacement of every point from the first epoch to {} (mm); solid "
+                           "red: significant, grey: stable reference mark.",
+                           last));
+  }
   rows.clear();
-  for (std::size_t r = 0; r < rates.rows(); ++r) {
-    rows.push_back({rates.get(r, "point"), rates.get(r, "epochs"), rates.get(r, "rate_mm_per_year"),
-                    rates.get(r, "sigma_mm_per_year"), rates.get(r, "significant")});
+  for (const Rate& r : e.rates) {
+    rows.push_back({r.point, std::to_string(r.epochs), fixed(1000 * r.rate, 3),
+                    fixed(1000 * r.sigma, 3), yes_no(r.significant)});
   }
   if (!rows.empty()) {
     doc.paragraph("Rates (mm per year, weighted least squares over the epochs):");
@@ -232,24 +211,19 @@ void monitoring_section(Document& doc, Findings& findings, const fs::path& run) 
   // The console's count: displacements since the first epoch, one per point
   // and later epoch (the same pairs against the previous epoch are not
   // counted again).
-  const long significant = s["significant_displacements"]["since_first_epoch"].get<long>();
-  if (significant > 0) {
+  if (const std::size_t significant = significant_displacements(e, true); significant > 0) {
     findings.items.push_back(
         fmt::format("{} significant displacement(s) since the first epoch (a point in a later "
                     "epoch against the first; epochs/displacements.csv); measuring points on "
                     "monitored points follow them.",
                     significant));
   }
-  for (const auto& w : s["warnings"])
-    findings.items.push_back("Monitoring: " + w.get<std::string>());
+  for (const std::string& w : e.warnings) findings.items.push_back("Monitoring: " + w);
 }
 
 // Rows a stage set aside with --keep-going: its results rest on the others.
-void set_aside_finding(Findings& findings, const nlohmann::json& summary, const std::string& stage,
+void set_aside_finding(Findings& findings, std::size_t rejected, const std::string& stage,
                        const std::string& what) {
-  const nlohmann::json* counted = &summary;
-  if (summary.contains("counts")) counted = &summary["counts"];
-  const std::size_t rejected = counted->value("rejected", std::size_t{0});
   if (rejected == 0) return;
   findings.items.push_back(
       fmt::format("{}: {} {} could not be read and were set aside ({}/rejects.csv, each with its "
@@ -257,169 +231,147 @@ void set_aside_finding(Findings& findings, const nlohmann::json& summary, const 
                   stage, rejected, what, stage));
 }
 
-void transducer_section(Document& doc, Findings& findings, const fs::path& run) {
-  if (!fs::exists(run / "transducer" / "summary.json")) return;
-  const nlohmann::json s = read_json(run / "transducer" / "summary.json");
+void transducer_section(Document& doc, Findings& findings, const StageResults& results) {
+  if (!results.transducer) return;
+  const TransducerStage& t = *results.transducer;
   doc.heading(2, "Pressure transducers");
   doc.paragraph(
       fmt::format("Depth to water = hung depth - water pressure / (rho g) + offset from the tape "
                   "checks, linear in time between checks; g = {} m/s^2.",
-                  s["options"]["gravity_m_s2"].get<double>()));
+                  t.gravity));
   std::vector<std::vector<std::string>> rows;
-  for (const auto& sensor : s["sensors"]) {
+  for (const SensorSummary& sensor : t.summary.sensors) {
     std::size_t rejected = 0;
     std::vector<std::string> flags;
-    for (const auto& [flag, count] : sensor["flags"].items()) {
-      flags.push_back(fmt::format("{} {}", flag, count.get<long>()));
-      if (flag.find("-rejected") != std::string::npos || flag == "baro-gap")
-        rejected += count.get<std::size_t>();
+    for (const auto& [flag, count] : sensor.flags) {
+      flags.push_back(fmt::format("{} {}", flag, count));
+      if (flag.find("-rejected") != std::string::npos || flag == "baro-gap") rejected += count;
     }
-    const auto& be = sensor["barometric_efficiency"];
-    rows.push_back({sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(),
-                    sensor["kind"].get<std::string>(),
-                    std::to_string(sensor["written"].get<long>()),
-                    std::to_string(sensor["checks"].get<long>()),
-                    fixed(1000 * sensor["largest_drift_m"].get<double>(), 1),
-                    be.is_null() ? "-"
-                                 : fmt::format("{:.2f} +- {:.2f}", be["value"].get<double>(),
-                                               be["sigma"].get<double>()),
-                    fmt::format("{:g}", sensor["density_kg_m3"].get<double>()),
+    const auto& be = sensor.efficiency;
+    rows.push_back({sensor.sensor, sensor.well, sensor.kind, std::to_string(sensor.written),
+                    std::to_string(sensor.checks), fixed(1000 * sensor.largest_drift, 1),
+                    be ? fmt::format("{:.2f} +- {:.2f}", be->value, be->sigma) : "-",
+                    fmt::format("{:g}", sensor.density),
                     fmt::format("{}", fmt::join(flags, ", "))});
     if (rejected > 0) {
-      findings.items.push_back(fmt::format(
-          "Transducer {} in {}: {} reading(s) rejected or left uncomputed "
-          "(transducer/qa.csv).",
-          sensor["sensor"].get<std::string>(), sensor["well"].get<std::string>(), rejected));
+      findings.items.push_back(
+          fmt::format("Transducer {} in {}: {} reading(s) rejected or left uncomputed "
+                      "(transducer/qa.csv).",
+                      sensor.sensor, sensor.well, rejected));
     }
   }
   doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)",
              "barometric efficiency", "rho (kg/m^3)", "flags"},
             rows);
-  set_aside_finding(findings, s, "transducer", "record(s) or tape reading(s)");
+  set_aside_finding(findings, t.summary.rejected, "transducer", "record(s) or tape reading(s)");
 }
 
-void heads_section(Document& doc, Findings& findings, const ReportContext& c, const fs::path& run,
-                   std::optional<QuickContours>& contours) {
-  if (!fs::exists(run / "heads" / "summary.json")) return;
-  const nlohmann::json s = read_json(run / "heads" / "summary.json");
-  set_aside_finding(findings, s, "heads", "reading(s)");
-  const Csv mps(run / "heads" / "measuring_points.csv");
+// The datum mix-up a naive merge would have made: each record's height as
+// given (in metres, as heads read it) against its converted height.
+void datum_mix_up_findings(Findings& findings, const HeadsStage& heads) {
+  std::map<std::string, std::pair<double, std::set<std::string>>> shift_by_datum;
+  for (const MeasuringPointSurvey& m : heads.result.measuring_points) {
+    const MeasuringPointRecord& r = m.record;
+    if (!r.height || r.datum.empty() || r.datum == heads.target) continue;
+    auto& entry = shift_by_datum[r.datum];
+    entry.first = m.height - *r.height;
+    entry.second.insert(r.well);
+  }
+  for (const auto& [datum, entry] : shift_by_datum) {
+    if (std::abs(entry.first) < 0.01) continue;
+    findings.items.push_back(
+        fmt::format("Datum mix-up avoided: the measuring points of {} well(s) were surveyed on "
+                    "'{}'; merged with heights in {} as if in one reference, their heads would be "
+                    "{:.3f} m too {}.",
+                    entry.second.size(), datum, heads.target, std::abs(entry.first),
+                    entry.first > 0 ? "low" : "high"));
+  }
+}
+
+void flow_table(Document& doc, Findings& findings, const FlowStage& flow) {
+  const FlowResult& f = flow.result;
+  std::vector<std::vector<std::string>> rows = {
+      {"hydraulic gradient (m/m)", fmt::format("{:.2e} +- {:.1e}", f.gradient, f.gradient_sigma)},
+      {"flow direction (degrees from grid north)",
+       fmt::format("{:.1f} +- {:.1f}", f.azimuth, f.azimuth_sigma)},
+      {"wells in the fit", std::to_string(flow.wells)}};
+  if (f.velocity) {
+    rows.push_back(
+        {"average linear velocity (m/day)",
+         fmt::format("{:.2g} to {:.2g}", 86400 * f.velocity->low, 86400 * f.velocity->high)});
+  }
+  if (f.travel_time && flow.distance) {
+    rows.push_back({fmt::format("travel time over {:g} m (years)", *flow.distance),
+                    fmt::format("{:.2g} to {:.2g}", f.travel_time->low / 3.15576e7,
+                                f.travel_time->high / 3.15576e7)});
+  }
+  doc.table({"flow", "value"}, rows);
+  findings.items.push_back(
+      fmt::format("Groundwater flows towards {:.0f} degrees (grid) with a gradient of {:.1e}.",
+                  f.azimuth, f.gradient));
+}
+
+void heads_section(Document& doc, Findings& findings, const ReportContext& c,
+                   const StageResults& results, std::optional<QuickContours>& contours) {
+  if (!results.heads) return;
+  const HeadsStage& heads = *results.heads;
+  const HeadsSummary& s = heads.result.summary;
+  set_aside_finding(findings, s.rejected, "heads", "reading(s)");
   doc.heading(2, "Measuring points");
-  doc.paragraph(fmt::format("Every measuring-point survey brought into {}:", c.target));
+  doc.paragraph(fmt::format("Every measuring-point survey brought into {}:", heads.target));
   std::vector<std::vector<std::string>> rows;
-  for (std::size_t r = 0; r < mps.rows(); ++r) {
-    rows.push_back({mps.get(r, "well"), mps.get(r, "valid_from"), mps.get(r, "height"),
-                    mps.get(r, "sigma"), mps.get(r, "source"), mps.get(r, "reason"),
-                    mps.get(r, "flags")});
+  for (const MeasuringPointSurvey& m : heads.result.measuring_points) {
+    rows.push_back({m.record.well, m.record.valid_from_text, fixed(m.height, 4), fixed(m.sigma, 4),
+                    m.source, m.record.reason, fmt::format("{}", fmt::join(m.flags, " "))});
   }
   doc.table({"well", "valid from", "height (m)", "sigma (m)", "source", "reason", "flags"}, rows,
             200);
-
-  // The datum mix-up a naive merge would have made: each record's height
-  // as given (in metres, as heads read it) against its converted height.
-  {
-    std::map<std::string, std::pair<double, std::set<std::string>>> shift_by_datum;
-    for (std::size_t r = 0; r < mps.rows(); ++r) {
-      const auto converted = mps.number(r, "height");
-      const auto height = mps.number(r, "given_height");
-      const std::string datum = mps.get(r, "given_datum");
-      if (!converted || !height || datum.empty() || datum == c.target) continue;
-      auto& entry = shift_by_datum[datum];
-      entry.first = *converted - *height;
-      entry.second.insert(mps.get(r, "well"));
-    }
-    for (const auto& [datum, entry] : shift_by_datum) {
-      if (std::abs(entry.first) < 0.01) continue;
-      findings.items.push_back(
-          fmt::format("Datum mix-up avoided: the measuring points of {} well(s) were surveyed on "
-                      "'{}'; merged with "
-                      "heights in {} as if in one reference, their heads would be {:.3f} m too {}.",
-                      entry.second.size(), datum, c.target, std::abs(entry.first),
-                      entry.first > 0 ? "low" : "high"));
-    }
-  }
+  datum_mix_up_findings(findings, heads);
 
   // Measuring points on levelling that no redundant observation checks.
-  if (fs::exists(run / "heads" / "qa.csv")) {
-    const Csv qa(run / "heads" / "qa.csv");
-    std::set<std::string> wells;
-    for (std::size_t r = 0; r < qa.rows(); ++r) {
-      if (qa.get(r, "flag") == "mp-unchecked") wells.insert(qa.get(r, "well"));
-    }
-    if (!wells.empty()) {
-      findings.items.push_back(fmt::format(
-          "Unchecked levelling: the measuring point(s) of {} rest on a side shot or spur that no "
-          "loop checks, so a blunder there would not show (heads/qa.csv); level a loop through "
-          "them.",
-          fmt::join(wells, ", ")));
-    }
+  std::set<std::string> unchecked;
+  for (const QaEntry& e : heads.result.measuring_point_qa) {
+    if (e.flag == "mp-unchecked") unchecked.insert(e.well);
+  }
+  if (!unchecked.empty()) {
+    findings.items.push_back(fmt::format(
+        "Unchecked levelling: the measuring point(s) of {} rest on a side shot or spur that no "
+        "loop checks, so a blunder there would not show (heads/qa.csv); level a loop through "
+        "them.",
+        fmt::join(unchecked, ", ")));
   }
 
   doc.heading(2, "Heads");
-  const auto& counts = s["counts"];
-  doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.",
-                            counts.value("readings", 0), counts.value("heads", 0), c.target,
-                            counts.value("contourable", 0)));
-  if (fs::exists(run / "heads" / "event.csv")) {
-    const Csv event(run / "heads" / "event.csv");
-    if (const ReportInput* w = input(c, "wells")) {
-      const Csv wells(*w);
-      if (auto map =
-              head_map(event, wells, run / "flow" / "flow.json", c.contour_interval, contours)) {
-        doc.figure(
-            "heads", *map,
-            "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
-            "used, quick-look contours (dashed; linear between wells, also in contours.gpkg) and "
-            "the flow direction from the planar fit (arrow); squares: wells of other aquifers, "
-            "not contoured. A quick look, not a contour map for decisions.");
-      }
+  doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.", s.readings,
+                            s.heads, heads.target, s.contourable));
+  const FlowStage* flow = results.flow ? &*results.flow : nullptr;
+  if (heads.result.event) {
+    if (auto map = head_map(*heads.result.event, flow, c.contour_interval, contours)) {
+      doc.figure(
+          "heads", *map,
+          "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
+          "used, quick-look contours (dashed; linear between wells, also in contours.gpkg) and "
+          "the flow direction from the planar fit (arrow); squares: wells of other aquifers, "
+          "not contoured. A quick look, not a contour map for decisions.");
     }
   }
-  if (fs::exists(run / "flow" / "flow.json")) {
-    const nlohmann::json f = read_json(run / "flow" / "flow.json");
-    std::vector<std::vector<std::string>> flow = {
-        {"hydraulic gradient (m/m)",
-         fmt::format("{:.2e} +- {:.1e}", f["gradient"]["value"].get<double>(),
-                     f["gradient"]["sigma"].get<double>())},
-        {"flow direction (degrees from grid north)",
-         fmt::format("{:.1f} +- {:.1f}", f["azimuth"]["value"].get<double>(),
-                     f["azimuth"]["sigma"].get<double>())},
-        {"wells in the fit", std::to_string(f["wells"].get<long>())}};
-    if (f.contains("darcy")) {
-      const auto& d = f["darcy"];
-      flow.push_back(
-          {"average linear velocity (m/day)",
-           fmt::format("{:.2g} to {:.2g}", 86400 * d["velocity_m_per_s"]["low"].get<double>(),
-                       86400 * d["velocity_m_per_s"]["high"].get<double>())});
-      flow.push_back(
-          {fmt::format("travel time over {:g} m (years)", d["distance_m"].get<double>()),
-           fmt::format("{:.2g} to {:.2g}", d["travel_time_s"]["low"].get<double>() / 3.15576e7,
-                       d["travel_time_s"]["high"].get<double>() / 3.15576e7)});
-    }
-    doc.table({"flow", "value"}, flow);
-    findings.items.push_back(
-        fmt::format("Groundwater flows towards {:.0f} degrees (grid) with a gradient of {:.1e}.",
-                    f["azimuth"]["value"].get<double>(), f["gradient"]["value"].get<double>()));
-  }
-  const Csv heads(run / "heads" / "heads.csv");
-  if (auto figure = hydrographs(heads, mps)) {
+  if (flow) flow_table(doc, findings, *flow);
+  if (auto figure = hydrographs(heads.series, heads.result.measuring_points)) {
     doc.figure("hydrographs", *figure,
                "Heads over time per well; dashed red lines mark measuring-point changes.");
   }
   doc.heading(2, "QA flags and re-measure list");
   rows.clear();
-  for (const auto& [flag, count] : s["flags"].items())
-    rows.push_back({flag, std::to_string(count.get<long>())});
+  for (const auto& [flag, count] : s.flags) rows.push_back({flag, std::to_string(count)});
   if (rows.empty()) {
     doc.paragraph("No reading was flagged.");
   } else {
     doc.table({"flag", "readings"}, rows);
   }
-  if (fs::exists(run / "heads" / "remeasure.csv")) {
-    const Csv re(run / "heads" / "remeasure.csv");
+  if (heads.result.event) {
     rows.clear();
-    for (std::size_t r = 0; r < re.rows(); ++r)
-      rows.push_back({re.get(r, "well"), re.get(r, "reasons")});
+    for (const auto& [well, reasons] : heads.result.event->remeasure)
+      rows.push_back({well, fmt::format("{}", fmt::join(reasons, "; "))});
     doc.paragraph(rows.empty() ? "No well needs re-measuring."
                                : "Wells to re-measure before contouring:");
     if (!rows.empty()) {
@@ -538,16 +490,16 @@ std::string configuration_hash(const ReportContext& c) {
   return text_sha256(text);
 }
 
-void write_report(const ReportContext& c, const fs::path& folder) {
+void write_report(const ReportContext& c, const StageResults& results, const fs::path& folder) {
   const std::string hash = configuration_hash(c);
   Document body;
   Findings findings;
-  levelling_section(body, findings, c, folder);
-  gnss_section(body, findings, folder);
-  monitoring_section(body, findings, folder);
-  transducer_section(body, findings, folder);
+  levelling_section(body, findings, results);
+  gnss_section(body, findings, results);
+  monitoring_section(body, findings, results);
+  transducer_section(body, findings, results);
   std::optional<QuickContours> contours;
-  heads_section(body, findings, c, folder, contours);
+  heads_section(body, findings, c, results, contours);
   inputs_section(body, c, hash);
   body.heading(2, "Cautions");
   body.bullets(cautions());

@@ -3,37 +3,9 @@
 #include <gdal.h>
 #include <proj.h>
 
-#include <fstream>
 #include <string_view>
 
-#include "levelhead/core/errors.hpp"
-
 namespace levelhead::report {
-
-nlohmann::json read_json(const fs::path& path) {
-  std::ifstream in(path);
-  if (!in) throw InputError(path.string(), "cannot read this stage output");
-  try {
-    return nlohmann::json::parse(in);
-  } catch (const nlohmann::json::exception& e) {
-    throw InputError(path.string(), std::string("not valid JSON: ") + e.what());
-  }
-}
-
-std::vector<std::string> split(const std::string& text, char separator) {
-  std::vector<std::string> out;
-  std::string item;
-  for (char c : text) {
-    if (c == separator) {
-      out.push_back(item);
-      item.clear();
-    } else {
-      item += c;
-    }
-  }
-  out.push_back(item);
-  return out;
-}
 
 // Text taken literally in Markdown: ids and file names may hold characters
 // that Markdown reads as markup or HTML (CommonMark lets any ASCII

@@ -1,52 +1,21 @@
 #pragma once
 // Rendering of the report: one document written as Markdown and as
-// self-contained HTML, and the readers of stage outputs it is built from.
+// self-contained HTML.
 
 #include <fmt/format.h>
 
 #include <filesystem>
-#include <nlohmann/json.hpp>
 #include <optional>
 #include <string>
 #include <utility>
 #include <vector>
 
-#include "levelhead/core/table.hpp"
 #include "levelhead/report/report.hpp"
 #include "report/svg.hpp"
 
 namespace levelhead::report {
 
 namespace fs = std::filesystem;
-
-// A stage's CSV output, read by column name.
-class Csv {
- public:
-  explicit Csv(const fs::path& path) : table_(read_table(path)) {}
-  // An input of the project, read with its column map.
-  explicit Csv(const ReportInput& input)
-      : table_(
-            read_table(input.resolved,
-                       TableOptions{parse_column_map(input.columns), LengthUnit::metre, {}, {}})) {}
-  std::size_t rows() const { return table_.row_count(); }
-  bool has(const std::string& column) const { return table_.find_column(column).has_value(); }
-  std::string get(std::size_t row, const std::string& column) const {
-    const auto c = table_.find_column(column);
-    return c ? std::string(table_.cell(row, *c)) : std::string();
-  }
-  std::optional<double> number(std::size_t row, const std::string& column) const {
-    const auto c = table_.find_column(column);
-    return c ? table_.number(row, *c) : std::nullopt;
-  }
-
- private:
-  Table table_;
-};
-
-// A stage's JSON summary; InputError naming the file when it cannot be read.
-nlohmann::json read_json(const fs::path& path);
-
-std::vector<std::string> split(const std::string& text, char separator);
 
 // Text taken literally in Markdown (ids and file names may hold markup).
 std::string markdown_text(const std::string& text);

@@ -13,38 +13,40 @@ namespace levelhead::report {
 
 // The levelling network: sections coloured and dashed by |w|, removed
 // sections dotted, failing loops outlined.
-std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
-                               const fs::path& run) {
-  if (points.size() < 2 || !fs::exists(run / "adjust" / "residuals.csv")) return std::nullopt;
+std::optional<Svg> network_map(const AdjustStage& adjust, const LoopsStage* loops) {
+  const Network& net = adjust.network;
+  std::map<std::string, PlacedPoint> points;
+  for (const Point& p : net.points) {
+    if (p.x && p.y) points[p.id] = {*p.x, *p.y};
+  }
+  if (points.size() < 2) return std::nullopt;
   Bounds b;
   for (const auto& [id, p] : points) b.add(p.x, p.y);
   Svg svg(800, 520, "Levelling network: sections by normalised residual |w|");
   const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 30, 30, 540, 450);
-  const Csv residuals(run / "adjust" / "residuals.csv");
-  if (fs::exists(run / "loops" / "loops.csv")) {
-    const Csv loops(run / "loops" / "loops.csv");
-    for (std::size_t r = 0; r < loops.rows(); ++r) {
-      if (loops.get(r, "passed") == "yes") continue;
+  if (loops) {
+    for (std::size_t k = 0; k < loops->result.loops.size(); ++k) {
+      if (loops->result.loops[k].passed) continue;
       std::vector<std::pair<double, double>> ring;
-      for (const std::string& id : split(loops.get(r, "points"), '>')) {
+      for (const std::string& id : loops->loop_points[k]) {
         const auto it = points.find(id);
         if (it != points.end()) ring.emplace_back(frame.x(it->second.x), frame.y(it->second.y));
       }
       if (ring.size() >= 3) svg.polyline(ring, Stroke{"#d9bfe4", 10, ""}, "#f7f0fa");
     }
   }
-  for (std::size_t r = 0; r < residuals.rows(); ++r) {
-    const auto f = points.find(residuals.get(r, "from")), t = points.find(residuals.get(r, "to"));
+  for (const AdjustedSection& a : adjust.result.sections) {
+    const Section& section = net.sections[a.section];
+    const auto f = points.find(section.from), t = points.find(section.to);
     if (f == points.end() || t == points.end()) continue;
-    const auto w = residuals.number(r, "w");
     Stroke s{"#7d8b8f", 1.5, ""};
-    if (!residuals.get(r, "removed_step").empty()) {
+    if (a.removal_step) {
       s = Stroke{"#b2352b", 3, "2 4"};
-    } else if (w && std::abs(*w) > 3.29) {
+    } else if (a.w && std::abs(*a.w) > 3.29) {
       s = Stroke{"#b2352b", 3, "8 3"};
-    } else if (w && std::abs(*w) > 1.96) {
+    } else if (a.w && std::abs(*a.w) > 1.96) {
       s = Stroke{"#d08c1a", 2.5, "4 2"};
-    } else if (!w) {
+    } else if (!a.w) {
       s = Stroke{"#444444", 1.2, "1 2"};
     }
     svg.line(frame.x(f->second.x), frame.y(f->second.y), frame.x(t->second.x), frame.y(t->second.y),
@@ -75,27 +77,26 @@ std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
 }
 
 // Bars of |misclosure| / tolerance per loop, the limit at 1.
-Svg loop_chart(const Csv& loops) {
+Svg loop_chart(const LoopResult& loops) {
   const double row = 18, top = 30, left = 60, width = 500;
-  Svg svg(640, top + row * static_cast<double>(loops.rows()) + 40,
-          "Loop misclosures against tolerance");
+  const std::size_t count = loops.loops.size();
+  Svg svg(640, top + row * static_cast<double>(count) + 40, "Loop misclosures against tolerance");
+  const auto ratio_of = [](const Loop& loop) {
+    return loop.tolerance > 0 ? std::abs(loop.misclosure) / loop.tolerance : 0.0;
+  };
   double largest = 1.5;
-  for (std::size_t r = 0; r < loops.rows(); ++r) {
-    const auto m = loops.number(r, "misclosure"), t = loops.number(r, "tolerance");
-    if (m && t && *t > 0) largest = std::max(largest, std::abs(*m) / *t);
-  }
+  for (const Loop& loop : loops.loops) largest = std::max(largest, ratio_of(loop));
   const double scale = width / largest;
-  for (std::size_t r = 0; r < loops.rows(); ++r) {
-    const auto m = loops.number(r, "misclosure"), t = loops.number(r, "tolerance");
-    const double ratio = m && t && *t > 0 ? std::abs(*m) / *t : 0.0;
-    const bool passed = loops.get(r, "passed") == "yes";
-    const double y = top + row * static_cast<double>(r);
-    svg.text(left - 6, y + 12, "loop " + loops.get(r, "loop"), 10, "end");
-    svg.rect(left, y + 3, ratio * scale, row - 6, passed ? "#2f8f83" : "#b2352b",
-             Stroke{"#222222", 0.8, passed ? "" : "3 2"});
+  for (std::size_t k = 0; k < count; ++k) {
+    const Loop& loop = loops.loops[k];
+    const double ratio = ratio_of(loop);
+    const double y = top + row * static_cast<double>(k);
+    svg.text(left - 6, y + 12, fmt::format("loop {}", k + 1), 10, "end");
+    svg.rect(left, y + 3, ratio * scale, row - 6, loop.passed ? "#2f8f83" : "#b2352b",
+             Stroke{"#222222", 0.8, loop.passed ? "" : "3 2"});
     svg.text(left + ratio * scale + 4, y + 12, fmt::format("{:.2f}", ratio), 9);
   }
-  const double limit_y = top + row * static_cast<double>(loops.rows());
+  const double limit_y = top + row * static_cast<double>(count);
   svg.line(left + scale, top - 5, left + scale, limit_y + 5, Stroke{"#222222", 1.2, "6 3"});
   svg.text(left + scale, top - 10, "tolerance", 10, "middle");
   svg.text(left, limit_y + 25, "|misclosure| / tolerance", 10);
@@ -104,31 +105,22 @@ Svg loop_chart(const Csv& loops) {
 
 // Heads of the contouring round: wells coloured by head, quick-look
 // contours, the flow arrow.
-std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json,
+std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
                             std::optional<double> interval,
                             std::optional<QuickContours>& contours) {
-  std::map<std::string, PlacedPoint> placed;
-  for (std::size_t r = 0; r < wells.rows(); ++r) {
-    const auto x = wells.number(r, "x"), y = wells.number(r, "y");
-    if (x && y) placed[wells.get(r, "id")] = {*x, *y};
-  }
   struct Shown {
     PlacedPoint at;
     double head;
     std::string well;
   };
   // One aquifer is contoured: the one the flow fit used, when it names one.
-  std::string aquifer;
-  if (fs::exists(flow_json)) aquifer = read_json(flow_json).value("aquifer", std::string());
+  const std::string aquifer = flow ? flow->aquifer : std::string();
   std::vector<Shown> shown, other_aquifers;
   Bounds b;
-  for (std::size_t r = 0; r < event.rows(); ++r) {
-    const auto it = placed.find(event.get(r, "well"));
-    const auto h = event.number(r, "head");
-    if (it == placed.end() || !h) continue;
-    auto& list = aquifer.empty() || event.get(r, "aquifer") == aquifer ? shown : other_aquifers;
-    list.push_back({it->second, *h, it->first});
-    b.add(it->second.x, it->second.y);
+  for (const EventHead& h : event.heads) {
+    auto& list = aquifer.empty() || h.aquifer == aquifer ? shown : other_aquifers;
+    list.push_back({{h.x, h.y}, h.head, h.well});
+    b.add(h.x, h.y);
   }
   if (shown.size() < 2) return std::nullopt;
   double low = INFINITY, high = -INFINITY;
@@ -151,10 +143,9 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
                "#3d4b5a");
     }
   }
-  if (fs::exists(flow_json)) {
-    const nlohmann::json flow = read_json(flow_json);
-    const double azimuth = flow["azimuth"]["value"].get<double>() * M_PI / 180.0;
-    const double x0 = flow["plane"]["x0"].get<double>(), y0 = flow["plane"]["y0"].get<double>();
+  if (flow) {
+    const double azimuth = flow->result.azimuth * M_PI / 180.0;
+    const double x0 = flow->result.x0, y0 = flow->result.y0;
     const double cx = frame.x(x0), cy = frame.y(y0), length = 90;
     const double dx = std::sin(azimuth) * length, dy = -std::cos(azimuth) * length;
     const Stroke arrow{"#b2352b", 3.5, ""};
@@ -167,10 +158,9 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
                  Stroke{"#b2352b", 1}, "#b2352b");
     // Its label in the key, clear of the wells' labels.
     svg.line(640, 396, 668, 396, arrow);
-    svg.text(674, 392, fmt::format("flow {:.0f}°", flow["azimuth"]["value"].get<double>()), 10,
-             "start", "#b2352b", true);
-    svg.text(674, 405, fmt::format("i = {:.2g}", flow["gradient"]["value"].get<double>()), 10,
-             "start", "#b2352b");
+    svg.text(674, 392, fmt::format("flow {:.0f}°", flow->result.azimuth), 10, "start", "#b2352b",
+             true);
+    svg.text(674, 405, fmt::format("i = {:.2g}", flow->result.gradient), 10, "start", "#b2352b");
   }
   for (const Shown& s : other_aquifers) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
@@ -231,41 +221,34 @@ std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& 
 }
 
 // Heads over time per well, measuring-point changes as vertical lines.
-std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
-  struct Reading {
-    double time, head;
-    bool excluded;  // kept out of contouring for a reason other than the window
-    bool operator<(const Reading& o) const { return time < o.time; }
-  };
-  std::map<std::string, std::vector<Reading>> series;
+std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoint>>& heads,
+                               const std::vector<MeasuringPointSurvey>& surveys) {
+  std::map<std::string, std::vector<SeriesPoint>> series;
   double t0 = INFINITY, t1 = -INFINITY;
-  for (std::size_t r = 0; r < heads.rows(); ++r) {
-    const auto h = heads.number(r, "head");
-    const auto when = parse_iso8601(heads.get(r, "time_utc"));
-    if (!h || !when) continue;
-    const std::string reason = heads.get(r, "reason");
-    series[heads.get(r, "well")].push_back(
-        {when->seconds, *h, !reason.empty() && reason != "outside-synoptic-window"});
-    t0 = std::min(t0, when->seconds);
-    t1 = std::max(t1, when->seconds);
+  for (const auto& [well, points] : heads) {
+    if (points.empty()) continue;
+    series[well] = points;
+    for (const SeriesPoint& p : points) {
+      t0 = std::min(t0, p.time);
+      t1 = std::max(t1, p.time);
+    }
   }
   if (series.empty() || !(t1 > t0)) return std::nullopt;
   std::map<std::string, std::vector<double>> changes;
-  for (std::size_t r = 0; r < mps.rows(); ++r) {
-    const auto when = parse_iso8601(mps.get(r, "valid_from"));
-    if (when) changes[mps.get(r, "well")].push_back(when->seconds);
-  }
+  for (const MeasuringPointSurvey& m : surveys)
+    changes[m.record.well].push_back(m.record.valid_from.seconds);
   const std::size_t columns = 3;
   const double cell_w = 245, cell_h = 120;
   const std::size_t rows = (series.size() + columns - 1) / columns;
   Svg svg(columns * cell_w + 10, static_cast<double>(rows) * cell_h + 10, "Hydrographs per well");
   std::size_t i = 0;
   for (auto& [well, points] : series) {
-    std::sort(points.begin(), points.end());
+    std::stable_sort(points.begin(), points.end(),
+                     [](const SeriesPoint& a, const SeriesPoint& b) { return a.time < b.time; });
     const double ox = 10 + static_cast<double>(i % columns) * cell_w,
                  oy = 5 + static_cast<double>(i / columns) * cell_h;
     double lo = INFINITY, hi = -INFINITY;
-    for (const Reading& p : points) {
+    for (const SeriesPoint& p : points) {
       lo = std::min(lo, p.head);
       hi = std::max(hi, p.head);
     }
@@ -285,11 +268,11 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
       if (c > t0 && c < t1) svg.line(X(c), py, X(c), py + ph, Stroke{"#b2352b", 1, "3 2"});
     }
     std::vector<std::pair<double, double>> line;
-    for (const Reading& p : points) {
+    for (const SeriesPoint& p : points) {
       if (!p.excluded) line.emplace_back(X(p.time), Y(p.head));
     }
     svg.polyline(line, Stroke{"#2c347a", 1.3});
-    for (const Reading& p : points) {
+    for (const SeriesPoint& p : points) {
       svg.circle(X(p.time), Y(p.head), p.excluded ? 2.6 : 1.6, p.excluded ? "#ffffff" : "#2c347a",
                  Stroke{p.excluded ? "#b2352b" : "#2c347a", p.excluded ? 1.2 : 0.5});
     }
@@ -305,19 +288,18 @@ std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps) {
 }
 
 // Displacements since the first epoch with their confidence intervals.
-Svg displacement_chart(const Csv& moves, const std::string& last_epoch) {
+Svg displacement_chart(const EpochAnalysis& epochs) {
   struct Bar {
     std::string point;
     double d, low, high;
     bool significant, datum;
   };
   std::vector<Bar> bars;
-  for (std::size_t r = 0; r < moves.rows(); ++r) {
-    if (moves.get(r, "against") != "first" || moves.get(r, "to_epoch") != last_epoch) continue;
-    bars.push_back({moves.get(r, "point"), 1000 * moves.number(r, "displacement").value_or(0),
-                    1000 * moves.number(r, "ci_low").value_or(0),
-                    1000 * moves.number(r, "ci_high").value_or(0),
-                    moves.get(r, "significant") == "yes", !moves.get(r, "note").empty()});
+  const std::size_t last = epochs.epochs.size() - 1;
+  for (const Displacement& d : epochs.displacements) {
+    if (!d.against_first || d.to_epoch != last) continue;
+    bars.push_back(
+        {d.point, 1000 * d.value, 1000 * d.ci_low, 1000 * d.ci_high, d.significant, d.datum_mark});
   }
   double extent = 1.0;
   for (const Bar& b : bars) extent = std::max({extent, std::abs(b.low), std::abs(b.high)});

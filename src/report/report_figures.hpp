@@ -10,6 +10,7 @@
 #include <string>
 
 #include "levelhead/flow/contours.hpp"
+#include "levelhead/report/stage_results.hpp"
 #include "report/report_document.hpp"
 #include "report/svg.hpp"
 
@@ -32,21 +33,22 @@ struct Bounds {
 
 // The levelling network: sections coloured and dashed by |w|, removed
 // sections dotted, failing loops outlined.
-std::optional<Svg> network_map(const std::map<std::string, PlacedPoint>& points,
-                               const fs::path& run);
+std::optional<Svg> network_map(const AdjustStage& adjust, const LoopsStage* loops);
 
 // Bars of |misclosure| / tolerance per loop, the limit at 1.
-Svg loop_chart(const Csv& loops);
+Svg loop_chart(const LoopResult& loops);
 
 // Heads of the contouring round: wells coloured by head, quick-look
 // contours, the flow arrow.
-std::optional<Svg> head_map(const Csv& event, const Csv& wells, const fs::path& flow_json,
+std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
                             std::optional<double> interval, std::optional<QuickContours>& contours);
 
 // Heads over time per well, measuring-point changes as vertical lines.
-std::optional<Svg> hydrographs(const Csv& heads, const Csv& mps);
+std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoint>>& heads,
+                               const std::vector<MeasuringPointSurvey>& surveys);
 
-// Displacements since the first epoch with their confidence intervals.
-Svg displacement_chart(const Csv& moves, const std::string& last_epoch);
+// Displacements since the first epoch to the last, with their confidence
+// intervals (epochs has at least one epoch).
+Svg displacement_chart(const EpochAnalysis& epochs);
 
 }  // namespace levelhead::report

@@ -137,4 +137,23 @@ class HeadSink {
   virtual void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) = 0;
 };
 
+// Heads over time per well, for hydrographs: every numeric head with its
+// time and whether it was kept out of contouring for a reason other than the
+// synoptic window (pumping, a flag). About 24 bytes per head.
+struct SeriesPoint {
+  double time = 0.0;  // s, UTC
+  double head = 0.0;  // m, target reference
+  bool excluded = false;
+};
+class HeadSeriesSink : public HeadSink {
+ public:
+  void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) override;
+  // Per well id, in reading order.
+  const std::map<std::string, std::vector<SeriesPoint>>& series() const { return series_; }
+  std::map<std::string, std::vector<SeriesPoint>> release() { return std::move(series_); }
+
+ private:
+  std::map<std::string, std::vector<SeriesPoint>> series_;
+};
+
 }  // namespace levelhead

@@ -32,6 +32,7 @@
 #include "levelhead/core/bounds.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
+#include "levelhead/heads/event_qa.hpp"
 #include "levelhead/heads/wells.hpp"
 #include "levelhead/references/height_converter.hpp"
 
@@ -111,6 +112,10 @@ using MonitoredHeights = std::unordered_map<std::string, MonitoredSeries>;
 // height or checked cell, or a point with epochs in two references.
 MonitoredHeights read_monitored_heights(const Table& table);
 
+// Sorts each point's epochs by time; throws InputError naming `source` when
+// two epochs of a point are less than a second apart.
+void order_monitored_epochs(MonitoredHeights& heights, const std::string& source);
+
 // Height (m) and sigma (m) of a monitored point at `time`, and whether the
 // time lies outside its epochs.
 struct MonitoredValue {
@@ -147,18 +152,46 @@ struct HeadsSummary {
   std::map<std::string, std::size_t> states_by_kind;
 };
 
-class HeadWriter;  // defined in heads.cpp
+// One measuring-point survey as it went into the heads: the record as given
+// and its height in the target reference (a row of measuring_points.csv).
+struct MeasuringPointSurvey {
+  MeasuringPointRecord record;
+  double height = 0.0, sigma = 0.0;  // m, target reference
+  std::string source, transform;
+  std::vector<std::string> flags;
+};
+
+// The synoptic round: one head per well (the contourable reading nearest the
+// centre), its checks against the neighbours and in nests (event_qa.hpp),
+// and the wells to re-measure with their reasons.
+struct HeadEvent {
+  double centre = 0.0;                                        // s, UTC
+  std::vector<EventHead> heads;                               // in well order
+  EventQaResult checks;                                       // checks.wells[i] belongs to heads[i]
+  std::map<std::string, std::vector<std::string>> remeasure;  // well -> reasons
+};
+
+struct HeadsResult {
+  HeadsSummary summary;
+  std::vector<MeasuringPointSurvey> measuring_points;  // per well in wells order, by valid_from
+  std::vector<QaEntry> measuring_point_qa;  // of the records (mp-unchecked, mp-changed, ...)
+  std::optional<HeadEvent> event;           // with options.event
+};
+
+class HeadSink;  // head_core.hpp
 
 // Writes heads.csv, qa.csv, measuring_points.csv, summary.json, (unless
 // no_geopackage) heads.gpkg and (with keep_going) rejects.csv into
 // `folder`, all-or-nothing; with an event also
 // event.csv (one head per well, neighbour checks; event_qa.hpp), nests.csv
-// (vertical differences in piezometer nests) and remeasure.csv.
-HeadsSummary compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
-                           const NetworkHeights& network, const MonitoredHeights& monitored,
-                           const ReferenceSet& references, const ProjSettings& settings,
-                           const HeadOptions& options, const std::filesystem::path& levels,
-                           const TableOptions& levels_table, const std::filesystem::path& folder,
-                           bool geopackage);
+// (vertical differences in piezometer nests) and remeasure.csv. Every
+// reading also goes to `more_sinks` (e.g. HeadSeriesSink for hydrographs).
+// The files are written from the result returned.
+HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
+                          const NetworkHeights& network, const MonitoredHeights& monitored,
+                          const ReferenceSet& references, const ProjSettings& settings,
+                          const HeadOptions& options, const std::filesystem::path& levels,
+                          const TableOptions& levels_table, const std::filesystem::path& folder,
+                          bool geopackage, const std::vector<HeadSink*>& more_sinks = {});
 
 }  // namespace levelhead

@@ -144,6 +144,11 @@ struct EpochAnalysis {
   std::vector<std::string> warnings;
 };
 
+// Significant displacements against the first epoch (one per point and
+// later epoch) or against the previous one: the counts the summary, the
+// console and the report give.
+std::size_t significant_displacements(const EpochAnalysis& analysis, bool against_first);
+
 EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections> epochs,
                              const std::vector<std::string>& candidate_marks,
                              const EpochOptions& options);

@@ -1,23 +1,27 @@
 #pragma once
 // The report of a chain run and its audit record.
 //
-// In:  the output folder of `levelhead run` with the stage folders that ran
-//      (reduce/, loops/, adjust/, epochs/, heads/, flow/), and what the run
-//      knows: the site, the inputs with their checksums, the settings that
-//      differ from their defaults.
+// In:  the typed results of the stages that ran (stage_results.hpp), and
+//      what the run knows: the site, the inputs with their checksums, the
+//      settings that differ from their defaults. No stage output is read
+//      back; the stage folders in the output folder are only listed with
+//      their checksums in run.json.
 // Out: report.html (self-contained: inline SVG and CSS, no external
 //      request), report.md (figures as SVG files in figures/), contours.gpkg
 //      (quick-look contours of the synoptic heads, contours.hpp), and run.json
 //      (audit: inputs with SHA-256, settings, configuration hash, PROJ, GDAL
-//      and EPSG database versions, grids with checksums). Only the report's
-//      one run-time line differs between two runs on the same inputs.
-// Errors: InputError when a stage output cannot be read; OutputError when a
-//      file cannot be written (nothing half-written is left).
+//      and EPSG database versions, grids with checksums, every stage output
+//      with its checksum). Only the report's one run-time line differs
+//      between two runs on the same inputs.
+// Errors: InputError when an input cannot be hashed; OutputError when a file
+//      cannot be written (nothing half-written is left).
 
 #include <filesystem>
 #include <optional>
 #include <string>
 #include <vector>
+
+#include "levelhead/report/stage_results.hpp"
 
 namespace levelhead {
 
@@ -49,6 +53,7 @@ struct ReportContext {
 // a fixed order, so two runs agree exactly when their configuration does.
 std::string configuration_hash(const ReportContext& context);
 
-void write_report(const ReportContext& context, const std::filesystem::path& folder);
+void write_report(const ReportContext& context, const StageResults& results,
+                  const std::filesystem::path& folder);
 
 }  // namespace levelhead
