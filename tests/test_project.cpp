@@ -11,12 +11,14 @@
 #include <map>
 #include <nlohmann/json.hpp>
 #include <regex>
+#include <set>
 #include <sstream>
 
 #include "cli/app.hpp"
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/units.hpp"
+#include "report/report_document.hpp"
 #include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 
@@ -87,7 +89,8 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   REQUIRE(at != std::string::npos);
   const std::size_t start = run.out.rfind('\n', at) + 1;
   const std::string count = run.out.substr(start, at - start);
-  CHECK_THAT(read_file(tmp.path() / "report.md"), Contains("- " + count + console_count));
+  CHECK_THAT(read_file(tmp.path() / "report.md"),
+             Contains("- \\[information\\] " + count + console_count));
   // The snooping verdict names its test and says "after the removals" only
   // when something was removed (the demo removes its planted misreading).
   CHECK_THAT(read_file(tmp.path() / "report.md"),
@@ -103,6 +106,38 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(record["proj_version"].get<std::string>(), Contains("PROJ"));
   CHECK(record["stages"] == nlohmann::json({"reduce", "loops", "adjust", "gnss-check", "epochs",
                                             "transducer", "heads", "flow"}));
+
+  // Every finding once, the same on the console, in the report and in run.json.
+  const std::string console = run.out.substr(run.out.find("== findings ==\n"));
+  std::vector<std::string> console_lines;
+  std::istringstream lines(console);
+  for (std::string line; std::getline(lines, line);) {
+    if (line.rfind("- ", 0) == 0) console_lines.push_back(line.substr(2));
+  }
+  REQUIRE(console_lines.size() == record["findings"].size());
+  const std::string markdown = read_file(tmp.path() / "report.md");
+  std::set<std::string> topics;
+  for (std::size_t i = 0; i < console_lines.size(); ++i) {
+    const auto& f = record["findings"][i];
+    topics.insert(f["topic"].get<std::string>());
+    CHECK(console_lines[i] ==
+          "[" + f["level"].get<std::string>() + "] " + f["text"].get<std::string>());
+    CHECK_THAT(markdown,
+               Contains("- " + levelhead::report::markdown_text(console_lines[i]) + "\n"));
+  }
+  // The demo's planted events are named: the failed field check, the
+  // casing cut, the dry reading, the knocked logger, the blunder, the
+  // sinking benchmark, the unchecked side shot.
+  for (const char* topic : {"field-check", "mp-change", "state", "transducer-rejected", "blunder",
+                            "mark-moving", "mp-unchecked", "remeasure"}) {
+    INFO(topic);
+    CHECK(topics.count(topic) == 1);
+  }
+  CHECK_THAT(console, Contains("run R3 setup 4 (field-book row 85): setup-imbalance"));
+  CHECK_THAT(console, Contains("Measuring point of MW-03 changed on 2026-03-10 (casing-cut)"));
+  CHECK_THAT(console, Contains("1 reading(s) with the state dry (MW-05 at"));
+  CHECK_THAT(console, Contains("124 transducer-drift-rejected"));
+  CHECK_THAT(console, Contains("(sections row 10; field-book row(s) 64)"));
 }
 
 TEST_CASE("two runs of the demo agree apart from the report's run-time line", "[project][demo]") {

@@ -19,9 +19,13 @@
 #include "levelhead/core/table.hpp"
 #include "levelhead/flow/flow.hpp"
 #include "levelhead/heads/heads.hpp"
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/network.hpp"
+#include "levelhead/report/findings.hpp"
 #include "levelhead/report/report.hpp"
 #include "levelhead/report/stage_results.hpp"
 #include "support/cli_run.hpp"
+#include "support/network_builders.hpp"
 #include "support/temp_folder.hpp"
 
 namespace fs = std::filesystem;
@@ -210,7 +214,7 @@ TEST_CASE("the report is built from the stages' results alone, with no stage out
     context.stages.push_back(stage.name);
     fs::remove_all(run / stage.name);  // anything the report read back would now be missing
   }
-  write_report(context, results, run);
+  write_report(context, results, chain_findings(results), run);
 
   const std::string report = testing::read_file(run / "report.md");
   for (const char* part :
@@ -226,4 +230,47 @@ TEST_CASE("the report is built from the stages' results alone, with no stage out
     CHECK(fs::exists(run / "figures" / (std::string(figure) + ".svg")));
   }
   CHECK(fs::exists(run / "contours.gpkg"));
+}
+
+TEST_CASE("findings: none without stages; an unchecked point under a well is named once, by heads",
+          "[stage-results][findings]") {
+  CHECK(chain_findings(StageResults{}).empty());
+
+  // A loop A-B-C with a spur to D (a side shot: nothing checks D) and one
+  // to E; the well W's measuring point is levelled on D.
+  using testing::point;
+  using testing::section;
+  Network net =
+      make_network({point("A", 100.0), point("B"), point("C"), point("D"), point("E")},
+                   {section("A", "B", 1.0), section("B", "C", 1.0), section("C", "A", -2.001),
+                    section("C", "D", 0.5), section("C", "E", 0.7)});
+  AdjustmentOptions options;
+  AdjustmentResult adjusted = adjust(net, options);
+  StageResults results;
+  results.adjust = AdjustStage{std::move(net), std::move(adjusted), options, {}};
+
+  std::vector<Finding> findings = chain_findings(results);
+  const auto text_of = [&](const std::string& topic) {
+    for (const Finding& f : findings) {
+      if (f.topic == topic) return f.text;
+    }
+    return std::string();
+  };
+  CHECK_THAT(text_of("unchecked-point"), Catch::Matchers::Contains("2 point(s)"));
+  CHECK_THAT(text_of("unchecked-point"), Catch::Matchers::Contains(": D; E."));
+
+  HeadsStage heads;
+  heads.target = "EPSG:5703";
+  MeasuringPointSurvey survey;
+  survey.record.well = "W";
+  survey.record.point = "D";
+  survey.record.valid_from_text = "2026-01-01";
+  heads.result.measuring_points.push_back(survey);
+  heads.result.measuring_point_qa.push_back(
+      {"W", "2026-01-01", "mp-unchecked", "", 2, "measuring-points"});
+  results.heads = std::move(heads);
+  findings = chain_findings(results);
+  CHECK_THAT(text_of("unchecked-point"), Catch::Matchers::Contains("1 point(s)"));
+  CHECK_THAT(text_of("unchecked-point"), !Catch::Matchers::Contains("D"));
+  CHECK_THAT(text_of("mp-unchecked"), Catch::Matchers::Contains("measuring point(s) of W"));
 }

@@ -17,6 +17,7 @@
 #include "levelhead/heads/heads.hpp"
 #include "levelhead/references/coordinate_check.hpp"
 #include "levelhead/references/references_file.hpp"
+#include "levelhead/report/findings.hpp"
 #include "levelhead/report/report.hpp"
 
 namespace levelhead::cli {
@@ -188,9 +189,14 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
   if (progress) err << fmt::format("[{}/{}] report\n", stages.size() + 1, stages.size() + 1);
   ReportContext context = report_context(project, stages);
   context.run_time = local_run_time();
-  write_report(context, results, folder);
+  const std::vector<Finding> findings = chain_findings(results);
+  write_report(context, results, findings, folder);
   open_folder->commit();
   if (!a.quiet) {
+    // The same findings, word for word, as the report's and run.json's.
+    out << "\n== findings ==\n";
+    if (findings.empty()) out << "Nothing to report: every check passed.\n";
+    for (const Finding& f : findings) out << "- " << finding_line(f) << '\n';
     out << fmt::format("\nReport: {} (also report.md); audit record: run.json\n",
                        (folder / "report.html").string());
   }

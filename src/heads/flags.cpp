@@ -54,6 +54,8 @@ const std::vector<FlagInfo>& head_flags() {
        each_reading, true},
       {"transducer-dry-rejected", "the sensor was out of the water", rejection, true, each_reading,
        true},
+      {"baro-gap", "no barometer sample near the record, so no depth was computed", rejection, true,
+       with_detail, true},
       {"transducer-beyond-checks", "before the first or after the last manual check", information,
        false, each_reading, false},
       {"transducer-unchecked", "no manual reading checks this logger", caution, false, each_reading,

@@ -350,7 +350,11 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
   summary.contourable += record.contour();
   if (!record.state.empty()) {
     ++summary.states;
-    ++summary.states_by_kind[record.state.substr(0, record.state.find(':'))];
+    const std::string kind = record.state.substr(0, record.state.find(':'));
+    ++summary.states_by_kind[kind];
+    std::vector<std::string>& examples = summary.state_examples[kind];
+    if (examples.size() < 5)
+      examples.push_back(fmt::format("{} at {}", well.id, reading.time_text));
   }
   for (const std::string& f : record.flags) {
     ++summary.flags[f];

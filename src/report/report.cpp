@@ -18,6 +18,7 @@
 #include "levelhead/core/time.hpp"
 #include "levelhead/flow/contours.hpp"
 #include "levelhead/references/vertical_reference.hpp"
+#include "levelhead/report/findings.hpp"
 #include "levelhead/version.hpp"
 #include "report/report_document.hpp"
 #include "report/report_figures.hpp"
@@ -33,13 +34,9 @@ namespace {
 
 // ---------------------------------------------------------------- sections
 
-struct Findings {
-  std::vector<std::string> items;
-};
-
 std::string yes_no(bool value) { return value ? "yes" : "no"; }
 
-void levelling_section(Document& doc, Findings& findings, const StageResults& results) {
+void levelling_section(Document& doc, const StageResults& results) {
   if (!results.adjust) return;
   const AdjustStage& adjust = *results.adjust;
   const Network& net = adjust.network;
@@ -74,11 +71,6 @@ void levelling_section(Document& doc, Findings& findings, const StageResults& re
     if (!loops.result.loops.empty())
       doc.figure("loops", loop_chart(loops.result),
                  "Loop misclosures as a fraction of their tolerance.");
-    if (loops.result.failed > 0) {
-      findings.items.push_back(
-          fmt::format("{} of {} levelling loops failed their closure tolerance.",
-                      loops.result.failed, loops.result.loops.size()));
-    }
   }
   doc.heading(3, "Adjustment");
   std::vector<std::vector<std::string>> stats = {
@@ -98,10 +90,6 @@ void levelling_section(Document& doc, Findings& findings, const StageResults& re
     const Section& section = net.sections[r.section];
     removed.push_back({std::to_string(k + 1), section.from, section.to, fixed(r.w, 1),
                        std::to_string(section.row)});
-    findings.items.push_back(
-        fmt::format("Blunder: the section {} -> {} (sections row {}) failed data snooping with w = "
-                    "{:.1f} and was removed; re-level it.",
-                    section.from, section.to, section.row, r.w));
   }
   if (!removed.empty()) {
     doc.paragraph("Sections removed by iterative data snooping (Baarda's w-test), in order:");
@@ -137,7 +125,7 @@ void levelling_section(Document& doc, Findings& findings, const StageResults& re
   doc.table({"point", "height", "sigma", "control"}, rows);
 }
 
-void gnss_section(Document& doc, Findings& findings, const StageResults& results) {
+void gnss_section(Document& doc, const StageResults& results) {
   if (!results.gnss) return;
   const GnssStage& g = *results.gnss;
   doc.heading(2, "GNSS heights against the levelling");
@@ -146,10 +134,8 @@ void gnss_section(Document& doc, Findings& findings, const StageResults& results
                   "heights of the same marks; the differences are the residuals of the tie.",
                   g.gnss_reference, g.levelled_reference));
   std::vector<std::vector<std::string>> rows;
-  std::size_t failing = 0;
   for (std::size_t i = 0; i < g.marks.size(); ++i) {
     const GnssCheck& check = g.result.marks[i];
-    failing += check.verdict != GnssVerdict::consistent;
     rows.push_back({g.marks[i].id, fixed(g.marks[i].levelled, 4),
                     fixed(g.marks[i].gnss_converted, 4), fixed(1000 * check.difference, 1),
                     fixed(1000 * g.marks[i].sigma, 1), to_string(check.verdict)});
@@ -157,14 +143,9 @@ void gnss_section(Document& doc, Findings& findings, const StageResults& results
   doc.table(
       {"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)", "verdict"},
       rows);
-  if (failing > 0) {
-    findings.items.push_back(
-        fmt::format("{} of {} marks disagree between GNSS and levelling (gnss-check).", failing,
-                    g.marks.size()));
-  }
 }
 
-void monitoring_section(Document& doc, Findings& findings, const StageResults& results) {
+void monitoring_section(Document& doc, const StageResults& results) {
   if (!results.epochs) return;
   const EpochAnalysis& e = results.epochs->analysis;
   doc.heading(2, "Monitoring epochs");
@@ -187,8 +168,6 @@ void monitoring_section(Document& doc, Findings& findings, const StageResults& r
   for (const MarkVerdict& m : e.marks) {
     rows.push_back({m.mark, to_string(m.kind), m.reason});
     if (m.kind != MarkVerdict::Kind::stable) {
-      findings.items.push_back(
-          fmt::format("Reference mark {} is {}: {}", m.mark, to_string(m.kind), m.reason));
     }
   }
   doc.table({"mark", "verdict", "reason"}, rows);
@@ -208,30 +187,9 @@ void monitoring_section(Document& doc, Findings& findings, const StageResults& r
     doc.paragraph("Rates (mm per year, weighted least squares over the epochs):");
     doc.table({"point", "epochs", "rate", "sigma", "significant"}, rows);
   }
-  // The console's count: displacements since the first epoch, one per point
-  // and later epoch (the same pairs against the previous epoch are not
-  // counted again).
-  if (const std::size_t significant = significant_displacements(e, true); significant > 0) {
-    findings.items.push_back(
-        fmt::format("{} significant displacement(s) since the first epoch (a point in a later "
-                    "epoch against the first; epochs/displacements.csv); measuring points on "
-                    "monitored points follow them.",
-                    significant));
-  }
-  for (const std::string& w : e.warnings) findings.items.push_back("Monitoring: " + w);
 }
 
-// Rows a stage set aside with --keep-going: its results rest on the others.
-void set_aside_finding(Findings& findings, std::size_t rejected, const std::string& stage,
-                       const std::string& what) {
-  if (rejected == 0) return;
-  findings.items.push_back(
-      fmt::format("{}: {} {} could not be read and were set aside ({}/rejects.csv, each with its "
-                  "row and problem); the results rest on the others. Correct them and run again.",
-                  stage, rejected, what, stage));
-}
-
-void transducer_section(Document& doc, Findings& findings, const StageResults& results) {
+void transducer_section(Document& doc, const StageResults& results) {
   if (!results.transducer) return;
   const TransducerStage& t = *results.transducer;
   doc.heading(2, "Pressure transducers");
@@ -241,54 +199,22 @@ void transducer_section(Document& doc, Findings& findings, const StageResults& r
                   t.gravity));
   std::vector<std::vector<std::string>> rows;
   for (const SensorSummary& sensor : t.summary.sensors) {
-    std::size_t rejected = 0;
     std::vector<std::string> flags;
-    for (const auto& [flag, count] : sensor.flags) {
+    for (const auto& [flag, count] : sensor.flags)
       flags.push_back(fmt::format("{} {}", flag, count));
-      if (flag.find("-rejected") != std::string::npos || flag == "baro-gap") rejected += count;
-    }
     const auto& be = sensor.efficiency;
     rows.push_back({sensor.sensor, sensor.well, sensor.kind, std::to_string(sensor.written),
                     std::to_string(sensor.checks), fixed(1000 * sensor.largest_drift, 1),
                     be ? fmt::format("{:.2f} +- {:.2f}", be->value, be->sigma) : "-",
                     fmt::format("{:g}", sensor.density),
                     fmt::format("{}", fmt::join(flags, ", "))});
-    if (rejected > 0) {
-      findings.items.push_back(
-          fmt::format("Transducer {} in {}: {} reading(s) rejected or left uncomputed "
-                      "(transducer/qa.csv).",
-                      sensor.sensor, sensor.well, rejected));
-    }
   }
   doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)",
              "barometric efficiency", "rho (kg/m^3)", "flags"},
             rows);
-  set_aside_finding(findings, t.summary.rejected, "transducer", "record(s) or tape reading(s)");
 }
 
-// The datum mix-up a naive merge would have made: each record's height as
-// given (in metres, as heads read it) against its converted height.
-void datum_mix_up_findings(Findings& findings, const HeadsStage& heads) {
-  std::map<std::string, std::pair<double, std::set<std::string>>> shift_by_datum;
-  for (const MeasuringPointSurvey& m : heads.result.measuring_points) {
-    const MeasuringPointRecord& r = m.record;
-    if (!r.height || r.datum.empty() || r.datum == heads.target) continue;
-    auto& entry = shift_by_datum[r.datum];
-    entry.first = m.height - *r.height;
-    entry.second.insert(r.well);
-  }
-  for (const auto& [datum, entry] : shift_by_datum) {
-    if (std::abs(entry.first) < 0.01) continue;
-    findings.items.push_back(
-        fmt::format("Datum mix-up avoided: the measuring points of {} well(s) were surveyed on "
-                    "'{}'; merged with heights in {} as if in one reference, their heads would be "
-                    "{:.3f} m too {}.",
-                    entry.second.size(), datum, heads.target, std::abs(entry.first),
-                    entry.first > 0 ? "low" : "high"));
-  }
-}
-
-void flow_table(Document& doc, Findings& findings, const FlowStage& flow) {
+void flow_table(Document& doc, const FlowStage& flow) {
   const FlowResult& f = flow.result;
   std::vector<std::vector<std::string>> rows = {
       {"hydraulic gradient (m/m)", fmt::format("{:.2e} +- {:.1e}", f.gradient, f.gradient_sigma)},
@@ -306,17 +232,13 @@ void flow_table(Document& doc, Findings& findings, const FlowStage& flow) {
                                 f.travel_time->high / 3.15576e7)});
   }
   doc.table({"flow", "value"}, rows);
-  findings.items.push_back(
-      fmt::format("Groundwater flows towards {:.0f} degrees (grid) with a gradient of {:.1e}.",
-                  f.azimuth, f.gradient));
 }
 
-void heads_section(Document& doc, Findings& findings, const ReportContext& c,
-                   const StageResults& results, std::optional<QuickContours>& contours) {
+void heads_section(Document& doc, const ReportContext& c, const StageResults& results,
+                   std::optional<QuickContours>& contours) {
   if (!results.heads) return;
   const HeadsStage& heads = *results.heads;
   const HeadsSummary& s = heads.result.summary;
-  set_aside_finding(findings, s.rejected, "heads", "reading(s)");
   doc.heading(2, "Measuring points");
   doc.paragraph(fmt::format("Every measuring-point survey brought into {}:", heads.target));
   std::vector<std::vector<std::string>> rows;
@@ -326,20 +248,6 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c,
   }
   doc.table({"well", "valid from", "height (m)", "sigma (m)", "source", "reason", "flags"}, rows,
             200);
-  datum_mix_up_findings(findings, heads);
-
-  // Measuring points on levelling that no redundant observation checks.
-  std::set<std::string> unchecked;
-  for (const QaEntry& e : heads.result.measuring_point_qa) {
-    if (e.flag == "mp-unchecked") unchecked.insert(e.well);
-  }
-  if (!unchecked.empty()) {
-    findings.items.push_back(fmt::format(
-        "Unchecked levelling: the measuring point(s) of {} rest on a side shot or spur that no "
-        "loop checks, so a blunder there would not show (heads/qa.csv); level a loop through "
-        "them.",
-        fmt::join(unchecked, ", ")));
-  }
 
   doc.heading(2, "Heads");
   doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.", s.readings,
@@ -355,7 +263,7 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c,
           "not contoured. A quick look, not a contour map for decisions.");
     }
   }
-  if (flow) flow_table(doc, findings, *flow);
+  if (flow) flow_table(doc, *flow);
   if (auto figure = hydrographs(heads.series, heads.result.measuring_points)) {
     doc.figure("hydrographs", *figure,
                "Heads over time per well; dashed red lines mark measuring-point changes.");
@@ -376,7 +284,6 @@ void heads_section(Document& doc, Findings& findings, const ReportContext& c,
                                : "Wells to re-measure before contouring:");
     if (!rows.empty()) {
       doc.table({"well", "reasons"}, rows);
-      findings.items.push_back(fmt::format("{} well(s) on the re-measure list.", rows.size()));
     }
   }
 }
@@ -490,16 +397,16 @@ std::string configuration_hash(const ReportContext& c) {
   return text_sha256(text);
 }
 
-void write_report(const ReportContext& c, const StageResults& results, const fs::path& folder) {
+void write_report(const ReportContext& c, const StageResults& results,
+                  const std::vector<Finding>& findings, const fs::path& folder) {
   const std::string hash = configuration_hash(c);
   Document body;
-  Findings findings;
-  levelling_section(body, findings, results);
-  gnss_section(body, findings, results);
-  monitoring_section(body, findings, results);
-  transducer_section(body, findings, results);
+  levelling_section(body, results);
+  gnss_section(body, results);
+  monitoring_section(body, results);
+  transducer_section(body, results);
   std::optional<QuickContours> contours;
-  heads_section(body, findings, c, results, contours);
+  heads_section(body, c, results, contours);
   inputs_section(body, c, hash);
   body.heading(2, "Cautions");
   body.bullets(cautions());
@@ -518,8 +425,10 @@ void write_report(const ReportContext& c, const StageResults& results, const fs:
   facts.push_back("Computed with " + version_string() + " on " + c.run_time);
   head.bullets(facts);
   head.heading(2, "Findings");
-  if (findings.items.empty()) findings.items.push_back("No check failed.");
-  head.bullets(findings.items);
+  std::vector<std::string> texts;
+  for (const Finding& f : findings) texts.push_back(finding_line(f));
+  if (texts.empty()) texts.push_back("Nothing to report: every check passed.");
+  head.bullets(texts);
 
   // Figures first: the report is the last file to appear.
   OutputSet figures(folder / "figures");
@@ -533,7 +442,13 @@ void write_report(const ReportContext& c, const StageResults& results, const fs:
       << report::escape_xml(c.title) << "</title>\n<style>\n"
       << css << "</style>\n</head>\n<body>\n"
       << head.html() << body.html() << "</body>\n</html>\n";
-  out.open("run.json") << util::json_text(run_record(c, hash, folder)) << '\n';
+  nlohmann::json record = run_record(c, hash, folder);
+  record["findings"] = nlohmann::json::array();
+  for (const Finding& f : findings) {
+    record["findings"].push_back(
+        {{"stage", f.stage}, {"topic", f.topic}, {"level", to_string(f.level)}, {"text", f.text}});
+  }
+  out.open("run.json") << util::json_text(record) << '\n';
   if (contours && !c.crs.empty())
     write_contours_geopackage(*contours, c.crs, c.target, out.reserve("contours.gpkg"));
   out.commit();

@@ -150,6 +150,8 @@ struct HeadsSummary {
   std::size_t rejected = 0;                  // readings set aside (keep_going)
   std::map<std::string, std::size_t> flags;  // flag -> count
   std::map<std::string, std::size_t> states_by_kind;
+  // Per kind of state, the first few readings as "WELL at TIME" (for findings).
+  std::map<std::string, std::vector<std::string>> state_examples;
 };
 
 // One measuring-point survey as it went into the heads: the record as given

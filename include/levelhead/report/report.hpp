@@ -11,8 +11,8 @@
 //      (quick-look contours of the synoptic heads, contours.hpp), and run.json
 //      (audit: inputs with SHA-256, settings, configuration hash, PROJ, GDAL
 //      and EPSG database versions, grids with checksums, every stage output
-//      with its checksum). Only the report's one run-time line differs
-//      between two runs on the same inputs.
+//      with its checksum, the findings with stage, topic and level). Only the report's one run-time
+//      line differs between two runs on the same inputs.
 // Errors: InputError when an input cannot be hashed; OutputError when a file
 //      cannot be written (nothing half-written is left).
 
@@ -21,6 +21,7 @@
 #include <string>
 #include <vector>
 
+#include "levelhead/report/findings.hpp"
 #include "levelhead/report/stage_results.hpp"
 
 namespace levelhead {
@@ -53,7 +54,9 @@ struct ReportContext {
 // a fixed order, so two runs agree exactly when their configuration does.
 std::string configuration_hash(const ReportContext& context);
 
+// `findings`: chain_findings(results), computed once by the caller, which
+// shows the same list on the console.
 void write_report(const ReportContext& context, const StageResults& results,
-                  const std::filesystem::path& folder);
+                  const std::vector<Finding>& findings, const std::filesystem::path& folder);
 
 }  // namespace levelhead
