@@ -206,7 +206,7 @@ TEST_CASE("iterative data snooping removes the planted blunder and reports it",
   const AdjustmentResult r = adjust(net, options);
   REQUIRE(r.removals.size() >= 1);
   CHECK(r.removals.front().section == planted);
-  CHECK(std::abs(r.removals.front().w) > r.w_critical);
+  CHECK(std::abs(r.removals.front().statistic) > r.removals.front().test.critical);
   CHECK(r.sections[planted].removed);
   CHECK(r.sections[planted].removal_step == 1u);
   // The removed section no longer counts; its misfit shows the blunder.
@@ -241,7 +241,9 @@ TEST_CASE("the global test's bounds and the MDB against numbers worked by hand",
       make_network({point("A", 50.0), point("B"), point("C")},
                    {section("A", "B", 1.250, 400.0), section("B", "C", -0.730, 1000.0),
                     section("C", "A", -0.520 + 0.012, 600.0)});
-  const AdjustmentResult r = adjust(net, AdjustmentOptions{});
+  AdjustmentOptions apriori;  // Baarda's MDB assumes the a-priori precision
+  apriori.sigma0 = Sigma0Use::apriori;
+  const AdjustmentResult r = adjust(net, apriori);
   REQUIRE(r.global_test);
   CHECK_THAT(r.global_test->statistic, WithinAbs(72.0, 1e-9));
   // Two-sided chi-square bounds for 1 degree of freedom at alpha = 0.05: the

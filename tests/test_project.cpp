@@ -95,7 +95,12 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   // when something was removed (the demo removes its planted misreading).
   CHECK_THAT(read_file(tmp.path() / "report.md"),
              Contains("No observation fails data snooping (Baarda's w-test, \\|w\\| \\> 3.29 at "
-                      "alpha0 = 0.001) after the removals."));
+                      "alpha0 = 0.001; the global test accepts the a-priori precision) after the "
+                      "removals."));
+  // The planted misreading fails the first adjustment's global test, so it
+  // was found with sigma0 estimated: the finding names Pope's tau test.
+  CHECK_THAT(read_file(tmp.path() / "report.md"),
+             Contains("Pope's tau test, \\|tau\\| \\> 2.45 at alpha0 = 0.001"));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
 
   std::ifstream record_file(tmp.path() / "run.json");

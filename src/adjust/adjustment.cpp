@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <limits>
 #include <optional>
 
 #include "adjust/normal_solver.hpp"
@@ -35,6 +36,35 @@ std::string to_string(ControlKind kind) {
       return "weighted";
   }
   throw std::logic_error("unhandled ControlKind");
+}
+
+std::string to_string(Sigma0Use use) {
+  switch (use) {
+    case Sigma0Use::apriori:
+      return "apriori";
+    case Sigma0Use::estimate:
+      return "estimate";
+    case Sigma0Use::automatic:
+      break;
+  }
+  return "auto";
+}
+
+Sigma0Use parse_sigma0_use(const std::string& text) {
+  for (const Sigma0Use use : {Sigma0Use::apriori, Sigma0Use::estimate, Sigma0Use::automatic}) {
+    if (text == to_string(use)) return use;
+  }
+  throw OptionError(fmt::format("sigma0 '{}': use apriori, estimate or auto", text));
+}
+
+std::string OutlierTest::name() const {
+  return kind == Kind::w_test ? "Baarda's w-test" : "Pope's tau test";
+}
+
+std::string OutlierTest::statement() const {
+  if (!std::isfinite(critical)) return fmt::format("{} (cannot run: redundancy below 2)", name());
+  return fmt::format("{}, |{}| > {:.2f} at alpha0 = {:g}", name(),
+                     kind == Kind::w_test ? "w" : "tau", critical, alpha0);
 }
 
 void AdjustmentOptions::validate() const {
@@ -244,6 +274,50 @@ std::vector<double> approximate_heights(const Network& net, const Control& contr
       ids);
 }
 
+// The outlier test that fits what is known of sigma0. Baarda's w-test
+// (Baarda 1968) assumes the a-priori variance of unit weight; once sigma0
+// is estimated from the same residuals, tau = w / sigma0_hat follows Pope's
+// tau distribution, and the normal critical value would be wrong (Pope 1976,
+// NOAA Technical Report NOS 65 NGS 1). With Sigma0Use::automatic the
+// a-priori precision is trusted while the two-sided global test accepts it.
+OutlierTest choose_outlier_test(const AdjustmentOptions& options, const AdjustmentResult& r) {
+  OutlierTest test;
+  test.alpha0 = options.alpha0;
+  test.critical = r.w_critical;
+  if (!r.global_test) {
+    test.basis = "no redundancy: no observation can be tested";
+    return test;
+  }
+  bool estimated = false;
+  switch (options.sigma0) {
+    case Sigma0Use::apriori:
+      test.basis = "the a-priori precision is trusted (sigma0 apriori)";
+      break;
+    case Sigma0Use::estimate:
+      estimated = true;
+      test.basis =
+          fmt::format("sigma0 is estimated from the data ({:.3f}; sigma0 estimate)", *r.sigma0);
+      break;
+    case Sigma0Use::automatic:
+      estimated = !r.global_test->passed;
+      test.basis = estimated ? fmt::format(
+                                   "the global test rejects the a-priori precision, so sigma0 "
+                                   "is estimated from the data ({:.3f})",
+                                   *r.sigma0)
+                             : std::string("the global test accepts the a-priori precision");
+      break;
+  }
+  if (!estimated) return test;
+  test.kind = OutlierTest::Kind::tau_test;
+  if (r.dof < 2) {
+    test.critical = std::numeric_limits<double>::infinity();
+    test.basis += "; with a redundancy below 2 the tau test cannot run";
+  } else {
+    test.critical = tau_test_critical_value(options.alpha0, static_cast<double>(r.dof));
+  }
+  return test;
+}
+
 AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& options,
                              const Weighting& weights, const Control& control,
                              const std::vector<char>& active) {
@@ -412,19 +486,32 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
     }
   }
 
-  for (const AdjustedSection& s : result.sections) {
-    if (s.w && std::abs(*s.w) > result.w_critical) {
-      result.suspects.push_back({Suspect::Kind::section, s.section, *s.w});
+  result.test = choose_outlier_test(options, result);
+  if (result.test.kind == OutlierTest::Kind::tau_test && result.sigma0) {
+    // sigma_v scales with the estimated sigma0: so do tau and the MDB.
+    const double s0 = *result.sigma0;
+    for (AdjustedSection& s : result.sections) {
+      if (s.w) s.tau = *s.w / s0;
+      if (s.mdb) s.mdb = *s.mdb * s0;
     }
+    for (AdjustedPoint& p : result.points) {
+      if (p.control_w) p.control_tau = *p.control_w / s0;
+      if (p.control_mdb) p.control_mdb = *p.control_mdb * s0;
+    }
+  }
+  for (const AdjustedSection& s : result.sections) {
+    if (const auto t = s.statistic(); t && std::abs(*t) > result.test.critical)
+      result.suspects.push_back({Suspect::Kind::section, s.section, *t});
   }
   for (const AdjustedPoint& p : result.points) {
-    if (p.control_w && std::abs(*p.control_w) > result.w_critical) {
-      result.suspects.push_back({Suspect::Kind::control, p.point, *p.control_w});
-    }
+    const auto t = p.control_tau ? p.control_tau : p.control_w;
+    if (t && std::abs(*t) > result.test.critical)
+      result.suspects.push_back({Suspect::Kind::control, p.point, *t});
   }
-  std::stable_sort(
-      result.suspects.begin(), result.suspects.end(),
-      [](const Suspect& a, const Suspect& b) { return std::abs(a.w) > std::abs(b.w); });
+  std::stable_sort(result.suspects.begin(), result.suspects.end(),
+                   [](const Suspect& a, const Suspect& b) {
+                     return std::abs(a.statistic) > std::abs(b.statistic);
+                   });
   result.timings.sigmas += seconds_since(start);
   return result;
 }
@@ -473,7 +560,7 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
         std::find_if(result.suspects.begin(), result.suspects.end(),
                      [](const Suspect& s) { return s.kind == Suspect::Kind::section; });
     if (worst == result.suspects.end()) break;
-    removals.push_back({worst->index, worst->w, result.sigma0.value_or(0.0)});
+    removals.push_back({worst->index, worst->statistic, result.test, result.sigma0.value_or(0.0)});
     active[worst->index] = 0;
     result = adjust_once(network, options, weights, control, active);
   }

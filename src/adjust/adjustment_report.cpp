@@ -29,8 +29,8 @@ nlohmann::json suspect_json(const Network& net, const AdjustmentResult& result, 
   if (s.kind == Suspect::Kind::section) {
     const Section& section = net.sections[s.index];
     const AdjustedSection& a = result.sections[s.index];
-    return {{"kind", "section"}, {"from", section.from},   {"to", section.to},
-            {"w", s.w},          {"residual", a.residual}, {"mdb", optional_number(a.mdb)},
+    return {{"kind", "section"},        {"from", section.from},   {"to", section.to},
+            {"statistic", s.statistic}, {"residual", a.residual}, {"mdb", optional_number(a.mdb)},
             {"row", section.row}};
   }
   const Point& p = net.points[s.index];
@@ -39,7 +39,7 @@ nlohmann::json suspect_json(const Network& net, const AdjustmentResult& result, 
           {"from", ""},
           {"to", p.id},
           {"point", p.id},
-          {"w", s.w},
+          {"statistic", s.statistic},
           {"residual", optional_number(a.control_residual)},
           {"mdb", optional_number(a.control_mdb)},
           {"row", p.row}};
@@ -87,14 +87,15 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   }
 
   std::ostream& residuals = out.open("residuals.csv");
-  residuals << "from,to,dh,residual,w,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,run,"
-               "date,suspect,removed_step\n";
+  residuals << "from,to,dh,residual,w,tau,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,"
+               "run,date,suspect,removed_step\n";
   for (const AdjustedSection& a : result.sections) {
     const Section& s = net.sections[a.section];
-    const bool suspect = a.w && std::abs(*a.w) > result.w_critical;
+    const auto statistic = a.statistic();
+    const bool suspect = statistic && std::abs(*statistic) > result.test.critical;
     residuals << csv_cell(s.from) << ',' << csv_cell(s.to) << ',' << metres(s.dh) << ','
-              << metres(a.residual) << ',' << ratio(a.w, 3) << ',' << metres(a.adjusted_dh) << ','
-              << metres(a.sigma) << ',' << to_string(a.rule) << ','
+              << metres(a.residual) << ',' << ratio(a.w, 3) << ',' << ratio(a.tau, 3) << ','
+              << metres(a.adjusted_dh) << ',' << metres(a.sigma) << ',' << to_string(a.rule) << ','
               << fmt::format("{:.4f}", a.redundancy) << ',' << metres(a.mdb) << ','
               << (s.length ? fmt::format("{:.3f}", *s.length) : "") << ',' << csv_cell(s.run) << ','
               << csv_cell(s.date) << ',' << (suspect ? "yes" : "") << ','
@@ -134,11 +135,18 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
                               {"passed", nullptr},
                               {"note", "no redundancy: the observations cannot be tested"}};
   }
-  summary["data_snooping"] = {{"alpha0", options.alpha0},
-                              {"beta0", options.beta0},
-                              {"w_critical", result.w_critical},
-                              {"lambda0", result.lambda0},
-                              {"iterative", options.iterative_snooping}};
+  summary["data_snooping"] = {
+      {"test", result.test.name()},
+      {"statistic", result.test.kind == OutlierTest::Kind::w_test ? "w" : "tau"},
+      {"critical", std::isfinite(result.test.critical) ? nlohmann::json(result.test.critical)
+                                                       : nlohmann::json(nullptr)},
+      {"basis", result.test.basis},
+      {"sigma0_use", to_string(options.sigma0)},
+      {"alpha0", options.alpha0},
+      {"beta0", options.beta0},
+      {"w_critical", result.w_critical},
+      {"lambda0", result.lambda0},
+      {"iterative", options.iterative_snooping}};
   nlohmann::json suspects = nlohmann::json::array();
   for (const Suspect& s : result.suspects) suspects.push_back(suspect_json(net, result, s));
   summary["suspects"] = suspects;
@@ -150,7 +158,8 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
     removals.push_back({{"step", k + 1},
                         {"from", s.from},
                         {"to", s.to},
-                        {"w", r.w},
+                        {"statistic", r.statistic},
+                        {"test", r.test.name()},
                         {"sigma0_before", r.sigma0},
                         {"row", s.row}});
   }
@@ -192,10 +201,11 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
     text += "Redundancy 0: no check on the observations is possible\n";
   }
   for (std::size_t k = 0; k < result.removals.size(); ++k) {
-    text += fmt::format("Removed (step {}): {} with w = {:.2f}\n", k + 1,
-                        suspect_label(net, {Suspect::Kind::section, result.removals[k].section,
-                                            result.removals[k].w}),
-                        result.removals[k].w);
+    const Removal& r = result.removals[k];
+    text += fmt::format("Removed (step {}): {} with {} = {:.2f} ({})\n", k + 1,
+                        suspect_label(net, {Suspect::Kind::section, r.section, r.statistic}),
+                        r.test.kind == OutlierTest::Kind::w_test ? "w" : "tau", r.statistic,
+                        r.test.statement());
   }
   if (const auto unchecked = unchecked_points(net, result); !unchecked.empty()) {
     text += fmt::format(
@@ -205,14 +215,16 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
                   unchecked.begin() + std::min<std::ptrdiff_t>(unchecked.size(), 10), ", "),
         unchecked.size() > 10 ? ", ..." : "");
   }
+  const OutlierTest& test = result.test;
+  const char* symbol = test.kind == OutlierTest::Kind::w_test ? "w" : "tau";
+  text += fmt::format("Data snooping: {}, because {}\n", test.statement(), test.basis);
   if (result.suspects.empty()) {
-    text += fmt::format("No suspect observations (|w| <= {:.2f})\n", result.w_critical);
+    text += "No suspect observations\n";
   } else {
-    text += fmt::format("{} suspect observation(s) (|w| > {:.2f}), worst first:\n",
-                        result.suspects.size(), result.w_critical);
+    text += fmt::format("{} suspect observation(s), worst first:\n", result.suspects.size());
     for (std::size_t k = 0; k < result.suspects.size() && k < 5; ++k) {
-      text += fmt::format("  {}: w = {:.2f}\n", suspect_label(net, result.suspects[k]),
-                          result.suspects[k].w);
+      text += fmt::format("  {}: {} = {:.2f}\n", suspect_label(net, result.suspects[k]), symbol,
+                          result.suspects[k].statistic);
     }
   }
   return text;

@@ -21,6 +21,7 @@ namespace {
 struct AdjustArguments {
   NetworkInputs inputs;
   std::string free_point;
+  std::string sigma0 = "auto";
   AdjustmentOptions options;
   bool strict = false;
   bool quiet = false;
@@ -41,6 +42,13 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
   command
       .add_option("--alpha0", a.options.alpha0,
                   "Significance level of data snooping, per observation")
+      ->capture_default_str();
+  command
+      .add_option("--sigma0", a.sigma0,
+                  "How data snooping treats the a-priori precision: apriori (trusted: Baarda's "
+                  "w-test), estimate (sigma0 from the data: Pope's tau test), auto (the w-test "
+                  "while the global test passes, else the tau test)")
+      ->check(CLI::IsMember({"apriori", "estimate", "auto"}))
       ->capture_default_str();
   command.add_option("--beta0", a.options.beta0, "Power for the minimal detectable bias")
       ->capture_default_str();
@@ -64,6 +72,7 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
 int adjust_files(const AdjustArguments& a, std::ostream& out, StageResults* chain) {
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
+  options.sigma0 = parse_sigma0_use(a.sigma0);
   options.validate();
   check_network_input_options(a.inputs);
   if (options_check_only()) return exit_ok;

@@ -23,7 +23,7 @@ namespace {
 struct EpochArguments {
   std::string points, out, unit = "m", points_columns, sections_columns;
   std::vector<std::string> sections, marks;
-  std::string variance = "pooled";
+  std::string variance = "pooled", sigma0 = "auto";
   EpochOptions options;
   bool strict = false, quiet = false;
 };
@@ -81,6 +81,7 @@ int run_epochs(const EpochArguments& a, std::ostream& out, StageResults* chain) 
   } else {
     throw OptionError(fmt::format("--variance {}: use pooled or apriori", a.variance));
   }
+  options.adjustment.sigma0 = parse_sigma0_use(a.sigma0);
   options.validate();
   const LengthUnit unit = parse_length_unit(a.unit);
   for (const std::string* map : {&a.points_columns, &a.sections_columns}) parse_column_map(*map);
@@ -133,6 +134,12 @@ CommandRunner add_epochs_command(CLI::App& app) {
   command
       ->add_option("--variance", a->variance,
                    "Variance factor: pooled (from the epochs' residuals) or apriori")
+      ->capture_default_str();
+  command
+      ->add_option("--sigma0", a->sigma0,
+                   "Data snooping in each epoch: apriori (Baarda's w-test), estimate (Pope's tau "
+                   "test), auto (the w-test while the epoch's global test passes)")
+      ->check(CLI::IsMember({"apriori", "estimate", "auto"}))
       ->capture_default_str();
   command->add_flag("--snoop", a->options.remove_suspects,
                     "Iterative data snooping in each epoch before movement is judged");

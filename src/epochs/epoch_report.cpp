@@ -30,7 +30,7 @@ std::string test_verdict(const EpochQuality& q) {
 nlohmann::json flagged_json(const std::vector<EpochQuality::Flagged>& list) {
   nlohmann::json out = nlohmann::json::array();
   for (const auto& f : list)
-    out.push_back({{"from", f.from}, {"to", f.to}, {"w", f.w}, {"row", f.row}});
+    out.push_back({{"from", f.from}, {"to", f.to}, {"statistic", f.statistic}, {"row", f.row}});
   return out;
 }
 
@@ -115,6 +115,8 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
                         {"sections", q.sections},
                         {"dof", q.dof},
                         {"vtpv", q.vtpv},
+                        {"outlier_test", q.test.statement()},
+                        {"outlier_test_basis", q.test.basis},
                         {"suspects", flagged_json(q.suspects)},
                         {"removed", flagged_json(q.removed)},
                         {"unchecked_points", q.unchecked}};

@@ -375,17 +375,18 @@ EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const 
     q.vtpv = r.vtpv;
     q.sigma0 = r.sigma0;
     q.global_test = r.global_test;
+    q.test = r.test;
     for (const Suspect& s : r.suspects) {
       if (s.kind != Suspect::Kind::section) continue;
       const Section& sec = network.sections[s.index];
-      q.suspects.push_back({sec.from, sec.to, s.w, sec.row});
+      q.suspects.push_back({sec.from, sec.to, s.statistic, sec.row});
     }
     for (const AdjustedPoint& p : r.points) {
       if (!p.checked) q.unchecked.push_back(network.points[p.point].id);
     }
     for (const Removal& removal : r.removals) {
       const Section& sec = network.sections[removal.section];
-      q.removed.push_back({sec.from, sec.to, removal.w, sec.row});
+      q.removed.push_back({sec.from, sec.to, removal.statistic, sec.row});
     }
     for (std::size_t s = 0; s < network.sections.size(); ++s) {
       if (r.sections[s].removed) continue;

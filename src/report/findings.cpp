@@ -115,46 +115,63 @@ void adjustment_findings(const StageResults& results, const std::set<std::string
   const AdjustStage& adjust = *results.adjust;
   const Network& net = adjust.network;
   const AdjustmentResult& a = adjust.result;
-  const std::string test = fmt::format("Baarda's w-test, |w| > {:.2f} at alpha0 = {:g}",
-                                       a.w_critical, adjust.options.alpha0);
+  const auto symbol = [](const OutlierTest& test) {
+    return test.kind == OutlierTest::Kind::w_test ? "w" : "tau";
+  };
   for (const Removal& r : a.removals) {
     const Section& s = net.sections[r.section];
     out.add("adjust", "blunder", FindingLevel::action,
             fmt::format("Blunder: the section {} -> {} (sections row {}{}) failed data snooping "
-                        "with w = {:.1f} ({}) and was removed; re-level it. If the new levelling "
+                        "with {} = {:.1f} ({}) and was removed; re-level it. If the new levelling "
                         "agrees with the old, suspect a moved mark or a too optimistic a-priori "
                         "precision instead.",
-                        s.from, s.to, s.row, field_book_rows(results, s), r.w, test));
+                        s.from, s.to, s.row, field_book_rows(results, s), symbol(r.test),
+                        r.statistic, r.test.statement()));
   }
   std::vector<std::string> suspects;
   for (const Suspect& s : a.suspects) {
     if (s.kind == Suspect::Kind::section) {
       const Section& section = net.sections[s.index];
-      suspects.push_back(fmt::format("section {} -> {} (sections row {}{}) w = {:.2f}",
-                                     section.from, section.to, section.row,
-                                     field_book_rows(results, section), s.w));
+      suspects.push_back(
+          fmt::format("section {} -> {} (sections row {}{}) {} = {:.2f}", section.from, section.to,
+                      section.row, field_book_rows(results, section), symbol(a.test), s.statistic));
     } else {
-      suspects.push_back(fmt::format("the known height of {} (points row {}) w = {:.2f}",
-                                     net.points[s.index].id, net.points[s.index].row, s.w));
+      suspects.push_back(fmt::format("the known height of {} (points row {}) {} = {:.2f}",
+                                     net.points[s.index].id, net.points[s.index].row,
+                                     symbol(a.test), s.statistic));
     }
   }
   if (!suspects.empty()) {
     out.add("adjust", "suspect", FindingLevel::action,
             fmt::format("{} observation(s) fail data snooping ({}) and were kept: {}. Check them "
                         "in the field book and re-level before relying on the heights they carry.",
-                        suspects.size(), test, listing(suspects)));
+                        suspects.size(), a.test.statement(), listing(suspects)));
   }
   if (a.global_test && !a.global_test->passed) {
     const GlobalTest& g = *a.global_test;
+    // Where a remaining blunder would most likely sit: the largest |w|.
+    const AdjustedSection* largest = nullptr;
+    for (const AdjustedSection& s : a.sections) {
+      if (!s.removed && s.w && (!largest || std::abs(*s.w) > std::abs(*largest->w))) largest = &s;
+    }
+    std::string where;
+    if (g.statistic > g.upper && largest) {
+      const Section& s = net.sections[largest->section];
+      where = fmt::format(
+          " The largest normalised residual is w = {:.2f} on section {} -> {} "
+          "(sections row {}{}).",
+          *largest->w, s.from, s.to, s.row, field_book_rows(results, s));
+    }
     out.add("adjust", "global-test", FindingLevel::caution,
             fmt::format("The adjustment's global test failed: v'Pv = {:.2f} outside [{:.2f}, "
-                        "{:.2f}] (chi-square, {} degrees of freedom, alpha = {:g}). {}",
+                        "{:.2f}] (chi-square, {} degrees of freedom, alpha = {:g}). {}{} {}.",
                         g.statistic, g.lower, g.upper, a.dof, g.alpha,
                         g.statistic > g.upper
                             ? "The observations scatter more than the a-priori precision allows: "
                               "a blunder remains or the precision is too optimistic."
                             : "The observations agree better than the a-priori precision says: "
-                              "the precision is too pessimistic, and the sigmas are too wide."));
+                              "the precision is too pessimistic, and the sigmas are too wide.",
+                        where, "Data snooping used " + a.test.statement()));
   }
   std::vector<std::string> unchecked;
   for (const AdjustedPoint& p : a.points) {

@@ -36,6 +36,10 @@ namespace {
 
 std::string yes_no(bool value) { return value ? "yes" : "no"; }
 
+std::string symbol(const OutlierTest& test) {
+  return test.kind == OutlierTest::Kind::w_test ? "w" : "tau";
+}
+
 void levelling_section(Document& doc, const StageResults& results) {
   if (!results.adjust) return;
   const AdjustStage& adjust = *results.adjust;
@@ -88,25 +92,25 @@ void levelling_section(Document& doc, const StageResults& results) {
   for (std::size_t k = 0; k < a.removals.size(); ++k) {
     const Removal& r = a.removals[k];
     const Section& section = net.sections[r.section];
-    removed.push_back({std::to_string(k + 1), section.from, section.to, fixed(r.w, 1),
+    removed.push_back({std::to_string(k + 1), section.from, section.to,
+                       fmt::format("{} = {:.1f}", symbol(r.test), r.statistic), r.test.statement(),
                        std::to_string(section.row)});
   }
   if (!removed.empty()) {
-    doc.paragraph("Sections removed by iterative data snooping (Baarda's w-test), in order:");
-    doc.table({"step", "from", "to", "w", "row"}, removed);
+    doc.paragraph("Sections removed by iterative data snooping, in order:");
+    doc.table({"step", "from", "to", "statistic", "test", "row"}, removed);
   }
   std::vector<std::vector<std::string>> suspects;
   for (const Suspect& s : a.suspects) {
     if (s.kind == Suspect::Kind::section) {
-      suspects.push_back({net.sections[s.index].from, net.sections[s.index].to, fixed(s.w, 2)});
+      suspects.push_back(
+          {net.sections[s.index].from, net.sections[s.index].to, fixed(s.statistic, 2)});
     } else {
-      suspects.push_back({"", net.points[s.index].id, fixed(s.w, 2)});
+      suspects.push_back({"", net.points[s.index].id, fixed(s.statistic, 2)});
     }
   }
-  // The test as the summary states it: Baarda's w against the normal
-  // critical value at alpha0 per observation.
-  const std::string test = fmt::format("Baarda's w-test, |w| > {:.2f} at alpha0 = {:g}",
-                                       a.w_critical, adjust.options.alpha0);
+  // The test as the summary states it, and why that test.
+  const std::string test = fmt::format("{}; {}", a.test.statement(), a.test.basis);
   if (suspects.empty()) {
     doc.paragraph(
         removed.empty()
@@ -114,7 +118,7 @@ void levelling_section(Document& doc, const StageResults& results) {
             : fmt::format("No observation fails data snooping ({}) after the removals.", test));
   } else {
     doc.paragraph(fmt::format("Observations failing data snooping ({}):", test));
-    doc.table({"from", "to", "w"}, suspects);
+    doc.table({"from", "to", symbol(a.test)}, suspects);
   }
   std::vector<std::vector<std::string>> rows;
   for (const AdjustedPoint& p : a.points) {

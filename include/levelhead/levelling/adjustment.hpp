@@ -17,7 +17,11 @@
 //      residuals v = adjusted dh - observed dh (m), redundancy numbers,
 //      Baarda's normalised residuals w = v / sigma_v, minimal detectable
 //      biases (m); sigma0, redundancy, the two-sided chi-square test of the
-//      variance factor; suspects (|w| above the critical value), worst first.
+//      variance factor; suspects, worst first, by the outlier test that fits
+//      what is known of sigma0 (OutlierTest below): Baarda's w-test while the
+//      a-priori precision is trusted, Pope's tau test (tau = w / sigma0_hat
+//      against the tau distribution) when sigma0 is estimated from the same
+//      data.
 // Errors: InputError for a section that cannot be weighted (no sigma, length
 //      or setups); NetworkError for a connected part with no known height,
 //      control heights in different references, or a free-adjustment point
@@ -37,6 +41,15 @@ namespace levelhead {
 enum class WeightRule { given_sigma, length, setups };
 std::string to_string(WeightRule rule);
 
+// How far the a-priori precision is trusted when the residuals are tested.
+enum class Sigma0Use {
+  apriori,   // trusted: Baarda's w-test, whatever the global test says
+  estimate,  // not known: sigma0 from the data, Pope's tau test
+  automatic  // trusted while the global test passes; estimated once it fails
+};
+std::string to_string(Sigma0Use use);
+Sigma0Use parse_sigma0_use(const std::string& text);  // OptionError naming the choices
+
 struct AdjustmentOptions {
   double mm_per_sqrt_km = 1.0;            // sigma = k * sqrt(length in km) when no sigma (mm)
   double mm_per_setup = 0.3;              // sigma = s * sqrt(setups) when no sigma, no length (mm)
@@ -44,9 +57,10 @@ struct AdjustmentOptions {
   double alpha0 = 0.001;                  // data snooping, per observation, two-sided
   double beta0 = 0.80;                    // power for the minimal detectable bias
   std::optional<std::string> free_point;  // hold only this point (free network check)
-  bool iterative_snooping = false;        // remove the worst suspect and re-adjust, repeatedly
-  std::size_t max_removals = 5;           // cap on removals in iterative snooping
-  double max_factor_nonzeros = 2e8;       // refuse larger factors (memory)
+  Sigma0Use sigma0 = Sigma0Use::automatic;  // which outlier test (see Sigma0Use)
+  bool iterative_snooping = false;          // remove the worst suspect and re-adjust, repeatedly
+  std::size_t max_removals = 5;             // cap on removals in iterative snooping
+  double max_factor_nonzeros = 2e8;         // refuse larger factors (memory)
 
   // Throws OptionError naming the option, its value and the rule.
   void validate() const;
@@ -62,7 +76,7 @@ struct AdjustedPoint {
   double sigma_apriori = 0.0;   // m, sqrt(q) with a-priori unit weight
   ControlKind control = ControlKind::adjusted;
   // For weighted control points: the residual (adjusted - given, m), w and MDB.
-  std::optional<double> control_residual, control_w, control_mdb, control_redundancy;
+  std::optional<double> control_residual, control_w, control_tau, control_mdb, control_redundancy;
   // Whether a blunder in any observation this height rests on would show in
   // a residual: true for control points and for the points the control
   // reaches over sections of redundancy r > 0; false beyond a section of
@@ -81,19 +95,37 @@ struct AdjustedSection {
   double residual = 0.0;      // m, adjusted - observed
   double redundancy = 0.0;    // r = qvv / qll, 0..1
   std::optional<double> w;    // normalised residual; nullopt when r ~ 0 (no check)
+  std::optional<double> tau;  // w / sigma0_hat, when the tau test is used
   std::optional<double> mdb;  // m, minimal detectable bias; nullopt when r ~ 0
+  // The statistic of the outlier test used: tau when set, else w.
+  std::optional<double> statistic() const { return tau ? tau : w; }
+};
+
+// The test of single observations (data snooping) an adjustment used.
+struct OutlierTest {
+  enum class Kind { w_test, tau_test } kind = Kind::w_test;
+  double alpha0 = 0.001;  // two-sided, per observation
+  // |statistic| above it makes a suspect; infinite when the test cannot run
+  // (the tau test needs a redundancy of 2 or more).
+  double critical = 0.0;
+  std::string basis;  // why this test: what is known of sigma0
+  // "Baarda's w-test" or "Pope's tau test".
+  std::string name() const;
+  // "Baarda's w-test, |w| > 3.29 at alpha0 = 0.001"
+  std::string statement() const;
 };
 
 struct Suspect {
   enum class Kind { section, control } kind = Kind::section;
-  std::size_t index = 0;  // section index, or point index for a control
-  double w = 0.0;
+  std::size_t index = 0;   // section index, or point index for a control
+  double statistic = 0.0;  // w or tau, as the adjustment's OutlierTest
 };
 
 struct Removal {
   std::size_t section = 0;
-  double w = 0.0;       // its w when it was removed
-  double sigma0 = 0.0;  // sigma0 of the adjustment it was removed from
+  double statistic = 0.0;  // its w or tau when it was removed
+  OutlierTest test;        // the test of that step
+  double sigma0 = 0.0;     // sigma0 of the adjustment it was removed from
 };
 
 struct GlobalTest {
@@ -113,10 +145,11 @@ struct AdjustmentResult {
   std::size_t unknowns = 0, observations = 0, fixed_points = 0, weighted_points = 0;
   std::size_t dof = 0;
   double vtpv = 0.0;
-  std::optional<double> sigma0;           // nullopt when dof = 0
-  std::optional<GlobalTest> global_test;  // nullopt when dof = 0
-  double w_critical = 0.0, lambda0 = 0.0;
-  std::vector<Suspect> suspects;                  // |w| > w_critical, worst first
+  std::optional<double> sigma0;                   // nullopt when dof = 0
+  std::optional<GlobalTest> global_test;          // nullopt when dof = 0
+  double w_critical = 0.0, lambda0 = 0.0;         // of Baarda's w-test and its MDB
+  OutlierTest test;                               // the test that made the suspects
+  std::vector<Suspect> suspects;                  // beyond test.critical, worst first
   std::vector<Removal> removals;                  // iterative data snooping, in order
   std::size_t weight_rule_counts[3] = {0, 0, 0};  // indexed by WeightRule
   std::optional<std::string> free_point;

@@ -73,11 +73,12 @@ struct EpochQuality {
   std::optional<GlobalTest> global_test;
   struct Flagged {
     std::string from, to;
-    double w = 0.0;
+    double statistic = 0.0;  // w or tau, by the epoch adjustment's outlier test
     std::size_t row = 0;
   };
   std::vector<Flagged> suspects;       // observation suspects, worst first
   std::vector<Flagged> removed;        // removed by data snooping (with remove_suspects)
+  OutlierTest test;                    // the epoch adjustment's test of single observations
   std::vector<std::string> unchecked;  // points resting on single observations (side shots, spurs)
 };
 
