@@ -243,6 +243,7 @@ TEST_CASE("the global test's bounds and the MDB against numbers worked by hand",
                     section("C", "A", -0.520 + 0.012, 600.0)});
   AdjustmentOptions apriori;  // Baarda's MDB assumes the a-priori precision
   apriori.sigma0 = Sigma0Use::apriori;
+  apriori.mm_per_sqrt_km = 1.0;
   const AdjustmentResult r = adjust(net, apriori);
   REQUIRE(r.global_test);
   CHECK_THAT(r.global_test->statistic, WithinAbs(72.0, 1e-9));

@@ -2,7 +2,11 @@
 #include <cmath>
 #include <set>
 
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/epochs.hpp"
+#include "levelhead/levelling/fieldbook.hpp"
 #include "levelhead/levelling/loops.hpp"
+#include "levelhead/levelling/precision.hpp"
 #include "support/network_builders.hpp"
 #include "support/synthetic_networks.hpp"
 
@@ -160,6 +164,29 @@ TEST_CASE("loops refuse sections without length and bad tolerances", "[loops][er
   LoopOptions bad;
   bad.mm_per_sqrt_km = 0.0;
   CHECK_THROWS_AS(find_loops(net, bad), OptionError);
-  CHECK_THROWS_WITH(find_tolerance_class("first"), Contains("fgcc-third"));
-  CHECK(find_tolerance_class("FGCC-Third").mm_per_sqrt_km > 0.0);
+  CHECK_THROWS_WITH(find_levelling_class("first"), Contains("fgcc-third"));
+  CHECK(find_levelling_class("FGCC-Third").loop_closure_mm_per_sqrt_km > 0.0);
+}
+
+TEST_CASE("one levelling class sets every stage's precision, by default third order",
+          "[loops][precision]") {
+  // FGCC 1984, third order (from memory): standard error 2.0 mm/sqrt(km),
+  // section and loop closures 12 mm/sqrt(km).
+  const LevellingClass& third = default_levelling_class();
+  CHECK(third.name == "fgcc-third");
+  CHECK_THAT(third.sigma_mm_per_sqrt_km, WithinAbs(2.0, 1e-12));
+  CHECK_THAT(third.loop_closure_mm_per_sqrt_km, WithinAbs(12.0, 1e-12));
+  // The defaults of the stages come from it, not from numbers of their own.
+  CHECK_THAT(LoopOptions{}.mm_per_sqrt_km, WithinAbs(third.loop_closure_mm_per_sqrt_km, 1e-12));
+  CHECK_THAT(FieldBookOptions{}.section_tolerance_mm_per_sqrt_km,
+             WithinAbs(third.section_closure_mm_per_sqrt_km, 1e-12));
+  CHECK_THAT(AdjustmentOptions{}.mm_per_sqrt_km, WithinAbs(third.sigma_mm_per_sqrt_km, 1e-12));
+  CHECK_THAT(EpochOptions{}.adjustment.mm_per_sqrt_km,
+             WithinAbs(third.sigma_mm_per_sqrt_km, 1e-12));
+  // Every class: the closures are specifications of several standard errors.
+  for (const LevellingClass& c : levelling_classes()) {
+    INFO(c.name);
+    CHECK(c.loop_closure_mm_per_sqrt_km > 3.0 * c.sigma_mm_per_sqrt_km);
+    CHECK(c.section_closure_mm_per_sqrt_km > 3.0 * c.sigma_mm_per_sqrt_km);
+  }
 }

@@ -437,6 +437,48 @@ TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
   }
 }
 
+TEST_CASE("one levelling class in the project sets the precision of every levelling stage",
+          "[project][precision]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  const fs::path out = tmp.path() / "out";
+
+  SECTION("each stage states the class and uses its own number of it") {
+    const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+    INFO(run.err);
+    REQUIRE(run.code == 0);
+    const auto summary = [&](const char* stage) {
+      return nlohmann::json::parse(std::ifstream(out / stage / "summary.json"));
+    };
+    // The demo levels to second order class I (FGCC 1984, from memory:
+    // standard error 1.0, section and loop closures 6 mm/sqrt(km)).
+    CHECK(summary("reduce")["checks"]["levelling_class"] == "fgcc-second-i");
+    CHECK(summary("reduce")["checks"]["section_tolerance_mm_per_sqrt_km"] == 6.0);
+    CHECK(summary("loops")["levelling_class"] == "fgcc-second-i");
+    CHECK(summary("loops")["tolerance_mm_per_sqrt_km"] == 6.0);
+    CHECK(summary("adjust")["weights"]["levelling_class"] == "fgcc-second-i");
+    CHECK(summary("adjust")["weights"]["mm_per_sqrt_km"] == 1.0);
+    CHECK(summary("epochs")["settings"]["levelling_class"] == "fgcc-second-i");
+    CHECK_THAT(read_file(out / "report.md"),
+               Contains("1 mm/sqrt(km) (standard error of class fgcc-second-i)"));
+  }
+  SECTION("a class that does not exist is named with its line") {
+    replace_in(project, "levelling_class = \"fgcc-second-i\"", "levelling_class = \"second\"");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Contains("line") && Contains("unknown levelling class 'second'") &&
+                            Contains("fgcc-third"));
+    CHECK_FALSE(fs::exists(out));
+  }
+  SECTION("a stage's own number as well as the class is refused, naming the setting") {
+    replace_in(project, "[adjustment]", "[adjustment]\nmm_per_sqrt_km = 1.5");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 2);
+    CHECK_THAT(run.err, Contains("[adjustment] mm_per_sqrt_km"));
+    CHECK_FALSE(fs::exists(out));
+  }
+}
+
 TEST_CASE("project column maps reach every stage that reads the table", "[project]") {
   // The wells table and the readings under the names of another program.
   levelhead::testing::TempFolder tmp;

@@ -91,7 +91,7 @@ TEST_CASE("sparse adjustment equals the dense solution on random networks", "[ad
   for (std::uint64_t seed : {1u, 2u, 3u, 4u, 5u}) {
     const Network net = with_control(testing::random_network(120, 80, seed), seed + 100);
     const DenseSolution dense = dense_adjustment(net);
-    const AdjustmentResult sparse = adjust(net, AdjustmentOptions{});
+    const AdjustmentResult sparse = adjust(net, testing::synthetic_precision());
     INFO("seed " << seed);
     REQUIRE(sparse.sigma0.has_value());
     // sigma0: both are sqrt(v'Pv / dof) from the same model; 1e-9 relative
@@ -116,7 +116,7 @@ TEST_CASE("a planted 20 mm blunder is the worst suspect", "[adjust][dense][snoop
     const std::size_t planted = synthetic.sections.size() - 1;
     synthetic.sections[planted].dh += 0.020;
     const Network net = with_control(std::move(synthetic), seed + 100);
-    const AdjustmentResult result = adjust(net, AdjustmentOptions{});
+    const AdjustmentResult result = adjust(net, testing::synthetic_precision());
     INFO("seed " << seed);
     REQUIRE_FALSE(result.suspects.empty());
     CHECK(result.suspects.front().kind == Suspect::Kind::section);

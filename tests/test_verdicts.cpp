@@ -37,8 +37,7 @@ bool within_binomial(std::size_t count, std::size_t trials, double p, double k) 
 TEST_CASE("blunder-free networks at the assumed precision: false alarms at alpha and alpha0",
           "[verdicts]") {
   // The synthetic noise is 1 mm/sqrt(km), the precision assumed here too.
-  AdjustmentOptions options;
-  options.mm_per_sqrt_km = testing::synthetic_mm_per_sqrt_km;
+  AdjustmentOptions options = testing::synthetic_precision();
   const std::size_t networks = 2000;
   AdjustmentOptions trusting = options;
   trusting.sigma0 = Sigma0Use::apriori;

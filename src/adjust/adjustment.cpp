@@ -575,6 +575,10 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
   }
   result.free_point = options.free_point;
   result.reference = reference;
+  result.precision = fmt::format("{:g} mm/sqrt(km) ({})", options.mm_per_sqrt_km,
+                                 options.levelling_class.empty()
+                                     ? std::string("given")
+                                     : "standard error of class " + options.levelling_class);
   return result;
 }
 

@@ -170,6 +170,9 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
         {"length", result.weight_rule_counts[static_cast<int>(WeightRule::length)]},
         {"setups", result.weight_rule_counts[static_cast<int>(WeightRule::setups)]}}},
       {"mm_per_sqrt_km", options.mm_per_sqrt_km},
+      {"levelling_class", options.levelling_class.empty()
+                              ? nlohmann::json(nullptr)
+                              : nlohmann::json(options.levelling_class)},
       {"mm_per_setup", options.mm_per_setup}};
   // Run times are left out on purpose: the same inputs give the same file.
   summary["solver"] = {{"factor_nonzeros", result.factor_nonzeros},
@@ -187,8 +190,8 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
       net.points.size(), net.sections.size(), result.unknowns, result.fixed_points,
       result.weighted_points,
       result.free_point ? fmt::format("; free adjustment holding {}", *result.free_point) : "");
-  text += fmt::format("Weights: {} from sigma, {} from length, {} from setups\n",
-                      result.weight_rule_counts[0], result.weight_rule_counts[1],
+  text += fmt::format("Weights: {} from sigma, {} from length at {}, {} from setups\n",
+                      result.weight_rule_counts[0], result.weight_rule_counts[1], result.precision,
                       result.weight_rule_counts[2]);
   if (result.global_test) {
     const GlobalTest& g = *result.global_test;

@@ -22,17 +22,21 @@ struct AdjustArguments {
   NetworkInputs inputs;
   std::string free_point;
   std::string sigma0 = "auto";
+  std::string levelling_class;
+  CLI::Option* mm_per_sqrt_km = nullptr;  // to tell a given k from the class's
   AdjustmentOptions options;
   bool strict = false;
   bool quiet = false;
 };
 
 void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
-  command
-      .add_option("--mm-per-sqrt-km", a.options.mm_per_sqrt_km,
-                  "Sigma of a section without a sigma, per square root of its length in km "
-                  "(mm/sqrt(km))")
-      ->capture_default_str();
+  a.mm_per_sqrt_km = command
+                         .add_option("--mm-per-sqrt-km", a.options.mm_per_sqrt_km,
+                                     "Sigma of a section without a sigma, per square root of its "
+                                     "length in km (mm/sqrt(km)), instead of --class")
+                         ->capture_default_str();
+  add_levelling_class_option(command, a.levelling_class, a.mm_per_sqrt_km,
+                             "the sigma of sections without one (its standard error)");
   command
       .add_option("--mm-per-setup", a.options.mm_per_setup,
                   "Sigma per setup for sections with neither sigma nor length (mm)")
@@ -73,6 +77,7 @@ int adjust_files(const AdjustArguments& a, std::ostream& out, StageResults* chai
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
   options.sigma0 = parse_sigma0_use(a.sigma0);
+  apply_levelling_class(a.levelling_class, a.mm_per_sqrt_km, options);
   options.validate();
   check_network_input_options(a.inputs);
   if (options_check_only()) return exit_ok;

@@ -23,7 +23,8 @@ namespace {
 struct EpochArguments {
   std::string points, out, unit = "m", points_columns, sections_columns;
   std::vector<std::string> sections, marks;
-  std::string variance = "pooled", sigma0 = "auto";
+  std::string variance = "pooled", sigma0 = "auto", levelling_class;
+  CLI::Option* mm_per_sqrt_km = nullptr;  // to tell a given k from the class's
   EpochOptions options;
   bool strict = false, quiet = false;
 };
@@ -82,6 +83,7 @@ int run_epochs(const EpochArguments& a, std::ostream& out, StageResults* chain) 
     throw OptionError(fmt::format("--variance {}: use pooled or apriori", a.variance));
   }
   options.adjustment.sigma0 = parse_sigma0_use(a.sigma0);
+  apply_levelling_class(a.levelling_class, a.mm_per_sqrt_km, options.adjustment);
   options.validate();
   const LengthUnit unit = parse_length_unit(a.unit);
   for (const std::string* map : {&a.points_columns, &a.sections_columns}) parse_column_map(*map);
@@ -143,10 +145,14 @@ CommandRunner add_epochs_command(CLI::App& app) {
       ->capture_default_str();
   command->add_flag("--snoop", a->options.remove_suspects,
                     "Iterative data snooping in each epoch before movement is judged");
-  command
-      ->add_option("--mm-per-sqrt-km", a->options.adjustment.mm_per_sqrt_km,
-                   "Sigma of a section without a sigma, per square root of km (mm)")
-      ->capture_default_str();
+  a->mm_per_sqrt_km =
+      command
+          ->add_option("--mm-per-sqrt-km", a->options.adjustment.mm_per_sqrt_km,
+                       "Sigma of a section without a sigma, per square root of km (mm), instead "
+                       "of --class")
+          ->capture_default_str();
+  add_levelling_class_option(*command, a->levelling_class, a->mm_per_sqrt_km,
+                             "the sigma of sections without one (its standard error)");
   command
       ->add_option("--mm-per-setup", a->options.adjustment.mm_per_setup,
                    "Sigma per setup for sections with neither sigma nor length (mm)")

@@ -18,6 +18,7 @@ struct LoopArguments {
   NetworkInputs inputs;
   LoopOptions options;
   std::string closure_class;
+  CLI::Option* tolerance = nullptr;  // --tolerance, to tell a given k from the default
   bool strict = false;
   bool quiet = false;
 };
@@ -28,23 +29,24 @@ CommandRunner add_loops_command(CLI::App& app) {
   CLI::App* command = app.add_subcommand(
       "loops", "Independent loops of a levelling network with misclosure against tolerance");
   add_network_input_options(*command, args->inputs);
-  auto* k = command
-                ->add_option("--tolerance", args->options.mm_per_sqrt_km,
-                             "Loop tolerance k in k mm * sqrt(loop length in km)")
-                ->capture_default_str();
-  std::string classes;
-  for (const auto& c : tolerance_classes())
-    classes += fmt::format(" {} ({} mm)", c.name, c.mm_per_sqrt_km);
-  command
-      ->add_option("--class", args->closure_class,
-                   "Named closure class instead of --tolerance:" + classes)
-      ->excludes(k);
+  CLI::Option* k =
+      command
+          ->add_option("--tolerance", args->options.mm_per_sqrt_km,
+                       "Loop tolerance k in k mm * sqrt(loop length in km), instead of "
+                       "--class")
+          ->capture_default_str();
+  add_levelling_class_option(*command, args->closure_class, k, "the loop tolerance");
+  args->tolerance = k;
   command->add_flag("--strict", args->strict, "Exit with status 3 when a loop fails");
   command->add_flag("--quiet", args->quiet, "Print nothing on success");
   return [args](std::ostream& out, std::ostream&, StageResults* chain) {
     LoopOptions options = args->options;
     if (!args->closure_class.empty()) {
-      options.mm_per_sqrt_km = find_tolerance_class(args->closure_class).mm_per_sqrt_km;
+      const LevellingClass& c = find_levelling_class(args->closure_class);
+      options.mm_per_sqrt_km = c.loop_closure_mm_per_sqrt_km;
+      options.levelling_class = std::string(c.name);
+    } else if (args->tolerance->count() > 0) {
+      options.levelling_class.clear();
     }
     options.validate();
     check_network_input_options(args->inputs);

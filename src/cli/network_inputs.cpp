@@ -1,9 +1,12 @@
 #include "cli/network_inputs.hpp"
 
+#include <fmt/format.h>
+
 #include <map>
 
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/table.hpp"
+#include "levelhead/levelling/precision.hpp"
 #include "levelhead/references/vertical_reference.hpp"
 
 namespace levelhead::cli {
@@ -79,6 +82,33 @@ Network load_network(const NetworkInputs& inputs) {
   PointTable points = read_points(point_table);
   require_point_units(points, unit);
   return make_network(std::move(points), read_sections(section_table));
+}
+
+CLI::Option* add_levelling_class_option(CLI::App& command, std::string& name,
+                                        CLI::Option* explicit_value, const std::string& what) {
+  std::string classes;
+  for (const LevellingClass& c : levelling_classes()) {
+    classes += fmt::format(" {} (sigma {} mm, section {} mm, loop {} mm per sqrt(km));", c.name,
+                           c.sigma_mm_per_sqrt_km, c.section_closure_mm_per_sqrt_km,
+                           c.loop_closure_mm_per_sqrt_km);
+  }
+  classes.pop_back();
+  return command
+      .add_option("--class", name,
+                  fmt::format("Levelling class that sets {} (default {}):{}", what,
+                              default_levelling_class().name, classes))
+      ->excludes(explicit_value);
+}
+
+void apply_levelling_class(const std::string& name, const CLI::Option* given,
+                           AdjustmentOptions& options) {
+  if (!name.empty()) {
+    const LevellingClass& c = find_levelling_class(name);
+    options.mm_per_sqrt_km = c.sigma_mm_per_sqrt_km;
+    options.levelling_class = std::string(c.name);
+  } else if (given && given->count() > 0) {
+    options.levelling_class.clear();
+  }
 }
 
 }  // namespace levelhead::cli

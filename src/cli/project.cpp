@@ -11,6 +11,7 @@
 #include "levelhead/core/input_files.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/units.hpp"
+#include "levelhead/levelling/precision.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::cli {
@@ -125,8 +126,8 @@ fs::path resolve(const Project& p, const std::string& path) {
 }
 
 void read_site(Project& p, const toml::table& site) {
-  const std::vector<std::string> allowed = {"name", "crs",        "target",
-                                            "unit", "references", "grid_path"};
+  const std::vector<std::string> allowed = {"name",       "crs",       "target",         "unit",
+                                            "references", "grid_path", "levelling_class"};
   for (const auto& [k, node] : site) {
     const std::string key(k.str());
     if (key == "name")
@@ -139,6 +140,13 @@ void read_site(Project& p, const toml::table& site) {
       p.unit = text_value(p, node, key);
       try {
         parse_length_unit(p.unit);
+      } catch (const OptionError& e) {
+        throw InputError(where(p, node), e.what());
+      }
+    } else if (key == "levelling_class") {
+      p.levelling_class = text_value(p, node, key);
+      try {
+        find_levelling_class(p.levelling_class);
       } catch (const OptionError& e) {
         throw InputError(where(p, node), e.what());
       }
@@ -320,6 +328,12 @@ Project parse_project(std::string_view text, const fs::path& file) {
 std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
   std::vector<Stage> stages;
   const auto add = [&](Stage stage) {
+    // One precision for the whole survey: the field-book checks, the loop
+    // tolerance and the weights of the adjustments (precision.hpp).
+    const bool levelling = stage.name == "reduce" || stage.name == "loops" ||
+                           stage.name == "adjust" || stage.name == "epochs";
+    if (levelling && !p.levelling_class.empty())
+      stage.args.insert(stage.args.end(), {"--class", p.levelling_class});
     add_setting_args(p, stage.section, stage.args);
     stage.args.insert(stage.args.end(), {"--out", (out / stage.name).string()});
     stages.push_back(std::move(stage));

@@ -45,6 +45,7 @@ struct ProjectInput {
 struct Project {
   std::filesystem::path file, folder;
   std::string name, crs, target, unit = "m";
+  std::string levelling_class;  // [site] levelling_class: --class of reduce, loops, adjust, epochs
   std::vector<ProjectInput> inputs;  // in the order of [inputs]
   std::filesystem::path references;  // empty when none
   std::vector<std::filesystem::path> grid_paths;

@@ -6,6 +6,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "cli/network_inputs.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/levelling/fieldbook.hpp"
 #include "levelhead/levelling/fieldbook_report.hpp"
@@ -18,6 +19,8 @@ struct ReduceArguments {
   std::string field_book, out, unit = "m", columns, layer;
   FieldBookOptions options;
   double double_tolerance_mm = 0.5;
+  std::string levelling_class;
+  CLI::Option* section_tolerance = nullptr;  // to tell a given k from the class's
   bool no_curvature = false;
   bool strict = false;
   bool quiet = false;
@@ -69,9 +72,13 @@ CommandRunner add_reduce_command(CLI::App& app) {
   c->add_option("--rod-reference-temperature", o.rod_reference_temperature_c,
                 "Temperature of the rod calibration (degrees C)")
       ->capture_default_str();
-  c->add_option("--section-tolerance", o.section_tolerance_mm_per_sqrt_km,
-                "Repeated runs over a section must agree within k mm * sqrt(km)")
-      ->capture_default_str();
+  a->section_tolerance =
+      c->add_option("--section-tolerance", o.section_tolerance_mm_per_sqrt_km,
+                    "Repeated runs over a section must agree within k mm * sqrt(km), instead of "
+                    "--class")
+          ->capture_default_str();
+  add_levelling_class_option(*c, a->levelling_class, a->section_tolerance,
+                             "the section tolerance (its section closure)");
   c->add_option("--turning-point-prefix", o.turning_point_prefix,
                 "Named points with this prefix are turning points (empty: only anonymous ones)")
       ->capture_default_str();
@@ -81,6 +88,13 @@ CommandRunner add_reduce_command(CLI::App& app) {
     FieldBookOptions options = a->options;
     options.double_reading_tolerance = a->double_tolerance_mm * 1e-3;
     options.curvature_refraction = !a->no_curvature;
+    if (!a->levelling_class.empty()) {
+      const LevellingClass& k = find_levelling_class(a->levelling_class);
+      options.section_tolerance_mm_per_sqrt_km = k.section_closure_mm_per_sqrt_km;
+      options.levelling_class = std::string(k.name);
+    } else if (a->section_tolerance->count() > 0) {
+      options.levelling_class.clear();
+    }
     options.validate();
     const TableOptions table_options{
         parse_column_map(a->columns), parse_length_unit(a->unit), a->layer, {}};

@@ -158,12 +158,16 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
       {"kind", variance_name(options.variance)}, {"s0", a.s0}, {"pooled_dof", a.pooled_dof}};
   summary["displacement_test"] = {{"distribution", a.test_distribution},
                                   {"critical", a.test_critical}};
-  summary["settings"] = {{"alpha", options.alpha},
-                         {"power", options.beta},
-                         {"remove_suspects", options.remove_suspects},
-                         {"mm_per_sqrt_km", options.adjustment.mm_per_sqrt_km},
-                         {"mm_per_setup", options.adjustment.mm_per_setup},
-                         {"alpha0", options.adjustment.alpha0}};
+  summary["settings"] = {
+      {"alpha", options.alpha},
+      {"power", options.beta},
+      {"remove_suspects", options.remove_suspects},
+      {"mm_per_sqrt_km", options.adjustment.mm_per_sqrt_km},
+      {"levelling_class", options.adjustment.levelling_class.empty()
+                              ? nlohmann::json(nullptr)
+                              : nlohmann::json(options.adjustment.levelling_class)},
+      {"mm_per_setup", options.adjustment.mm_per_setup},
+      {"alpha0", options.adjustment.alpha0}};
   // Each count says what it counts: a point and epoch pair appears both
   // against the first epoch and against the previous one.
   summary["significant_displacements"] = {

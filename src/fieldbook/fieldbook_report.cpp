@@ -86,6 +86,9 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
       {"double_reading_tolerance", options.double_reading_tolerance},
       {"rod_length", options.rod_length},
       {"section_tolerance_mm_per_sqrt_km", options.section_tolerance_mm_per_sqrt_km},
+      {"levelling_class", options.levelling_class.empty()
+                              ? nlohmann::json(nullptr)
+                              : nlohmann::json(options.levelling_class)},
       {"turning_point_prefix", options.turning_point_prefix}};
   summary["corrections"] = {
       {"collimation_slope", options.collimation_slope()},

@@ -65,6 +65,9 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
   summary["inputs"] = {{"points", net.points_file}, {"sections", net.sections_file}};
   summary["units"] = "m";
   summary["tolerance_mm_per_sqrt_km"] = result.mm_per_sqrt_km;
+  summary["levelling_class"] = result.levelling_class.empty()
+                                   ? nlohmann::json(nullptr)
+                                   : nlohmann::json(result.levelling_class);
   summary["counts"] = {{"sections", net.sections.size()},
                        {"points_in_sections", result.points_in_sections},
                        {"connected_parts", result.connected_parts},
@@ -105,9 +108,11 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
 std::string loop_summary_text(const Network& net, const LoopResult& result) {
   std::string text = fmt::format(
       "{} loops from {} sections and {} points in {} connected part(s); tolerance {} "
-      "mm*sqrt(km)\n",
+      "mm*sqrt(km) ({})\n",
       result.loops.size(), net.sections.size(), result.points_in_sections, result.connected_parts,
-      result.mm_per_sqrt_km);
+      result.mm_per_sqrt_km,
+      result.levelling_class.empty() ? std::string("given")
+                                     : "loop closure of class " + result.levelling_class);
   if (result.failed == 0) {
     text += "All loops close within tolerance\n";
   } else {

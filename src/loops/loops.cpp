@@ -14,31 +14,6 @@
 
 namespace levelhead {
 
-const std::vector<ToleranceClass>& tolerance_classes() {
-  // Loop-closure limits of the US Federal Geodetic Control Committee,
-  // "Standards and Specifications for Geodetic Control Networks" (1984),
-  // geodetic leveling, loop misclosure; values recalled from memory.
-  static const std::vector<ToleranceClass> classes = {
-      {"fgcc-first-i", 4.0, "FGCC 1984, first order class I (from memory)"},
-      {"fgcc-first-ii", 5.0, "FGCC 1984, first order class II (from memory)"},
-      {"fgcc-second-i", 6.0, "FGCC 1984, second order class I (from memory)"},
-      {"fgcc-second-ii", 8.0, "FGCC 1984, second order class II (from memory)"},
-      {"fgcc-third", 12.0, "FGCC 1984, third order (from memory)"},
-  };
-  return classes;
-}
-
-const ToleranceClass& find_tolerance_class(std::string_view name) {
-  const std::string key = util::to_lower(util::trim(name));
-  std::vector<std::string_view> names;
-  for (const ToleranceClass& c : tolerance_classes()) {
-    if (c.name == key) return c;
-    names.push_back(c.name);
-  }
-  throw OptionError(
-      fmt::format("unknown closure class '{}': use one of {}", name, fmt::join(names, ", ")));
-}
-
 void LoopOptions::validate() const {
   util::require_positive(mm_per_sqrt_km, "loop tolerance", "mm/sqrt(km)");
 }
@@ -272,6 +247,7 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
 
   LoopResult result;
   result.mm_per_sqrt_km = options.mm_per_sqrt_km;
+  result.levelling_class = options.levelling_class;
 
   // Cyclomatic number = sections - points touched + connected parts.
   std::vector<std::size_t> parent(n);

@@ -80,7 +80,8 @@ void levelling_section(Document& doc, const StageResults& results) {
   std::vector<std::vector<std::string>> stats = {
       {"redundancy (dof)", std::to_string(a.dof)},
       {"sigma0 (a posteriori)", a.sigma0 ? fixed(*a.sigma0, 3) : "-"},
-      {"reference of the heights", a.reference}};
+      {"reference of the heights", a.reference},
+      {"a-priori precision of sections by length", a.precision}};
   if (a.global_test) {
     const GlobalTest& g = *a.global_test;
     stats.push_back({"global test (chi-square)",

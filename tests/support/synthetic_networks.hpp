@@ -9,6 +9,7 @@
 #include <string>
 #include <vector>
 
+#include "levelhead/levelling/adjustment.hpp"
 #include "levelhead/levelling/network.hpp"
 
 namespace levelhead::testing {
@@ -20,6 +21,15 @@ struct SyntheticNetwork {
 };
 
 inline constexpr double synthetic_mm_per_sqrt_km = 1.0;
+
+// Adjustment options whose a-priori precision is the one the noise was drawn
+// with (the default class assumes 2 mm/sqrt(km)).
+inline AdjustmentOptions synthetic_precision() {
+  AdjustmentOptions options;
+  options.mm_per_sqrt_km = synthetic_mm_per_sqrt_km;
+  options.levelling_class.clear();
+  return options;
+}
 
 inline Section noisy_section(const SyntheticNetwork& net, std::size_t f, std::size_t t,
                              std::mt19937_64& rng) {

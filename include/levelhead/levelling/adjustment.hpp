@@ -34,6 +34,7 @@
 #include <vector>
 
 #include "levelhead/levelling/network.hpp"
+#include "levelhead/levelling/precision.hpp"
 
 namespace levelhead {
 
@@ -51,7 +52,10 @@ std::string to_string(Sigma0Use use);
 Sigma0Use parse_sigma0_use(const std::string& text);  // OptionError naming the choices
 
 struct AdjustmentOptions {
-  double mm_per_sqrt_km = 1.0;            // sigma = k * sqrt(length in km) when no sigma (mm)
+  // sigma = k * sqrt(length in km) when no sigma (mm): the standard error of
+  // the levelling class (precision.hpp), or given.
+  double mm_per_sqrt_km = default_levelling_class().sigma_mm_per_sqrt_km;
+  std::string levelling_class = std::string(default_levelling_class().name);  // empty: k given
   double mm_per_setup = 0.3;              // sigma = s * sqrt(setups) when no sigma, no length (mm)
   double alpha = 0.05;                    // global test, two-sided
   double alpha0 = 0.001;                  // data snooping, per observation, two-sided
@@ -156,6 +160,9 @@ struct AdjustmentResult {
   // The vertical reference of the adjusted heights: the common `datum` of the
   // control points (empty when none is named), or a note for a free adjustment.
   std::string reference;
+  // The a-priori precision of sections weighted by length, as assumed:
+  // "2 mm/sqrt(km) (standard error of class fgcc-third)" or "... (given)".
+  std::string precision;
   AdjustmentTimings timings;
   double factor_nonzeros = 0.0;
   bool supernodal = false;

@@ -30,6 +30,7 @@
 #include <vector>
 
 #include "levelhead/core/table.hpp"
+#include "levelhead/levelling/precision.hpp"
 
 namespace levelhead {
 
@@ -80,7 +81,11 @@ struct FieldBookOptions {
   std::optional<double> rod_expansion_ppm_per_c;
   double rod_reference_temperature_c = 20.0;
   // Repeated runs over a section: |spread| <= k mm * sqrt(length in km).
-  double section_tolerance_mm_per_sqrt_km = 12.0;
+  // Runs of a section agree within k mm * sqrt(km): the section closure of
+  // the levelling class (precision.hpp), or given.
+  double section_tolerance_mm_per_sqrt_km =
+      default_levelling_class().section_closure_mm_per_sqrt_km;
+  std::string levelling_class = std::string(default_levelling_class().name);  // empty: k given
   // Named points starting with this prefix (case-insensitive) are turning
   // points, not section ends. Empty: only anonymous points are turning points.
   std::string turning_point_prefix = "TP";

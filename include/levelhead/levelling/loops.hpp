@@ -32,21 +32,14 @@
 #include <vector>
 
 #include "levelhead/levelling/network.hpp"
+#include "levelhead/levelling/precision.hpp"
 
 namespace levelhead {
 
-// Named closure classes: k in mm/sqrt(km).
-struct ToleranceClass {
-  std::string_view name;
-  double mm_per_sqrt_km;
-  std::string_view source;
-};
-const std::vector<ToleranceClass>& tolerance_classes();
-// Throws OptionError listing the names.
-const ToleranceClass& find_tolerance_class(std::string_view name);
-
 struct LoopOptions {
-  double mm_per_sqrt_km = 12.0;  // loop tolerance k; default: third-order class (see docs)
+  // Loop tolerance k: the loop closure of the levelling class (precision.hpp).
+  double mm_per_sqrt_km = default_levelling_class().loop_closure_mm_per_sqrt_km;
+  std::string levelling_class = std::string(default_levelling_class().name);  // empty: k given
   void validate() const;
 };
 
@@ -75,6 +68,7 @@ struct LoopResult {
   std::vector<std::size_t> single_observations;  // no other section joins the same points
   std::size_t failed = 0;
   double mm_per_sqrt_km = 0.0;
+  std::string levelling_class;  // the class k came from; empty: k given
 };
 
 LoopResult find_loops(const Network& network, const LoopOptions& options);
