@@ -190,3 +190,87 @@ TEST_CASE("one levelling class sets every stage's precision, by default third or
     CHECK(c.section_closure_mm_per_sqrt_km > 3.0 * c.sigma_mm_per_sqrt_km);
   }
 }
+
+namespace {
+
+// Total length of a minimum cycle basis found independently of find_loops:
+// every element of the cycle space (all 2^c sums of the fundamental cycles
+// of a spanning tree, as edge bit masks), sorted by length, taken greedily
+// when independent over GF(2). The cycle space is a matroid, so the greedy
+// choice over all its elements is a minimum basis (common practice).
+double minimum_basis_by_enumeration(const Network& net) {
+  const std::size_t n = net.points.size(), m = net.sections.size();
+  REQUIRE(m <= 64);
+  std::vector<std::size_t> parent(n, n), via(n, m);
+  std::vector<std::vector<std::size_t>> adjacent(n);
+  for (std::size_t s = 0; s < m; ++s) {
+    adjacent[net.from_index[s]].push_back(s);
+    adjacent[net.to_index[s]].push_back(s);
+  }
+  std::vector<std::size_t> order = {0};
+  parent[0] = 0;
+  for (std::size_t k = 0; k < order.size(); ++k) {
+    for (std::size_t s : adjacent[order[k]]) {
+      const std::size_t q = net.from_index[s] == order[k] ? net.to_index[s] : net.from_index[s];
+      if (parent[q] == n) parent[q] = order[k], via[q] = s, order.push_back(q);
+    }
+  }
+  const auto to_root = [&](std::size_t p) {
+    std::uint64_t mask = 0;
+    for (; p != 0; p = parent[p]) mask ^= std::uint64_t{1} << via[p];
+    return mask;
+  };
+  std::vector<std::uint64_t> fundamental;
+  for (std::size_t s = 0; s < m; ++s) {
+    if (via[net.to_index[s]] == s || via[net.from_index[s]] == s) continue;
+    fundamental.push_back((std::uint64_t{1} << s) ^ to_root(net.from_index[s]) ^
+                          to_root(net.to_index[s]));
+  }
+  const std::size_t c = fundamental.size();
+  REQUIRE(c <= 22);
+  std::vector<std::pair<double, std::uint64_t>> space;
+  for (std::uint64_t pick = 1; pick < (std::uint64_t{1} << c); ++pick) {
+    std::uint64_t mask = 0;
+    for (std::size_t k = 0; k < c; ++k)
+      if (pick >> k & 1) mask ^= fundamental[k];
+    double length = 0.0;
+    for (std::size_t s = 0; s < m; ++s)
+      if (mask >> s & 1) length += *net.sections[s].length;
+    space.emplace_back(length, mask);
+  }
+  std::sort(space.begin(), space.end());
+  std::vector<std::uint64_t> pivots(64, 0);
+  double total = 0.0;
+  std::size_t rank = 0;
+  for (const auto& [length, mask] : space) {
+    std::uint64_t v = mask;
+    for (int b = 63; b >= 0 && v; --b) {
+      if (!(v >> b & 1)) continue;
+      if (!pivots[b]) {
+        pivots[b] = v;
+        total += length;
+        ++rank;
+        break;
+      }
+      v ^= pivots[b];
+    }
+    if (rank == c) break;
+  }
+  return total;
+}
+
+}  // namespace
+
+TEST_CASE("the loop basis is a minimum-length basis on meshes with diagonals", "[loops][basis]") {
+  for (const auto& [side, seed] :
+       {std::pair<std::size_t, std::uint64_t>{4, 1}, {4, 2}, {4, 3}, {5, 4}, {5, 5}}) {
+    const Network net = testing::mesh_with_diagonals(side, seed);
+    const LoopResult r = find_loops(net, LoopOptions{});
+    INFO("mesh " << side << " seed " << seed);
+    CHECK(r.minimum_basis);
+    REQUIRE(r.loops.size() == r.cyclomatic_number);
+    double total = 0.0;
+    for (const Loop& loop : r.loops) total += loop.length;
+    CHECK_THAT(total, WithinAbs(minimum_basis_by_enumeration(net), 1e-6));
+  }
+}

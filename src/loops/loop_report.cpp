@@ -65,6 +65,10 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
   summary["inputs"] = {{"points", net.points_file}, {"sections", net.sections_file}};
   summary["units"] = "m";
   summary["tolerance_mm_per_sqrt_km"] = result.mm_per_sqrt_km;
+  summary["basis"] = result.minimum_basis
+                         ? "minimum total length (Horton 1987)"
+                         : "shortest loop through each chain (network too large for the exact "
+                           "minimum basis; not proven minimum)";
   summary["levelling_class"] = result.levelling_class.empty()
                                    ? nlohmann::json(nullptr)
                                    : nlohmann::json(result.levelling_class);
@@ -113,6 +117,11 @@ std::string loop_summary_text(const Network& net, const LoopResult& result) {
       result.mm_per_sqrt_km,
       result.levelling_class.empty() ? std::string("given")
                                      : "loop closure of class " + result.levelling_class);
+  if (!result.minimum_basis) {
+    text +=
+        "The network is too large for the exact minimum loop basis: the loops are the "
+        "shortest through each chain, not proven minimum\n";
+  }
   if (result.failed == 0) {
     text += "All loops close within tolerance\n";
   } else {

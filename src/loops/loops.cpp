@@ -7,6 +7,7 @@
 #include <map>
 #include <numeric>
 #include <queue>
+#include <set>
 
 #include "levelhead/core/errors.hpp"
 #include "util/option_checks.hpp"
@@ -66,6 +67,8 @@ class Gf2Basis {
  private:
   std::map<std::size_t, std::vector<std::size_t>> by_pivot_;
 };
+
+void finish_candidate(Candidate& c, const std::vector<Chain>& chains);
 
 class ChainGraph {
  public:
@@ -137,6 +140,65 @@ class ChainGraph {
     std::reverse(path.begin(), path.end());
     reset();
     return path;
+  }
+
+  // Horton's candidates from `root`: for every chain (x, y) off the
+  // shortest-path tree of root, the loop P(root, x) + (x, y) + P(y, root)
+  // when the two paths meet only at root (Horton 1987, "A polynomial-time
+  // algorithm to find the shortest cycle basis of a graph", SIAM J. Comput.
+  // 16(2)). Over every root they hold a minimum cycle basis; each is added
+  // to `out` once (`seen` holds their member sets).
+  void horton_candidates(std::size_t root, std::set<std::vector<std::size_t>>& seen,
+                         std::vector<Candidate>& out) {
+    using Entry = std::pair<double, std::size_t>;
+    std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
+    distance_[root] = 0.0;
+    touched_.push_back(root);
+    queue.emplace(0.0, root);
+    while (!queue.empty()) {
+      const auto [d, p] = queue.top();
+      queue.pop();
+      if (d > distance_[p]) continue;
+      for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
+        const Chain& c = chains_[incident_[k]];
+        const std::size_t q = c.a == p ? c.b : c.a;
+        if (d + c.length < distance_[q]) {
+          if (distance_[q] == INFINITY) touched_.push_back(q);
+          distance_[q] = d + c.length;
+          via_[q] = incident_[k];
+          queue.emplace(distance_[q], q);
+        }
+      }
+    }
+    const auto parent = [&](std::size_t p) {
+      const Chain& c = chains_[via_[p]];
+      return c.a == p ? c.b : c.a;
+    };
+    std::vector<char> on_path(distance_.size(), 0);
+    for (std::size_t e = 0; e < chains_.size(); ++e) {
+      const Chain& chain = chains_[e];
+      const std::size_t x = chain.a, y = chain.b;
+      if (x == y || distance_[x] == INFINITY || distance_[y] == INFINITY) continue;
+      if (via_[x] == e || via_[y] == e) continue;  // a tree chain: no loop
+      std::vector<std::size_t> x_path;             // nodes from x up to root, root excluded
+      for (std::size_t p = x; p != root; p = parent(p)) x_path.push_back(p);
+      for (std::size_t p : x_path) on_path[p] = 1;
+      bool simple = true;
+      for (std::size_t p = y; p != root && simple; p = parent(p)) simple = !on_path[p];
+      for (std::size_t p : x_path) on_path[p] = 0;
+      if (!simple) continue;
+      Candidate c;
+      // root -> x down the tree, x -> y along e, y -> root up the tree.
+      for (auto it = x_path.rbegin(); it != x_path.rend(); ++it)
+        c.walk.emplace_back(via_[*it], chains_[via_[*it]].b == *it);
+      c.walk.emplace_back(e, true);
+      for (std::size_t p = y; p != root; p = parent(p))
+        c.walk.emplace_back(via_[p], chains_[via_[p]].a == p);
+      finish_candidate(c, chains_);
+      if (seen.insert(c.members).second) out.push_back(std::move(c));
+    }
+    for (std::size_t p : touched_) distance_[p] = INFINITY, via_[p] = none;
+    touched_.clear();
   }
 
   // Fundamental cycles of a shortest-path forest: complete a basis whatever
@@ -338,6 +400,11 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
   std::vector<Candidate> candidates;
   Gf2Basis basis;
   ChainGraph graph(n, chains);
+  std::set<std::size_t> junctions;
+  for (const Chain& c : chains) junctions.insert({c.a, c.b});
+  result.minimum_basis =
+      static_cast<double>(junctions.size()) * static_cast<double>(chains.size()) <=
+      options.max_exact_candidates;
   for (std::size_t e = 0; e < chains.size(); ++e) {
     if (chains[e].a == chains[e].b) {
       Candidate c;
@@ -345,8 +412,14 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
       finish_candidate(c, chains);
       basis.add(c.members);
       chosen.push_back(std::move(c));
-      continue;
     }
+  }
+  if (result.minimum_basis) {
+    std::set<std::vector<std::size_t>> seen;
+    for (std::size_t root : junctions) graph.horton_candidates(root, seen, candidates);
+  }
+  for (std::size_t e = 0; e < chains.size() && !result.minimum_basis; ++e) {
+    if (chains[e].a == chains[e].b) continue;
     double path_length = 0.0;
     auto path = graph.shortest_path(chains[e].a, chains[e].b, e, &path_length);
     if (!path) continue;  // a link between loops: no cycle runs through it

@@ -40,6 +40,11 @@ struct LoopOptions {
   // Loop tolerance k: the loop closure of the levelling class (precision.hpp).
   double mm_per_sqrt_km = default_levelling_class().loop_closure_mm_per_sqrt_km;
   std::string levelling_class = std::string(default_levelling_class().name);  // empty: k given
+  // Horton's exact minimum basis has about (junctions x chains) candidate
+  // loops; beyond this many the shortest loop through each chain is used
+  // (not proven minimum). 6e6 takes a 40 x 40 mesh with diagonals (1600
+  // points, 3570 sections) in about 2 s and 0.3 GB (tests/bench/bench_loops).
+  double max_exact_candidates = 6e6;
   void validate() const;
 };
 
@@ -69,6 +74,10 @@ struct LoopResult {
   std::size_t failed = 0;
   double mm_per_sqrt_km = 0.0;
   std::string levelling_class;  // the class k came from; empty: k given
+  // True: a minimum-length loop basis (Horton's method); false: the shortest
+  // loop through each chain, for networks too large for it (short, not
+  // proven minimum).
+  bool minimum_basis = false;
 };
 
 LoopResult find_loops(const Network& network, const LoopOptions& options);
