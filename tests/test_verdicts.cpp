@@ -138,3 +138,52 @@ TEST_CASE("precision 2x worse than assumed: a planted 20 mm blunder is still fou
   REQUIRE(planted > networks * 9 / 10);
   CHECK(found_first >= planted * 95 / 100);
 }
+
+TEST_CASE("variance components: two runs of different precision are told apart, with intervals",
+          "[verdicts][variance]") {
+  // Run A levelled at the assumed 1 mm/sqrt(km), run B three times worse.
+  std::size_t a_inside = 0, b_inside = 0, networks = 200, removed = 0, observations = 0;
+  double b_mean = 0.0;
+  for (std::size_t i = 0; i < networks; ++i) {
+    testing::SyntheticNetwork synthetic = testing::random_network(40, 40, 20000 + i);
+    std::mt19937_64 rng(i);
+    testing::set_control(synthetic, {0}, {}, 0.0, rng);
+    for (std::size_t s = 0; s < synthetic.sections.size(); ++s) {
+      Section& section = synthetic.sections[s];
+      section.run = s % 2 == 0 ? "A" : "B";
+      if (section.run == "B") {
+        // Noise of 3 sigma in all: add sqrt(9 - 1) sigma to the 1 sigma drawn.
+        const double sigma = 1e-3 * std::sqrt(*section.length / 1000.0);
+        section.dh += std::normal_distribution<double>(0.0, std::sqrt(8.0) * sigma)(rng);
+      }
+    }
+    const Network net = make_network(synthetic.points, synthetic.sections);
+    AdjustmentOptions options = testing::synthetic_precision();
+    options.variance_groups = VarianceGroups::run;
+    options.iterative_snooping = true;
+    const AdjustmentResult r = adjust(net, options);
+    REQUIRE(r.variance_components.size() == 2);
+    const VarianceComponent& a = r.variance_components[0];
+    const VarianceComponent& b = r.variance_components[1];
+    REQUIRE(a.group == "A");
+    REQUIRE(a.factor);
+    REQUIRE(b.factor);
+    a_inside += a.low <= 1.0 && 1.0 <= a.high;
+    b_inside += b.low <= 3.0 && 3.0 <= b.high;
+    b_mean += *b.factor / static_cast<double>(networks);
+    CHECK(r.test.kind == OutlierTest::Kind::tau_test);
+    removed += r.removals.size();
+    observations += net.sections.size();
+  }
+  INFO("A's interval holds 1 in " << a_inside << ", B's holds 3 in " << b_inside << " of "
+                                  << networks << "; mean factor of B " << b_mean << "; removed "
+                                  << removed << " of " << observations);
+  // 95 % intervals: 190 of 200 expected, binomial sd 3.1 (and the intervals
+  // are approximate: the redundancy is shared between the groups).
+  CHECK(a_inside >= 175);
+  CHECK(b_inside >= 175);
+  CHECK_THAT(b_mean, Catch::Matchers::WithinAbs(3.0, 0.15));
+  // No blunder was planted: removals are false alarms at alpha0 each.
+  CHECK(static_cast<double>(removed) <=
+        observations * 0.001 + 5.0 * std::sqrt(observations * 0.001));
+}

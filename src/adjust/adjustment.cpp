@@ -6,6 +6,7 @@
 #include <chrono>
 #include <cmath>
 #include <limits>
+#include <map>
 #include <optional>
 
 #include "adjust/normal_solver.hpp"
@@ -55,6 +56,25 @@ Sigma0Use parse_sigma0_use(const std::string& text) {
     if (text == to_string(use)) return use;
   }
   throw OptionError(fmt::format("sigma0 '{}': use apriori, estimate or auto", text));
+}
+
+std::string to_string(VarianceGroups groups) {
+  switch (groups) {
+    case VarianceGroups::run:
+      return "run";
+    case VarianceGroups::date:
+      return "date";
+    case VarianceGroups::none:
+      break;
+  }
+  return "none";
+}
+
+VarianceGroups parse_variance_groups(const std::string& text) {
+  for (const VarianceGroups g : {VarianceGroups::none, VarianceGroups::run, VarianceGroups::date}) {
+    if (text == to_string(g)) return g;
+  }
+  throw OptionError(fmt::format("variance groups '{}': use none, run or date", text));
 }
 
 std::string OutlierTest::name() const {
@@ -516,6 +536,77 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
   return result;
 }
 
+// Variance components per group of sections, by the iterative estimator of
+// Foerstner (1979, Allgemeine Vermessungs-Nachrichten 86; the simplified
+// Helmert estimator, Koch, "Parameter Estimation and Hypothesis Testing in
+// Linear Models", 2nd ed. 1999, ch. 3.6): with the current weights,
+//     f_g^2 <- f_g^2 * (v_g' P_g v_g) / r_g,
+// r_g the sum of the redundancy numbers of group g, until no factor changes
+// by more than 1e-4 (or 50 rounds). A group with r_g < 2 keeps its a-priori
+// sigmas and is reported as not estimated. The interval of a factor is that
+// of a variance with r_g degrees of freedom: r f^2 / chi2(1 - alpha/2, r) to
+// r f^2 / chi2(alpha/2, r).
+AdjustmentResult adjust_with_variance_components(const Network& net,
+                                                 const AdjustmentOptions& options,
+                                                 const Weighting& weights, const Control& control,
+                                                 const std::vector<char>& active) {
+  std::map<std::string, std::size_t> group_index;
+  std::vector<std::size_t> group(net.sections.size());
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    const Section& section = net.sections[s];
+    std::string name = options.variance_groups == VarianceGroups::run ? section.run : section.date;
+    if (name.empty()) name = "(none)";
+    group[s] = group_index.emplace(name, group_index.size()).first->second;
+  }
+  const std::size_t groups = group_index.size();
+  std::vector<double> factor2(groups, 1.0), vpv(groups), redundancy(groups);
+  std::vector<std::size_t> count(groups);
+  std::vector<char> estimated(groups, 0);
+  Weighting scaled = weights;
+  AdjustmentResult result;
+  std::size_t round = 0;
+  for (bool changed = true; changed && round < 50; ++round) {
+    for (std::size_t s = 0; s < net.sections.size(); ++s)
+      scaled.sigma[s] = weights.sigma[s] * std::sqrt(factor2[group[s]]);
+    result = adjust_once(net, options, scaled, control, active);
+    std::fill(vpv.begin(), vpv.end(), 0.0);
+    std::fill(redundancy.begin(), redundancy.end(), 0.0);
+    std::fill(count.begin(), count.end(), 0);
+    for (const AdjustedSection& a : result.sections) {
+      if (!active[a.section]) continue;
+      const std::size_t g = group[a.section];
+      vpv[g] += a.residual * a.residual / (a.sigma * a.sigma);
+      redundancy[g] += a.redundancy;
+      ++count[g];
+    }
+    changed = false;
+    for (std::size_t g = 0; g < groups; ++g) {
+      estimated[g] = redundancy[g] >= 2.0;
+      if (!estimated[g] || vpv[g] <= 0.0) continue;
+      const double next = factor2[g] * vpv[g] / redundancy[g];
+      changed = changed || std::abs(std::sqrt(next / factor2[g]) - 1.0) > 1e-4;
+      factor2[g] = next;
+    }
+  }
+  result.variance_iterations = round;
+  for (const auto& [name, g] : group_index) {
+    VarianceComponent c;
+    c.group = name;
+    c.sections = count[g];
+    c.redundancy = redundancy[g];
+    if (estimated[g]) {
+      const double r = redundancy[g];
+      c.factor = std::sqrt(factor2[g]);
+      c.low = std::sqrt(r * factor2[g] / chi_square_upper_quantile(options.alpha / 2.0, r));
+      c.high = std::sqrt(r * factor2[g] / chi_square_quantile(options.alpha / 2.0, r));
+    }
+    result.variance_components.push_back(c);
+  }
+  result.test.basis = fmt::format("variance factors estimated per {} from the data",
+                                  to_string(options.variance_groups));
+  return result;
+}
+
 // The control heights must share one vertical reference; mixing them would
 // bend the network by the datum offset.
 std::string common_reference(const Network& net, const Control& control,
@@ -554,7 +645,15 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
   std::vector<char> active(network.sections.size(), 1);
 
   std::vector<Removal> removals;
-  AdjustmentResult result = adjust_once(network, options, weights, control, active);
+  // With variance groups the variances come from the data: the tau test.
+  AdjustmentOptions tested = options;
+  if (options.variance_groups != VarianceGroups::none) tested.sigma0 = Sigma0Use::estimate;
+  const auto adjust_active = [&] {
+    return options.variance_groups == VarianceGroups::none
+               ? adjust_once(network, tested, weights, control, active)
+               : adjust_with_variance_components(network, tested, weights, control, active);
+  };
+  AdjustmentResult result = adjust_active();
   while (options.iterative_snooping && removals.size() < options.max_removals) {
     const auto worst =
         std::find_if(result.suspects.begin(), result.suspects.end(),
@@ -562,7 +661,7 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
     if (worst == result.suspects.end()) break;
     removals.push_back({worst->index, worst->statistic, result.test, result.sigma0.value_or(0.0)});
     active[worst->index] = 0;
-    result = adjust_once(network, options, weights, control, active);
+    result = adjust_active();
   }
   for (std::size_t k = 0; k < removals.size(); ++k) {
     AdjustedSection& s = result.sections[removals[k].section];

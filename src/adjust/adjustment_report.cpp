@@ -164,6 +164,20 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
                         {"row", s.row}});
   }
   summary["removals"] = removals;
+  nlohmann::json components = nlohmann::json::array();
+  for (const VarianceComponent& c : result.variance_components) {
+    components.push_back(
+        {{"group", c.group},
+         {"sections", c.sections},
+         {"redundancy", c.redundancy},
+         {"factor", c.factor ? nlohmann::json(*c.factor) : nlohmann::json(nullptr)},
+         {"interval", c.factor ? nlohmann::json({c.low, c.high}) : nlohmann::json(nullptr)},
+         {"note", c.factor ? "" : "redundancy below 2: not estimated, a-priori sigmas kept"}});
+  }
+  summary["variance_components"] = {{"groups", to_string(options.variance_groups)},
+                                    {"alpha", options.alpha},
+                                    {"iterations", result.variance_iterations},
+                                    {"components", components}};
   summary["weights"] = {
       {"sections_by_rule",
        {{"sigma", result.weight_rule_counts[static_cast<int>(WeightRule::given_sigma)]},
@@ -217,6 +231,16 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
         fmt::join(unchecked.begin(),
                   unchecked.begin() + std::min<std::ptrdiff_t>(unchecked.size(), 10), ", "),
         unchecked.size() > 10 ? ", ..." : "");
+  }
+  for (const VarianceComponent& c : result.variance_components) {
+    text += c.factor ? fmt::format(
+                           "Variance factor of {} ({} sections, redundancy {:.1f}): {:.2f} "
+                           "[{:.2f}, {:.2f}]\n",
+                           c.group, c.sections, c.redundancy, *c.factor, c.low, c.high)
+                     : fmt::format(
+                           "Variance factor of {} ({} sections): not estimated, "
+                           "redundancy {:.1f} below 2\n",
+                           c.group, c.sections, c.redundancy);
   }
   const OutlierTest& test = result.test;
   const char* symbol = test.kind == OutlierTest::Kind::w_test ? "w" : "tau";

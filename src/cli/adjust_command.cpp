@@ -21,7 +21,7 @@ namespace {
 struct AdjustArguments {
   NetworkInputs inputs;
   std::string free_point;
-  std::string sigma0 = "auto";
+  std::string sigma0 = "auto", variance_groups = "none";
   std::string levelling_class;
   CLI::Option* mm_per_sqrt_km = nullptr;  // to tell a given k from the class's
   AdjustmentOptions options;
@@ -54,6 +54,12 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
                   "while the global test passes, else the tau test)")
       ->check(CLI::IsMember({"apriori", "estimate", "auto"}))
       ->capture_default_str();
+  command
+      .add_option("--variance-groups", a.variance_groups,
+                  "Estimate a variance factor per group of sections from the data: none, run or "
+                  "date (data snooping then uses Pope's tau test)")
+      ->check(CLI::IsMember({"none", "run", "date"}))
+      ->capture_default_str();
   command.add_option("--beta0", a.options.beta0, "Power for the minimal detectable bias")
       ->capture_default_str();
   command.add_option("--free", a.free_point,
@@ -77,6 +83,7 @@ int adjust_files(const AdjustArguments& a, std::ostream& out, StageResults* chai
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
   options.sigma0 = parse_sigma0_use(a.sigma0);
+  options.variance_groups = parse_variance_groups(a.variance_groups);
   apply_levelling_class(a.levelling_class, a.mm_per_sqrt_km, options);
   options.validate();
   check_network_input_options(a.inputs);

@@ -147,6 +147,20 @@ void adjustment_findings(const StageResults& results, const std::set<std::string
                         "in the field book and re-level before relying on the heights they carry.",
                         suspects.size(), a.test.statement(), listing(suspects)));
   }
+  for (const VarianceComponent& c : a.variance_components) {
+    if (!c.factor) {
+      out.add("adjust", "variance-component", FindingLevel::caution,
+              fmt::format("The precision of {} cannot be estimated (its sections have a "
+                          "redundancy of {:.1f}, below 2): its a-priori sigmas were kept.",
+                          c.group, c.redundancy));
+    } else if (c.low > 1.0 || c.high < 1.0) {
+      out.add("adjust", "variance-component", FindingLevel::caution,
+              fmt::format("{} was levelled {:.2f} times {} precisely than assumed (interval "
+                          "{:.2f} to {:.2f}, redundancy {:.1f}); its sections are weighted so.",
+                          c.group, c.low > 1.0 ? *c.factor : 1.0 / *c.factor,
+                          c.low > 1.0 ? "less" : "more", c.low, c.high, c.redundancy));
+    }
+  }
   if (a.global_test && !a.global_test->passed) {
     const GlobalTest& g = *a.global_test;
     // Where a remaining blunder would most likely sit: the largest |w|.

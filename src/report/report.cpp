@@ -89,6 +89,19 @@ void levelling_section(Document& doc, const StageResults& results) {
                                  g.passed ? "passed" : "failed")});
   }
   doc.table({"quantity", "value"}, stats);
+  if (!a.variance_components.empty()) {
+    std::vector<std::vector<std::string>> factors;
+    for (const VarianceComponent& c : a.variance_components) {
+      factors.push_back({c.group, std::to_string(c.sections), fixed(c.redundancy, 1),
+                         c.factor ? fixed(*c.factor, 2) : "not estimated (redundancy below 2)",
+                         c.factor ? fmt::format("{:.2f} to {:.2f}", c.low, c.high) : "-"});
+    }
+    doc.paragraph(
+        fmt::format("Variance factors estimated per {} (sigma estimated / a priori, with "
+                    "its {:g} % interval):",
+                    to_string(adjust.options.variance_groups), 100 * (1 - adjust.options.alpha)));
+    doc.table({"group", "sections", "redundancy", "factor", "interval"}, factors);
+  }
   std::vector<std::vector<std::string>> removed;
   for (std::size_t k = 0; k < a.removals.size(); ++k) {
     const Removal& r = a.removals[k];

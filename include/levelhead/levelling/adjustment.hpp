@@ -51,6 +51,11 @@ enum class Sigma0Use {
 std::string to_string(Sigma0Use use);
 Sigma0Use parse_sigma0_use(const std::string& text);  // OptionError naming the choices
 
+// Groups of sections whose variance factors are estimated from the data.
+enum class VarianceGroups { none, run, date };
+std::string to_string(VarianceGroups groups);
+VarianceGroups parse_variance_groups(const std::string& text);  // OptionError naming the choices
+
 struct AdjustmentOptions {
   // sigma = k * sqrt(length in km) when no sigma (mm): the standard error of
   // the levelling class (precision.hpp), or given.
@@ -62,9 +67,12 @@ struct AdjustmentOptions {
   double beta0 = 0.80;                    // power for the minimal detectable bias
   std::optional<std::string> free_point;  // hold only this point (free network check)
   Sigma0Use sigma0 = Sigma0Use::automatic;  // which outlier test (see Sigma0Use)
-  bool iterative_snooping = false;          // remove the worst suspect and re-adjust, repeatedly
-  std::size_t max_removals = 5;             // cap on removals in iterative snooping
-  double max_factor_nonzeros = 2e8;         // refuse larger factors (memory)
+  // Estimate a variance factor per group (run or date of the sections);
+  // data snooping then uses Pope's tau test.
+  VarianceGroups variance_groups = VarianceGroups::none;
+  bool iterative_snooping = false;   // remove the worst suspect and re-adjust, repeatedly
+  std::size_t max_removals = 5;      // cap on removals in iterative snooping
+  double max_factor_nonzeros = 2e8;  // refuse larger factors (memory)
 
   // Throws OptionError naming the option, its value and the rule.
   void validate() const;
@@ -132,6 +140,16 @@ struct Removal {
   double sigma0 = 0.0;     // sigma0 of the adjustment it was removed from
 };
 
+// The estimated precision of one group of sections, as a factor on its
+// a-priori sigmas.
+struct VarianceComponent {
+  std::string group;             // the run or the date; "(none)" for sections without one
+  std::size_t sections = 0;      // in the final adjustment
+  double redundancy = 0.0;       // sum of the sections' redundancy numbers
+  std::optional<double> factor;  // sigma_hat / sigma_apriori; nullopt: redundancy below 2
+  double low = 0.0, high = 0.0;  // its 1 - alpha interval (chi-square with `redundancy` dof)
+};
+
 struct GlobalTest {
   double statistic = 0.0;  // v'Pv, chi-square with dof degrees of freedom
   double lower = 0.0, upper = 0.0;
@@ -149,12 +167,14 @@ struct AdjustmentResult {
   std::size_t unknowns = 0, observations = 0, fixed_points = 0, weighted_points = 0;
   std::size_t dof = 0;
   double vtpv = 0.0;
-  std::optional<double> sigma0;                   // nullopt when dof = 0
-  std::optional<GlobalTest> global_test;          // nullopt when dof = 0
-  double w_critical = 0.0, lambda0 = 0.0;         // of Baarda's w-test and its MDB
-  OutlierTest test;                               // the test that made the suspects
-  std::vector<Suspect> suspects;                  // beyond test.critical, worst first
-  std::vector<Removal> removals;                  // iterative data snooping, in order
+  std::optional<double> sigma0;                        // nullopt when dof = 0
+  std::optional<GlobalTest> global_test;               // nullopt when dof = 0
+  double w_critical = 0.0, lambda0 = 0.0;              // of Baarda's w-test and its MDB
+  OutlierTest test;                                    // the test that made the suspects
+  std::vector<Suspect> suspects;                       // beyond test.critical, worst first
+  std::vector<Removal> removals;                       // iterative data snooping, in order
+  std::vector<VarianceComponent> variance_components;  // with options.variance_groups
+  std::size_t variance_iterations = 0;
   std::size_t weight_rule_counts[3] = {0, 0, 0};  // indexed by WeightRule
   std::optional<std::string> free_point;
   // The vertical reference of the adjusted heights: the common `datum` of the
