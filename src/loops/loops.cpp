@@ -150,26 +150,7 @@ class ChainGraph {
   // to `out` once (`seen` holds their member sets).
   void horton_candidates(std::size_t root, std::set<std::vector<std::size_t>>& seen,
                          std::vector<Candidate>& out) {
-    using Entry = std::pair<double, std::size_t>;
-    std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
-    distance_[root] = 0.0;
-    touched_.push_back(root);
-    queue.emplace(0.0, root);
-    while (!queue.empty()) {
-      const auto [d, p] = queue.top();
-      queue.pop();
-      if (d > distance_[p]) continue;
-      for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
-        const Chain& c = chains_[incident_[k]];
-        const std::size_t q = c.a == p ? c.b : c.a;
-        if (d + c.length < distance_[q]) {
-          if (distance_[q] == INFINITY) touched_.push_back(q);
-          distance_[q] = d + c.length;
-          via_[q] = incident_[k];
-          queue.emplace(distance_[q], q);
-        }
-      }
-    }
+    grow_tree(root, [](std::size_t) {});
     const auto parent = [&](std::size_t p) {
       const Chain& c = chains_[via_[p]];
       return c.a == p ? c.b : c.a;
@@ -209,33 +190,16 @@ class ChainGraph {
     std::vector<char> seen(n, 0), tree_chain(chains_.size(), 0);
     for (std::size_t root = 0; root < n; ++root) {
       if (seen[root] || start_[root] == start_[root + 1]) continue;
-      using Entry = std::pair<double, std::size_t>;
-      std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
-      distance_[root] = 0.0;
-      touched_.push_back(root);
-      queue.emplace(0.0, root);
-      while (!queue.empty()) {
-        const auto [d, p] = queue.top();
-        queue.pop();
-        if (seen[p] || d > distance_[p]) continue;
+      // One tree per connected part: its points are unreached from any
+      // earlier root, so the distances need no reset in between.
+      grow_tree(root, [&](std::size_t p) {
         seen[p] = 1;
-        if (via_[p] != none) {
-          parent_chain[p] = via_[p];
-          tree_chain[via_[p]] = 1;
-          const Chain& c = chains_[via_[p]];
-          depth[p] = depth[c.a == p ? c.b : c.a] + 1;
-        }
-        for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
-          const Chain& c = chains_[incident_[k]];
-          const std::size_t q = c.a == p ? c.b : c.a;
-          if (!seen[q] && d + c.length < distance_[q]) {
-            if (distance_[q] == INFINITY) touched_.push_back(q);
-            distance_[q] = d + c.length;
-            via_[q] = incident_[k];
-            queue.emplace(distance_[q], q);
-          }
-        }
-      }
+        if (via_[p] == none) return;
+        parent_chain[p] = via_[p];
+        tree_chain[via_[p]] = 1;
+        const Chain& c = chains_[via_[p]];
+        depth[p] = depth[c.a == p ? c.b : c.a] + 1;
+      });
     }
     const auto up = [&](std::size_t p) {
       const Chain& c = chains_[parent_chain[p]];
@@ -270,6 +234,34 @@ class ChainGraph {
   }
 
  private:
+  // Shortest-path tree from `root` over every point it reaches (Dijkstra,
+  // 1959): distance_ and via_ filled, touched_ naming them; `settled(p)` is
+  // called once per point, in the order they are settled.
+  template <class Settled>
+  void grow_tree(std::size_t root, Settled settled) {
+    using Entry = std::pair<double, std::size_t>;
+    std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
+    distance_[root] = 0.0;
+    touched_.push_back(root);
+    queue.emplace(0.0, root);
+    while (!queue.empty()) {
+      const auto [d, p] = queue.top();
+      queue.pop();
+      if (d > distance_[p]) continue;
+      settled(p);
+      for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
+        const Chain& c = chains_[incident_[k]];
+        const std::size_t q = c.a == p ? c.b : c.a;
+        if (d + c.length < distance_[q]) {
+          if (distance_[q] == INFINITY) touched_.push_back(q);
+          distance_[q] = d + c.length;
+          via_[q] = incident_[k];
+          queue.emplace(distance_[q], q);
+        }
+      }
+    }
+  }
+
   const std::vector<Chain>& chains_;
   std::vector<std::size_t> start_, incident_;
   std::vector<double> distance_;
