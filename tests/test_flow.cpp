@@ -124,3 +124,40 @@ TEST_CASE("the plane's covariance is scaled by sigma0 squared when the plane mis
   CHECK_THAT(r.gradient_sigma, WithinAbs(3e-4, 1e-10));
   CHECK_THAT(r.azimuth_sigma, WithinAbs(3e-4 / 0.0111803399 * 180.0 / M_PI, 1e-6));
 }
+
+TEST_CASE(
+    "a well off the plane of the heads fails Pope's tau test; the others and a clean "
+    "round do not",
+    "[flow][tau]") {
+  // Eleven wells on a 4 x 3 grid (one corner missing) 100 m apart, heads on
+  // the plane 50 - 0.002 x - 0.001 y with noise of 2 mm (fixed draw), sigma 2 mm.
+  std::mt19937_64 rng(3);
+  std::normal_distribution<double> noise(0.0, 0.002);
+  std::vector<FlowWell> wells;
+  for (int k = 0; k < 11; ++k) {
+    const double x = 100.0 * (k % 4), y = 100.0 * (k / 4);
+    wells.push_back(
+        {"W" + std::to_string(k), x, y, 50.0 - 0.002 * x - 0.001 * y + noise(rng), 0.002});
+  }
+  const FlowResult clean = estimate_flow(wells, FlowOptions{});
+  REQUIRE(clean.dof == 8);
+  // Pope's tau, redundancy 8, alpha0 = 0.001: sqrt(8) t / sqrt(7 + t^2) with
+  // t = t(0.9995; 7) = 5.4079 (Student's t tables, e.g. the NIST/SEMATECH
+  // e-Handbook; from memory): 2.5407.
+  CHECK_THAT(clean.tau_critical, WithinAbs(2.5407, 2e-4));
+  CHECK(clean.off_plane.empty());
+  for (const auto& t : clean.tau) CHECK(t.has_value());
+
+  wells[5].head += 0.05;  // a misread tape: 25 sigma off
+  const FlowResult bad = estimate_flow(wells, FlowOptions{});
+  REQUIRE(bad.off_plane.size() == 1);
+  CHECK(bad.off_plane.front() == 5);
+  CHECK(std::abs(*bad.tau[5]) > bad.tau_critical);
+
+  // Four wells leave a redundancy of 1: no well can be tested.
+  wells.resize(4);
+  wells[3].y = 100.0;
+  const FlowResult few = estimate_flow(wells, FlowOptions{});
+  CHECK(few.off_plane.empty());
+  CHECK(std::isinf(few.tau_critical));
+}

@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <memory>
 #include <nlohmann/json.hpp>
@@ -121,11 +122,14 @@ CommandRunner add_flow_command(CLI::App& app) {
 
     OutputSet files(a->out);
     std::ostream& csv = files.open("flow_wells.csv");
-    csv << "well,x,y,head,sigma,residual\n";
+    csv << "well,x,y,head,sigma,residual,tau,off_plane\n";
     for (std::size_t i = 0; i < used.size(); ++i) {
+      const bool off = std::find(f.off_plane.begin(), f.off_plane.end(), i) != f.off_plane.end();
       csv << csv_cell(used[i].id)
-          << fmt::format(",{:.3f},{:.3f},{:.4f},{:.4f},{:+.4f}\n", used[i].x, used[i].y,
-                         used[i].head, used[i].sigma, f.residuals[i]);
+          << fmt::format(",{:.3f},{:.3f},{:.4f},{:.4f},{:+.4f},", used[i].x, used[i].y,
+                         used[i].head, used[i].sigma, f.residuals[i])
+          << (f.tau[i] ? fmt::format("{:+.3f}", *f.tau[i]) : "") << ',' << (off ? "yes" : "no")
+          << '\n';
     }
     nlohmann::json j;
     j["levelhead_version"] = version_string();
@@ -145,6 +149,16 @@ CommandRunner add_flow_command(CLI::App& app) {
     j["dof"] = f.dof;
     j["sigma0"] = f.sigma0 ? nlohmann::json(*f.sigma0) : nlohmann::json(nullptr);
     j["nearly_collinear"] = f.nearly_collinear;
+    nlohmann::json off_plane = nlohmann::json::array();
+    for (std::size_t i : f.off_plane)
+      off_plane.push_back({{"well", used[i].id}, {"tau", *f.tau[i]}});
+    j["wells_off_plane"] = {
+        {"test", "Pope's tau test"},
+        {"alpha0", options.alpha0},
+        {"critical",
+         std::isfinite(f.tau_critical) ? nlohmann::json(f.tau_critical) : nlohmann::json(nullptr)},
+        {"note", std::isfinite(f.tau_critical) ? "" : "fewer than 5 wells: no well can be tested"},
+        {"wells", off_plane}};
     j["darcy"] = {{"conductivity_m_per_s", range_json(options.conductivity)},
                   {"porosity", range_json(options.porosity)},
                   {"specific_discharge_m_per_s", range_json(f.specific_discharge)},
@@ -161,6 +175,12 @@ CommandRunner add_flow_command(CLI::App& app) {
           used.size(), f.gradient, f.gradient_sigma, f.azimuth, f.azimuth_sigma);
       if (f.nearly_collinear)
         out << "Warning: the wells lie nearly on a line; the direction is weak\n";
+      for (std::size_t i : f.off_plane) {
+        out << fmt::format(
+            "  {} departs from the plane: tau = {:+.2f} (Pope's tau test, |tau| > "
+            "{:.2f} at alpha0 = {:g})\n",
+            used[i].id, *f.tau[i], f.tau_critical, options.alpha0);
+      }
       if (f.velocity) {
         out << fmt::format(
             "  average linear velocity {:.2e} .. {:.2e} m/s ({:.3g} .. {:.3g} m/day)\n",
@@ -172,7 +192,12 @@ CommandRunner add_flow_command(CLI::App& app) {
       }
       out << fmt::format("Wrote flow.json and flow_wells.csv in {}\n", a->out);
     }
-    if (chain) chain->flow = FlowStage{std::move(f), used.size(), a->aquifer, options.distance};
+    if (chain) {
+      std::vector<std::string> ids;
+      for (const FlowWell& w : used) ids.push_back(w.id);
+      chain->flow = FlowStage{std::move(f),     used.size(),    a->aquifer,
+                              options.distance, std::move(ids), options.alpha0};
+    }
     return static_cast<int>(exit_ok);
   };
 }

@@ -3,12 +3,42 @@
 #include <fmt/format.h>
 
 #include <Eigen/Dense>
+#include <algorithm>
 #include <cmath>
+#include <limits>
 #include <numbers>
 
 #include "levelhead/core/errors.hpp"
+#include "levelhead/levelling/statistics.hpp"
 
 namespace levelhead {
+
+namespace {
+
+// Pope's tau test of each well's residual against the plane (see flow.hpp).
+void test_wells_against_plane(const Eigen::MatrixXd& A, const Eigen::VectorXd& p,
+                              const Eigen::VectorXd& v, const Eigen::Matrix3d& Q, double alpha0,
+                              FlowResult& r) {
+  r.tau.assign(static_cast<std::size_t>(v.size()), std::nullopt);
+  r.tau_critical = std::numeric_limits<double>::infinity();
+  if (!r.sigma0 || r.dof < 2 || !(*r.sigma0 > 0.0)) return;
+  r.tau_critical = tau_test_critical_value(alpha0, static_cast<double>(r.dof));
+  for (Eigen::Index i = 0; i < v.size(); ++i) {
+    const Eigen::Vector3d a = A.row(i).transpose();
+    const double q_vv = 1.0 / p[i] - a.dot(Q * a);
+    // Below 1e-6 of its own variance the residual is not checked (a well
+    // that alone fixes the plane there), as in the adjustment.
+    if (!(q_vv * p[i] > 1e-6)) continue;
+    const double tau = v[i] / (*r.sigma0 * std::sqrt(q_vv));
+    r.tau[static_cast<std::size_t>(i)] = tau;
+    if (std::abs(tau) > r.tau_critical) r.off_plane.push_back(static_cast<std::size_t>(i));
+  }
+  std::stable_sort(r.off_plane.begin(), r.off_plane.end(), [&](std::size_t x, std::size_t y) {
+    return std::abs(*r.tau[x]) > std::abs(*r.tau[y]);
+  });
+}
+
+}  // namespace
 
 FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& options) {
   if (wells.size() < 3) {
@@ -68,6 +98,7 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
   r.cov_xy = scale * Q(1, 2);
   r.cov_yy = scale * Q(2, 2);
   for (Eigen::Index i = 0; i < n; ++i) r.residuals.push_back(v[i]);
+  test_wells_against_plane(A, p, v, Q, options.alpha0, r);
 
   const double b = r.dh_dx, c = r.dh_dy;
   r.gradient = std::hypot(b, c);

@@ -341,6 +341,16 @@ void heads_findings(const HeadsStage& heads, const std::set<std::string>& unchec
 }
 
 void flow_findings(const FlowStage& flow, FindingList& out) {
+  std::vector<std::string> off;
+  for (std::size_t i : flow.result.off_plane)
+    off.push_back(fmt::format("{} (tau = {:+.2f})", flow.well_ids[i], *flow.result.tau[i]));
+  if (!off.empty()) {
+    out.add("flow", "off-plane", FindingLevel::caution,
+            fmt::format("{} well(s) depart from the plane of the heads (Pope's tau test, |tau| > "
+                        "{:.2f} at alpha0 = {:g}): {}. Check their heads; a well may also sit in "
+                        "a local feature (a mound, a pumping cone) the plane cannot follow.",
+                        off.size(), flow.result.tau_critical, flow.alpha0, listing(off)));
+  }
   out.add("flow", "flow-direction", FindingLevel::information,
           fmt::format("Groundwater flows towards {:.0f} degrees (grid) with a gradient of {:.1e}.",
                       flow.result.azimuth, flow.result.gradient));

@@ -239,6 +239,14 @@ void flow_table(Document& doc, const FlowStage& flow) {
       {"flow direction (degrees from grid north)",
        fmt::format("{:.1f} +- {:.1f}", f.azimuth, f.azimuth_sigma)},
       {"wells in the fit", std::to_string(flow.wells)}};
+  if (std::isfinite(f.tau_critical)) {
+    std::vector<std::string> off;
+    for (std::size_t i : f.off_plane) off.push_back(flow.well_ids[i]);
+    rows.push_back({fmt::format("wells off the plane (Pope's tau test, |tau| > {:.2f} at alpha0 "
+                                "= {:g})",
+                                f.tau_critical, flow.alpha0),
+                    off.empty() ? "none" : fmt::format("{}", fmt::join(off, ", "))});
+  }
   if (f.velocity) {
     rows.push_back(
         {"average linear velocity (m/day)",

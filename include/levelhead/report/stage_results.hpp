@@ -82,8 +82,10 @@ struct HeadsStage {
 struct FlowStage {
   FlowResult result;
   std::size_t wells = 0;
-  std::string aquifer;             // the aquifer fitted; empty: all wells
-  std::optional<double> distance;  // m, of the travel time
+  std::string aquifer;                // the aquifer fitted; empty: all wells
+  std::optional<double> distance;     // m, of the travel time
+  std::vector<std::string> well_ids;  // of the fit, in the order of result.residuals
+  double alpha0 = 0.001;              // of the tau test of each well
 };
 
 struct StageResults {
