@@ -219,10 +219,10 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
   }
   for (std::size_t k = 0; k < result.removals.size(); ++k) {
     const Removal& r = result.removals[k];
-    text += fmt::format("Removed (step {}): {} with {} = {:.2f} ({})\n", k + 1,
+    text += fmt::format("Removed (step {}): {} with {} = {:.2f} ({}, because {})\n", k + 1,
                         suspect_label(net, {Suspect::Kind::section, r.section, r.statistic}),
                         r.test.kind == OutlierTest::Kind::w_test ? "w" : "tau", r.statistic,
-                        r.test.statement());
+                        r.test.statement(), r.test.basis);
   }
   if (const auto unchecked = unchecked_points(net, result); !unchecked.empty()) {
     text += fmt::format(
@@ -244,7 +244,9 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
   }
   const OutlierTest& test = result.test;
   const char* symbol = test.kind == OutlierTest::Kind::w_test ? "w" : "tau";
-  text += fmt::format("Data snooping: {}, because {}\n", test.statement(), test.basis);
+  text += fmt::format("Data snooping{}: {}, because {}\n",
+                      result.removals.empty() ? "" : " after the removals", test.statement(),
+                      test.basis);
   if (result.suspects.empty()) {
     text += "No suspect observations\n";
   } else {
