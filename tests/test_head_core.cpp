@@ -7,6 +7,7 @@
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <fstream>
+#include <nlohmann/json.hpp>
 #include <set>
 
 #include "levelhead/heads/flags.hpp"
@@ -197,13 +198,16 @@ TEST_CASE("the synoptic window's edge: just inside and just outside", "[heads][c
   site.options.synoptic_window_hours = 48.0;  // +-24 h
   const Well& well = site.wells.wells[0];
   const auto mp = *site.history().at(0, seconds("2020-06-10"));
-  const auto flags_at = [&](const char* time) {
-    return evaluate_reading(reading_at(time, 4.0), mp, well, site.options).flags;
+  const auto outside_at = [&](const char* time) {
+    const HeadRecord r = evaluate_reading(reading_at(time, 4.0), mp, well, site.options);
+    // Outside the window is no flag: it says nothing about the head itself.
+    CHECK(r.flags.empty());
+    return r.outside_event;
   };
-  CHECK_FALSE(has(flags_at("2020-06-11T11:59:59Z"), "outside-synoptic-window"));
-  CHECK_FALSE(has(flags_at("2020-06-09T12:00:01Z"), "outside-synoptic-window"));
-  CHECK(has(flags_at("2020-06-11T12:00:01Z"), "outside-synoptic-window"));
-  CHECK(has(flags_at("2020-06-09T11:59:59Z"), "outside-synoptic-window"));
+  CHECK_FALSE(outside_at("2020-06-11T11:59:59Z"));
+  CHECK_FALSE(outside_at("2020-06-09T12:00:01Z"));
+  CHECK(outside_at("2020-06-11T12:00:01Z"));
+  CHECK(outside_at("2020-06-09T11:59:59Z"));
 }
 
 TEST_CASE("the sequence checks of a well's readings", "[heads][core]") {
@@ -253,7 +257,6 @@ TEST_CASE("the flag table decides contouring, qa.csv and --strict", "[heads][fla
     CHECK(flag_info("logger-battery-low").fails_strict);
   }
   SECTION("information never fails --strict") {
-    CHECK_FALSE(flag_info("outside-synoptic-window").fails_strict);
     CHECK_FALSE(flag_info("mp-interpolated").fails_strict);
     CHECK(flag_info("pumping").fails_strict);
   }
@@ -264,6 +267,15 @@ TEST_CASE("the flag table decides contouring, qa.csv and --strict", "[heads][fla
     CHECK(contouring_reason(r) == "pumping");
     r.flags = {"mp-interpolated", "transducer-drift-rejected"};
     CHECK(contouring_reason(r) == "transducer-drift-rejected");
+  }
+  SECTION("outside the event's window is a reason after every rejection, never a flag") {
+    HeadRecord r;
+    r.head = 1.0;
+    r.outside_event = true;
+    CHECK(contouring_reason(r) == "outside-synoptic-window");
+    r.flags = {"pumping"};
+    CHECK(contouring_reason(r) == "pumping");
+    CHECK(flag_rank("outside-synoptic-window") == head_flags().size());
   }
 }
 
@@ -279,8 +291,13 @@ TEST_CASE("heads --strict with an event does not fail on readings outside its wi
   const auto clean = levelhead::testing::run_cli(args);
   INFO(clean.err);
   CHECK(clean.code == 0);
-  CHECK_THAT(levelhead::testing::read_file(files.tmp.path() / "clean" / "heads.csv"),
-             Catch::Matchers::Contains("outside-synoptic-window"));
+  const std::string heads_csv =
+      levelhead::testing::read_file(files.tmp.path() / "clean" / "heads.csv");
+  CHECK_THAT(heads_csv, Catch::Matchers::Contains(",no,outside-synoptic-window,no,"));
+  CHECK_THAT(heads_csv, Catch::Matchers::Contains(",yes,,yes,"));
+  const auto summary = nlohmann::json::parse(
+      levelhead::testing::read_file(files.tmp.path() / "clean" / "summary.json"));
+  CHECK(summary["event"]["readings_in_window"] == 1);
   // A flag that needs a look still fails: a negative depth without `flowing`.
   args = files.heads_args(readings + "W1,2020-06-10T09:00Z,-0.2\n", "flagged");
   args.insert(args.end(), {"--event", "2020-06-10T12:00Z", "--strict"});

@@ -10,6 +10,7 @@
 #include "cli/reference_inputs.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
 #include "levelhead/heads/flags.hpp"
 #include "levelhead/heads/head_core.hpp"
 #include "levelhead/heads/heads.hpp"
@@ -138,13 +139,17 @@ CommandRunner add_heads_command(CLI::App& app) {
                              : fmt::format("; states carried: {}", fmt::join(states, ", ")));
       for (const auto& [flag, count] : s.flags) out << fmt::format("  {}: {}\n", flag, count);
       if (options.event) {
+        out << fmt::format(
+            "event {} +- {:g} h: {} of {} readings inside the window (heads.csv `in_event`)\n",
+            format_utc(*options.event), options.synoptic_window_hours / 2.0, s.in_event,
+            s.readings);
         out << fmt::format("{} well(s) on the re-measure list (remeasure.csv)\n", s.remeasure);
       }
       out << fmt::format("Wrote heads.csv, qa.csv, measuring_points.csv, summary.json{} in {}\n",
                          a->no_geopackage ? "" : ", heads.gpkg", a->out);
     }
     // --strict fails on the flags that say something needs a look
-    // (flags.hpp), not on information such as outside-synoptic-window.
+    // (flags.hpp), not on information such as mp-interpolated.
     const bool failing = std::any_of(s.flags.begin(), s.flags.end(), [](const auto& flag) {
       return flag_info(flag.first).fails_strict;
     });

@@ -13,8 +13,6 @@ const std::vector<FlagInfo>& head_flags() {
       {"pumping", "the well was pumping or recently pumped", rejection, true, each_reading, true},
       {"water-above-mp", "a negative depth without the state flowing", rejection, true,
        each_reading, true},
-      {"outside-synoptic-window", "the reading lies outside the event's window", rejection, true,
-       none, false},
       {"repeat-disagrees", "repeat readings within the repeat window disagree", rejection, true,
        with_detail, true},
       {"duplicate", "a second reading of the well at the same time", rejection, true, each_reading,

@@ -319,9 +319,8 @@ HeadRecord evaluate_reading(const ReadingInput& reading, MeasuringPointAt mp, co
       break;
     }
   }
-  if (options.event &&
-      std::abs(reading.time - *options.event) > options.synoptic_window_hours * 3600.0 / 2.0)
-    r.flags.push_back("outside-synoptic-window");
+  r.outside_event = options.event && std::abs(reading.time - *options.event) >
+                                         options.synoptic_window_hours * 3600.0 / 2.0;
   r.state = !level.state.empty() ? level.state : level.status;
   return r;
 }
@@ -372,14 +371,15 @@ std::string contouring_reason(const HeadRecord& record) {
       reason_rank = rank;
     }
   }
-  return reason ? *reason : std::string();
+  if (reason) return *reason;
+  return record.outside_event ? std::string(outside_event_reason) : std::string();
 }
 
 void HeadSeriesSink::write(const Well& well, const ReadingInput& reading,
                            const HeadRecord& record) {
   if (!record.head) return;
-  series_[well.id].push_back({reading.time, *record.head,
-                              !record.contour() && record.reason != "outside-synoptic-window"});
+  series_[well.id].push_back(
+      {reading.time, *record.head, !record.contour() && record.reason != outside_event_reason});
 }
 
 }  // namespace levelhead

@@ -22,14 +22,14 @@ int decimals_for(double sigma) {
 }
 
 HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
-                               const std::string& target)
-    : out_(out), target_cell_(csv_cell(target)) {
+                               const std::string& target, bool has_event)
+    : out_(out), target_cell_(csv_cell(target)), has_event_(has_event) {
   for (const MeasuringPointElevation& e : history.elevations()) {
     source_cells_.push_back(csv_cell(e.source));
     transform_cells_.push_back(csv_cell(e.transform));
   }
   out_ << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
-          "flags,contour,reason,transform,density,freshwater_head,environmental_head\n";
+          "flags,contour,reason,in_event,transform,density,freshwater_head,environmental_head\n";
 }
 
 void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const HeadRecord& r) {
@@ -60,6 +60,8 @@ void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const 
   row_ += r.contour() ? ",yes," : ",no,";
   append_csv_cell(row_, r.reason);
   row_ += ',';
+  if (has_event_) row_ += r.outside_event ? "no" : "yes";
+  row_ += ',';
   row_ += transform_cells_[r.mp.record];
   row_ += ',';
   if (r.density) fmt::format_to(to, "{:.2f}", *r.density);
@@ -72,8 +74,8 @@ void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const 
 }
 
 HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
-                                 const std::string& target)
-    : target_(target) {
+                                 const std::string& target, bool has_event)
+    : target_(target), has_event_(has_event) {
   GDALAllRegister();
   CPLSetThreadLocalConfigOption("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");  // reproducible
   dataset_ =
@@ -98,7 +100,8 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
                                                          {"mp_elevation", OFTReal},
                                                          {"state", OFTString},
                                                          {"flags", OFTString},
-                                                         {"contour", OFTString}}) {
+                                                         {"contour", OFTString},
+                                                         {"in_event", OFTString}}) {
     OGRFieldDefnH field = OGR_Fld_Create(name, type);
     OGR_L_CreateField(layer_, field, 1);
     OGR_Fld_Destroy(field);
@@ -128,6 +131,7 @@ void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const
   OGR_F_SetFieldString(f, 7, r.state.c_str());
   OGR_F_SetFieldString(f, 8, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
   OGR_F_SetFieldString(f, 9, r.contour() ? "yes" : "no");
+  if (has_event_) OGR_F_SetFieldString(f, 10, r.outside_event ? "no" : "yes");
   OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
   OGR_G_SetPoint_2D(g, 0, well.x, well.y);
   OGR_F_SetGeometryDirectly(f, g);

@@ -17,16 +17,18 @@ namespace levelhead {
 // table shows more digits than the data carry (0.003 m -> 3, 0.02 m -> 2).
 int decimals_for(double sigma);
 
-// heads.csv (columns in docs/formats.md).
+// heads.csv (columns in docs/formats.md); `has_event`: whether the run has a
+// synoptic event (else `in_event` stays empty).
 class HeadsCsvWriter final : public HeadSink {
  public:
-  HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
-                 const std::string& target);
+  HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history, const std::string& target,
+                 bool has_event);
   void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) override;
 
  private:
   std::ostream& out_;
   std::string target_cell_, row_;
+  bool has_event_;
   std::vector<std::string> source_cells_, transform_cells_;  // per measuring-point record
 };
 
@@ -36,7 +38,7 @@ class HeadsCsvWriter final : public HeadSink {
 class HeadsGpkgWriter final : public HeadSink {
  public:
   HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
-                  const std::string& target);
+                  const std::string& target, bool has_event);
   ~HeadsGpkgWriter() override;
   HeadsGpkgWriter(const HeadsGpkgWriter&) = delete;
   HeadsGpkgWriter& operator=(const HeadsGpkgWriter&) = delete;
@@ -48,6 +50,7 @@ class HeadsGpkgWriter final : public HeadSink {
   GDALDatasetH dataset_ = nullptr;
   OGRLayerH layer_ = nullptr;
   std::string target_;
+  bool has_event_;
 };
 
 }  // namespace levelhead

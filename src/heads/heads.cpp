@@ -344,10 +344,11 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
     ws.event = EventHead{well.id,      well.aquifer, well.nest, reading.time_text, well.x, well.y,
                          *record.head, record.sigma, middle};
   }
-  if (record.head && (record.contour() || record.reason == "outside-synoptic-window"))
+  if (record.head && (record.contour() || record.reason == outside_event_reason))
     ws.series.emplace_back(reading.time, *record.head);
   summary.heads += record.head.has_value();
   summary.contourable += record.contour();
+  summary.in_event += options.event && !record.outside_event;
   if (!record.state.empty()) {
     ++summary.states;
     const std::string kind = record.state.substr(0, record.state.find(':'));
@@ -450,11 +451,13 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   OutputSet out(folder);
   write_measuring_points(out.open("measuring_points.csv"), result.measuring_points, options.target);
   std::optional<HeadsGpkgWriter> gpkg;
-  if (geopackage) gpkg.emplace(out.reserve("heads.gpkg"), options.crs, options.target);
+  if (geopackage)
+    gpkg.emplace(out.reserve("heads.gpkg"), options.crs, options.target, options.event.has_value());
   std::ostream& qa_csv = out.open("qa.csv");
   qa_csv << "table,row,well,time,flag,detail\n";
   for (const QaEntry& e : history.qa()) write_qa(qa_csv, e);
-  HeadsCsvWriter heads_csv(out.open("heads.csv"), history, options.target);
+  HeadsCsvWriter heads_csv(out.open("heads.csv"), history, options.target,
+                           options.event.has_value());
   std::vector<HeadSink*> sinks = {&heads_csv};
   if (gpkg) sinks.push_back(&*gpkg);
   sinks.insert(sinks.end(), more_sinks.begin(), more_sinks.end());
@@ -502,6 +505,8 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
     result.event = synoptic_event(wells, state, history_departures, *options.event);
     summary.remeasure = result.event->remeasure.size();
     event_summary = write_event(*result.event, out);
+    event_summary["window_hours"] = options.synoptic_window_hours;
+    event_summary["readings_in_window"] = summary.in_event;
   }
 
   nlohmann::json s;

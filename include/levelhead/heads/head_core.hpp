@@ -19,6 +19,7 @@
 #include <map>
 #include <optional>
 #include <string>
+#include <string_view>
 #include <utility>
 #include <vector>
 
@@ -98,6 +99,10 @@ struct HeadRecord {
   std::string state;           // the reading's state, else its status
   std::optional<double> density, freshwater_head, environmental_head;  // kg/m^3, m, m
   std::vector<std::string> flags;
+  // With an event: whether the reading lies outside its synoptic window. Not
+  // a flag: most readings of a series lie outside, and nothing is wrong with
+  // them; heads.csv says it in `in_event`, the summary counts it.
+  bool outside_event = false;
   std::string reason;  // why it is not contoured; empty: contoured
   bool contour() const { return reason.empty(); }
 };
@@ -125,9 +130,12 @@ class ReadingSequence {
   std::deque<std::pair<double, double>> recent_;  // (time, head) within the window
 };
 
-// The reason a record is not contoured, from its flags (flags.hpp) and
-// whether it has a head: "" when it is contoured.
+// The reason a record is not contoured, from its flags (flags.hpp), whether
+// it has a head and whether it lies in the event's window
+// ("outside-synoptic-window", after any rejection flag): "" when it is
+// contoured.
 std::string contouring_reason(const HeadRecord& record);
+inline constexpr std::string_view outside_event_reason = "outside-synoptic-window";
 
 // Where head records go, one at a time (the readings stream: a sink must not
 // need them all at once).

@@ -148,6 +148,7 @@ struct HeadsSummary {
   std::size_t readings = 0, heads = 0, states = 0, contourable = 0;
   std::size_t remeasure = 0;                 // wells on the re-measure list (with an event)
   std::size_t rejected = 0;                  // readings set aside (keep_going)
+  std::size_t in_event = 0;                  // readings inside the event's window (with an event)
   std::map<std::string, std::size_t> flags;  // flag -> count
   std::map<std::string, std::size_t> states_by_kind;
   // Per kind of state, the first few readings as "WELL at TIME" (for findings).
