@@ -1,6 +1,7 @@
 #include <catch2/catch.hpp>
 
 #include "levelhead/core/errors.hpp"
+#include "levelhead/levelling/statistics.hpp"
 #include "levelhead/references/gnss_check.hpp"
 
 using namespace levelhead;
@@ -30,7 +31,7 @@ TEST_CASE("the classic geoid mistakes are told apart by size and sign", "[gnss]"
       mark("moved", H + 0.35, h, n),                // a disturbed mark
       mark("geoid-off-levelled", H - n, h, n),      // N taken off a levelled H: d = -N
   };
-  const GnssCheckResult r = check_gnss_marks(marks, 0.05);
+  const GnssCheckResult r = check_gnss_marks(marks, GnssCheckOptions{0.05});
   CHECK(r.marks[0].verdict == GnssVerdict::consistent);
   CHECK(r.marks[1].verdict == GnssVerdict::geoid_twice);
   // An ellipsoidal height labelled orthometric: d = h - (h - N) = N, the same
@@ -47,10 +48,83 @@ TEST_CASE("an offset shared by most marks is called systematic", "[gnss]") {
   std::vector<GnssMark> marks;
   for (const char* id : {"a", "b", "c", "d"}) marks.push_back(mark(id, 50.0 + 0.42, 50.0 + n, n));
   marks.push_back(mark("e", 50.0, 50.0 + n, n));
-  const GnssCheckResult r = check_gnss_marks(marks, 0.05);
+  const GnssCheckResult r = check_gnss_marks(marks, GnssCheckOptions{0.05});
   REQUIRE(r.common_offset);
   CHECK(*r.common_offset == Approx(0.42).margin(1e-9));
   CHECK(r.marks[0].verdict == GnssVerdict::systematic);
   CHECK(r.marks[4].verdict == GnssVerdict::consistent);
-  CHECK_THROWS_AS(check_gnss_marks(marks, 0.0), OptionError);
+  CHECK_THROWS_AS(check_gnss_marks(marks, GnssCheckOptions{0.0}), OptionError);
+  CHECK_THROWS_AS(check_gnss_marks(marks, GnssCheckOptions{0.05, 0.0}), OptionError);
+}
+
+namespace {
+// Ten marks without sigmas where the geoid height is -31.6 m, levelled minus
+// GNSS = scale * the invented errors below, plus `extra` at the mark `odd`.
+std::vector<GnssMark> ten_marks(double scale, std::size_t odd, double extra) {
+  const double errors[10] = {0.8, -1.1, 0.3, 1.6, -0.4, -1.9, 0.9, 0.1, -0.6, 1.2};
+  std::vector<GnssMark> marks;
+  for (std::size_t i = 0; i < 10; ++i) {
+    GnssMark m = mark("m", 100.0 + scale * errors[i] + (i == odd ? extra : 0.0), 68.4, -31.6);
+    m.sigma = 0.0;
+    marks.push_back(m);
+  }
+  return marks;
+}
+}  // namespace
+
+TEST_CASE("without sigmas the marks are tested against each other by Pope's tau test",
+          "[gnss][verdicts]") {
+  SECTION("a 5 m blunder in one of ten marks is found, the others are consistent") {
+    const GnssCheckResult r = check_gnss_marks(ten_marks(0.003, 4, 5.0), GnssCheckOptions{0.05});
+    CHECK(r.fit.test == "tau (Pope)");
+    // After the blunder is taken out: 9 marks, redundancy 8.
+    CHECK(r.fit.marks == 9);
+    CHECK(r.fit.critical == Approx(tau_test_critical_value(0.001, 8.0)).epsilon(1e-12));
+    for (std::size_t i = 0; i < 10; ++i) {
+      INFO(i);
+      CHECK(r.marks[i].verdict == (i == 4 ? GnssVerdict::inconsistent : GnssVerdict::consistent));
+    }
+    CHECK_FALSE(r.common_offset);
+    // The blunder no longer biases the offset: 3 mm noise, mean of nine.
+    CHECK(std::abs(r.fit.offset) < 0.003);
+  }
+  SECTION("a mark discordant with precise marks but within the tolerance is no finding") {
+    const GnssCheckResult r = check_gnss_marks(ten_marks(0.001, 2, 0.04), GnssCheckOptions{0.05});
+    REQUIRE(r.marks[2].statistic);
+    CHECK(*r.marks[2].statistic > r.fit.critical);         // the test sees it (d - c > 0) ...
+    CHECK(r.marks[2].verdict == GnssVerdict::consistent);  // ... the tolerance accepts it
+    CHECK(r.fit.marks == 9);                               // and the fit leaves it out
+  }
+  SECTION("the same mark 80 mm off is inconsistent") {
+    const GnssCheckResult r = check_gnss_marks(ten_marks(0.001, 2, 0.08), GnssCheckOptions{0.05});
+    CHECK(r.marks[2].verdict == GnssVerdict::inconsistent);
+  }
+  SECTION("marks that all scatter beyond the tolerance are scattered, not each a bad mark") {
+    // 40 mm * errors: up to 76 mm, no outlier among them.
+    const GnssCheckResult r = check_gnss_marks(ten_marks(0.04, 0, 0.0), GnssCheckOptions{0.05});
+    CHECK(r.fit.marks == 10);
+    std::size_t scattered = 0;
+    for (const GnssCheck& c : r.marks) {
+      CHECK(c.verdict != GnssVerdict::inconsistent);
+      scattered += c.verdict == GnssVerdict::scattered;
+    }
+    CHECK(scattered == 2);  // 1.6 and -1.9 times 40 mm
+  }
+  SECTION("an offset shared by all, with one blunder, is systematic and the blunder named") {
+    std::vector<GnssMark> marks = ten_marks(0.003, 7, 2.0);
+    for (GnssMark& m : marks) m.levelled += 0.30;
+    const GnssCheckResult r = check_gnss_marks(marks, GnssCheckOptions{0.05});
+    REQUIRE(r.common_offset);
+    CHECK(*r.common_offset == Approx(0.30).margin(0.003));
+    CHECK(r.marks[7].verdict == GnssVerdict::inconsistent);
+    CHECK(r.marks[0].verdict == GnssVerdict::systematic);
+  }
+  SECTION("with fewer than three marks the tolerance alone decides") {
+    std::vector<GnssMark> marks = ten_marks(0.003, 1, 0.2);
+    marks.resize(2);
+    const GnssCheckResult r = check_gnss_marks(marks, GnssCheckOptions{0.05});
+    CHECK(r.fit.test.empty());
+    CHECK(r.marks[0].verdict == GnssVerdict::consistent);
+    CHECK(r.marks[1].verdict == GnssVerdict::inconsistent);
+  }
 }

@@ -10,6 +10,7 @@
 #include <cmath>
 #include <filesystem>
 #include <fstream>
+#include <map>
 #include <sstream>
 #include <string>
 #include <vector>
@@ -273,4 +274,31 @@ TEST_CASE("findings: none without stages; an unchecked point under a well is nam
   CHECK_THAT(text_of("unchecked-point"), Catch::Matchers::Contains("1 point(s)"));
   CHECK_THAT(text_of("unchecked-point"), !Catch::Matchers::Contains("D"));
   CHECK_THAT(text_of("mp-unchecked"), Catch::Matchers::Contains("measuring point(s) of W"));
+}
+
+TEST_CASE("findings: each GNSS mark once, by its own mistake, an offset or a scatter",
+          "[stage-results][findings][gnss]") {
+  // Invented marks without sigmas where N = -31.6 m: four share +0.30 m,
+  // one is off by 2 m more, one carries the geoid twice.
+  GnssStage g;
+  const double offsets[6] = {0.301, 0.298, 0.303, 0.299, 2.30, -31.6};
+  for (std::size_t i = 0; i < 6; ++i) {
+    GnssMark m;
+    m.id = fmt::format("G{}", i + 1);
+    m.gnss = 68.4;
+    m.gnss_converted = 100.0;
+    m.levelled = 100.0 + offsets[i];
+    g.marks.push_back(m);
+  }
+  g.result = check_gnss_marks(g.marks, GnssCheckOptions{});
+  StageResults results;
+  results.gnss = std::move(g);
+  std::map<std::string, std::string> by_topic;
+  for (const Finding& f : chain_findings(results)) by_topic[f.topic] += f.text;
+  CHECK_THAT(by_topic["gnss-disagrees"],
+             Catch::Matchers::Contains("2 of 6 marks") && Catch::Matchers::Contains("G5") &&
+                 Catch::Matchers::Contains("G6") && !Catch::Matchers::Contains("G1"));
+  CHECK_THAT(by_topic["gnss-offset"], Catch::Matchers::StartsWith("4 of 6 GNSS marks share an "
+                                                                  "offset of +0.300"));
+  CHECK(by_topic.count("gnss-scatter") == 0);
 }

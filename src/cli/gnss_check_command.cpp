@@ -28,9 +28,24 @@ struct GnssArguments {
   std::string levelled, levelled_ref, gnss, gnss_ref = "EPSG:4979", crs, out, unit = "m";
   std::string levelled_unit;  // empty: as unit
   ReferenceInputs refs;
-  double tolerance = 0.05;
+  GnssCheckOptions options;
   bool strict = false, quiet = false;
 };
+nlohmann::json outlier_test_json(const GnssOffsetFit& fit, double alpha0) {
+  if (fit.test.empty()) return {{"test", "none (fewer than 3 marks)"}, {"alpha0", alpha0}};
+  nlohmann::json j = {{"test", fit.test},
+                      {"critical", fit.critical},
+                      {"alpha0", alpha0},
+                      {"marks_in_fit", fit.marks},
+                      {"redundancy", fit.redundancy}};
+  if (fit.marks > 0) {
+    j["offset"] = fit.offset;
+    j["offset_sigma"] = fit.offset_sigma;
+    j["sigma0"] = fit.sigma0 ? nlohmann::json(*fit.sigma0) : nlohmann::json(nullptr);
+  }
+  return j;
+}
+
 }  // namespace
 
 CommandRunner add_gnss_check_command(CLI::App& app) {
@@ -50,8 +65,12 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
   c->add_option("--levelled-unit", a->levelled_unit,
                 "Length unit of the levelled table when it differs from --unit (the heights.csv "
                 "of levelhead adjust is in m)");
-  c->add_option("--tolerance", a->tolerance,
+  c->add_option("--tolerance", a->options.tolerance,
                 "Largest difference accepted as consistent (m); 3 sigma is used when larger")
+      ->capture_default_str();
+  c->add_option("--alpha0", a->options.alpha0,
+                "Significance of the outlier test per mark against the common offset (Baarda's "
+                "w-test with sigmas, Pope's tau test without)")
       ->capture_default_str();
   c->add_flag("--strict", a->strict, "Exit with status 3 when a mark is not consistent");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
@@ -126,11 +145,12 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       marks[i].sigma = std::sqrt(level_sigma[i] * level_sigma[i] + gnss_sigma[i] * gnss_sigma[i] +
                                  converted[i].variance_added);
     }
-    GnssCheckResult result = check_gnss_marks(marks, a->tolerance);
+    GnssCheckResult result = check_gnss_marks(marks, a->options);
 
     OutputSet files(a->out);
     std::ostream& csv = files.open("gnss_check.csv");
-    csv << "id,levelled,gnss,gnss_converted,separation,difference,sigma,verdict,transform\n";
+    csv << "id,levelled,gnss,gnss_converted,separation,difference,sigma,from_offset,statistic,"
+           "verdict,transform\n";
     std::map<std::string, std::size_t> counts;
     for (std::size_t i = 0; i < marks.size(); ++i) {
       const GnssCheck& ch = result.marks[i];
@@ -138,8 +158,11 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       csv << csv_cell(marks[i].id)
           << fmt::format(",{:.4f},{:.4f},{:.4f},{:.4f},{:.4f},{:.4f},", marks[i].levelled,
                          marks[i].gnss, marks[i].gnss_converted, ch.separation, ch.difference,
-                         marks[i].sigma)
-          << to_string(ch.verdict) << ',' << csv_cell(converted[i].transform) << '\n';
+                         marks[i].sigma);
+      if (ch.from_offset) csv << fmt::format("{:.4f}", *ch.from_offset);
+      csv << ',';
+      if (ch.statistic) csv << fmt::format("{:.3f}", *ch.statistic);
+      csv << ',' << to_string(ch.verdict) << ',' << csv_cell(converted[i].transform) << '\n';
     }
     nlohmann::json summary;
     summary["levelhead_version"] = version_string();
@@ -147,7 +170,8 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     summary["units"] = "m";
     summary["levelled_reference"] = a->levelled_ref;
     summary["gnss_reference"] = a->gnss_ref;
-    summary["tolerance"] = a->tolerance;
+    summary["tolerance"] = a->options.tolerance;
+    summary["outlier_test"] = outlier_test_json(result.fit, result.alpha0);
     summary["marks"] = marks.size();
     summary["verdicts"] = counts;
     summary["common_offset"] =
@@ -163,8 +187,10 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
                            ch.difference, ch.separation, explain(ch.verdict));
       }
       if (result.common_offset) {
-        out << fmt::format("Most marks share an offset of {:+.3f} m\n", *result.common_offset);
+        out << fmt::format("Most marks share an offset of {:+.3f} +- {:.3f} m\n",
+                           *result.common_offset, result.fit.offset_sigma);
       }
+      out << describe_outlier_test(result) << '\n';
       out << fmt::format("{} consistent. Wrote gnss_check.csv and summary.json in {}\n",
                          counts["consistent"], a->out);
     }

@@ -201,23 +201,41 @@ void adjustment_findings(const StageResults& results, const std::set<std::string
 }
 
 void gnss_findings(const GnssStage& g, FindingList& out) {
-  std::vector<std::string> marks;
+  // Each mark once: its own mistake, or its share in an offset or a scatter.
+  std::vector<std::string> disagree, scattered;
+  std::size_t systematic = 0;
   for (std::size_t i = 0; i < g.marks.size(); ++i) {
     const GnssCheck& c = g.result.marks[i];
-    if (c.verdict == GnssVerdict::consistent) continue;
-    marks.push_back(fmt::format("{}: levelled - GNSS = {:+.3f} m, {}", g.marks[i].id, c.difference,
-                                explain(c.verdict)));
+    const std::string line =
+        fmt::format("{}: levelled - GNSS = {:+.3f} m", g.marks[i].id, c.difference);
+    if (c.verdict == GnssVerdict::scattered)
+      scattered.push_back(line);
+    else if (c.verdict == GnssVerdict::systematic)
+      ++systematic;
+    else if (c.verdict != GnssVerdict::consistent)
+      disagree.push_back(fmt::format("{}, {}", line, explain(c.verdict)));
   }
-  if (!marks.empty()) {
+  if (!disagree.empty()) {
     out.add("gnss-check", "gnss-disagrees", FindingLevel::action,
-            fmt::format("{} of {} marks disagree between GNSS and levelling: {}.", marks.size(),
-                        g.marks.size(), listing(marks)));
+            fmt::format("{} of {} marks disagree between GNSS and levelling: {}.", disagree.size(),
+                        g.marks.size(), listing(disagree)));
   }
   if (g.result.common_offset) {
     out.add("gnss-check", "gnss-offset", FindingLevel::caution,
-            fmt::format("Most GNSS marks share an offset of {:+.3f} m from the levelling: check "
-                        "the references and the geoid model before the heights.",
-                        *g.result.common_offset));
+            fmt::format("{} of {} GNSS marks share an offset of {:+.3f} +- {:.3f} m from the "
+                        "levelling: check the references and the geoid model before the heights.",
+                        systematic, g.marks.size(), *g.result.common_offset,
+                        g.result.fit.offset_sigma));
+  }
+  if (!scattered.empty()) {
+    out.add("gnss-check", "gnss-scatter", FindingLevel::caution,
+            fmt::format("{} of {} marks lie beyond the tolerance ({:g} m) without being outliers: "
+                        "the GNSS heights scatter more than the tolerance assumes{} ({}).",
+                        scattered.size(), g.marks.size(), g.result.tolerance,
+                        g.result.fit.sigma0 && g.result.fit.test == "tau (Pope)"
+                            ? fmt::format(", sigma {:.3f} m about the offset", *g.result.fit.sigma0)
+                            : std::string(),
+                        listing(scattered)));
   }
 }
 

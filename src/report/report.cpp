@@ -151,16 +151,19 @@ void gnss_section(Document& doc, const StageResults& results) {
       fmt::format("GNSS heights ({}) brought into {} through the references, against the adjusted "
                   "heights of the same marks; the differences are the residuals of the tie.",
                   g.gnss_reference, g.levelled_reference));
+  doc.paragraph(describe_outlier_test(g.result) + ".");
   std::vector<std::vector<std::string>> rows;
   for (std::size_t i = 0; i < g.marks.size(); ++i) {
     const GnssCheck& check = g.result.marks[i];
     rows.push_back({g.marks[i].id, fixed(g.marks[i].levelled, 4),
                     fixed(g.marks[i].gnss_converted, 4), fixed(1000 * check.difference, 1),
-                    fixed(1000 * g.marks[i].sigma, 1), to_string(check.verdict)});
+                    fixed(1000 * g.marks[i].sigma, 1),
+                    check.statistic ? fixed(*check.statistic, 2) : std::string("-"),
+                    to_string(check.verdict)});
   }
-  doc.table(
-      {"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)", "verdict"},
-      rows);
+  doc.table({"mark", "levelled (m)", "GNSS converted (m)", "difference (mm)", "sigma (mm)",
+             "statistic", "verdict"},
+            rows);
 }
 
 void monitoring_section(Document& doc, const StageResults& results) {
