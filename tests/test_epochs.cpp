@@ -356,3 +356,41 @@ TEST_CASE("bad epoch input is refused with the place to fix it", "[epochs]") {
                       Catch::Contains("two epochs"));
   }
 }
+
+TEST_CASE("variance factors per epoch: a worse epoch is found and weighed as such", "[epochs]") {
+  // Spring levelled at the assumed 0.5 mm per section, autumn at 1.5 mm
+  // (invented): with --variance-groups epoch each epoch's factor comes from
+  // its own residuals (Foerstner's estimator on one group is its sigma0).
+  const SimulatedSite site;
+  SimulatedSite worse = site;
+  std::mt19937 random(2024);
+  const std::vector<double> base = {100.0, 101.2, 99.4, 100.7, 100.3, 99.9, 100.1};
+  EpochOptions options;
+  options.adjustment.variance_groups = "epoch";
+  const int runs = 2000;
+  int alarms = 0;
+  double spring_sum = 0.0, autumn_sum = 0.0;
+  for (int i = 0; i < runs; ++i) {
+    worse.sigma = 3.0 * site.sigma;
+    std::vector<EpochSections> epochs;
+    epochs.push_back(site.make("spring", "2025-04-15", base, random));
+    EpochSections autumn = worse.make("autumn", "2025-10-15", base, random);
+    for (Section& s : autumn.sections.sections) s.sigma = site.sigma;  // the assumed sigma
+    epochs.push_back(std::move(autumn));
+    for (EpochSections& e : epochs) {
+      for (Section& s : e.sections.sections) s.group = e.name;
+    }
+    const EpochAnalysis a = analyse_epochs(site.points(), std::move(epochs), four_marks, options);
+    REQUIRE(a.epochs[0].variance_components.size() == 1);
+    spring_sum += *a.epochs[0].variance_components[0].factor;
+    autumn_sum += *a.epochs[1].variance_components[0].factor;
+    alarms += a.tests[0].passed ? 0 : 1;
+  }
+  // sigma0 of 6 degrees of freedom has mean c4(7) * sigma, c4(7) = 0.959
+  // (the bias of a sample standard deviation, from memory).
+  CHECK_THAT(spring_sum / runs, WithinAbs(0.959, 0.02));
+  CHECK_THAT(autumn_sum / runs, WithinAbs(3.0 * 0.959, 0.06));
+  const double rate = static_cast<double>(alarms) / runs;
+  INFO("false alarms of the congruence test: " << rate);
+  CHECK_THAT(rate, WithinAbs(0.05, 3.0 * std::sqrt(0.05 * 0.95 / runs)));
+}

@@ -173,6 +173,23 @@ TEST_CASE("forward and backward runs are merged and their spread judged", "[fiel
   CHECK(reduce_text(book, o).sections[0].flags == std::vector<std::string>{"runs-disagree"});
 }
 
+TEST_CASE("instrument and observer follow a section from its runs", "[fieldbook]") {
+  const std::string book =
+      "run,setup,sight,point,reading,distance,instrument,observer\n"
+      "F,1,b,A,1.5000,25,L-12,ana\n"
+      "F,1,f,B,0.5000,25,L-12,ana\n"
+      "F,2,b,B,1.2000,25,L-12,ana\n"
+      "F,2,f,C,1.0000,25,L-12,ana\n"
+      "K,1,b,B,0.5000,25,L-07,ana\n"
+      "K,1,f,A,1.5010,25,L-07,ana\n";
+  const FieldBookResult r = reduce_text(book, no_corrections());
+  const ReducedSection& ab = find(r, "A", "B");
+  CHECK(ab.instrument == "L-12+L-07");  // two instruments: a group of its own
+  CHECK(ab.observer == "ana");          // the same observer: named once
+  const ReducedSection& bc = find(r, "B", "C");
+  CHECK(bc.instrument == "L-12");
+}
+
 TEST_CASE("a run closed on its start gives a closure", "[fieldbook]") {
   const std::string book =
       "run,setup,sight,point,reading,distance\n"

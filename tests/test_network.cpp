@@ -26,6 +26,18 @@ TEST_CASE("points and sections are read from tables", "[network]") {
   REQUIRE(sections.sections.size() == 1);
   CHECK(*sections.sections[0].setups == 4);
   CHECK(sections.sections[0].run == "r1");
+  CHECK(sections.sections[0].group.empty());
+}
+
+TEST_CASE("the column that groups sections for variance components", "[network]") {
+  const Table table = parse_delimited_text(
+      "from,to,dh,run,date,observer\nA,B,1.5,r1,2026-10-06,ana\nB,C,0.2,r2,2026-10-07,\n", "s.csv");
+  const auto by_observer = read_sections(table, "observer");
+  CHECK(by_observer.sections[0].group == "ana");
+  CHECK(by_observer.sections[1].group.empty());
+  CHECK(read_sections(table, "date").sections[1].group == "2026-10-07");
+  CHECK_THROWS_WITH(read_sections(table, "instrument"),
+                    Contains("s.csv") && Contains("no such column") && Contains("'instrument'"));
 }
 
 TEST_CASE("bad point and section cells name their row and column", "[network][errors]") {

@@ -150,8 +150,8 @@ TEST_CASE("variance components: two runs of different precision are told apart, 
     testing::set_control(synthetic, {0}, {}, 0.0, rng);
     for (std::size_t s = 0; s < synthetic.sections.size(); ++s) {
       Section& section = synthetic.sections[s];
-      section.run = s % 2 == 0 ? "A" : "B";
-      if (section.run == "B") {
+      section.group = s % 2 == 0 ? "A" : "B";
+      if (section.group == "B") {
         // Noise of 3 sigma in all: add sqrt(9 - 1) sigma to the 1 sigma drawn.
         const double sigma = 1e-3 * std::sqrt(*section.length / 1000.0);
         section.dh += std::normal_distribution<double>(0.0, std::sqrt(8.0) * sigma)(rng);
@@ -159,7 +159,7 @@ TEST_CASE("variance components: two runs of different precision are told apart, 
     }
     const Network net = make_network(synthetic.points, synthetic.sections);
     AdjustmentOptions options = testing::synthetic_precision();
-    options.variance_groups = VarianceGroups::run;
+    options.variance_groups = "run";
     options.iterative_snooping = true;
     const AdjustmentResult r = adjust(net, options);
     REQUIRE(r.variance_components.size() == 2);

@@ -58,25 +58,6 @@ Sigma0Use parse_sigma0_use(const std::string& text) {
   throw OptionError(fmt::format("sigma0 '{}': use apriori, estimate or auto", text));
 }
 
-std::string to_string(VarianceGroups groups) {
-  switch (groups) {
-    case VarianceGroups::run:
-      return "run";
-    case VarianceGroups::date:
-      return "date";
-    case VarianceGroups::none:
-      break;
-  }
-  return "none";
-}
-
-VarianceGroups parse_variance_groups(const std::string& text) {
-  for (const VarianceGroups g : {VarianceGroups::none, VarianceGroups::run, VarianceGroups::date}) {
-    if (text == to_string(g)) return g;
-  }
-  throw OptionError(fmt::format("variance groups '{}': use none, run or date", text));
-}
-
 std::string OutlierTest::name() const {
   return kind == Kind::w_test ? "Baarda's w-test" : "Pope's tau test";
 }
@@ -554,7 +535,7 @@ AdjustmentResult adjust_with_variance_components(const Network& net,
   std::vector<std::size_t> group(net.sections.size());
   for (std::size_t s = 0; s < net.sections.size(); ++s) {
     const Section& section = net.sections[s];
-    std::string name = options.variance_groups == VarianceGroups::run ? section.run : section.date;
+    std::string name = section.group;
     if (name.empty()) name = "(none)";
     group[s] = group_index.emplace(name, group_index.size()).first->second;
   }
@@ -602,8 +583,8 @@ AdjustmentResult adjust_with_variance_components(const Network& net,
     }
     result.variance_components.push_back(c);
   }
-  result.test.basis = fmt::format("variance factors estimated per {} from the data",
-                                  to_string(options.variance_groups));
+  result.test.basis =
+      fmt::format("variance factors estimated per {} from the data", options.variance_groups);
   return result;
 }
 
@@ -647,9 +628,9 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
   std::vector<Removal> removals;
   // With variance groups the variances come from the data: the tau test.
   AdjustmentOptions tested = options;
-  if (options.variance_groups != VarianceGroups::none) tested.sigma0 = Sigma0Use::estimate;
+  if (!options.variance_groups.empty()) tested.sigma0 = Sigma0Use::estimate;
   const auto adjust_active = [&] {
-    return options.variance_groups == VarianceGroups::none
+    return options.variance_groups.empty()
                ? adjust_once(network, tested, weights, control, active)
                : adjust_with_variance_components(network, tested, weights, control, active);
   };

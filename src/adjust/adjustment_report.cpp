@@ -65,6 +65,26 @@ std::string suspect_label(const Network& net, const Suspect& s) {
 
 }  // namespace
 
+nlohmann::json variance_component_json(const VarianceComponent& c) {
+  return {{"group", c.group},
+          {"sections", c.sections},
+          {"redundancy", c.redundancy},
+          {"factor", c.factor ? nlohmann::json(*c.factor) : nlohmann::json(nullptr)},
+          {"interval", c.factor ? nlohmann::json({c.low, c.high}) : nlohmann::json(nullptr)},
+          {"note", c.factor ? "" : "redundancy below 2: not estimated, a-priori sigmas kept"}};
+}
+
+std::string variance_component_line(const VarianceComponent& c) {
+  return c.factor ? fmt::format(
+                        "Variance factor of {} ({} sections, redundancy {:.1f}): {:.2f} "
+                        "[{:.2f}, {:.2f}]",
+                        c.group, c.sections, c.redundancy, *c.factor, c.low, c.high)
+                  : fmt::format(
+                        "Variance factor of {} ({} sections): not estimated, "
+                        "redundancy {:.1f} below 2",
+                        c.group, c.sections, c.redundancy);
+}
+
 bool adjustment_has_failed_checks(const AdjustmentResult& result) {
   return !result.suspects.empty() || (result.global_test && !result.global_test->passed);
 }
@@ -165,19 +185,13 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   }
   summary["removals"] = removals;
   nlohmann::json components = nlohmann::json::array();
-  for (const VarianceComponent& c : result.variance_components) {
-    components.push_back(
-        {{"group", c.group},
-         {"sections", c.sections},
-         {"redundancy", c.redundancy},
-         {"factor", c.factor ? nlohmann::json(*c.factor) : nlohmann::json(nullptr)},
-         {"interval", c.factor ? nlohmann::json({c.low, c.high}) : nlohmann::json(nullptr)},
-         {"note", c.factor ? "" : "redundancy below 2: not estimated, a-priori sigmas kept"}});
-  }
-  summary["variance_components"] = {{"groups", to_string(options.variance_groups)},
-                                    {"alpha", options.alpha},
-                                    {"iterations", result.variance_iterations},
-                                    {"components", components}};
+  for (const VarianceComponent& c : result.variance_components)
+    components.push_back(variance_component_json(c));
+  summary["variance_components"] = {
+      {"groups", options.variance_groups.empty() ? std::string("none") : options.variance_groups},
+      {"alpha", options.alpha},
+      {"iterations", result.variance_iterations},
+      {"components", components}};
   summary["weights"] = {
       {"sections_by_rule",
        {{"sigma", result.weight_rule_counts[static_cast<int>(WeightRule::given_sigma)]},
@@ -232,16 +246,8 @@ std::string adjustment_summary_text(const Network& net, const AdjustmentResult& 
                   unchecked.begin() + std::min<std::ptrdiff_t>(unchecked.size(), 10), ", "),
         unchecked.size() > 10 ? ", ..." : "");
   }
-  for (const VarianceComponent& c : result.variance_components) {
-    text += c.factor ? fmt::format(
-                           "Variance factor of {} ({} sections, redundancy {:.1f}): {:.2f} "
-                           "[{:.2f}, {:.2f}]\n",
-                           c.group, c.sections, c.redundancy, *c.factor, c.low, c.high)
-                     : fmt::format(
-                           "Variance factor of {} ({} sections): not estimated, "
-                           "redundancy {:.1f} below 2\n",
-                           c.group, c.sections, c.redundancy);
-  }
+  for (const VarianceComponent& c : result.variance_components)
+    text += variance_component_line(c) + '\n';
   const OutlierTest& test = result.test;
   const char* symbol = test.kind == OutlierTest::Kind::w_test ? "w" : "tau";
   text += fmt::format("Data snooping{}: {}, because {}\n",

@@ -21,7 +21,7 @@ namespace {
 struct AdjustArguments {
   NetworkInputs inputs;
   std::string free_point;
-  std::string sigma0 = "auto", variance_groups = "none";
+  std::string sigma0 = "auto";
   std::string levelling_class;
   CLI::Option* mm_per_sqrt_km = nullptr;  // to tell a given k from the class's
   AdjustmentOptions options;
@@ -54,12 +54,11 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
                   "while the global test passes, else the tau test)")
       ->check(CLI::IsMember({"apriori", "estimate", "auto"}))
       ->capture_default_str();
-  command
-      .add_option("--variance-groups", a.variance_groups,
-                  "Estimate a variance factor per group of sections from the data: none, run or "
-                  "date (data snooping then uses Pope's tau test)")
-      ->check(CLI::IsMember({"none", "run", "date"}))
-      ->capture_default_str();
+  command.add_option(
+      "--variance-groups", a.options.variance_groups,
+      "Estimate a variance factor per group of sections from the data; the column of "
+      "the sections table that names the group: run, date, instrument, observer or "
+      "any other; none to estimate none (data snooping then uses Pope's tau test)");
   command.add_option("--beta0", a.options.beta0, "Power for the minimal detectable bias")
       ->capture_default_str();
   command.add_option("--free", a.free_point,
@@ -83,13 +82,13 @@ int adjust_files(const AdjustArguments& a, std::ostream& out, StageResults* chai
   AdjustmentOptions options = a.options;
   if (!a.free_point.empty()) options.free_point = a.free_point;
   options.sigma0 = parse_sigma0_use(a.sigma0);
-  options.variance_groups = parse_variance_groups(a.variance_groups);
+  if (options.variance_groups == "none") options.variance_groups.clear();
   apply_levelling_class(a.levelling_class, a.mm_per_sqrt_km, options);
   options.validate();
   check_network_input_options(a.inputs);
   if (options_check_only()) return exit_ok;
 
-  Network network = load_network(a.inputs);
+  Network network = load_network(a.inputs, options.variance_groups);
   AdjustmentResult result = adjust(network, options);
   write_adjustment_outputs(
       network, result, options,

@@ -35,7 +35,9 @@ std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit)
   for (const std::string& file : a.sections) {
     const Table table =
         read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}, {}});
-    SectionTable sections = read_sections(table);
+    // Grouped by epoch: every section of an epoch in one group, set below.
+    const std::string& groups = a.options.adjustment.variance_groups;
+    SectionTable sections = read_sections(table, groups == "epoch" ? std::string() : groups);
     std::vector<std::string> names;
     if (const auto column = table.find_column("epoch")) {
       for (std::size_t r = 0; r < table.row_count(); ++r) {
@@ -44,8 +46,12 @@ std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit)
     } else {
       names.assign(sections.sections.size(), std::filesystem::path(file).stem().string());
     }
-    for (EpochSections& e : split_by_epoch(std::move(sections), names))
+    for (EpochSections& e : split_by_epoch(std::move(sections), names)) {
+      if (groups == "epoch") {
+        for (Section& s : e.sections.sections) s.group = e.name;
+      }
       epochs.push_back(std::move(e));
+    }
   }
   return epochs;
 }
@@ -83,6 +89,7 @@ int run_epochs(const EpochArguments& a, std::ostream& out, StageResults* chain) 
     throw OptionError(fmt::format("--variance {}: use pooled or apriori", a.variance));
   }
   options.adjustment.sigma0 = parse_sigma0_use(a.sigma0);
+  if (options.adjustment.variance_groups == "none") options.adjustment.variance_groups.clear();
   apply_levelling_class(a.levelling_class, a.mm_per_sqrt_km, options.adjustment);
   options.validate();
   const LengthUnit unit = parse_length_unit(a.unit);
@@ -137,6 +144,12 @@ CommandRunner add_epochs_command(CLI::App& app) {
       ->add_option("--variance", a->variance,
                    "Variance factor: pooled (from the epochs' residuals) or apriori")
       ->capture_default_str();
+  command->add_option(
+      "--variance-groups", a->options.adjustment.variance_groups,
+      "Estimate variance factors from the data in each epoch: epoch (one factor per epoch), or a "
+      "column of the sections tables naming the group (run, date, instrument, observer, ...); the "
+      "joint adjustment then weighs with the estimated sigmas, and data snooping uses Pope's tau "
+      "test");
   command
       ->add_option("--sigma0", a->sigma0,
                    "Data snooping in each epoch: apriori (Baarda's w-test), estimate (Pope's tau "

@@ -69,7 +69,7 @@ void check_network_input_options(const NetworkInputs& inputs) {
   parse_column_map(inputs.sections_columns);
 }
 
-Network load_network(const NetworkInputs& inputs) {
+Network load_network(const NetworkInputs& inputs, const std::string& group_column) {
   const LengthUnit unit = parse_length_unit(inputs.unit);
   const TableOptions point_options{
       parse_column_map(inputs.points_columns), unit, inputs.points_layer, {}};
@@ -81,7 +81,7 @@ Network load_network(const NetworkInputs& inputs) {
   const Table section_table = read_table(inputs.sections, section_options);
   PointTable points = read_points(point_table);
   require_point_units(points, unit);
-  return make_network(std::move(points), read_sections(section_table));
+  return make_network(std::move(points), read_sections(section_table, group_column));
 }
 
 CLI::Option* add_levelling_class_option(CLI::App& command, std::string& name,

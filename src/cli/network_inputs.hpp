@@ -40,6 +40,7 @@ void apply_levelling_class(const std::string& name, const CLI::Option* given,
                            AdjustmentOptions& options);
 
 // Reads both tables and checks the network. Throws the library's errors.
-Network load_network(const NetworkInputs& inputs);
+// group_column: see read_sections (network.hpp).
+Network load_network(const NetworkInputs& inputs, const std::string& group_column = {});
 
 }  // namespace levelhead::cli

@@ -8,6 +8,7 @@
 
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/time.hpp"
+#include "levelhead/levelling/adjustment_report.hpp"
 #include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 
@@ -121,6 +122,9 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
                         {"removed", flagged_json(q.removed)},
                         {"unchecked_points", q.unchecked}};
     e["sigma0"] = q.sigma0 ? nlohmann::json(*q.sigma0) : nlohmann::json(nullptr);
+    e["variance_components"] = nlohmann::json::array();
+    for (const VarianceComponent& c : q.variance_components)
+      e["variance_components"].push_back(variance_component_json(c));
     if (q.global_test) {
       e["global_test"] = {{"statistic", q.global_test->statistic},
                           {"lower", q.global_test->lower},
@@ -187,6 +191,8 @@ std::string epoch_summary_text(const EpochAnalysis& a) {
                     q.first_date, q.last_date, q.sections, q.dof,
                     q.sigma0 ? fmt::format("{:.2f}", *q.sigma0) : "-", test_verdict(q),
                     q.suspects.empty() ? "" : fmt::format(", {} suspect(s)", q.suspects.size()));
+    for (const VarianceComponent& c : q.variance_components)
+      text += "    " + variance_component_line(c) + '\n';
   }
   const CongruenceTest& first = a.tests.front();
   text +=

@@ -376,6 +376,7 @@ EpochQuality adjust_epoch(const PointTable& points, EpochSections& epoch, const 
     q.sigma0 = r.sigma0;
     q.global_test = r.global_test;
     q.test = r.test;
+    q.variance_components = r.variance_components;
     for (const Suspect& s : r.suspects) {
       if (s.kind != Suspect::Kind::section) continue;
       const Section& sec = network.sections[s.index];

@@ -51,6 +51,8 @@ FieldBook read_field_book(const Table& table) {
   const auto distance_col = table.find_column("distance");
   const auto temperature_col = table.find_column("temperature");
   const auto remark_col = table.find_column("remark");
+  const auto instrument_col = table.find_column("instrument");
+  const auto observer_col = table.find_column("observer");
 
   FieldBook book{table.source(), {}};
   book.sights.reserve(table.row_count());
@@ -83,6 +85,8 @@ FieldBook read_field_book(const Table& table) {
     if (date_col) s.date = table.date(row, *date_col).value_or("");
     if (point_col) s.point = std::string(table.cell(row, *point_col));
     if (remark_col) s.remark = std::string(table.cell(row, *remark_col));
+    if (instrument_col) s.instrument = std::string(table.cell(row, *instrument_col));
+    if (observer_col) s.observer = std::string(table.cell(row, *observer_col));
     book.sights.push_back(std::move(s));
   }
   return book;
@@ -417,6 +421,8 @@ class Reducer {
     s.setups = open.setups;
     s.run = fore.run;
     s.date = open.date.empty() ? fore.date : open.date;
+    s.instrument = fore.instrument;
+    s.observer = fore.observer;
     s.imbalance = open.imbalance;
     s.flags = open.flags;
     s.rows = {open.first_row};
@@ -444,6 +450,8 @@ class Reducer {
     s.setups = open.setups + 1;
     s.run = side.run;
     s.date = side.date.empty() ? open.date : side.date;
+    s.instrument = side.instrument;
+    s.observer = side.observer;
     s.side_shot = true;
     if (std::min(side.reading, side.reading2.value_or(side.reading)) < options_.min_reading) {
       s.flags.push_back("low-reading(side)");
@@ -486,6 +494,11 @@ class Reducer {
         merged.flags.insert(merged.flags.end(), piece->flags.begin(), piece->flags.end());
         if (runs.insert(piece->run).second && piece != group.front())
           merged.run += "+" + piece->run;
+        for (auto [label, own] : {std::pair{&merged.instrument, &piece->instrument},
+                                  std::pair{&merged.observer, &piece->observer}}) {
+          if (("+" + *label + "+").find("+" + *own + "+") == std::string::npos)
+            *label += "+" + *own;
+        }
       }
       merged.runs = group.size();
       double sum = 0.0;

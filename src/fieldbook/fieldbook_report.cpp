@@ -38,14 +38,15 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
                               const std::filesystem::path& folder) {
   OutputSet out(folder);
   std::ostream& sections = out.open("sections.csv");
-  sections << "from,to,dh,length,setups,runs,run,date,kind,flags,spread,spread_tolerance,"
-              "levelled_length,imbalance,rows\n";
+  sections << "from,to,dh,length,setups,runs,run,date,instrument,observer,kind,flags,spread,"
+              "spread_tolerance,levelled_length,imbalance,rows\n";
   for (const ReducedSection& s : result.sections) {
     std::vector<std::string> rows;
     for (std::size_t r : s.rows) rows.push_back(std::to_string(r));
     sections << csv_cell(s.from) << ',' << csv_cell(s.to) << ',' << mm5(s.dh) << ',' << m3(s.length)
              << ',' << s.setups << ',' << s.runs << ',' << csv_cell(s.run) << ','
-             << csv_cell(s.date) << ',' << (s.side_shot ? "side-shot" : "section") << ','
+             << csv_cell(s.date) << ',' << csv_cell(s.instrument) << ',' << csv_cell(s.observer)
+             << ',' << (s.side_shot ? "side-shot" : "section") << ','
              << csv_cell(joined(s.flags, " ")) << ',' << mm5(s.spread) << ','
              << mm5(s.spread_tolerance) << ',' << m3(s.levelled_length) << ',' << m3(s.imbalance)
              << ',' << joined(rows, " ") << '\n';

@@ -66,7 +66,7 @@ PointTable read_points(const Table& table) {
   return out;
 }
 
-SectionTable read_sections(const Table& table) {
+SectionTable read_sections(const Table& table, const std::string& group_column) {
   const std::size_t from_col = table.require_column("from");
   const std::size_t to_col = table.require_column("to");
   const std::size_t dh_col = table.require_column("dh");
@@ -76,6 +76,17 @@ SectionTable read_sections(const Table& table) {
   const auto date_col = table.find_column("date");
   const auto run_col = table.find_column("run");
   const auto runs_col = table.find_column("runs");
+  std::optional<std::size_t> group_col;
+  if (!group_column.empty()) {
+    group_col = table.find_column(group_column);
+    if (!group_col) {
+      throw InputError(table.source(),
+                       fmt::format("variance groups by '{}', but the sections table has no such "
+                                   "column; name one of its columns (e.g. run, date, instrument, "
+                                   "observer)",
+                                   group_column));
+    }
+  }
 
   SectionTable out{table.source(), {}};
   std::vector<Section>& sections = out.sections;
@@ -121,6 +132,7 @@ SectionTable read_sections(const Table& table) {
     }
     if (date_col) s.date = table.date(row, *date_col).value_or("");
     s.run = optional_text(table, row, run_col);
+    if (group_col) s.group = group_column == "date" ? s.date : optional_text(table, row, group_col);
     sections.push_back(std::move(s));
   }
   if (sections.empty()) {

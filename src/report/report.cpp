@@ -99,7 +99,7 @@ void levelling_section(Document& doc, const StageResults& results) {
     doc.paragraph(
         fmt::format("Variance factors estimated per {} (sigma estimated / a priori, with "
                     "its {:g} % interval):",
-                    to_string(adjust.options.variance_groups), 100 * (1 - adjust.options.alpha)));
+                    adjust.options.variance_groups, 100 * (1 - adjust.options.alpha)));
     doc.table({"group", "sections", "redundancy", "factor", "interval"}, factors);
   }
   std::vector<std::vector<std::string>> removed;

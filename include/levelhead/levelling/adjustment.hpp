@@ -51,11 +51,6 @@ enum class Sigma0Use {
 std::string to_string(Sigma0Use use);
 Sigma0Use parse_sigma0_use(const std::string& text);  // OptionError naming the choices
 
-// Groups of sections whose variance factors are estimated from the data.
-enum class VarianceGroups { none, run, date };
-std::string to_string(VarianceGroups groups);
-VarianceGroups parse_variance_groups(const std::string& text);  // OptionError naming the choices
-
 struct AdjustmentOptions {
   // sigma = k * sqrt(length in km) when no sigma (mm): the standard error of
   // the levelling class (precision.hpp), or given.
@@ -67,9 +62,11 @@ struct AdjustmentOptions {
   double beta0 = 0.80;                    // power for the minimal detectable bias
   std::optional<std::string> free_point;  // hold only this point (free network check)
   Sigma0Use sigma0 = Sigma0Use::automatic;  // which outlier test (see Sigma0Use)
-  // Estimate a variance factor per group (run or date of the sections);
-  // data snooping then uses Pope's tau test.
-  VarianceGroups variance_groups = VarianceGroups::none;
+  // Estimate a variance factor per group of sections: the column of the
+  // sections table that names the group (run, date, instrument, observer or
+  // any other), its value in Section::group; empty: none. Data snooping then
+  // uses Pope's tau test.
+  std::string variance_groups;
   bool iterative_snooping = false;   // remove the worst suspect and re-adjust, repeatedly
   std::size_t max_removals = 5;      // cap on removals in iterative snooping
   double max_factor_nonzeros = 2e8;  // refuse larger factors (memory)
@@ -143,7 +140,7 @@ struct Removal {
 // The estimated precision of one group of sections, as a factor on its
 // a-priori sigmas.
 struct VarianceComponent {
-  std::string group;             // the run or the date; "(none)" for sections without one
+  std::string group;             // the value of the grouping column; "(none)" where it is empty
   std::size_t sections = 0;      // in the final adjustment
   double redundancy = 0.0;       // sum of the sections' redundancy numbers
   std::optional<double> factor;  // sigma_hat / sigma_apriori; nullopt: redundancy below 2

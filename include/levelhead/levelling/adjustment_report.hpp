@@ -14,6 +14,7 @@
 //                weighting rules, data-snooping settings, factor size.
 
 #include <filesystem>
+#include <nlohmann/json.hpp>
 #include <string>
 
 #include "levelhead/core/units.hpp"
@@ -33,6 +34,11 @@ void write_adjustment_outputs(const Network& network, const AdjustmentResult& re
 
 // A few lines for a person: counts, sigma0, global test verdict, worst suspects.
 std::string adjustment_summary_text(const Network& network, const AdjustmentResult& result);
+
+// A variance factor for summary.json, and as one line of text (adjust and
+// epochs alike).
+nlohmann::json variance_component_json(const VarianceComponent& component);
+std::string variance_component_line(const VarianceComponent& component);
 
 // True when the global test failed or any observation is a suspect
 // (the condition for exit status 3 under --strict).

@@ -80,6 +80,10 @@ struct EpochQuality {
   std::vector<Flagged> removed;        // removed by data snooping (with remove_suspects)
   OutlierTest test;                    // the epoch adjustment's test of single observations
   std::vector<std::string> unchecked;  // points resting on single observations (side shots, spurs)
+  // With adjustment.variance_groups: the factors estimated in this epoch
+  // (one group "epoch" is the epoch itself). The joint adjustment weighs the
+  // epoch's sections with the scaled sigmas.
+  std::vector<VarianceComponent> variance_components;
 };
 
 struct CongruenceTest {

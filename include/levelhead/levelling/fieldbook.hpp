@@ -39,6 +39,7 @@ std::string to_string(SightKind kind);
 
 struct Sight {
   std::string run, date;
+  std::string instrument, observer;  // optional columns; groups for variance components
   long long setup = 0;
   SightKind kind = SightKind::back;
   std::string point;                  // empty: an anonymous turning point
@@ -119,6 +120,7 @@ struct ReducedSection {
   long long setups = 0;                   // all runs together
   std::size_t runs = 1;
   std::string run, date;                           // run labels joined by '+'; date of the first
+  std::string instrument, observer;                // of the runs, distinct ones joined by '+'
   bool side_shot = false;                          // from an intermediate sight: no check
   std::optional<double> imbalance;                 // m, accumulated d_back - d_fore (first run)
   std::optional<double> spread, spread_tolerance;  // m, repeated runs only

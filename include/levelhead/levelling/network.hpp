@@ -48,6 +48,7 @@ struct Section {
   // reduction); sigmas from length or setups are divided by sqrt(runs).
   long long runs = 1;
   std::string date, run;
+  std::string group;    // the value of read_sections' group column (variance components)
   std::size_t row = 0;  // row of the sections table it came from (header = 1)
 };
 
@@ -86,7 +87,9 @@ struct Network {
 };
 
 PointTable read_points(const Table& table);
-SectionTable read_sections(const Table& table);
+// group_column: a column whose value each section carries in `group` (date
+// as read for `date`); empty: none. InputError when the table lacks it.
+SectionTable read_sections(const Table& table, const std::string& group_column = {});
 
 // Checks ids and references and builds the indices. Throws NetworkError.
 Network make_network(PointTable points, SectionTable sections);
