@@ -1,3 +1,4 @@
+#include <bitset>
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <set>
@@ -259,6 +260,74 @@ double minimum_basis_by_enumeration(const Network& net) {
   return total;
 }
 
+// Total length of a minimum cycle basis by Horton's whole candidate set,
+// written here without find_loops' code: from every point a shortest-path
+// tree (Dijkstra over a dense scan), and for every section off it the sum
+// over GF(2) of the two tree paths and the section, weighed by the sections
+// it holds; greedy over all of them, shortest first (Horton 1987; a sum that
+// is not a simple loop is still an element of the cycle space, so keeping
+// it changes nothing).
+double minimum_basis_by_horton(const Network& net) {
+  using Mask = std::bitset<1024>;
+  const std::size_t n = net.points.size(), m = net.sections.size();
+  REQUIRE(m <= 1024);
+  std::vector<std::pair<double, Mask>> candidates;
+  for (std::size_t root = 0; root < n; ++root) {
+    std::vector<double> distance(n, INFINITY);
+    std::vector<Mask> path(n);
+    std::vector<std::size_t> via(n, m);
+    std::vector<char> done(n, 0);
+    distance[root] = 0.0;
+    for (std::size_t k = 0; k < n; ++k) {
+      std::size_t p = n;
+      for (std::size_t q = 0; q < n; ++q)
+        if (!done[q] && distance[q] < INFINITY && (p == n || distance[q] < distance[p])) p = q;
+      if (p == n) break;
+      done[p] = 1;
+      for (std::size_t s = 0; s < m; ++s) {
+        if (net.from_index[s] != p && net.to_index[s] != p) continue;
+        const std::size_t q = net.from_index[s] == p ? net.to_index[s] : net.from_index[s];
+        if (distance[p] + *net.sections[s].length < distance[q]) {
+          distance[q] = distance[p] + *net.sections[s].length;
+          path[q] = path[p];
+          path[q].set(s);
+          via[q] = s;
+        }
+      }
+    }
+    for (std::size_t s = 0; s < m; ++s) {
+      const std::size_t x = net.from_index[s], y = net.to_index[s];
+      if (via[x] == s || via[y] == s || distance[x] == INFINITY || distance[y] == INFINITY)
+        continue;
+      Mask loop = path[x] ^ path[y];
+      loop.flip(s);
+      double length = 0.0;
+      for (std::size_t t = 0; t < m; ++t)
+        if (loop[t]) length += *net.sections[t].length;
+      candidates.emplace_back(length, loop);
+    }
+  }
+  std::sort(candidates.begin(), candidates.end(),
+            [](const auto& a, const auto& b) { return a.first < b.first; });
+  std::vector<Mask> pivots(m);
+  std::vector<char> has_pivot(m, 0);
+  double total = 0.0;
+  for (const auto& [length, mask] : candidates) {
+    Mask v = mask;
+    for (std::size_t b = m; b-- > 0 && v.any();) {
+      if (!v[b]) continue;
+      if (!has_pivot[b]) {
+        pivots[b] = v;
+        has_pivot[b] = 1;
+        total += length;
+        break;
+      }
+      v ^= pivots[b];
+    }
+  }
+  return total;
+}
+
 }  // namespace
 
 TEST_CASE("the loop basis is a minimum-length basis on meshes with diagonals", "[loops][basis]") {
@@ -272,5 +341,55 @@ TEST_CASE("the loop basis is a minimum-length basis on meshes with diagonals", "
     double total = 0.0;
     for (const Loop& loop : r.loops) total += loop.length;
     CHECK_THAT(total, WithinAbs(minimum_basis_by_enumeration(net), 1e-6));
+  }
+}
+
+TEST_CASE(
+    "beyond the whole candidate set, loops up to a doubling length limit still give the "
+    "minimum basis",
+    "[loops][basis]") {
+  const auto total_of = [](const LoopResult& r) {
+    double total = 0.0;
+    for (const Loop& loop : r.loops) total += loop.length;
+    return total;
+  };
+  SECTION("a long loop needs several doublings of the limit") {
+    // A 4 x 4 mesh and a line of 12 sections of 1 km from one corner to
+    // the opposite one (invented): the loop through that line is about 60
+    // times the mesh's median chain, so the rounds double the limit six times.
+    Network mesh = testing::mesh_with_diagonals(4, 3);
+    std::vector<Point> points = mesh.points;
+    std::vector<Section> sections = mesh.sections;
+    std::string previous = "M0";
+    for (int k = 1; k < 12; ++k) {
+      points.push_back(testing::point("L" + std::to_string(k)));
+      sections.push_back(testing::section(previous, points.back().id, 0.0, 1000.0));
+      previous = points.back().id;
+    }
+    sections.push_back(testing::section(previous, "M15", 0.0, 1000.0));
+    const Network net = make_network(std::move(points), std::move(sections));
+    const LoopResult r = find_loops(net, LoopOptions{});
+    CHECK(r.minimum_basis);
+    CHECK_THAT(total_of(r), WithinAbs(minimum_basis_by_enumeration(net), 1e-6));
+    double longest = 0.0;
+    for (const Loop& loop : r.loops) longest = std::max(longest, loop.length);
+    CHECK(longest > 12000.0);
+  }
+  SECTION("against Horton's whole candidate set, built independently, on 12 x 12 meshes") {
+    for (const std::uint64_t seed : {7, 8, 9}) {
+      const Network net = testing::mesh_with_diagonals(12, seed);
+      const LoopResult r = find_loops(net, LoopOptions{});
+      INFO("seed " << seed);
+      CHECK(r.minimum_basis);
+      CHECK_THAT(total_of(r), WithinAbs(minimum_basis_by_horton(net), 1e-6));
+    }
+  }
+  SECTION("a budget too small for any round: short loops, not proven minimum") {
+    const Network net = testing::mesh_with_diagonals(15, 7);
+    LoopOptions tiny;
+    tiny.max_exact_candidates = 10;
+    const LoopResult r = find_loops(net, tiny);
+    CHECK_FALSE(r.minimum_basis);
+    CHECK(r.loops.size() == r.cyclomatic_number);
   }
 }

@@ -67,8 +67,8 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
   summary["tolerance_mm_per_sqrt_km"] = result.mm_per_sqrt_km;
   summary["basis"] = result.minimum_basis
                          ? "minimum total length (Horton 1987)"
-                         : "shortest loop through each chain (network too large for the exact "
-                           "minimum basis; not proven minimum)";
+                         : "short loops completed by fundamental loops (network too large for a "
+                           "proven minimum basis)";
   summary["levelling_class"] = result.levelling_class.empty()
                                    ? nlohmann::json(nullptr)
                                    : nlohmann::json(result.levelling_class);
@@ -119,8 +119,8 @@ std::string loop_summary_text(const Network& net, const LoopResult& result) {
                                      : "loop closure of class " + result.levelling_class);
   if (!result.minimum_basis) {
     text +=
-        "The network is too large for the exact minimum loop basis: the loops are the "
-        "shortest through each chain, not proven minimum\n";
+        "The network is too large for a proven minimum loop basis: the loops are short ones "
+        "completed by fundamental loops, not proven minimum\n";
   }
   if (result.failed == 0) {
     text += "All loops close within tolerance\n";

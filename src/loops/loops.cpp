@@ -84,6 +84,7 @@ class ChainGraph {
     }
     distance_.assign(n_points, INFINITY);
     via_.assign(n_points, none);
+    on_path_.assign(n_points, 0);
   }
 
   // Shortest path from `from` to `to` avoiding chain `skip` (Dijkstra, stopped
@@ -147,26 +148,39 @@ class ChainGraph {
   // when the two paths meet only at root (Horton 1987, "A polynomial-time
   // algorithm to find the shortest cycle basis of a graph", SIAM J. Comput.
   // 16(2)). Over every root they hold a minimum cycle basis; each is added
-  // to `out` once (`seen` holds their member sets).
-  void horton_candidates(std::size_t root, std::set<std::vector<std::size_t>>& seen,
-                         std::vector<Candidate>& out) {
-    grow_tree(root, [](std::size_t) {});
+  // to `out` once (`seen` holds their member sets). Only loops no longer
+  // than `limit` (m): the tree grows no further, and since both paths of
+  // such a loop are shorter than the loop, every one of them is found.
+  // Returns how many candidates were generated (before removing repeats).
+  std::size_t horton_candidates(std::size_t root, std::set<std::vector<std::size_t>>& seen,
+                                std::vector<Candidate>& out, double limit) {
+    grow_tree(
+        root, [](std::size_t) {}, limit);
+    std::size_t generated = 0;
     const auto parent = [&](std::size_t p) {
       const Chain& c = chains_[via_[p]];
       return c.a == p ? c.b : c.a;
     };
-    std::vector<char> on_path(distance_.size(), 0);
-    for (std::size_t e = 0; e < chains_.size(); ++e) {
+    // The chains that may close a loop have both ends in the tree: those met
+    // from their end `a` among the points reached (work local to the tree).
+    candidate_chains_.clear();
+    for (std::size_t p : touched_) {
+      for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
+        if (chains_[incident_[k]].a == p) candidate_chains_.push_back(incident_[k]);
+      }
+    }
+    for (const std::size_t e : candidate_chains_) {
       const Chain& chain = chains_[e];
       const std::size_t x = chain.a, y = chain.b;
       if (x == y || distance_[x] == INFINITY || distance_[y] == INFINITY) continue;
       if (via_[x] == e || via_[y] == e) continue;  // a tree chain: no loop
-      std::vector<std::size_t> x_path;             // nodes from x up to root, root excluded
+      if (distance_[x] + chain.length + distance_[y] > limit) continue;
+      std::vector<std::size_t> x_path;  // nodes from x up to root, root excluded
       for (std::size_t p = x; p != root; p = parent(p)) x_path.push_back(p);
-      for (std::size_t p : x_path) on_path[p] = 1;
+      for (std::size_t p : x_path) on_path_[p] = 1;
       bool simple = true;
-      for (std::size_t p = y; p != root && simple; p = parent(p)) simple = !on_path[p];
-      for (std::size_t p : x_path) on_path[p] = 0;
+      for (std::size_t p = y; p != root && simple; p = parent(p)) simple = !on_path_[p];
+      for (std::size_t p : x_path) on_path_[p] = 0;
       if (!simple) continue;
       Candidate c;
       // root -> x down the tree, x -> y along e, y -> root up the tree.
@@ -176,10 +190,12 @@ class ChainGraph {
       for (std::size_t p = y; p != root; p = parent(p))
         c.walk.emplace_back(via_[p], chains_[via_[p]].a == p);
       finish_candidate(c, chains_);
+      ++generated;
       if (seen.insert(c.members).second) out.push_back(std::move(c));
     }
     for (std::size_t p : touched_) distance_[p] = INFINITY, via_[p] = none;
     touched_.clear();
+    return generated;
   }
 
   // Fundamental cycles of a shortest-path forest: complete a basis whatever
@@ -234,11 +250,12 @@ class ChainGraph {
   }
 
  private:
-  // Shortest-path tree from `root` over every point it reaches (Dijkstra,
-  // 1959): distance_ and via_ filled, touched_ naming them; `settled(p)` is
-  // called once per point, in the order they are settled.
+  // Shortest-path tree from `root` over every point it reaches within
+  // `limit` (m) (Dijkstra, 1959): distance_ and via_ filled, touched_ naming
+  // them; `settled(p)` is called once per point, in the order they are
+  // settled.
   template <class Settled>
-  void grow_tree(std::size_t root, Settled settled) {
+  void grow_tree(std::size_t root, Settled settled, double limit = INFINITY) {
     using Entry = std::pair<double, std::size_t>;
     std::priority_queue<Entry, std::vector<Entry>, std::greater<>> queue;
     distance_[root] = 0.0;
@@ -252,7 +269,7 @@ class ChainGraph {
       for (std::size_t k = start_[p]; k < start_[p + 1]; ++k) {
         const Chain& c = chains_[incident_[k]];
         const std::size_t q = c.a == p ? c.b : c.a;
-        if (d + c.length < distance_[q]) {
+        if (d + c.length < distance_[q] && d + c.length <= limit) {
           if (distance_[q] == INFINITY) touched_.push_back(q);
           distance_[q] = d + c.length;
           via_[q] = incident_[k];
@@ -266,6 +283,8 @@ class ChainGraph {
   std::vector<std::size_t> start_, incident_;
   std::vector<double> distance_;
   std::vector<std::size_t> via_, touched_;
+  std::vector<char> on_path_;                  // all 0 between calls
+  std::vector<std::size_t> candidate_chains_;  // scratch of horton_candidates
 };
 
 void finish_candidate(Candidate& c, const std::vector<Chain>& chains) {
@@ -388,58 +407,93 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
   }
 
   // 3. Loops: chains closed on themselves directly; the rest from candidates.
+  const std::size_t target = result.cyclomatic_number;
   std::vector<Candidate> chosen;
-  std::vector<Candidate> candidates;
   Gf2Basis basis;
-  ChainGraph graph(n, chains);
-  std::set<std::size_t> junctions;
-  for (const Chain& c : chains) junctions.insert({c.a, c.b});
-  result.minimum_basis =
-      static_cast<double>(junctions.size()) * static_cast<double>(chains.size()) <=
-      options.max_exact_candidates;
-  for (std::size_t e = 0; e < chains.size(); ++e) {
-    if (chains[e].a == chains[e].b) {
+  const auto by_length = [](const Candidate& x, const Candidate& y) {
+    return x.length != y.length ? x.length < y.length : x.members < y.members;
+  };
+  // Greedy over GF(2), shortest first, after the rings.
+  const auto start_basis = [&] {
+    chosen.clear();
+    basis = Gf2Basis();
+    for (std::size_t e = 0; e < chains.size(); ++e) {
+      if (chains[e].a != chains[e].b) continue;
       Candidate c;
       c.walk.emplace_back(e, true);
       finish_candidate(c, chains);
       basis.add(c.members);
       chosen.push_back(std::move(c));
     }
-  }
-  if (result.minimum_basis) {
-    std::set<std::vector<std::size_t>> seen;
-    for (std::size_t root : junctions) graph.horton_candidates(root, seen, candidates);
-  }
-  for (std::size_t e = 0; e < chains.size() && !result.minimum_basis; ++e) {
-    if (chains[e].a == chains[e].b) continue;
-    double path_length = 0.0;
-    auto path = graph.shortest_path(chains[e].a, chains[e].b, e, &path_length);
-    if (!path) continue;  // a link between loops: no cycle runs through it
-    Candidate c;
-    c.walk.emplace_back(e, true);
-    // The path runs a -> b; the loop returns from b to a along it reversed.
-    for (auto it = path->rbegin(); it != path->rend(); ++it)
-      c.walk.emplace_back(it->first, !it->second);
-    finish_candidate(c, chains);
-    candidates.push_back(std::move(c));
-  }
-  const auto by_length = [](const Candidate& x, const Candidate& y) {
-    return x.length != y.length ? x.length < y.length : x.members < y.members;
   };
-  std::sort(candidates.begin(), candidates.end(), by_length);
-  const std::size_t target = result.cyclomatic_number;
   const auto take = [&](std::vector<Candidate>& pool) {
+    std::sort(pool.begin(), pool.end(), by_length);
     for (Candidate& c : pool) {
       if (chosen.size() >= target) break;
       if (basis.add(c.members)) chosen.push_back(std::move(c));
     }
   };
-  take(candidates);
-  if (chosen.size() < target) {
-    std::vector<Candidate> fundamental = graph.fundamental_cycles();
-    for (Candidate& c : fundamental) finish_candidate(c, chains);
-    std::sort(fundamental.begin(), fundamental.end(), by_length);
-    take(fundamental);
+  ChainGraph graph(n, chains);
+  std::set<std::size_t> junctions;
+  for (const Chain& c : chains) junctions.insert({c.a, c.b});
+  double total_length = 0.0;
+  std::vector<double> lengths;
+  for (const Chain& c : chains) total_length += c.length, lengths.push_back(c.length);
+
+  // a) Horton's candidates of loops up to a length limit, from every
+  // junction; the limit starts at four median chains (a mesh's square) and
+  // doubles until the candidates span the cycle space. All of Horton's
+  // candidates up to the limit are there, in the order greedy takes them
+  // over the whole set, so a basis completed within the limit is the one
+  // the whole set gives: a minimum (Horton 1987). Stopped when a round
+  // would generate more than max_exact_candidates.
+  std::vector<Candidate> candidates;
+  start_basis();
+  if (!lengths.empty()) {
+    std::nth_element(lengths.begin(), lengths.begin() + lengths.size() / 2, lengths.end());
+    double limit = 4.0 * lengths[lengths.size() / 2];
+    while (chosen.size() < target) {
+      std::vector<Candidate> round;
+      std::set<std::vector<std::size_t>> seen;
+      double generated = 0.0;
+      for (std::size_t root : junctions) {
+        generated += static_cast<double>(graph.horton_candidates(root, seen, round, limit));
+        if (generated > options.max_exact_candidates) break;
+      }
+      if (generated > options.max_exact_candidates) break;
+      candidates = std::move(round);
+      start_basis();
+      std::vector<Candidate> pool = candidates;
+      take(pool);
+      result.minimum_basis = chosen.size() == target;
+      if (limit > total_length) break;  // every loop was a candidate
+      limit *= 2.0;
+    }
+  }
+  // b) Too large for a proven minimum: the short loops found so far, the
+  // shortest loop through each chain, then fundamental loops of a
+  // shortest-path forest for whatever they miss.
+  if (!result.minimum_basis) {
+    for (std::size_t e = 0; e < chains.size(); ++e) {
+      if (chains[e].a == chains[e].b) continue;
+      double path_length = 0.0;
+      auto path = graph.shortest_path(chains[e].a, chains[e].b, e, &path_length);
+      if (!path) continue;  // a link between loops: no cycle runs through it
+      Candidate c;
+      c.walk.emplace_back(e, true);
+      // The path runs a -> b; the loop returns from b to a along it reversed.
+      for (auto it = path->rbegin(); it != path->rend(); ++it)
+        c.walk.emplace_back(it->first, !it->second);
+      finish_candidate(c, chains);
+      candidates.push_back(std::move(c));
+    }
+    start_basis();
+    take(candidates);
+    if (chosen.size() < target) {
+      std::vector<Candidate> fundamental = graph.fundamental_cycles();
+      for (Candidate& c : fundamental) finish_candidate(c, chains);
+      take(fundamental);
+    }
   }
   if (chosen.size() != target) {
     throw std::logic_error(

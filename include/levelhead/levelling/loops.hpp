@@ -16,14 +16,17 @@
 // Errors: InputError for a section without a length (its row); OptionError
 //      for a tolerance <= 0 or an unknown preset.
 //
-// Method: near-minimum cycle basis. Spurs are pruned, chains of degree-2
-// points collapsed into single edges, the shortest cycle through every
-// remaining edge found (Dijkstra in the graph without that edge), and the
-// candidates taken shortest first while independent over GF(2) (a subset of
-// Horton's candidate set: Horton 1987, "A polynomial-time algorithm to find
-// the shortest cycle basis of a graph", SIAM J. Comput. 16(2)). If they do
-// not span the cycle space, fundamental cycles of a shortest-path tree fill
-// the rest.
+// Method: minimum-length cycle basis. Spurs are pruned, chains of degree-2
+// points collapsed into single edges, and Horton's candidates (Horton 1987,
+// "A polynomial-time algorithm to find the shortest cycle basis of a graph",
+// SIAM J. Comput. 16(2)) of loops up to a length limit generated from every
+// junction, the limit doubling until the candidates, taken shortest first
+// while independent over GF(2), span the cycle space: all of Horton's
+// candidates up to the limit are among them, so the basis is the minimum
+// the whole set gives. Where a round would exceed max_exact_candidates, the
+// short loops found so far, the shortest loop through each chain and
+// fundamental loops of a shortest-path forest complete a basis that is not
+// proven minimum.
 
 #include <cstddef>
 #include <optional>
@@ -40,10 +43,10 @@ struct LoopOptions {
   // Loop tolerance k: the loop closure of the levelling class (precision.hpp).
   double mm_per_sqrt_km = default_levelling_class().loop_closure_mm_per_sqrt_km;
   std::string levelling_class = std::string(default_levelling_class().name);  // empty: k given
-  // Horton's exact minimum basis has about (junctions x chains) candidate
-  // loops; beyond this many the shortest loop through each chain is used
-  // (not proven minimum). 6e6 takes a 40 x 40 mesh with diagonals (1600
-  // points, 3570 sections) in about 2 s and 0.3 GB (tests/bench/bench_loops).
+  // Most candidate loops one round of the minimum basis may generate (from
+  // all junctions, repeats counted) before the basis is completed without
+  // proof. A 400 x 400 mesh with diagonals (367 000 sections) stays within
+  // it: 11 s, 1 GB (tests/bench/bench_loops).
   double max_exact_candidates = 6e6;
   void validate() const;
 };
@@ -74,9 +77,8 @@ struct LoopResult {
   std::size_t failed = 0;
   double mm_per_sqrt_km = 0.0;
   std::string levelling_class;  // the class k came from; empty: k given
-  // True: a minimum-length loop basis (Horton's method); false: the shortest
-  // loop through each chain, for networks too large for it (short, not
-  // proven minimum).
+  // True: a minimum-length loop basis (Horton's method); false: completed
+  // from short loops for networks too large for it (not proven minimum).
   bool minimum_basis = false;
 };
 
