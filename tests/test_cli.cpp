@@ -193,7 +193,7 @@ TEST_CASE("convert refuses a missing grid and writes nothing", "[cli][proj]") {
   std::string header, first;
   std::getline(table, header);
   std::getline(table, first);
-  CHECK(header == "id,x,y,height,sigma,reference,transform,flags");
+  CHECK(header == "id,x,y,height,sigma,sigma_relative,common,reference,transform,flags");
   CHECK_THAT(first, Contains("EPSG:4326+5773") && Contains("EGM96"));
   const auto summary =
       nlohmann::json::parse(std::ifstream(tmp.path() / "out" / "converted.summary.json"));
@@ -218,7 +218,7 @@ TEST_CASE("convert writes heights in the unit of the target reference", "[cli][p
   std::ifstream feet_table(feet);
   std::getline(feet_table, header);
   std::getline(feet_table, row);
-  CHECK_THAT(row, Contains("A,-100.0,40.0,328.08333,0.01000,EPSG:6360"));
+  CHECK_THAT(row, Contains("A,-100.0,40.0,328.08333,0.01000,0.01000,,EPSG:6360"));
   const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "feet.summary.json"));
   CHECK(summary["units"] == "us-ft");
 
@@ -231,8 +231,8 @@ TEST_CASE("convert writes heights in the unit of the target reference", "[cli][p
   std::ifstream back_table(back);
   std::getline(back_table, header);
   std::getline(back_table, row);
-  CHECK(header == "id,x,y,height,sigma,reference,transform,flags");
-  CHECK_THAT(row, Contains("A,-100.0,40.0,100.00000,0.00305,EPSG:5703"));
+  CHECK(header == "id,x,y,height,sigma,sigma_relative,common,reference,transform,flags");
+  CHECK_THAT(row, Contains("A,-100.0,40.0,100.00000,0.00305,0.00305,,EPSG:5703"));
 
   // --out-unit overrides the target's unit.
   const CliRun metres =

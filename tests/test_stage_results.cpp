@@ -128,13 +128,12 @@ TEST_CASE("flow in the chain fits the event's heads at full precision, not event
   REQUIRE(results.heads);
   REQUIRE(results.heads->result.event);
   REQUIRE(results.flow);
-  // The same fit over the event's heads as computed; event.csv rounds each
-  // head to the decimals its sigma supports (2 for the GNSS wells' 0.03 m),
-  // which moves the gradient by about 1e-7 m/m.
+  // The same fit over the event's heads as computed, with the errors they
+  // share; event.csv rounds each head to 0.1 mm.
   std::vector<FlowWell> wells;
   for (const EventHead& h : results.heads->result.event->heads) {
     if (results.flow->aquifer.empty() || h.aquifer == results.flow->aquifer)
-      wells.push_back({h.well, h.x, h.y, h.head, h.sigma});
+      wells.push_back({h.well, h.x, h.y, h.head, h.sigma, h.common});
   }
   REQUIRE(wells.size() == results.flow->wells);
   const FlowResult expected = estimate_flow(wells, FlowOptions{});

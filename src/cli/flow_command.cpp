@@ -89,14 +89,15 @@ CommandRunner add_flow_command(CLI::App& app) {
                            fmt::format("well '{}' of the event is not in the wells table", h.well));
         }
         if (in_aquifer(wells.wells[it->second]))
-          used.push_back(
-              {h.well, wells.wells[it->second].x, wells.wells[it->second].y, h.head, h.sigma});
+          used.push_back({h.well, wells.wells[it->second].x, wells.wells[it->second].y, h.head,
+                          h.sigma, h.common});
       }
     } else {
       const Table heads = read_table(a->heads);
       const std::size_t well_col = heads.require_column("well"),
                         head_col = heads.require_column("head");
       const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
+      const auto common_col = heads.find_column("common");
       std::set<std::string> seen;
       for (std::size_t r = 0; r < heads.row_count(); ++r) {
         const auto h = heads.height(r, head_col);
@@ -115,7 +116,24 @@ CommandRunner add_flow_command(CLI::App& app) {
                            "event.csv of levelhead heads --event)");
         }
         const double sigma = sigma_col ? heads.sigma(r, *sigma_col).value_or(0.0) : 0.0;
-        used.push_back({id, w.x, w.y, *h, sigma});
+        std::vector<CommonError> common;
+        if (common_col) {
+          const auto parsed = parse_common_errors(heads.cell(r, *common_col));
+          if (!parsed) {
+            throw InputError(heads.location(r, *common_col),
+                             std::string(heads.cell(r, *common_col)),
+                             "expected the errors this head shares as SOURCE=SIGMA; SOURCE=SIGMA "
+                             "(sigma in m), as event.csv of levelhead heads writes them");
+          }
+          common = *parsed;
+          if (total_variance(common) > sigma * sigma * (1.0 + 1e-6) + 1e-8) {
+            throw InputError(heads.location(r, *common_col),
+                             std::string(heads.cell(r, *common_col)),
+                             "the shared errors exceed the head's own sigma; the sigma is the "
+                             "whole, the shared errors a part of it");
+          }
+        }
+        used.push_back({id, w.x, w.y, *h, sigma, std::move(common)});
       }
     }
     FlowResult f = estimate_flow(used, options);
@@ -136,10 +154,27 @@ CommandRunner add_flow_command(CLI::App& app) {
     j["command"] = "flow";
     j["wells"] = used.size();
     j["aquifer"] = a->aquifer;
+    const auto sigmas_json = [](const std::optional<FlowSigmas>& s) {
+      return s ? nlohmann::json{{"gradient", s->gradient}, {"azimuth", s->azimuth}}
+               : nlohmann::json(nullptr);
+    };
     j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}, {"unit", "m/m"}};
     j["azimuth"] = {{"value", f.azimuth},
                     {"sigma", f.azimuth_sigma},
                     {"unit", "degrees clockwise from grid north, direction of flow"}};
+    j["uncertainty"] = {
+        {"from_heads", sigmas_json(f.from_heads)},
+        {"from_misfit", sigmas_json(f.from_misfit)},
+        {"dominant", f.misfit_dominates ? "misfit" : "heads"},
+        {"shared_errors",
+         "errors the wells share (common_error) enter the heads' covariance; "
+         "one every well shares leaves the gradient untouched"},
+        {"misfit_global_test", f.misfit_passed ? nlohmann::json{{"vtpv", f.vtpv},
+                                                                {"lower", *f.misfit_lower},
+                                                                {"upper", *f.misfit_upper},
+                                                                {"alpha", options.alpha},
+                                                                {"passed", *f.misfit_passed}}
+                                               : nlohmann::json(nullptr)}};
     j["plane"] = {{"dh_dx", f.dh_dx},
                   {"dh_dy", f.dh_dy},
                   {"head_at_centroid", f.intercept},
@@ -173,6 +208,7 @@ CommandRunner add_flow_command(CLI::App& app) {
           "{} wells: gradient {:.2e} +- {:.1e} m/m, flow towards {:.1f} +- {:.1f} "
           "degrees from grid north\n",
           used.size(), f.gradient, f.gradient_sigma, f.azimuth, f.azimuth_sigma);
+      out << "  " << describe_flow_uncertainty(f) << '\n';
       if (f.nearly_collinear)
         out << "Warning: the wells lie nearly on a line; the direction is weak\n";
       for (std::size_t i : f.off_plane) {

@@ -15,8 +15,9 @@ namespace levelhead {
 
 namespace {
 
-// Pope's tau test of each well's residual against the plane (see flow.hpp).
-void test_wells_against_plane(const Eigen::MatrixXd& A, const Eigen::VectorXd& p,
+// Pope's tau test of each well's residual against the plane (see flow.hpp),
+// with the residuals' cofactors Q_vv = C - A Q A'.
+void test_wells_against_plane(const Eigen::MatrixXd& A, const Eigen::MatrixXd& C,
                               const Eigen::VectorXd& v, const Eigen::Matrix3d& Q, double alpha0,
                               FlowResult& r) {
   r.tau.assign(static_cast<std::size_t>(v.size()), std::nullopt);
@@ -25,10 +26,10 @@ void test_wells_against_plane(const Eigen::MatrixXd& A, const Eigen::VectorXd& p
   r.tau_critical = tau_test_critical_value(alpha0, static_cast<double>(r.dof));
   for (Eigen::Index i = 0; i < v.size(); ++i) {
     const Eigen::Vector3d a = A.row(i).transpose();
-    const double q_vv = 1.0 / p[i] - a.dot(Q * a);
+    const double q_vv = C(i, i) - a.dot(Q * a);
     // Below 1e-6 of its own variance the residual is not checked (a well
     // that alone fixes the plane there), as in the adjustment.
-    if (!(q_vv * p[i] > 1e-6)) continue;
+    if (!(q_vv > 1e-6 * C(i, i))) continue;
     const double tau = v[i] / (*r.sigma0 * std::sqrt(q_vv));
     r.tau[static_cast<std::size_t>(i)] = tau;
     if (std::abs(tau) > r.tau_critical) r.off_plane.push_back(static_cast<std::size_t>(i));
@@ -38,9 +39,23 @@ void test_wells_against_plane(const Eigen::MatrixXd& A, const Eigen::VectorXd& p
   });
 }
 
+// The gradient's and azimuth's sigmas from a covariance of (b, c):
+// i = sqrt(b^2 + c^2): di = (b, c) / i; azimuth = atan2(-b, -c):
+// d az = (-c, b) / i^2 (radians).
+FlowSigmas propagate(double b, double c, double xx, double xy, double yy) {
+  const double i = std::hypot(b, c);
+  if (!(i > 0.0)) return {};
+  const double gb = b / i, gc = c / i;
+  const double ab = -c / (i * i), ac = b / (i * i);
+  return {std::sqrt(std::max(gb * gb * xx + 2 * gb * gc * xy + gc * gc * yy, 0.0)),
+          std::sqrt(std::max(ab * ab * xx + 2 * ab * ac * xy + ac * ac * yy, 0.0)) * 180.0 /
+              std::numbers::pi};
+}
+
 }  // namespace
 
-FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& options) {
+FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& options,
+                         const std::vector<HeadCovariance>& covariances) {
   if (wells.size() < 3) {
     throw InputError(
         "heads",
@@ -52,15 +67,16 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
   r.x0 /= static_cast<double>(n);
   r.y0 /= static_cast<double>(n);
   Eigen::MatrixXd A(n, 3);
-  Eigen::VectorXd l(n), p(n);
+  Eigen::VectorXd l(n);
   for (Eigen::Index i = 0; i < n; ++i) {
     const FlowWell& w = wells[static_cast<std::size_t>(i)];
     A(i, 0) = 1.0;
     A(i, 1) = w.x - r.x0;
     A(i, 2) = w.y - r.y0;
     l[i] = w.head;
-    p[i] = 1.0 / std::max(w.sigma * w.sigma, 1e-8);  // 0.1 mm floor: no infinite weight
   }
+  const std::vector<double> c_values = head_covariance(wells, covariances);
+  const Eigen::MatrixXd C = Eigen::Map<const Eigen::MatrixXd>(c_values.data(), n, n);
   // Geometry: the spread of the wells across their narrowest direction,
   // from the eigenvalues of the coordinates' scatter.
   Eigen::Matrix2d scatter = Eigen::Matrix2d::Zero();
@@ -81,39 +97,52 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
   }
   r.nearly_collinear = narrow < 0.05 * wide;
 
-  const Eigen::Matrix3d N = A.transpose() * p.asDiagonal() * A;
+  // Whitened by the Cholesky factor of C: C = L L', then ordinary least
+  // squares on L^-1 A and L^-1 l.
+  const Eigen::LLT<Eigen::MatrixXd> factor(C);
+  if (factor.info() != Eigen::Success) {
+    throw ComputationError(
+        "the heads' covariance is not positive definite: a head without a sigma, or shared "
+        "errors larger than a head's own sigma");
+  }
+  const Eigen::MatrixXd WA = factor.matrixL().solve(A);
+  const Eigen::VectorXd Wl = factor.matrixL().solve(l);
+  const Eigen::Matrix3d N = WA.transpose() * WA;
   const Eigen::Matrix3d Q = N.ldlt().solve(Eigen::Matrix3d::Identity());
-  const Eigen::Vector3d x = Q * (A.transpose() * p.asDiagonal() * l);
+  const Eigen::Vector3d x = Q * (WA.transpose() * Wl);
   const Eigen::VectorXd v = A * x - l;
+  const Eigen::VectorXd Wv = factor.matrixL().solve(v);
   r.intercept = x[0];
   r.dh_dx = x[1];
   r.dh_dy = x[2];
   r.dof = wells.size() - 3;
-  double scale = 1.0;
-  if (r.dof > 0) {
-    r.sigma0 = std::sqrt(v.dot(p.asDiagonal() * v) / static_cast<double>(r.dof));
-    scale = std::max(1.0, *r.sigma0 * *r.sigma0);
-  }
-  r.cov_xx = scale * Q(1, 1);
-  r.cov_xy = scale * Q(1, 2);
-  r.cov_yy = scale * Q(2, 2);
+  r.vtpv = Wv.squaredNorm();
   for (Eigen::Index i = 0; i < n; ++i) r.residuals.push_back(v[i]);
-  test_wells_against_plane(A, p, v, Q, options.alpha0, r);
-
   const double b = r.dh_dx, c = r.dh_dy;
   r.gradient = std::hypot(b, c);
   double az = std::atan2(-b, -c) * 180.0 / std::numbers::pi;
   if (az < 0.0) az += 360.0;
   r.azimuth = az;
-  if (r.gradient > 0.0) {
-    // i = sqrt(b^2 + c^2): di = (b, c) / i; azimuth = atan2(-b, -c):
-    // d az = (-c, b) / i^2 (radians).
-    const double gb = b / r.gradient, gc = c / r.gradient;
-    r.gradient_sigma = std::sqrt(gb * gb * r.cov_xx + 2 * gb * gc * r.cov_xy + gc * gc * r.cov_yy);
-    const double ab = -c / (r.gradient * r.gradient), ac = b / (r.gradient * r.gradient);
-    r.azimuth_sigma = std::sqrt(ab * ab * r.cov_xx + 2 * ab * ac * r.cov_xy + ac * ac * r.cov_yy) *
-                      180.0 / std::numbers::pi;
+  r.from_heads = propagate(b, c, Q(1, 1), Q(1, 2), Q(2, 2));
+  double scale = 1.0;
+  if (r.dof > 0) {
+    const double dof = static_cast<double>(r.dof);
+    r.sigma0 = std::sqrt(r.vtpv / dof);
+    const double s2 = *r.sigma0 * *r.sigma0;
+    r.from_misfit = propagate(b, c, s2 * Q(1, 1), s2 * Q(1, 2), s2 * Q(2, 2));
+    r.misfit_lower = chi_square_quantile(options.alpha / 2.0, dof);
+    r.misfit_upper = chi_square_upper_quantile(options.alpha / 2.0, dof);
+    r.misfit_passed = r.vtpv >= *r.misfit_lower && r.vtpv <= *r.misfit_upper;
+    r.misfit_dominates = s2 > 1.0;
+    scale = std::max(1.0, s2);
   }
+  r.cov_xx = scale * Q(1, 1);
+  r.cov_xy = scale * Q(1, 2);
+  r.cov_yy = scale * Q(2, 2);
+  const FlowSigmas& used = r.misfit_dominates ? *r.from_misfit : r.from_heads;
+  r.gradient_sigma = used.gradient;
+  r.azimuth_sigma = used.azimuth;
+  test_wells_against_plane(A, C, v, Q, options.alpha0, r);
   if (options.conductivity) {
     r.specific_discharge =
         Range{options.conductivity->low * r.gradient, options.conductivity->high * r.gradient};
@@ -127,6 +156,40 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
     }
   }
   return r;
+}
+
+std::string describe_flow_uncertainty(const FlowResult& r) {
+  const std::string heads =
+      fmt::format("from the heads' covariance +- {:.1e} m/m and {:.1f} degrees",
+                  r.from_heads.gradient, r.from_heads.azimuth);
+  if (!r.from_misfit) return "Uncertainty " + heads + " (3 wells: no misfit to judge the plane by)";
+  return fmt::format(
+      "Uncertainty {}; from the plane's misfit +- {:.1e} m/m and {:.1f} degrees (sigma0 {:.2f}, "
+      "global test {}: v'Pv = {:.2f} against {:.2f} .. {:.2f}); the {} dominates",
+      heads, r.from_misfit->gradient, r.from_misfit->azimuth, *r.sigma0,
+      *r.misfit_passed           ? "passed"
+      : r.vtpv < *r.misfit_lower ? "failed low, the heads' sigmas look pessimistic"
+                                 : "failed high",
+      r.vtpv, *r.misfit_lower, *r.misfit_upper,
+      r.misfit_dominates ? "misfit: the plane does not fit the heads as their sigmas say"
+                         : "heads' covariance");
+}
+
+std::vector<double> head_covariance(const std::vector<FlowWell>& wells,
+                                    const std::vector<HeadCovariance>& covariances) {
+  const std::size_t n = wells.size();
+  std::vector<double> c(n * n, 0.0);
+  for (std::size_t i = 0; i < n; ++i) {
+    // 0.1 mm floor: a head without a sigma gets no infinite weight.
+    c[i * n + i] = std::max(wells[i].sigma * wells[i].sigma, 1e-8);
+    for (std::size_t j = 0; j < i; ++j)
+      c[i * n + j] = c[j * n + i] = shared_covariance(wells[i].common, wells[j].common);
+  }
+  for (const HeadCovariance& k : covariances) {
+    c[k.i * n + k.j] += k.value;
+    c[k.j * n + k.i] += k.value;
+  }
+  return c;
 }
 
 }  // namespace levelhead

@@ -15,12 +15,21 @@ bool several_units(const std::string& aquifer) {
 }
 
 struct PlaneFit {
-  double prediction = 0.0, sigma = 0.0;  // m
+  double prediction = 0.0;    // m
+  double misfit_sigma = 0.0;  // m, of head(i) - prediction
 };
 
+// Covariance of two event heads (m^2): the variance for one, else what they share.
+double covariance(const EventHead& a, const EventHead& b, bool same) {
+  return same ? a.sigma * a.sigma : shared_covariance(a.common, b.common);
+}
+
 // h = a + b (x - x_i) + c (y - y_i) through the neighbours, weighted least
-// squares (weights 1 / sigma^2); a is the prediction at the well, its sigma
-// from (A'PA)^-1. Nothing when the neighbours lie on a line.
+// squares (weights 1 / sigma^2 of each head's own, unshared part); a is the
+// prediction at the well, a linear combination g'h of the neighbours' heads
+// (g = first row of (A'PA)^-1 A'P, summing to 1). The misfit's variance is
+// propagated with the heads' full covariance (common_error.hpp), so errors
+// the heads share cancel. Nothing when the neighbours lie on a line.
 std::optional<PlaneFit> fit_plane(const std::vector<EventHead>& heads, std::size_t i,
                                   const std::vector<std::size_t>& near) {
   const auto m = static_cast<Eigen::Index>(near.size());
@@ -32,7 +41,8 @@ std::optional<PlaneFit> fit_plane(const std::vector<EventHead>& heads, std::size
     A(k, 1) = n.x - heads[i].x;
     A(k, 2) = n.y - heads[i].y;
     l[k] = n.head;
-    p[k] = 1.0 / std::max(n.sigma * n.sigma, 1e-8);  // 0.1 mm floor: no infinite weight
+    const double own = n.sigma * n.sigma - total_variance(n.common);
+    p[k] = 1.0 / std::max(own, 1e-8);  // 0.1 mm floor: no infinite weight
   }
   const Eigen::Matrix3d N = A.transpose() * p.asDiagonal() * A;
   const Eigen::LDLT<Eigen::Matrix3d> ldlt(N);
@@ -42,8 +52,17 @@ std::optional<PlaneFit> fit_plane(const std::vector<EventHead>& heads, std::size
     return std::nullopt;
   }
   const Eigen::Vector3d x = ldlt.solve(A.transpose() * p.asDiagonal() * l);
-  const Eigen::Matrix3d Q = ldlt.solve(Eigen::Matrix3d::Identity());
-  return PlaneFit{x[0], std::sqrt(std::max(Q(0, 0), 0.0))};
+  const Eigen::MatrixXd gain = ldlt.solve(A.transpose() * p.asDiagonal());  // 3 x m
+  const Eigen::VectorXd g = gain.row(0).transpose();
+  const EventHead& own = heads[i];
+  double variance = own.sigma * own.sigma;
+  for (Eigen::Index k = 0; k < m; ++k) {
+    const EventHead& a = heads[near[static_cast<std::size_t>(k)]];
+    variance -= 2.0 * g[k] * covariance(a, own, false);
+    for (Eigen::Index j = 0; j < m; ++j)
+      variance += g[k] * g[j] * covariance(a, heads[near[static_cast<std::size_t>(j)]], k == j);
+  }
+  return PlaneFit{x[0], std::sqrt(std::max(variance, 0.0))};
 }
 
 }  // namespace
@@ -75,14 +94,17 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
     for (const auto& n : near) out.push_back(n.second);
     return out;
   };
-  // The measuring point's sigma against the difference to the nearest neighbour.
+  // The measuring point's sigma against the difference to the nearest
+  // neighbour: its own, without what the two share.
   for (std::size_t i = 0; i < heads.size(); ++i) {
     if (excluded[i]) continue;
     const auto near = neighbours(i);
-    if (!near.empty() &&
-        heads[i].sigma > std::abs(heads[i].head - heads[near.front()].head) / 3.0) {
+    if (near.empty()) continue;
+    const EventHead& other = heads[near.front()];
+    const double own = std::sqrt(std::max(
+        heads[i].sigma * heads[i].sigma - shared_covariance(heads[i].common, other.common), 0.0));
+    if (own > std::abs(heads[i].head - other.head) / 3.0)
       result.wells[i].flags.push_back("mp-sigma-large");
-    }
   }
   while (true) {
     std::optional<std::size_t> worst;
@@ -97,8 +119,7 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
       if (!fit) continue;
       c.prediction = fit->prediction;
       c.misfit = heads[i].head - fit->prediction;
-      const double limit =
-          std::max(options.neighbour_tolerance, 3.0 * std::hypot(heads[i].sigma, fit->sigma));
+      const double limit = std::max(options.neighbour_tolerance, 3.0 * fit->misfit_sigma);
       const double ratio = std::abs(*c.misfit) / limit;
       if (ratio > worst_ratio) worst_ratio = ratio, worst = i;
     }
@@ -122,13 +143,19 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
     for (std::size_t k = 1; k < members.size(); ++k) {
       const EventHead& s = heads[members[k - 1]];
       const EventHead& d = heads[members[k]];
-      NestPair pair{nest, s.well, d.well, s.head - d.head, std::hypot(s.sigma, d.sigma), "", false};
+      NestPair pair{nest, s.well, d.well, s.head - d.head, std::sqrt(difference_variance(s, d)),
+                    "",   false};
       pair.direction = pair.dh > 0.0 ? "downward" : "upward";
       pair.significant = std::abs(pair.dh) > 2.0 * pair.sigma;
       result.nests.push_back(pair);
     }
   }
   return result;
+}
+
+double difference_variance(const EventHead& a, const EventHead& b) {
+  return std::max(
+      a.sigma * a.sigma + b.sigma * b.sigma - 2.0 * shared_covariance(a.common, b.common), 0.0);
 }
 
 }  // namespace levelhead

@@ -181,6 +181,8 @@ void MeasuringPointHistory::convert(const WellSet& wells, const GivenHeights& g,
       e.height = *converted[j].height;
       const double s = std::isnan(given_sigma[k]) ? 0.0 : given_sigma[k];
       e.sigma = std::sqrt(s * s + converted[j].variance_added);
+      e.sigma_relative = std::sqrt(s * s + converted[j].relative_variance_added());
+      e.common = converted[j].common;
       e.sigma_known = !std::isnan(given_sigma[k]) && converted[j].variance_complete;
       e.transform = converted[j].transform;
       e.flags.insert(e.flags.end(), converted[j].flags.begin(), converted[j].flags.end());
@@ -240,6 +242,8 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
   const MeasuringPointElevation& e = elevations_[k];
   at.height = e.height;
   at.sigma = e.sigma;
+  at.sigma_relative = e.sigma_relative;
+  at.common = &e.common;
   if (e.motion) {
     // Ground movement from the levelling epochs (heads.hpp). A record that is
     // the monitored point itself swaps the epoch's sigma at its survey for the
@@ -251,6 +255,13 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
             ? std::max(at.sigma * at.sigma - e.motion_base.sigma * e.motion_base.sigma, 0.0)
             : at.sigma * at.sigma;
     at.sigma = std::sqrt(kept + now.sigma * now.sigma);
+    // Movement is of this point alone: it adds to both.
+    const double kept_relative = e.follows_point
+                                     ? std::max(at.sigma_relative * at.sigma_relative -
+                                                    e.motion_base.sigma * e.motion_base.sigma,
+                                                0.0)
+                                     : at.sigma_relative * at.sigma_relative;
+    at.sigma_relative = std::sqrt(kept_relative + now.sigma * now.sigma);
     if (now.extrapolated) at.flags.push_back("mp-motion-extrapolated");
     if (!now.checked || !e.motion_base.checked) at.flags.push_back("mp-unchecked");
   } else if (interpolate_ && after != h.begin() && after != h.end() &&
@@ -262,6 +273,8 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
     const double f = (time - t0) / (t1 - t0);
     at.height = (1.0 - f) * e.height + f * elevations_[next].height;
     at.sigma = std::hypot((1.0 - f) * e.sigma, f * elevations_[next].sigma);
+    at.sigma_relative =
+        std::hypot((1.0 - f) * e.sigma_relative, f * elevations_[next].sigma_relative);
     at.flags.push_back("mp-interpolated");
   }
   at.flags.insert(at.flags.end(), e.flags.begin(), e.flags.end());
@@ -291,6 +304,8 @@ HeadRecord evaluate_reading(const ReadingInput& reading, MeasuringPointAt mp, co
     r.head = r.mp.height + *reading.above;
   }
   r.sigma = std::hypot(r.mp.sigma, reading.depth_sigma.value_or(options.depth_sigma));
+  r.sigma_relative =
+      std::hypot(r.mp.sigma_relative, reading.depth_sigma.value_or(options.depth_sigma));
   // Saline wells: the density of this reading, else from its temperature and
   // salinity, else the well's; then the freshwater head at the screen.
   r.density = reading.density;

@@ -16,11 +16,6 @@
 
 namespace levelhead {
 
-int decimals_for(double sigma) {
-  if (!(sigma > 0.0)) return 3;
-  return std::clamp(static_cast<int>(std::ceil(-std::log10(sigma))), 1, 4);
-}
-
 HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
                                const std::string& target, bool has_event)
     : out_(out), target_cell_(csv_cell(target)), has_event_(has_event) {
@@ -28,13 +23,15 @@ HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& h
     source_cells_.push_back(csv_cell(e.source));
     transform_cells_.push_back(csv_cell(e.transform));
   }
-  out_ << "well,time,head,sigma,datum,time_utc,mp_elevation,mp_sigma,mp_source,depth,state,"
+  out_ << "well,time,head,sigma,datum,sigma_relative,time_utc,mp_elevation,mp_sigma,mp_source,"
+          "depth,state,"
           "flags,contour,reason,in_event,transform,density,freshwater_head,environmental_head\n";
 }
 
 void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const HeadRecord& r) {
-  const int dp = decimals_for(r.sigma);
-  // One buffer per row, written at once: this runs for every reading (1e7).
+  // Full precision (0.1 mm) with the sigmas beside: rounding to what the
+  // sigma supports is for text a person reads. One buffer per row, written at once: this runs for
+  // every reading (1e7).
   row_.clear();
   auto to = std::back_inserter(row_);
   append_csv_cell(row_, well.id);
@@ -42,11 +39,13 @@ void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const 
   append_csv_cell(row_, reading.time_text);
   row_ += ',';
   if (r.head)
-    fmt::format_to(to, "{:.{}f},{:.{}f}", *r.head, dp, r.sigma, dp + 1);
+    fmt::format_to(to, "{:.4f},{:.4f}", *r.head, r.sigma);
   else
     row_ += ',';
   row_ += ',';
   row_ += target_cell_;
+  row_ += ',';
+  if (r.head) fmt::format_to(to, "{:.4f}", r.sigma_relative);
   row_ += ',';
   row_ += format_utc(reading.time);
   fmt::format_to(to, ",{:.4f},{:.4f},", r.mp.height, r.mp.sigma);
@@ -66,9 +65,9 @@ void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const 
   row_ += ',';
   if (r.density) fmt::format_to(to, "{:.2f}", *r.density);
   row_ += ',';
-  if (r.freshwater_head) fmt::format_to(to, "{:.{}f}", *r.freshwater_head, dp);
+  if (r.freshwater_head) fmt::format_to(to, "{:.4f}", *r.freshwater_head);
   row_ += ',';
-  if (r.environmental_head) fmt::format_to(to, "{:.{}f}", *r.environmental_head, dp);
+  if (r.environmental_head) fmt::format_to(to, "{:.4f}", *r.environmental_head);
   row_ += '\n';
   out_.write(row_.data(), static_cast<std::streamsize>(row_.size()));
 }
@@ -96,6 +95,7 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
                                                          {"time_utc", OFTString},
                                                          {"head", OFTReal},
                                                          {"sigma", OFTReal},
+                                                         {"sigma_relative", OFTReal},
                                                          {"datum", OFTString},
                                                          {"mp_elevation", OFTReal},
                                                          {"state", OFTString},
@@ -122,16 +122,16 @@ void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const
   OGR_F_SetFieldString(f, 1, reading.time_text.c_str());
   OGR_F_SetFieldString(f, 2, format_utc(reading.time).c_str());
   if (r.head) {
-    const double scale = std::pow(10.0, decimals_for(r.sigma));
-    OGR_F_SetFieldDouble(f, 3, std::round(*r.head * scale) / scale);
+    OGR_F_SetFieldDouble(f, 3, *r.head);
     OGR_F_SetFieldDouble(f, 4, r.sigma);
+    OGR_F_SetFieldDouble(f, 5, r.sigma_relative);
   }
-  OGR_F_SetFieldString(f, 5, target_.c_str());
-  OGR_F_SetFieldDouble(f, 6, r.mp.height);
-  OGR_F_SetFieldString(f, 7, r.state.c_str());
-  OGR_F_SetFieldString(f, 8, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
-  OGR_F_SetFieldString(f, 9, r.contour() ? "yes" : "no");
-  if (has_event_) OGR_F_SetFieldString(f, 10, r.outside_event ? "no" : "yes");
+  OGR_F_SetFieldString(f, 6, target_.c_str());
+  OGR_F_SetFieldDouble(f, 7, r.mp.height);
+  OGR_F_SetFieldString(f, 8, r.state.c_str());
+  OGR_F_SetFieldString(f, 9, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
+  OGR_F_SetFieldString(f, 10, r.contour() ? "yes" : "no");
+  if (has_event_) OGR_F_SetFieldString(f, 11, r.outside_event ? "no" : "yes");
   OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
   OGR_G_SetPoint_2D(g, 0, well.x, well.y);
   OGR_F_SetGeometryDirectly(f, g);

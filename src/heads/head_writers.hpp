@@ -13,10 +13,6 @@
 
 namespace levelhead {
 
-// Decimals a head deserves: about one below its standard deviation, so no
-// table shows more digits than the data carry (0.003 m -> 3, 0.02 m -> 2).
-int decimals_for(double sigma);
-
 // heads.csv (columns in docs/formats.md); `has_event`: whether the run has a
 // synoptic event (else `in_event` stays empty).
 class HeadsCsvWriter final : public HeadSink {

@@ -257,7 +257,8 @@ std::vector<MeasuringPointSurvey> measuring_point_surveys(const MeasuringPointHi
   for (std::size_t w = 0; w < well_count; ++w) {
     for (std::size_t k : history.records_of(w)) {
       const MeasuringPointElevation& e = history.elevations()[k];
-      surveys.push_back({history.records()[k], e.height, e.sigma, e.source, e.transform, e.flags});
+      surveys.push_back({history.records()[k], e.height, e.sigma, e.source, e.transform, e.flags,
+                         e.sigma_relative, e.common});
     }
   }
   return surveys;
@@ -265,16 +266,18 @@ std::vector<MeasuringPointSurvey> measuring_point_surveys(const MeasuringPointHi
 
 void write_measuring_points(std::ostream& mp_csv, const std::vector<MeasuringPointSurvey>& surveys,
                             const std::string& target) {
-  mp_csv << "well,valid_from,height,sigma,reference,source,method,reason,transform,flags,row,"
-            "given_height,given_datum\n";
+  mp_csv << "well,valid_from,height,sigma,reference,sigma_relative,common,source,method,reason,"
+            "transform,flags,row,given_height,given_datum\n";
   for (const MeasuringPointSurvey& e : surveys) {
     const MeasuringPointRecord& m = e.record;
     mp_csv << csv_cell(m.well) << ',' << csv_cell(m.valid_from_text) << ','
            << fmt::format("{:.4f},{:.4f}", e.height, e.sigma) << ',' << csv_cell(target) << ','
-           << csv_cell(e.source) << ',' << csv_cell(m.method) << ',' << csv_cell(m.reason) << ','
-           << csv_cell(e.transform) << ',' << csv_cell(fmt::format("{}", fmt::join(e.flags, " ")))
-           << ',' << m.row << ',' << (m.height ? fmt::format("{:.4f}", *m.height) : std::string())
-           << ',' << csv_cell(m.height ? m.datum : std::string()) << '\n';
+           << fmt::format("{:.4f}", e.sigma_relative) << ','
+           << csv_cell(format_common_errors(e.common)) << ',' << csv_cell(e.source) << ','
+           << csv_cell(m.method) << ',' << csv_cell(m.reason) << ',' << csv_cell(e.transform) << ','
+           << csv_cell(fmt::format("{}", fmt::join(e.flags, " "))) << ',' << m.row << ','
+           << (m.height ? fmt::format("{:.4f}", *m.height) : std::string()) << ','
+           << csv_cell(m.height ? m.datum : std::string()) << '\n';
   }
 }
 
@@ -341,8 +344,12 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
     std::optional<double> middle;
     if (well.screen_top && well.screen_bottom)
       middle = 0.5 * (*well.screen_top + *well.screen_bottom);
-    ws.event = EventHead{well.id,      well.aquifer, well.nest, reading.time_text, well.x, well.y,
-                         *record.head, record.sigma, middle};
+    ws.event =
+        EventHead{well.id,      well.aquifer,
+                  well.nest,    reading.time_text,
+                  well.x,       well.y,
+                  *record.head, record.sigma,
+                  middle,       record.mp.common ? *record.mp.common : std::vector<CommonError>()};
   }
   if (record.head && (record.contour() || record.reason == outside_event_reason))
     ws.series.emplace_back(reading.time, *record.head);
@@ -402,16 +409,16 @@ HeadEvent synoptic_event(const WellSet& wells, const std::vector<WellState>& sta
 // event.csv, nests.csv and remeasure.csv; returns the event's part of summary.json.
 nlohmann::json write_event(const HeadEvent& event, OutputSet& out) {
   std::ostream& ev = out.open("event.csv");
-  ev << "well,time,head,sigma,aquifer,nest,prediction,misfit,flags\n";
+  ev << "well,time,head,sigma,sigma_relative,common,aquifer,nest,prediction,misfit,flags\n";
   for (std::size_t i = 0; i < event.heads.size(); ++i) {
     const EventHead& h = event.heads[i];
     const EventCheck& c = event.checks.wells[i];
-    const int dp = decimals_for(h.sigma);
+    const double relative = std::sqrt(std::max(h.sigma * h.sigma - total_variance(h.common), 0.0));
     ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
-       << fmt::format("{:.{}f},{:.{}f}", h.head, dp, h.sigma, dp + 1) << ',' << csv_cell(h.aquifer)
-       << ',' << csv_cell(h.nest) << ','
-       << (c.prediction ? fmt::format("{:.{}f}", *c.prediction, dp) : "") << ','
-       << (c.misfit ? fmt::format("{:+.{}f}", *c.misfit, dp) : "") << ','
+       << fmt::format("{:.4f},{:.4f},{:.4f}", h.head, h.sigma, relative) << ','
+       << csv_cell(format_common_errors(h.common)) << ',' << csv_cell(h.aquifer) << ','
+       << csv_cell(h.nest) << ',' << (c.prediction ? fmt::format("{:.4f}", *c.prediction) : "")
+       << ',' << (c.misfit ? fmt::format("{:+.4f}", *c.misfit) : "") << ','
        << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
   }
   std::ostream& nests = out.open("nests.csv");

@@ -70,7 +70,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   std::ostream& csv = out.open(output.filename().string());
   // Columns this conversion writes; a table converted before has them
   // already, and they are replaced rather than repeated.
-  std::vector<std::string> added = {"reference", "transform", "flags"};
+  std::vector<std::string> added = {"sigma_relative", "common", "reference", "transform", "flags"};
   if (options.epoch) added.emplace_back("epoch");
   std::vector<std::optional<std::size_t>> existing;
   for (const std::string& name : added) existing.push_back(table.find_column(name));
@@ -88,7 +88,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     std::optional<double> sigma_in;
     if (sigma_col) sigma_in = table.sigma(row, *sigma_col);
     const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", *sigma_in / unit) : "";
-    std::string height_text, sigma_text, transform, flags;
+    std::string height_text, sigma_text, relative_text, common_text, transform, flags;
     if (k && results[*k].height) {
       const ConvertedHeight& r = results[*k];
       height_text = fmt::format("{:.5f}", *r.height / unit);
@@ -98,6 +98,9 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
         const double given = sigma_in ? *sigma_in : 0.0;
         const double s = std::sqrt(given * given + r.variance_added);
         sigma_text = fmt::format("{:.5f}", s / unit);
+        relative_text =
+            fmt::format("{:.5f}", std::sqrt(given * given + r.relative_variance_added()) / unit);
+        common_text = format_common_errors(r.common);
       }
       if (!sigma_in) notes.push_back("input-sigma-missing");
       if (!r.variance_complete) notes.push_back("step-variance-unknown");
@@ -108,7 +111,11 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
       sigma_text = sigma_given;
     }
     const std::string values[] = {
-        k ? converter.to() : std::string(), transform, flags,
+        relative_text,
+        common_text,
+        k ? converter.to() : std::string(),
+        transform,
+        flags,
         k && options.epoch ? fmt::format("{:.3f}", *options.epoch) : std::string()};
     for (std::size_t c = 0; c < table.column_names().size(); ++c) {
       if (c) csv << ',';

@@ -9,6 +9,11 @@
 
 namespace levelhead {
 
+double ConvertedHeight::relative_variance_added() const {
+  // The shared parts are terms of the sum: what is left is >= 0 up to rounding.
+  return std::max(variance_added - total_variance(common), 0.0);
+}
+
 namespace {
 
 struct Chain {
@@ -157,6 +162,8 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
         const auto variance = r.variance(points[i].x, points[i].y);
         if (variance) {
           c.variance_added += *variance;
+          if (*r.common_variance() > 0.0)
+            c.common.push_back({"reference " + s.definition.name, *r.common_variance()});
         } else {
           c.variance_complete = false;
         }
@@ -190,6 +197,8 @@ std::vector<ConvertedHeight> HeightConverter::convert(const std::vector<PlanePoi
       parts.push_back(op.name);
       if (op.accuracy) {
         c.variance_added += *op.accuracy * *op.accuracy;
+        if (*op.accuracy > 0.0)
+          c.common.push_back({"operation " + op.name, *op.accuracy * *op.accuracy});
       } else {
         c.variance_complete = false;
       }

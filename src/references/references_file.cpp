@@ -36,6 +36,12 @@ std::optional<double> OffsetRelation::variance(double x, double y) const {
   return std::nullopt;
 }
 
+std::optional<double> OffsetRelation::common_variance() const {
+  if (covariance) return std::max((*covariance)[0][0], 0.0);
+  if (sigma) return *sigma * *sigma;
+  return std::nullopt;
+}
+
 // Point in polygon by ray crossing (hull vertices in order); a point on the
 // boundary counts as inside: within a tolerance of an edge that covers the
 // digits the hull was written with (12 significant, to_toml) and the

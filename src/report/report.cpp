@@ -241,7 +241,8 @@ void flow_table(Document& doc, const FlowStage& flow) {
       {"hydraulic gradient (m/m)", fmt::format("{:.2e} +- {:.1e}", f.gradient, f.gradient_sigma)},
       {"flow direction (degrees from grid north)",
        fmt::format("{:.1f} +- {:.1f}", f.azimuth, f.azimuth_sigma)},
-      {"wells in the fit", std::to_string(flow.wells)}};
+      {"wells in the fit", std::to_string(flow.wells)},
+      {"uncertainty", describe_flow_uncertainty(f)}};
   if (std::isfinite(f.tau_critical)) {
     std::vector<std::string> off;
     for (std::size_t i : f.off_plane) off.push_back(flow.well_ids[i]);

@@ -10,27 +10,36 @@
 //        neighbour-misfit    |misfit| > max(tolerance, 3 sigma of misfit);
 //                            worst first, each flagged well then left out of
 //                            its neighbours' fits (as iterative data snooping)
-//        mp-sigma-large      the head's sigma exceeds a third of its
-//                            difference from the nearest neighbour: the
+//        mp-sigma-large      the head's sigma against its nearest neighbour
+//                            (shared errors cancel: common_error.hpp)
+//                            exceeds a third of their difference: the
 //                            contour there says nothing
 //        multiple-aquifers   an aquifer label naming more than one unit
 //                            ('+' or ';'): left out of per-unit contouring
 //      per nest, between consecutive screens (shallow to deep):
 //        dh = head(shallow) - head(deep) (m); dh > 0: downward flow.
+//      Misfits and nest differences are differences of heads: their sigmas
+//      leave out the errors the heads share.
 // Units: m. Errors: none (wells that cannot be checked are marked so).
 
 #include <optional>
 #include <string>
 #include <vector>
 
+#include "levelhead/core/common_error.hpp"
+
 namespace levelhead {
 
 struct EventHead {
   std::string well, aquifer, nest, time;
   double x = 0.0, y = 0.0;
-  double head = 0.0, sigma = 0.0;       // m
+  double head = 0.0, sigma = 0.0;       // m; sigma of the absolute head
   std::optional<double> screen_middle;  // m below ground
+  std::vector<CommonError> common;      // the parts of sigma other heads may share
 };
+
+// Variance of the difference of two heads (m^2): what they share cancels.
+double difference_variance(const EventHead& a, const EventHead& b);
 
 struct EventCheck {
   std::optional<double> prediction, misfit;  // m

@@ -30,9 +30,13 @@ namespace levelhead {
 
 // The measuring point of a well at one time.
 struct MeasuringPointAt {
-  std::size_t record = 0;          // index into the records: the survey in force
-  double height = 0.0;             // m, target reference, moved or interpolated to the time
-  double sigma = 0.0;              // m
+  std::size_t record = 0;       // index into the records: the survey in force
+  double height = 0.0;          // m, target reference, moved or interpolated to the time
+  double sigma = 0.0;           // m, of the absolute height
+  double sigma_relative = 0.0;  // m, without the errors shared with other heights
+  // The shared errors (common_error.hpp), of the survey in force; owned by
+  // the history.
+  const std::vector<CommonError>* common = nullptr;
   bool before_first = false;       // the time precedes the first survey (the first is used)
   std::vector<std::string> flags;  // motion, interpolation and the record's own flags
 };
@@ -93,10 +97,11 @@ struct ReadingInput {
 };
 
 struct HeadRecord {
-  std::optional<double> head;  // m, target reference; empty for a state
-  double sigma = 0.0;          // m
-  MeasuringPointAt mp;         // the measuring point used; its flags are in `flags`
-  std::string state;           // the reading's state, else its status
+  std::optional<double> head;   // m, target reference; empty for a state
+  double sigma = 0.0;           // m, of the absolute head
+  double sigma_relative = 0.0;  // m, without the errors shared with other heads (mp.common)
+  MeasuringPointAt mp;          // the measuring point used; its flags are in `flags`
+  std::string state;            // the reading's state, else its status
   std::optional<double> density, freshwater_head, environmental_head;  // kg/m^3, m, m
   std::vector<std::string> flags;
   // With an event: whether the reading lies outside its synoptic window. Not

@@ -30,6 +30,7 @@
 #include <vector>
 
 #include "levelhead/core/bounds.hpp"
+#include "levelhead/core/common_error.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
 #include "levelhead/heads/event_qa.hpp"
@@ -127,8 +128,10 @@ MonitoredValue monitored_at(const MonitoredSeries& series, double time);
 
 // A measuring-point record brought into the target reference.
 struct MeasuringPointElevation {
-  double height = 0.0;  // m, target reference
-  double sigma = 0.0;   // m
+  double height = 0.0;              // m, target reference
+  double sigma = 0.0;               // m, of the absolute height
+  double sigma_relative = 0.0;      // m, sigma without the parts in `common`
+  std::vector<CommonError> common;  // errors shared with heights converted alike
   bool sigma_known = true;
   std::string source;                       // "network:ID", "monitored:ID" or the record's datum
   const MonitoredSeries* motion = nullptr;  // the monitored point it moves with
@@ -162,6 +165,8 @@ struct MeasuringPointSurvey {
   double height = 0.0, sigma = 0.0;  // m, target reference
   std::string source, transform;
   std::vector<std::string> flags;
+  double sigma_relative = 0.0;  // m
+  std::vector<CommonError> common;
 };
 
 // The synoptic round: one head per well (the contourable reading nearest the

@@ -19,14 +19,19 @@
 #include <string>
 #include <vector>
 
+#include "levelhead/core/common_error.hpp"
 #include "levelhead/references/references_file.hpp"
 #include "levelhead/references/surface_shift.hpp"
 
 namespace levelhead {
 
 struct ConvertedHeight {
-  std::optional<double> height;   // m
-  double variance_added = 0.0;    // m^2, from the steps whose variance is known
+  std::optional<double> height;     // m
+  double variance_added = 0.0;      // m^2, from the steps whose variance is known (all parts)
+  std::vector<CommonError> common;  // the shared parts of variance_added
+  // variance_added less its shared parts (m^2): the steps' point-to-point
+  // error, e.g. a tie's slope terms away from its centroid.
+  double relative_variance_added() const;
   bool variance_complete = true;  // false when some step's variance is unknown
   std::string transform;          // the steps, in order
   std::vector<std::string> flags;

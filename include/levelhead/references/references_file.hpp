@@ -73,6 +73,9 @@ struct OffsetRelation {
   // H_base - H at (x, y), and its variance (nullopt when neither sigma nor covariance is known).
   double shift(double x, double y) const;
   std::optional<double> variance(double x, double y) const;
+  // The part of variance() every point shares (m^2): the offset's variance
+  // (a tie's at its centroid); the rest grows with the distance from it.
+  std::optional<double> common_variance() const;
   bool inside_hull(double x, double y) const;  // true when no hull is recorded
 };
 
