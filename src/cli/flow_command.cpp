@@ -97,7 +97,8 @@ CommandRunner add_flow_command(CLI::App& app) {
       const std::size_t well_col = heads.require_column("well"),
                         head_col = heads.require_column("head");
       const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
-      const auto common_col = heads.find_column("common");
+      const auto common_col = heads.find_column("common"),
+                 relative_col = heads.find_column("sigma_relative");
       std::set<std::string> seen;
       for (std::size_t r = 0; r < heads.row_count(); ++r) {
         const auto h = heads.height(r, head_col);
@@ -126,14 +127,19 @@ CommandRunner add_flow_command(CLI::App& app) {
                              "(sigma in m), as event.csv of levelhead heads writes them");
           }
           common = *parsed;
-          if (total_variance(common) > sigma * sigma * (1.0 + 1e-6) + 1e-8) {
-            throw InputError(heads.location(r, *common_col),
-                             std::string(heads.cell(r, *common_col)),
-                             "the shared errors exceed the head's own sigma; the sigma is the "
-                             "whole, the shared errors a part of it");
-          }
         }
-        used.push_back({id, w.x, w.y, *h, sigma, std::move(common)});
+        // The whole sigma from its parts where the table gives them: a
+        // rounded total can hide a small own part under a large shared one.
+        const std::optional<double> relative =
+            relative_col ? heads.sigma(r, *relative_col) : std::nullopt;
+        const double whole =
+            relative ? std::sqrt(*relative * *relative + total_variance(common)) : sigma;
+        if (total_variance(common) > whole * whole * (1.0 + 1e-6) + 1e-8) {
+          throw InputError(heads.location(r, *common_col), std::string(heads.cell(r, *common_col)),
+                           "the shared errors exceed the head's own sigma; the sigma is the "
+                           "whole, the shared errors a part of it (or give sigma_relative)");
+        }
+        used.push_back({id, w.x, w.y, *h, whole, std::move(common)});
       }
     }
     FlowResult f = estimate_flow(used, options);

@@ -1,0 +1,152 @@
+// Uncertainty end to end: errors that heights share cancel between them
+// (gradients, differences) and count in full for absolute heights.
+
+#include <fmt/format.h>
+
+#include <catch2/catch.hpp>
+#include <cmath>
+#include <fstream>
+#include <nlohmann/json.hpp>
+#include <numbers>
+#include <random>
+
+#include "levelhead/core/common_error.hpp"
+#include "levelhead/core/table.hpp"
+#include "levelhead/flow/flow.hpp"
+#include "levelhead/references/height_converter.hpp"
+#include "support/cli_run.hpp"
+#include "support/temp_folder.hpp"
+
+using namespace levelhead;
+using Catch::Matchers::WithinAbs;
+
+namespace {
+
+// Five wells (invented) whose heads lie exactly on a plane: 98.983 m at
+// (500400, 4400300), gradient 2.603e-3 towards 50.19 degrees.
+struct PlaneSite {
+  static constexpr double centre_head = 98.983, gradient = 2.603e-3, azimuth = 50.19;
+  std::vector<std::pair<double, double>> at = {{500000, 4400000},
+                                               {500800, 4400100},
+                                               {500300, 4400700},
+                                               {500900, 4400650},
+                                               {500050, 4400500}};
+  double head(double x, double y) const {
+    const double az = azimuth * std::numbers::pi / 180.0;
+    // Flow runs along -grad h: dh/dx = -i sin(az), dh/dy = -i cos(az).
+    return centre_head - gradient * std::sin(az) * (x - 500400.0) -
+           gradient * std::cos(az) * (y - 4400300.0);
+  }
+};
+
+}  // namespace
+
+TEST_CASE("five GNSS wells on a plane: the geoid model's 1 m cancels in the gradient",
+          "[uncertainty][proj]") {
+  // Measuring points from ellipsoidal heights (EPSG:4979) brought into EGM96
+  // heights (EPSG:5773) by PROJ, whose operation states an accuracy of 1 m:
+  // an error of the geoid model that all five share.
+  const PlaneSite site;
+  testing::TempFolder tmp;
+  std::vector<PlanePoint> points;
+  std::vector<double> ellipsoidal;
+  for (std::size_t i = 0; i < site.at.size(); ++i) {
+    points.push_back({site.at[i].first, site.at[i].second});
+    ellipsoidal.push_back(93.0 + 0.4 * static_cast<double>(i));  // about 10 m above the heads
+  }
+  HeightConverter converter("EPSG:4979", "EPSG:5773", "EPSG:32613", ReferenceSet{}, ProjSettings{});
+  const std::vector<ConvertedHeight> converted = converter.convert(points, ellipsoidal);
+  std::string wells = "id,x,y\n", mp = "well,valid_from,height,datum,sigma\n",
+              levels = "well,time,depth\n";
+  for (std::size_t i = 0; i < site.at.size(); ++i) {
+    REQUIRE(converted[i].height);
+    const auto [x, y] = site.at[i];
+    const std::string id = fmt::format("G{}", i + 1);
+    wells += fmt::format("{},{:.1f},{:.1f}\n", id, x, y);
+    mp += fmt::format("{},2026-01-01,{:.6f},EPSG:4979,0.003\n", id, ellipsoidal[i]);
+    levels +=
+        fmt::format("{},2026-06-10T12:00Z,{:.6f}\n", id, *converted[i].height - site.head(x, y));
+  }
+  for (const auto& [name, text] :
+       {std::pair{"wells.csv", wells}, {"mp.csv", mp}, {"levels.csv", levels}})
+    std::ofstream(tmp.path() / name) << text;
+  const auto heads = testing::run_cli(
+      {"heads", "--wells", (tmp.path() / "wells.csv").string(), "--mp",
+       (tmp.path() / "mp.csv").string(), "--levels", (tmp.path() / "levels.csv").string(), "--to",
+       "EPSG:5773", "--crs", "EPSG:32613", "--event", "2026-06-10T12:00Z", "--no-gpkg", "--quiet",
+       "--out", (tmp.path() / "heads").string()});
+  INFO(heads.err);
+  REQUIRE(heads.code == 0);
+
+  const Table table = read_table(tmp.path() / "heads" / "heads.csv");
+  const std::size_t head_col = *table.find_column("head"), sigma_col = *table.find_column("sigma"),
+                    relative_col = *table.find_column("sigma_relative");
+  for (std::size_t r = 0; r < table.row_count(); ++r) {
+    // Full precision: 0.1 mm, where the 1 m sigma once rounded it to 0.1 m.
+    const std::string_view text = table.cell(r, head_col);
+    CHECK(text.size() - text.find('.') == 5);
+    const auto [x, y] = site.at[r];
+    CHECK_THAT(*table.number(r, head_col), WithinAbs(site.head(x, y), 1e-4));
+    // The absolute head keeps the geoid model's 1 m ...
+    CHECK_THAT(*table.number(r, sigma_col), WithinAbs(1.0, 0.001));
+    // ... its own part is the survey's 3 mm and the depth's default 3 mm.
+    CHECK_THAT(*table.number(r, relative_col), WithinAbs(std::hypot(0.003, 0.003), 1e-4));
+  }
+  const std::string event = testing::read_file(tmp.path() / "heads" / "event.csv");
+  CHECK_THAT(event, !Catch::Matchers::Contains("mp-sigma-large"));
+
+  const auto flow = testing::run_cli(
+      {"flow", "--heads", (tmp.path() / "heads" / "event.csv").string(), "--wells",
+       (tmp.path() / "wells.csv").string(), "--quiet", "--out", (tmp.path() / "flow").string()});
+  INFO(flow.err);
+  REQUIRE(flow.code == 0);
+  const auto j = nlohmann::json::parse(testing::read_file(tmp.path() / "flow" / "flow.json"));
+  const double gradient = j["gradient"]["value"], azimuth = j["azimuth"]["value"];
+  CHECK(std::abs(gradient / PlaneSite::gradient - 1.0) < 0.01);
+  CHECK(std::abs(azimuth - PlaneSite::azimuth) < 0.5);
+  // The shared metre does not reach the gradient: its sigma comes from the
+  // wells' own 4 mm over some 800 m.
+  CHECK(double(j["gradient"]["sigma"]) < 5e-5);
+  CHECK(double(j["azimuth"]["sigma"]) < 1.0);
+}
+
+TEST_CASE("shared errors: the covariance of two heads and its cell round trip", "[uncertainty]") {
+  const std::vector<CommonError> a = {{"reference site", 0.01 * 0.01}, {"operation geoid", 1.0}};
+  const std::vector<CommonError> b = {{"operation geoid", 1.0}};
+  CHECK_THAT(shared_covariance(a, b), WithinAbs(1.0, 1e-15));
+  CHECK_THAT(shared_covariance(a, {}), WithinAbs(0.0, 1e-15));
+  CHECK_THAT(total_variance(a), WithinAbs(1.0001, 1e-15));
+  const auto back = parse_common_errors(format_common_errors(a));
+  REQUIRE(back);
+  REQUIRE(back->size() == 2);
+  CHECK((*back)[0].source == "reference site");
+  CHECK_THAT((*back)[0].variance, WithinAbs(1e-4, 1e-12));
+  CHECK(parse_common_errors("")->empty());
+  CHECK_FALSE(parse_common_errors("no sigma here"));
+  CHECK_FALSE(parse_common_errors("x=-1"));
+}
+
+TEST_CASE("flow: an error every well shares leaves the gradient and its sigma as without it",
+          "[uncertainty][flow]") {
+  const PlaneSite site;
+  std::vector<FlowWell> alone, shared;
+  std::mt19937 random(5);
+  std::normal_distribution<double> noise(0.0, 0.004);
+  for (std::size_t i = 0; i < site.at.size(); ++i) {
+    const auto [x, y] = site.at[i];
+    FlowWell w{fmt::format("G{}", i + 1), x, y, site.head(x, y) + noise(random), 0.004, {}};
+    alone.push_back(w);
+    w.sigma = std::hypot(0.004, 1.0);
+    w.common = {{"operation geoid", 1.0}};
+    shared.push_back(w);
+  }
+  const FlowResult a = estimate_flow(alone, FlowOptions{});
+  const FlowResult b = estimate_flow(shared, FlowOptions{});
+  CHECK_THAT(b.gradient, WithinAbs(a.gradient, 1e-12));
+  CHECK_THAT(b.azimuth, WithinAbs(a.azimuth, 1e-8));
+  CHECK_THAT(b.from_heads.gradient, WithinAbs(a.from_heads.gradient, 1e-3 * a.from_heads.gradient));
+  // Treated as independent, the same sigmas would swamp the gradient.
+  for (FlowWell& w : shared) w.common.clear();
+  const FlowResult independent = estimate_flow(shared, FlowOptions{});
+  CHECK(independent.from_heads.gradient > 100.0 * a.from_heads.gradient);
+}
