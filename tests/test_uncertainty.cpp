@@ -13,8 +13,11 @@
 #include "levelhead/core/common_error.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/flow/flow.hpp"
+#include "levelhead/levelling/adjustment.hpp"
+#include "levelhead/levelling/network.hpp"
 #include "levelhead/references/height_converter.hpp"
 #include "support/cli_run.hpp"
+#include "support/network_builders.hpp"
 #include "support/temp_folder.hpp"
 
 using namespace levelhead;
@@ -149,4 +152,80 @@ TEST_CASE("flow: an error every well shares leaves the gradient and its sigma as
   for (FlowWell& w : shared) w.common.clear();
   const FlowResult independent = estimate_flow(shared, FlowOptions{});
   CHECK(independent.from_heads.gradient > 100.0 * a.from_heads.gradient);
+}
+
+TEST_CASE(
+    "flow with measuring points from one levelling network: the gradient's sigma from "
+    "their covariance agrees with Monte Carlo",
+    "[uncertainty][flow][adjustment]") {
+  // A benchmark held at 100 m, 6 km away, levelled to W1, and the five wells
+  // in a loop (invented), 2 mm/sqrt(km); the heads lie on the plane of
+  // PlaneSite, depths read to 1 mm. The long line's error is common to all
+  // five measuring points: their covariance is large.
+  const PlaneSite site;
+  std::vector<Point> points = {testing::point("BM", 100.0)};
+  std::vector<std::pair<double, double>> at = {{506000.0, 4400000.0}};
+  for (std::size_t i = 0; i < site.at.size(); ++i) {
+    points.push_back(testing::point(fmt::format("W{}", i + 1)));
+    at.push_back(site.at[i]);
+  }
+  const double mp_above_head = 10.0;  // every measuring point 10 m above its head
+  const auto true_height = [&](std::size_t p) {
+    return p == 0 ? 100.0 : site.head(at[p].first, at[p].second) + mp_above_head;
+  };
+  std::vector<Section> sections;
+  for (std::size_t p = 0; p < points.size(); ++p) {
+    const std::size_t q = p + 1 < points.size() ? p + 1 : 1;  // BM - W1, then the loop
+    const double km = std::hypot(at[q].first - at[p].first, at[q].second - at[p].second) / 1000.0;
+    Section s =
+        testing::section(points[p].id, points[q].id, true_height(q) - true_height(p), km * 1000.0);
+    s.sigma = 0.002 * std::sqrt(km);
+    sections.push_back(s);
+  }
+  const Network net = make_network(points, sections);
+  const AdjustmentOptions options;
+  const AdjustmentResult adjusted = adjust(net, options);
+  const std::vector<std::size_t> wells_at = {1, 2, 3, 4, 5};
+  const std::vector<double> q = point_cofactors(net, adjusted, wells_at, options);
+  for (std::size_t a = 0; a < 5; ++a)  // the block's diagonal is each point's own
+    CHECK_THAT(q[a * 5 + a], WithinAbs(std::pow(adjusted.points[a + 1].sigma_apriori, 2), 1e-15));
+  const double depth_sigma = 0.001;
+  std::vector<FlowWell> wells;
+  std::vector<HeadCovariance> covariances;
+  for (std::size_t a = 0; a < 5; ++a) {
+    wells.push_back({points[a + 1].id,
+                     site.at[a].first,
+                     site.at[a].second,
+                     site.head(site.at[a].first, site.at[a].second),
+                     std::sqrt(q[a * 5 + a] + depth_sigma * depth_sigma),
+                     {}});
+    for (std::size_t b = 0; b < a; ++b) covariances.push_back({a, b, q[a * 5 + b]});
+  }
+  const FlowResult predicted = estimate_flow(wells, FlowOptions{}, covariances);
+  const FlowResult independent = estimate_flow(wells, FlowOptions{});
+
+  // Monte Carlo: level the loop again with fresh errors, adjust, read the
+  // depths again, fit with the same covariance.
+  std::mt19937 random(77);
+  std::normal_distribution<double> unit(0.0, 1.0);
+  const int runs = 4000;
+  double sum = 0.0, sum2 = 0.0;
+  for (int k = 0; k < runs; ++k) {
+    std::vector<Section> observed = sections;
+    for (Section& s : observed) s.dh += *s.sigma * unit(random);
+    const AdjustmentResult r = adjust(make_network(points, observed), options);
+    std::vector<FlowWell> sample = wells;
+    for (std::size_t a = 0; a < 5; ++a)
+      sample[a].head = r.points[a + 1].height - mp_above_head + depth_sigma * unit(random);
+    const double g = estimate_flow(sample, FlowOptions{}, covariances).gradient;
+    sum += g;
+    sum2 += g * g;
+  }
+  const double mean = sum / runs, spread = std::sqrt(sum2 / runs - mean * mean);
+  INFO("gradient sigma: predicted " << predicted.from_heads.gradient << ", Monte Carlo " << spread
+                                    << ", as if independent " << independent.from_heads.gradient);
+  // 4000 runs: the sampled sigma is good to about 1.1 % (1 / sqrt(2 n)).
+  CHECK(std::abs(spread / predicted.from_heads.gradient - 1.0) < 0.05);
+  // Treating the measuring points as independent misstates it.
+  CHECK(std::abs(independent.from_heads.gradient / spread - 1.0) > 0.05);
 }

@@ -319,6 +319,53 @@ OutlierTest choose_outlier_test(const AdjustmentOptions& options, const Adjustme
   return test;
 }
 
+// Normal equations for the corrections dx to x0: N dx = A' P (l - A x0),
+// over the active sections (weights 1 / sigma^2) and the weighted control.
+struct NormalSystem {
+  detail::NormalSolver::LowerMatrix matrix;  // lower triangle
+  Eigen::VectorXd rhs;
+  std::size_t observations = 0;
+};
+
+NormalSystem assemble_normal(const Network& net, const std::vector<double>& section_sigma,
+                             const std::vector<char>& active, const Control& control,
+                             const std::vector<double>& x0, const std::vector<int>& unknown,
+                             int n) {
+  NormalSystem system;
+  std::vector<Eigen::Triplet<double, int>> triplets;
+  triplets.reserve(3 * net.sections.size() + net.points.size());
+  system.rhs = Eigen::VectorXd::Zero(n);
+  Eigen::VectorXd& rhs = system.rhs;
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    if (!active[s]) continue;
+    ++system.observations;
+    const std::size_t f = net.from_index[s], t = net.to_index[s];
+    const double p = 1.0 / (section_sigma[s] * section_sigma[s]);
+    const double reduced = net.sections[s].dh - (x0[t] - x0[f]);
+    const int uf = unknown[f], ut = unknown[t];
+    if (ut >= 0) {
+      triplets.emplace_back(ut, ut, p);
+      rhs[ut] += p * reduced;
+    }
+    if (uf >= 0) {
+      triplets.emplace_back(uf, uf, p);
+      rhs[uf] -= p * reduced;
+    }
+    if (ut >= 0 && uf >= 0) triplets.emplace_back(std::max(ut, uf), std::min(ut, uf), -p);
+  }
+  for (std::size_t i = 0; i < net.points.size(); ++i) {
+    if (control.kind[i] != ControlKind::weighted) continue;
+    ++system.observations;
+    const double p = 1.0 / (control.sigma[i] * control.sigma[i]);
+    triplets.emplace_back(unknown[i], unknown[i], p);
+    rhs[unknown[i]] += p * (control.height[i] - x0[i]);
+  }
+  system.matrix.resize(n, n);
+  system.matrix.setFromTriplets(triplets.begin(), triplets.end());
+  system.matrix.makeCompressed();
+  return system;
+}
+
 AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& options,
                              const Weighting& weights, const Control& control,
                              const std::vector<char>& active) {
@@ -336,40 +383,10 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
   }
   result.unknowns = static_cast<std::size_t>(n);
 
-  // Normal equations for the corrections dx to x0: N dx = A' P (l - A x0).
-  std::vector<Eigen::Triplet<double, int>> triplets;
-  triplets.reserve(3 * net.sections.size() + n_points);
-  Eigen::VectorXd rhs = Eigen::VectorXd::Zero(n);
-  std::size_t observations = 0;
-  for (std::size_t s = 0; s < net.sections.size(); ++s) {
-    if (!active[s]) continue;
-    ++observations;
-    const std::size_t f = net.from_index[s], t = net.to_index[s];
-    const double p = 1.0 / (weights.sigma[s] * weights.sigma[s]);
-    const double reduced = net.sections[s].dh - (x0[t] - x0[f]);
-    const int uf = unknown[f], ut = unknown[t];
-    if (ut >= 0) {
-      triplets.emplace_back(ut, ut, p);
-      rhs[ut] += p * reduced;
-    }
-    if (uf >= 0) {
-      triplets.emplace_back(uf, uf, p);
-      rhs[uf] -= p * reduced;
-    }
-    if (ut >= 0 && uf >= 0) triplets.emplace_back(std::max(ut, uf), std::min(ut, uf), -p);
-  }
-  for (std::size_t i = 0; i < n_points; ++i) {
-    if (control.kind[i] != ControlKind::weighted) continue;
-    ++observations;
-    const double p = 1.0 / (control.sigma[i] * control.sigma[i]);
-    triplets.emplace_back(unknown[i], unknown[i], p);
-    rhs[unknown[i]] += p * (control.height[i] - x0[i]);
-  }
-  result.observations = observations;
-  detail::NormalSolver::LowerMatrix normal(n, n);
-  normal.setFromTriplets(triplets.begin(), triplets.end());
-  normal.makeCompressed();
-  triplets = {};
+  NormalSystem system = assemble_normal(net, weights.sigma, active, control, x0, unknown, n);
+  result.observations = system.observations;
+  detail::NormalSolver::LowerMatrix& normal = system.matrix;
+  Eigen::VectorXd& rhs = system.rhs;
   result.timings.assembly = seconds_since(start);
 
   // A network whose every point is fixed has nothing to solve.
@@ -464,6 +481,7 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
         "sections with extreme dh, length or sigma, and for very unequal weights)");
   }
   result.vtpv = vtpv;
+  const std::size_t observations = result.observations;
   result.dof = observations > static_cast<std::size_t>(n) ? observations - n : 0;
   if (result.dof > 0) {
     const double dof = static_cast<double>(result.dof);
@@ -660,6 +678,49 @@ AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options
                                      ? std::string("given")
                                      : "standard error of class " + options.levelling_class);
   return result;
+}
+
+// A dense block of N^-1 by solves with the factor (one per point asked):
+// N rebuilt with the final adjustment's weights, removals and control, so the
+// diagonal is sigma_apriori^2 of each point.
+std::vector<double> point_cofactors(const Network& net, const AdjustmentResult& result,
+                                    const std::vector<std::size_t>& points,
+                                    const AdjustmentOptions& options) {
+  const std::size_t n_points = net.points.size(), k = points.size();
+  Control control;
+  control.kind.resize(n_points);
+  control.height.assign(n_points, 0.0);
+  control.sigma.assign(n_points, 0.0);
+  std::vector<int> unknown(n_points, -1);
+  int n = 0;
+  for (std::size_t i = 0; i < n_points; ++i) {
+    control.kind[i] = result.points[i].control;
+    if (control.kind[i] == ControlKind::weighted) control.sigma[i] = *net.points[i].sigma;
+    if (control.kind[i] != ControlKind::fixed) unknown[i] = n++;
+  }
+  std::vector<double> sigma(net.sections.size());
+  std::vector<char> active(net.sections.size());
+  for (std::size_t s = 0; s < net.sections.size(); ++s) {
+    sigma[s] = result.sections[s].sigma;
+    active[s] = !result.sections[s].removed;
+  }
+  std::vector<double> block(k * k, 0.0);
+  if (n == 0) return block;
+  const NormalSystem system =
+      assemble_normal(net, sigma, active, control, std::vector<double>(n_points, 0.0), unknown, n);
+  detail::NormalSolver solver(system.matrix, detail::SolverLimits{options.max_factor_nonzeros});
+  for (std::size_t a = 0; a < k; ++a) {
+    const int ua = unknown[points[a]];
+    if (ua < 0) continue;
+    Eigen::VectorXd unit = Eigen::VectorXd::Zero(n);
+    unit[ua] = 1.0;
+    const Eigen::VectorXd column = solver.solve(unit);
+    for (std::size_t b = 0; b < k; ++b) {
+      const int ub = unknown[points[b]];
+      if (ub >= 0) block[a * k + b] = column[ub];
+    }
+  }
+  return block;
 }
 
 }  // namespace levelhead

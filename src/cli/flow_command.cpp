@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <map>
 #include <memory>
 #include <nlohmann/json.hpp>
 #include <set>
@@ -79,8 +80,10 @@ CommandRunner add_flow_command(CLI::App& app) {
     const auto in_aquifer = [&](const Well& w) {
       return a->aquifer.empty() || w.aquifer == a->aquifer;
     };
-    if (chain && chain->heads && chain->heads->result.event &&
-        names_file(a->heads, chain->heads->written_to)) {
+    std::map<std::string, std::string> network_point_of;  // well -> adjusted point
+    const bool used_event_heads = chain && chain->heads && chain->heads->result.event &&
+                                  names_file(a->heads, chain->heads->written_to);
+    if (used_event_heads) {
       // The event's own heads at full precision, one per well.
       for (const EventHead& h : chain->heads->result.event->heads) {
         const auto it = wells.index.find(h.well);
@@ -88,9 +91,10 @@ CommandRunner add_flow_command(CLI::App& app) {
           throw InputError(a->wells,
                            fmt::format("well '{}' of the event is not in the wells table", h.well));
         }
-        if (in_aquifer(wells.wells[it->second]))
-          used.push_back({h.well, wells.wells[it->second].x, wells.wells[it->second].y, h.head,
-                          h.sigma, h.common});
+        if (!in_aquifer(wells.wells[it->second])) continue;
+        used.push_back({h.well, wells.wells[it->second].x, wells.wells[it->second].y, h.head,
+                        h.sigma, h.common});
+        network_point_of[h.well] = h.network_point;
       }
     } else {
       const Table heads = read_table(a->heads);
@@ -142,7 +146,21 @@ CommandRunner add_flow_command(CLI::App& app) {
         used.push_back({id, w.x, w.y, *h, whole, std::move(common)});
       }
     }
-    FlowResult f = estimate_flow(used, options);
+    // In the chain, wells whose measuring points are points of this chain's
+    // adjustment carry its covariance (the heads' sigmas hold the variances).
+    std::vector<HeadCovariance> covariances;
+    if (used_event_heads && chain->heads->network_from_chain && chain->adjust) {
+      std::vector<std::string> points;
+      for (const FlowWell& w : used) points.push_back(network_point_of[w.id]);
+      const std::vector<double> c = chain->adjust->covariance(points);
+      for (std::size_t i = 0; i < used.size(); ++i) {
+        for (std::size_t j = 0; j < i; ++j) {
+          const double value = c[i * used.size() + j];
+          if (std::abs(value) > 0.0) covariances.push_back({i, j, value});
+        }
+      }
+    }
+    FlowResult f = estimate_flow(used, options, covariances);
 
     OutputSet files(a->out);
     std::ostream& csv = files.open("flow_wells.csv");
@@ -175,6 +193,7 @@ CommandRunner add_flow_command(CLI::App& app) {
         {"shared_errors",
          "errors the wells share (common_error) enter the heads' covariance; "
          "one every well shares leaves the gradient untouched"},
+        {"network_covariances", covariances.size()},
         {"misfit_global_test", f.misfit_passed ? nlohmann::json{{"vtpv", f.vtpv},
                                                                 {"lower", *f.misfit_lower},
                                                                 {"upper", *f.misfit_upper},

@@ -110,7 +110,9 @@ CommandRunner add_heads_command(CLI::App& app) {
     // In the chain, the adjustment's and the epochs' own results at full
     // precision; else the files.
     NetworkHeights network;
-    if (chain && chain->adjust && names_file(a->adjusted, chain->adjust->written_to))
+    const bool network_from_chain =
+        chain && chain->adjust && names_file(a->adjusted, chain->adjust->written_to);
+    if (network_from_chain)
       network = chain->adjust->heights();
     else if (!a->adjusted.empty())
       network = read_network_heights(read_table(a->adjusted));
@@ -157,7 +159,7 @@ CommandRunner add_heads_command(CLI::App& app) {
                                       : (a->strict && failing ? exit_checks_failed : exit_ok);
     if (chain) {
       chain->heads = HeadsStage{std::move(result), options.target, series.release(),
-                                std::filesystem::path(a->out) / "event.csv"};
+                                std::filesystem::path(a->out) / "event.csv", network_from_chain};
     }
     return status;
   };

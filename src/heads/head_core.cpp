@@ -81,6 +81,7 @@ MeasuringPointHistory::GivenHeights MeasuringPointHistory::resolve_sources(
       if (it->second.sigma) given_sigma[k] = *it->second.sigma;
       datum = it->second.reference.empty() ? m.datum : it->second.reference;
       elevations_[k].source = "network:" + m.point;
+      elevations_[k].network_point = m.point;
       if (!it->second.checked) elevations_[k].flags.push_back("mp-unchecked");
       if (datum.empty()) {
         throw InputError(CellLocation{"measuring points", m.row, "datum"}, "",
@@ -244,6 +245,7 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
   at.sigma = e.sigma;
   at.sigma_relative = e.sigma_relative;
   at.common = &e.common;
+  if (!e.network_point.empty()) at.network_point = &e.network_point;
   if (e.motion) {
     // Ground movement from the levelling epochs (heads.hpp). A record that is
     // the monitored point itself swaps the epoch's sigma at its survey for the
@@ -255,6 +257,7 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
             ? std::max(at.sigma * at.sigma - e.motion_base.sigma * e.motion_base.sigma, 0.0)
             : at.sigma * at.sigma;
     at.sigma = std::sqrt(kept + now.sigma * now.sigma);
+    at.network_point = nullptr;
     // Movement is of this point alone: it adds to both.
     const double kept_relative = e.follows_point
                                      ? std::max(at.sigma_relative * at.sigma_relative -
@@ -273,6 +276,7 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
     const double f = (time - t0) / (t1 - t0);
     at.height = (1.0 - f) * e.height + f * elevations_[next].height;
     at.sigma = std::hypot((1.0 - f) * e.sigma, f * elevations_[next].sigma);
+    at.network_point = nullptr;
     at.sigma_relative =
         std::hypot((1.0 - f) * e.sigma_relative, f * elevations_[next].sigma_relative);
     at.flags.push_back("mp-interpolated");

@@ -344,12 +344,17 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
     std::optional<double> middle;
     if (well.screen_top && well.screen_bottom)
       middle = 0.5 * (*well.screen_top + *well.screen_bottom);
-    ws.event =
-        EventHead{well.id,      well.aquifer,
-                  well.nest,    reading.time_text,
-                  well.x,       well.y,
-                  *record.head, record.sigma,
-                  middle,       record.mp.common ? *record.mp.common : std::vector<CommonError>()};
+    ws.event = EventHead{well.id,
+                         well.aquifer,
+                         well.nest,
+                         reading.time_text,
+                         well.x,
+                         well.y,
+                         *record.head,
+                         record.sigma,
+                         middle,
+                         record.mp.common ? *record.mp.common : std::vector<CommonError>(),
+                         record.mp.network_point ? *record.mp.network_point : std::string()};
   }
   if (record.head && (record.contour() || record.reason == outside_event_reason))
     ws.series.emplace_back(reading.time, *record.head);

@@ -35,4 +35,23 @@ bool names_file(const std::string& option_value, const std::filesystem::path& wr
   return std::filesystem::equivalent(option_value, written_to, ec) && !ec;
 }
 
+std::vector<double> AdjustStage::covariance(const std::vector<std::string>& ids) const {
+  std::vector<std::size_t> points;
+  std::vector<std::size_t> asked;  // positions in `ids` of the points found
+  for (std::size_t k = 0; k < ids.size(); ++k) {
+    const auto it = network.point_index.find(ids[k]);
+    if (it == network.point_index.end()) continue;
+    points.push_back(it->second);
+    asked.push_back(k);
+  }
+  const std::vector<double> q = point_cofactors(network, result, points, options);
+  const double scale = result.sigma0 ? *result.sigma0 * *result.sigma0 : 1.0;
+  std::vector<double> c(ids.size() * ids.size(), 0.0);
+  for (std::size_t a = 0; a < points.size(); ++a) {
+    for (std::size_t b = 0; b < points.size(); ++b)
+      c[asked[a] * ids.size() + asked[b]] = scale * q[a * points.size() + b];
+  }
+  return c;
+}
+
 }  // namespace levelhead

@@ -36,6 +36,7 @@ struct EventHead {
   double head = 0.0, sigma = 0.0;       // m; sigma of the absolute head
   std::optional<double> screen_middle;  // m below ground
   std::vector<CommonError> common;      // the parts of sigma other heads may share
+  std::string network_point;            // the adjusted point its measuring point is; empty: none
 };
 
 // Variance of the difference of two heads (m^2): what they share cancels.

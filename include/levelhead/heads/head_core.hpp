@@ -37,6 +37,10 @@ struct MeasuringPointAt {
   // The shared errors (common_error.hpp), of the survey in force; owned by
   // the history.
   const std::vector<CommonError>* common = nullptr;
+  // The adjusted network point the height is, unmoved and not interpolated
+  // (its covariance with other points is the adjustment's); owned by the
+  // history; null otherwise.
+  const std::string* network_point = nullptr;
   bool before_first = false;       // the time precedes the first survey (the first is used)
   std::vector<std::string> flags;  // motion, interpolation and the record's own flags
 };

@@ -132,6 +132,7 @@ struct MeasuringPointElevation {
   double sigma = 0.0;               // m, of the absolute height
   double sigma_relative = 0.0;      // m, sigma without the parts in `common`
   std::vector<CommonError> common;  // errors shared with heights converted alike
+  std::string network_point;        // the adjusted point it is, for "network:ID" records
   bool sigma_known = true;
   std::string source;                       // "network:ID", "monitored:ID" or the record's datum
   const MonitoredSeries* motion = nullptr;  // the monitored point it moves with

@@ -187,4 +187,15 @@ struct AdjustmentResult {
 
 AdjustmentResult adjust(const Network& network, const AdjustmentOptions& options);
 
+// Cofactors of the adjusted heights of `points` (indices into
+// Network::points): the k x k block of N^-1 (m^2, a-priori unit weight;
+// times sigma0^2 they are covariances as AdjustedPoint::sigma is a sigma),
+// row-major, 0 for fixed points. From the final adjustment's weights,
+// removals and control, by one solve with its factor per point (a block the
+// selected inverse does not hold: points need not share a section).
+// Errors: ComputationError as adjust().
+std::vector<double> point_cofactors(const Network& network, const AdjustmentResult& result,
+                                    const std::vector<std::size_t>& points,
+                                    const AdjustmentOptions& options);
+
 }  // namespace levelhead

@@ -51,6 +51,11 @@ struct AdjustStage {
   // at full precision: sigma a posteriori (none without redundancy), the
   // reference, whether a loop checks the point.
   NetworkHeights heights() const;
+
+  // Covariances of the adjusted heights of `ids` (m^2, row-major k x k,
+  // scaled as the heights' sigmas are: by sigma0^2 with redundancy); an id
+  // not in the network has zeros.
+  std::vector<double> covariance(const std::vector<std::string>& ids) const;
 };
 
 struct GnssStage {
@@ -77,6 +82,9 @@ struct HeadsStage {
   std::string target;
   std::map<std::string, std::vector<SeriesPoint>> series;  // per well, for hydrographs
   std::filesystem::path written_to;                        // event.csv
+  // The measuring points' network heights came from this chain's adjust, so
+  // its covariance applies to them.
+  bool network_from_chain = false;
 };
 
 struct FlowStage {
