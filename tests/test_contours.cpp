@@ -58,6 +58,7 @@ TEST_CASE("contours are written to a GeoPackage layer", "[contours]") {
   const auto contours =
       quick_contours({{500000, 4400000, 10.0}, {500100, 4400000, 10.8}, {500000, 4400100, 11.6}});
   REQUIRE(contours);
-  write_contours_geopackage(*contours, "EPSG:32613", "EPSG:5703", tmp.path() / "contours.gpkg");
+  write_contours_geopackage(*contours, "EPSG:32613", "EPSG:5703", "m",
+                            tmp.path() / "contours.gpkg");
   CHECK(std::filesystem::file_size(tmp.path() / "contours.gpkg") > 0);
 }

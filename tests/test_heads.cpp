@@ -187,14 +187,21 @@ TEST_CASE("each QA flag is raised when it applies and not otherwise", "[heads][q
   CHECK_FALSE(flags(t, 0).find("below-screen-bottom") != std::string::npos);
 }
 
-TEST_CASE("a target reference in feet is refused, naming its metre sibling", "[heads][units]") {
-  // Heads are written in metres; EPSG:6360 (NAVD88 in US survey feet) would
-  // label them as feet. EPSG:5703 is the same datum in metres (EPSG dataset).
+TEST_CASE("a target reference in feet gives the metre heads in its feet", "[heads][units]") {
+  // EPSG:6360 is NAVD88 in US survey feet, EPSG:5703 the same datum in
+  // metres (EPSG dataset); 1200/3937 m per US survey foot (US Federal
+  // Register 1959).
   Site site;
-  site.options.target = "EPSG:6360";
   site.levels = "well,time,depth\nW1,2021-06-01,2.000\n";
-  CHECK_THROWS_WITH(site.run(),
-                    Contains("EPSG:6360") && Contains("US survey foot") && Contains("EPSG:5703"));
+  const Table metres = site.run();
+  site.options.target = "EPSG:6360";
+  const Table feet = site.run();
+  const double per_foot = 1200.0 / 3937.0;
+  CHECK_THAT(head(feet, 0), WithinAbs(head(metres, 0) / per_foot, 1e-4));
+  const std::size_t sigma = *feet.find_column("sigma"), depth = *feet.find_column("depth");
+  CHECK_THAT(*feet.number(0, sigma), WithinAbs(*metres.number(0, sigma) / per_foot, 1e-4));
+  CHECK_THAT(*feet.number(0, depth), WithinAbs(2.0 / per_foot, 1e-4));
+  CHECK(feet.cell(0, *feet.find_column("datum")) == "EPSG:6360");
 }
 
 TEST_CASE("a measuring point in a foot reference read as metres is refused", "[heads][units]") {

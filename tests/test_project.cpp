@@ -267,15 +267,48 @@ TEST_CASE("run --strict finishes the chain and exits 3 naming the stages that fa
       0);
 }
 
-TEST_CASE("a project whose target is in feet is refused before any stage runs", "[project]") {
+TEST_CASE("a project whose target is in feet gives the metre run's heads in those feet",
+          "[project][units]") {
+  // EPSG:6360 is NAVD88 height in US survey feet, EPSG:5703 the same datum
+  // in metres (EPSG dataset); 1200/3937 m per US survey foot (US Federal
+  // Register 1959).
   levelhead::testing::TempFolder tmp;
-  const fs::path project = demo_project(tmp.path());
-  replace_in(project, "target = \"EPSG:5703\"", "target = \"EPSG:6360\"");
-  const fs::path out = tmp.path() / "out";
-  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
-  CHECK(run.code == 1);
-  CHECK_THAT(run.err, Contains("[site] target") && Contains("EPSG:5703"));
-  CHECK_FALSE(fs::exists(out));
+  const fs::path metres = demo_project(tmp.path());
+  const fs::path feet_folder = tmp.path() / "feet";
+  fs::copy(metres.parent_path(), feet_folder);
+  const fs::path feet = feet_folder / metres.filename();
+  replace_in(feet, "target = \"EPSG:5703\"", "target = \"EPSG:6360\"");
+  for (const auto& [project, out] : {std::pair{metres, "m"}, {feet, "ft"}}) {
+    const Run run = cli({"run", project.string(), "--out", (tmp.path() / out).string(), "--quiet"});
+    INFO(run.err);
+    REQUIRE(run.code == 0);
+  }
+  const double per_foot = 1200.0 / 3937.0;
+  // Both tables round to 4 decimals: 0.5e-4 m and 0.5e-4 ft apart at most.
+  const double tolerance = 0.5e-4 + 0.5e-4 * per_foot + 1e-9;
+  for (const char* file : {"heads/heads.csv", "heads/event.csv", "heads/measuring_points.csv"}) {
+    const levelhead::Table m = levelhead::read_table(tmp.path() / "m" / file),
+                           f = levelhead::read_table(tmp.path() / "ft" / file);
+    REQUIRE(m.row_count() == f.row_count());
+    for (const char* column : {"head", "height", "sigma", "sigma_relative", "depth"}) {
+      const auto cm = m.find_column(column), cf = f.find_column(column);
+      if (!cm) continue;
+      for (std::size_t r = 0; r < m.row_count(); ++r) {
+        const auto a = m.number(r, *cm), b = f.number(r, *cf);
+        REQUIRE(a.has_value() == b.has_value());
+        INFO(file << " " << column << " row " << r);
+        if (a) CHECK_THAT(*b * per_foot, Catch::Matchers::WithinAbs(*a, tolerance));
+      }
+    }
+  }
+  const auto flow_of = [&](const char* out) {
+    return nlohmann::json::parse(read_file(tmp.path() / out / "flow" / "flow.json"));
+  };
+  CHECK_THAT(double(flow_of("ft")["gradient"]["value"]),
+             Catch::Matchers::WithinAbs(double(flow_of("m")["gradient"]["value"]), 1e-12));
+  CHECK(flow_of("ft")["heads_unit"] == "us-ft");
+  const std::string report = read_file(tmp.path() / "ft" / "report.md");
+  CHECK_THAT(report, Contains("height (US ft)") && !Contains("height (m)"));
 }
 
 TEST_CASE(

@@ -26,7 +26,7 @@ namespace levelhead::cli {
 
 namespace {
 struct FlowArguments {
-  std::string heads, wells, wells_columns, aquifer, out, crs;
+  std::string heads, wells, wells_columns, aquifer, out, crs, unit = "m";
   std::vector<double> conductivity, porosity;
   std::optional<double> distance;
   bool quiet = false;
@@ -63,8 +63,13 @@ CommandRunner add_flow_command(CLI::App& app) {
       ->expected(2);
   c->add_option("--porosity", a->porosity, "Effective porosity range LOW HIGH (0..1)")->expected(2);
   c->add_option("--distance", a->distance, "Distance for the travel time (m)");
+  c->add_option("--unit", a->unit,
+                "Unit of the heads table and of flow_wells.csv: m, ft, us-ft (in a run: the "
+                "target reference's); the gradient is the same in any")
+      ->capture_default_str();
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream&, StageResults* chain) -> int {
+    LengthUnit unit = parse_length_unit(a->unit);
     FlowOptions options;
     options.conductivity = range_option(a->conductivity, "--conductivity", 0.0, 1.0);
     options.porosity = range_option(a->porosity, "--porosity", 0.0, 1.0);
@@ -84,6 +89,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     const bool used_event_heads = chain && chain->heads && chain->heads->result.event &&
                                   names_file(a->heads, chain->heads->written_to);
     if (used_event_heads) {
+      unit = chain->heads->result.unit;
       // The event's own heads at full precision, one per well.
       for (const EventHead& h : chain->heads->result.event->heads) {
         const auto it = wells.index.find(h.well);
@@ -97,7 +103,7 @@ CommandRunner add_flow_command(CLI::App& app) {
         network_point_of[h.well] = h.network_point;
       }
     } else {
-      const Table heads = read_table(a->heads);
+      const Table heads = read_table(a->heads, TableOptions{{}, unit, {}, {}});
       const std::size_t well_col = heads.require_column("well"),
                         head_col = heads.require_column("head");
       const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");
@@ -123,7 +129,8 @@ CommandRunner add_flow_command(CLI::App& app) {
         const double sigma = sigma_col ? heads.sigma(r, *sigma_col).value_or(0.0) : 0.0;
         std::vector<CommonError> common;
         if (common_col) {
-          const auto parsed = parse_common_errors(heads.cell(r, *common_col));
+          const auto parsed =
+              parse_common_errors(heads.cell(r, *common_col), metres_per_unit(unit));
           if (!parsed) {
             throw InputError(heads.location(r, *common_col),
                              std::string(heads.cell(r, *common_col)),
@@ -162,6 +169,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     }
     FlowResult f = estimate_flow(used, options, covariances);
 
+    const double per_metre = 1.0 / metres_per_unit(unit);
     OutputSet files(a->out);
     std::ostream& csv = files.open("flow_wells.csv");
     csv << "well,x,y,head,sigma,residual,tau,off_plane\n";
@@ -169,7 +177,8 @@ CommandRunner add_flow_command(CLI::App& app) {
       const bool off = std::find(f.off_plane.begin(), f.off_plane.end(), i) != f.off_plane.end();
       csv << csv_cell(used[i].id)
           << fmt::format(",{:.3f},{:.3f},{:.4f},{:.4f},{:+.4f},", used[i].x, used[i].y,
-                         used[i].head, used[i].sigma, f.residuals[i])
+                         used[i].head * per_metre, used[i].sigma * per_metre,
+                         f.residuals[i] * per_metre)
           << (f.tau[i] ? fmt::format("{:+.3f}", *f.tau[i]) : "") << ',' << (off ? "yes" : "no")
           << '\n';
     }
@@ -177,6 +186,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     j["levelhead_version"] = version_string();
     j["command"] = "flow";
     j["wells"] = used.size();
+    j["heads_unit"] = to_string(unit);
     j["aquifer"] = a->aquifer;
     const auto sigmas_json = [](const std::optional<FlowSigmas>& s) {
       return s ? nlohmann::json{{"gradient", s->gradient}, {"azimuth", s->azimuth}}

@@ -82,7 +82,13 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     // id -> levelled height and sigma (m): the adjustment's own result in
     // the chain, else the table.
     std::unordered_map<std::string, std::pair<double, double>> levelled;
+    // The adjusted heights are in the adjustment's own reference, whatever
+    // reference the heads of the run are written in.
+    std::string levelled_ref = a->levelled_ref;
     if (chain && chain->adjust && names_file(a->levelled, chain->adjust->written_to)) {
+      if (!chain->adjust->result.reference.empty() &&
+          chain->adjust->result.reference.rfind("free adjustment", 0) != 0)
+        levelled_ref = chain->adjust->result.reference;
       for (const auto& [id, h] : chain->adjust->heights())
         levelled.emplace(id, std::pair{h.height, h.sigma.value_or(0.0)});
     } else {
@@ -129,13 +135,13 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     const ReferenceSet references = a->refs.load();
     // Heights labelled with a reference in feet must come from a table in feet.
     for (const auto& [option, reference, table_unit] :
-         {std::tuple{"--levelled-ref", a->levelled_ref, levelled_unit},
+         {std::tuple{"--levelled-ref", levelled_ref, levelled_unit},
           std::tuple{"--gnss-ref", a->gnss_ref, unit}}) {
       const HeightUnit own = reference_height_unit(reference, references);
       if (const auto problem = table_unit_mismatch(own, reference, table_unit))
         throw OptionError(fmt::format("{}: {}", option, *problem));
     }
-    HeightConverter converter(a->gnss_ref, a->levelled_ref, a->crs, references, settings);
+    HeightConverter converter(a->gnss_ref, levelled_ref, a->crs, references, settings);
     const std::vector<ConvertedHeight> converted = converter.convert(points, heights);
     for (std::size_t i = 0; i < marks.size(); ++i) {
       if (!converted[i].height) {
@@ -168,7 +174,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     summary["levelhead_version"] = version_string();
     summary["command"] = "gnss-check";
     summary["units"] = "m";
-    summary["levelled_reference"] = a->levelled_ref;
+    summary["levelled_reference"] = levelled_ref;
     summary["gnss_reference"] = a->gnss_ref;
     summary["tolerance"] = a->options.tolerance;
     summary["outlier_test"] = outlier_test_json(result.fit, result.alpha0);
@@ -196,7 +202,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     }
     const bool all_consistent = counts["consistent"] == marks.size();
     if (chain) {
-      chain->gnss = GnssStage{std::move(marks), std::move(result), a->gnss_ref, a->levelled_ref};
+      chain->gnss = GnssStage{std::move(marks), std::move(result), a->gnss_ref, levelled_ref};
     }
     return a->strict && !all_consistent ? exit_checks_failed : exit_ok;
   };

@@ -310,7 +310,9 @@ Project parse_project(std::string_view text, const fs::path& file) {
         if (key == "contour_interval") {
           const auto v = rnode.value<double>();
           if (!v || !(*v > 0.0))
-            throw InputError(where(p, rnode), "'contour_interval' must be a number of metres > 0");
+            throw InputError(
+                where(p, rnode),
+                "'contour_interval' must be a number > 0 (in the unit of the target reference)");
           p.contour_interval = *v;
         } else {
           p.report[key] = text_value(p, rnode, key);

@@ -122,7 +122,7 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
     const ReferenceSet references =
         project.references.empty() ? ReferenceSet{} : ReferenceSet::load(project.references);
     try {
-      require_metric_target(project.target, references);
+      target_length_unit(project.target, references);
     } catch (const ReferenceError& e) {
       throw ReferenceError(fmt::format("{} [site] target: {}", project.file.string(), e.what()));
     }

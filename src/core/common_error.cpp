@@ -23,16 +23,17 @@ double total_variance(const std::vector<CommonError>& parts) {
   return sum;
 }
 
-std::string format_common_errors(const std::vector<CommonError>& parts) {
+std::string format_common_errors(const std::vector<CommonError>& parts, double per_metre) {
   std::string text;
   for (const CommonError& p : parts) {
     if (!text.empty()) text += "; ";
-    text += fmt::format("{}={:.4f}", p.source, std::sqrt(p.variance));
+    text += fmt::format("{}={:.4f}", p.source, std::sqrt(p.variance) * per_metre);
   }
   return text;
 }
 
-std::optional<std::vector<CommonError>> parse_common_errors(std::string_view text) {
+std::optional<std::vector<CommonError>> parse_common_errors(std::string_view text,
+                                                            double metres_per_unit) {
   std::vector<CommonError> parts;
   while (!text.empty()) {
     const std::size_t end = text.find("; ");
@@ -44,6 +45,7 @@ std::optional<std::vector<CommonError>> parse_common_errors(std::string_view tex
     const auto [rest, error] = std::from_chars(number.data(), number.data() + number.size(), sigma);
     if (error != std::errc() || rest != number.data() + number.size() || !(sigma >= 0.0))
       return std::nullopt;
+    sigma *= metres_per_unit;
     parts.push_back({std::string(item.substr(0, equals)), sigma * sigma});
     text = end == std::string_view::npos ? std::string_view() : text.substr(end + 2);
   }

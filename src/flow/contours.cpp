@@ -147,7 +147,8 @@ std::optional<QuickContours> quick_contours(const std::vector<HeadAtWell>& heads
 }
 
 void write_contours_geopackage(const QuickContours& contours, const std::string& crs,
-                               const std::string& reference, const std::filesystem::path& path) {
+                               const std::string& reference, const std::string& unit,
+                               const std::filesystem::path& path) {
   GDALAllRegister();
   CPLSetThreadLocalConfigOption("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");  // reproducible
   Dataset gpkg(GDALCreate(GDALGetDriverByName("GPKG"), path.string().c_str(), 0, 0, 0, GDT_Unknown,
@@ -168,8 +169,9 @@ void write_contours_geopackage(const QuickContours& contours, const std::string&
     OGR_Fld_Destroy(field);
   }
   GDALSetMetadataItem(gpkg.get(), "VERTICAL_REFERENCE", reference.c_str(), nullptr);
-  GDALSetMetadataItem(gpkg.get(), "CONTOUR_INTERVAL_M",
-                      fmt::format("{}", contours.interval).c_str(), nullptr);
+  GDALSetMetadataItem(gpkg.get(), "HEIGHT_UNIT", unit.c_str(), nullptr);
+  GDALSetMetadataItem(gpkg.get(), "CONTOUR_INTERVAL", fmt::format("{}", contours.interval).c_str(),
+                      nullptr);
   if (OGR_L_StartTransaction(layer) != OGRERR_NONE) {
     throw OutputError("cannot start writing contours.gpkg: " + std::string(CPLGetLastErrorMsg()));
   }

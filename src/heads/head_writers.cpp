@@ -17,8 +17,8 @@
 namespace levelhead {
 
 HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
-                               const std::string& target, bool has_event)
-    : out_(out), target_cell_(csv_cell(target)), has_event_(has_event) {
+                               const std::string& target, bool has_event, double per_metre)
+    : out_(out), target_cell_(csv_cell(target)), has_event_(has_event), k_(per_metre) {
   for (const MeasuringPointElevation& e : history.elevations()) {
     source_cells_.push_back(csv_cell(e.source));
     transform_cells_.push_back(csv_cell(e.transform));
@@ -39,19 +39,19 @@ void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const 
   append_csv_cell(row_, reading.time_text);
   row_ += ',';
   if (r.head)
-    fmt::format_to(to, "{:.4f},{:.4f}", *r.head, r.sigma);
+    fmt::format_to(to, "{:.4f},{:.4f}", *r.head * k_, r.sigma * k_);
   else
     row_ += ',';
   row_ += ',';
   row_ += target_cell_;
   row_ += ',';
-  if (r.head) fmt::format_to(to, "{:.4f}", r.sigma_relative);
+  if (r.head) fmt::format_to(to, "{:.4f}", r.sigma_relative * k_);
   row_ += ',';
   row_ += format_utc(reading.time);
-  fmt::format_to(to, ",{:.4f},{:.4f},", r.mp.height, r.mp.sigma);
+  fmt::format_to(to, ",{:.4f},{:.4f},", r.mp.height * k_, r.mp.sigma * k_);
   row_ += source_cells_[r.mp.record];
   row_ += ',';
-  if (reading.level.depth) fmt::format_to(to, "{:.4f}", *reading.level.depth);
+  if (reading.level.depth) fmt::format_to(to, "{:.4f}", *reading.level.depth * k_);
   row_ += ',';
   append_csv_cell(row_, r.state);
   row_ += ',';
@@ -65,16 +65,16 @@ void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const 
   row_ += ',';
   if (r.density) fmt::format_to(to, "{:.2f}", *r.density);
   row_ += ',';
-  if (r.freshwater_head) fmt::format_to(to, "{:.4f}", *r.freshwater_head);
+  if (r.freshwater_head) fmt::format_to(to, "{:.4f}", *r.freshwater_head * k_);
   row_ += ',';
-  if (r.environmental_head) fmt::format_to(to, "{:.4f}", *r.environmental_head);
+  if (r.environmental_head) fmt::format_to(to, "{:.4f}", *r.environmental_head * k_);
   row_ += '\n';
   out_.write(row_.data(), static_cast<std::streamsize>(row_.size()));
 }
 
 HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
-                                 const std::string& target, bool has_event)
-    : target_(target), has_event_(has_event) {
+                                 const std::string& target, bool has_event, LengthUnit unit)
+    : target_(target), has_event_(has_event), k_(1.0 / metres_per_unit(unit)) {
   GDALAllRegister();
   CPLSetThreadLocalConfigOption("OGR_CURRENT_DATE", "2000-01-01T00:00:00.000Z");  // reproducible
   dataset_ =
@@ -107,7 +107,7 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
     OGR_Fld_Destroy(field);
   }
   GDALSetMetadataItem(layer_, "VERTICAL_REFERENCE", target.c_str(), nullptr);
-  GDALSetMetadataItem(layer_, "HEIGHT_UNIT", "metre", nullptr);
+  GDALSetMetadataItem(layer_, "HEIGHT_UNIT", to_string(unit).c_str(), nullptr);
   GDALSetMetadataItem(layer_, "PRODUCER", version_string().c_str(), nullptr);
   GDALDatasetStartTransaction(dataset_, 1);
 }
@@ -122,12 +122,12 @@ void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const
   OGR_F_SetFieldString(f, 1, reading.time_text.c_str());
   OGR_F_SetFieldString(f, 2, format_utc(reading.time).c_str());
   if (r.head) {
-    OGR_F_SetFieldDouble(f, 3, *r.head);
-    OGR_F_SetFieldDouble(f, 4, r.sigma);
-    OGR_F_SetFieldDouble(f, 5, r.sigma_relative);
+    OGR_F_SetFieldDouble(f, 3, *r.head * k_);
+    OGR_F_SetFieldDouble(f, 4, r.sigma * k_);
+    OGR_F_SetFieldDouble(f, 5, r.sigma_relative * k_);
   }
   OGR_F_SetFieldString(f, 6, target_.c_str());
-  OGR_F_SetFieldDouble(f, 7, r.mp.height);
+  OGR_F_SetFieldDouble(f, 7, r.mp.height * k_);
   OGR_F_SetFieldString(f, 8, r.state.c_str());
   OGR_F_SetFieldString(f, 9, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
   OGR_F_SetFieldString(f, 10, r.contour() ? "yes" : "no");

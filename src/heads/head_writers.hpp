@@ -9,22 +9,25 @@
 #include <string>
 #include <vector>
 
+#include "levelhead/core/units.hpp"
 #include "levelhead/heads/head_core.hpp"
 
 namespace levelhead {
 
 // heads.csv (columns in docs/formats.md); `has_event`: whether the run has a
-// synoptic event (else `in_event` stays empty).
+// synoptic event (else `in_event` stays empty); lengths in the target's unit,
+// `per_metre` of them in a metre.
 class HeadsCsvWriter final : public HeadSink {
  public:
   HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history, const std::string& target,
-                 bool has_event);
+                 bool has_event, double per_metre);
   void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) override;
 
  private:
   std::ostream& out_;
   std::string target_cell_, row_;
   bool has_event_;
+  double k_;                                                 // per metre
   std::vector<std::string> source_cells_, transform_cells_;  // per measuring-point record
 };
 
@@ -34,7 +37,7 @@ class HeadsCsvWriter final : public HeadSink {
 class HeadsGpkgWriter final : public HeadSink {
  public:
   HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
-                  const std::string& target, bool has_event);
+                  const std::string& target, bool has_event, LengthUnit unit);
   ~HeadsGpkgWriter() override;
   HeadsGpkgWriter(const HeadsGpkgWriter&) = delete;
   HeadsGpkgWriter& operator=(const HeadsGpkgWriter&) = delete;
@@ -47,6 +50,7 @@ class HeadsGpkgWriter final : public HeadSink {
   OGRLayerH layer_ = nullptr;
   std::string target_;
   bool has_event_;
+  double k_;  // per metre
 };
 
 }  // namespace levelhead

@@ -77,16 +77,13 @@ bool read_checked(const Table& t, std::size_t row, std::size_t column) {
 
 }  // namespace
 
-void require_metric_target(const std::string& target, const ReferenceSet& references) {
+LengthUnit target_length_unit(const std::string& target, const ReferenceSet& references) {
   const HeightUnit unit = reference_height_unit(target, references);
-  if (unit.metric()) return;
-  throw ReferenceError(fmt::format(
-      "the target reference '{}' measures heights in {}; heads are computed and written in "
-      "metres and would be mislabelled with it. Give {} as the target and convert the unit for "
-      "display",
-      target, unit.name,
-      unit.metre_equivalent.empty() ? std::string("the metre CRS of the same datum")
-                                    : unit.metre_equivalent + " (the same datum in metres)"));
+  if (const auto known = length_unit_of(unit.metres_per_unit)) return *known;
+  throw ReferenceError(
+      fmt::format("the target reference '{}' measures heights in {}; heads are written in metres, "
+                  "international feet or US survey feet: give a target in one of them",
+                  target, unit.name));
 }
 
 NetworkHeights read_network_heights(const Table& t) {
@@ -264,19 +261,20 @@ std::vector<MeasuringPointSurvey> measuring_point_surveys(const MeasuringPointHi
   return surveys;
 }
 
+// Lengths in the target's unit: `per_metre` of them in a metre.
 void write_measuring_points(std::ostream& mp_csv, const std::vector<MeasuringPointSurvey>& surveys,
-                            const std::string& target) {
+                            const std::string& target, double per_metre) {
   mp_csv << "well,valid_from,height,sigma,reference,sigma_relative,common,source,method,reason,"
             "transform,flags,row,given_height,given_datum\n";
   for (const MeasuringPointSurvey& e : surveys) {
     const MeasuringPointRecord& m = e.record;
     mp_csv << csv_cell(m.well) << ',' << csv_cell(m.valid_from_text) << ','
-           << fmt::format("{:.4f},{:.4f}", e.height, e.sigma) << ',' << csv_cell(target) << ','
-           << fmt::format("{:.4f}", e.sigma_relative) << ','
-           << csv_cell(format_common_errors(e.common)) << ',' << csv_cell(e.source) << ','
-           << csv_cell(m.method) << ',' << csv_cell(m.reason) << ',' << csv_cell(e.transform) << ','
-           << csv_cell(fmt::format("{}", fmt::join(e.flags, " "))) << ',' << m.row << ','
-           << (m.height ? fmt::format("{:.4f}", *m.height) : std::string()) << ','
+           << fmt::format("{:.4f},{:.4f}", e.height * per_metre, e.sigma * per_metre) << ','
+           << csv_cell(target) << ',' << fmt::format("{:.4f}", e.sigma_relative * per_metre) << ','
+           << csv_cell(format_common_errors(e.common, per_metre)) << ',' << csv_cell(e.source)
+           << ',' << csv_cell(m.method) << ',' << csv_cell(m.reason) << ',' << csv_cell(e.transform)
+           << ',' << csv_cell(fmt::format("{}", fmt::join(e.flags, " "))) << ',' << m.row << ','
+           << (m.height ? fmt::format("{:.4f}", *m.height * per_metre) : std::string()) << ','
            << csv_cell(m.height ? m.datum : std::string()) << '\n';
   }
 }
@@ -412,7 +410,8 @@ HeadEvent synoptic_event(const WellSet& wells, const std::vector<WellState>& sta
 }
 
 // event.csv, nests.csv and remeasure.csv; returns the event's part of summary.json.
-nlohmann::json write_event(const HeadEvent& event, OutputSet& out) {
+nlohmann::json write_event(const HeadEvent& event, OutputSet& out, double per_metre) {
+  const double k = per_metre;
   std::ostream& ev = out.open("event.csv");
   ev << "well,time,head,sigma,sigma_relative,common,aquifer,nest,prediction,misfit,flags\n";
   for (std::size_t i = 0; i < event.heads.size(); ++i) {
@@ -420,17 +419,17 @@ nlohmann::json write_event(const HeadEvent& event, OutputSet& out) {
     const EventCheck& c = event.checks.wells[i];
     const double relative = std::sqrt(std::max(h.sigma * h.sigma - total_variance(h.common), 0.0));
     ev << csv_cell(h.well) << ',' << csv_cell(h.time) << ','
-       << fmt::format("{:.4f},{:.4f},{:.4f}", h.head, h.sigma, relative) << ','
-       << csv_cell(format_common_errors(h.common)) << ',' << csv_cell(h.aquifer) << ','
-       << csv_cell(h.nest) << ',' << (c.prediction ? fmt::format("{:.4f}", *c.prediction) : "")
-       << ',' << (c.misfit ? fmt::format("{:+.4f}", *c.misfit) : "") << ','
+       << fmt::format("{:.4f},{:.4f},{:.4f}", h.head * k, h.sigma * k, relative * k) << ','
+       << csv_cell(format_common_errors(h.common, k)) << ',' << csv_cell(h.aquifer) << ','
+       << csv_cell(h.nest) << ',' << (c.prediction ? fmt::format("{:.4f}", *c.prediction * k) : "")
+       << ',' << (c.misfit ? fmt::format("{:+.4f}", *c.misfit * k) : "") << ','
        << csv_cell(fmt::format("{}", fmt::join(c.flags, " "))) << '\n';
   }
   std::ostream& nests = out.open("nests.csv");
   nests << "nest,shallow,deep,dh,sigma,direction,significant\n";
   for (const NestPair& n : event.checks.nests) {
     nests << csv_cell(n.nest) << ',' << csv_cell(n.shallow) << ',' << csv_cell(n.deep) << ','
-          << fmt::format("{:+.4f},{:.4f}", n.dh, n.sigma) << ',' << n.direction << ','
+          << fmt::format("{:+.4f},{:.4f}", n.dh * k, n.sigma * k) << ',' << n.direction << ','
           << (n.significant ? "yes" : "no") << '\n';
   }
   std::ostream& rm = out.open("remeasure.csv");
@@ -453,7 +452,8 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
                           const TableOptions& levels_table, const std::filesystem::path& folder,
                           bool geopackage, const std::vector<HeadSink*>& more_sinks) {
   options.validate();
-  require_metric_target(options.target, references);
+  const LengthUnit unit = target_length_unit(options.target, references);
+  const double per_metre = 1.0 / metres_per_unit(unit);
   // 1. Every measuring point in the target reference, and its history.
   const MeasuringPointHistory history(wells, records, network, monitored, references, settings,
                                       options);
@@ -461,15 +461,18 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   result.measuring_points = measuring_point_surveys(history, wells.wells.size());
   result.measuring_point_qa = history.qa();
   OutputSet out(folder);
-  write_measuring_points(out.open("measuring_points.csv"), result.measuring_points, options.target);
+  result.unit = unit;
+  write_measuring_points(out.open("measuring_points.csv"), result.measuring_points, options.target,
+                         per_metre);
   std::optional<HeadsGpkgWriter> gpkg;
   if (geopackage)
-    gpkg.emplace(out.reserve("heads.gpkg"), options.crs, options.target, options.event.has_value());
+    gpkg.emplace(out.reserve("heads.gpkg"), options.crs, options.target, options.event.has_value(),
+                 unit);
   std::ostream& qa_csv = out.open("qa.csv");
   qa_csv << "table,row,well,time,flag,detail\n";
   for (const QaEntry& e : history.qa()) write_qa(qa_csv, e);
   HeadsCsvWriter heads_csv(out.open("heads.csv"), history, options.target,
-                           options.event.has_value());
+                           options.event.has_value(), per_metre);
   std::vector<HeadSink*> sinks = {&heads_csv};
   if (gpkg) sinks.push_back(&*gpkg);
   sinks.insert(sinks.end(), more_sinks.begin(), more_sinks.end());
@@ -516,7 +519,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   if (options.event) {
     result.event = synoptic_event(wells, state, history_departures, *options.event);
     summary.remeasure = result.event->remeasure.size();
-    event_summary = write_event(*result.event, out);
+    event_summary = write_event(*result.event, out, per_metre);
     event_summary["window_hours"] = options.synoptic_window_hours;
     event_summary["readings_in_window"] = summary.in_event;
   }
@@ -526,7 +529,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   s["levelhead_version"] = version_string();
   s["command"] = "heads";
   s["target_reference"] = options.target;
-  s["units"] = "m";
+  s["units"] = to_string(unit);
   s["time_rule"] = "times with a zone are converted to UTC; times without one are read as UTC";
   s["counts"] = {{"readings", summary.readings}, {"heads", summary.heads},
                  {"states", summary.states},     {"contourable", summary.contourable},

@@ -269,22 +269,25 @@ void heads_section(Document& doc, const ReportContext& c, const StageResults& re
   if (!results.heads) return;
   const HeadsStage& heads = *results.heads;
   const HeadsSummary& s = heads.result.summary;
+  const HeightDisplay display = height_display(heads.result.unit);
   doc.heading(2, "Measuring points");
   doc.paragraph(fmt::format("Every measuring-point survey brought into {}:", heads.target));
   std::vector<std::vector<std::string>> rows;
   for (const MeasuringPointSurvey& m : heads.result.measuring_points) {
-    rows.push_back({m.record.well, m.record.valid_from_text, fixed(m.height, 4), fixed(m.sigma, 4),
-                    m.source, m.record.reason, fmt::format("{}", fmt::join(m.flags, " "))});
+    rows.push_back({m.record.well, m.record.valid_from_text, fixed(m.height * display.per_metre, 4),
+                    fixed(m.sigma * display.per_metre, 4), m.source, m.record.reason,
+                    fmt::format("{}", fmt::join(m.flags, " "))});
   }
-  doc.table({"well", "valid from", "height (m)", "sigma (m)", "source", "reason", "flags"}, rows,
-            200);
+  doc.table({"well", "valid from", fmt::format("height ({})", display.unit),
+             fmt::format("sigma ({})", display.unit), "source", "reason", "flags"},
+            rows, 200);
 
   doc.heading(2, "Heads");
   doc.paragraph(fmt::format("{} readings, {} heads in {}, {} ready for contouring.", s.readings,
                             s.heads, heads.target, s.contourable));
   const FlowStage* flow = results.flow ? &*results.flow : nullptr;
   if (heads.result.event) {
-    if (auto map = head_map(*heads.result.event, flow, c.contour_interval, contours)) {
+    if (auto map = head_map(*heads.result.event, flow, c.contour_interval, contours, display)) {
       doc.figure(
           "heads", *map,
           "Heads of the synoptic round, one per well (colour) of the aquifer the flow fit "
@@ -294,7 +297,7 @@ void heads_section(Document& doc, const ReportContext& c, const StageResults& re
     }
   }
   if (flow) flow_table(doc, *flow);
-  if (auto figure = hydrographs(heads.series, heads.result.measuring_points)) {
+  if (auto figure = hydrographs(heads.series, heads.result.measuring_points, display)) {
     doc.figure("hydrographs", *figure,
                "Heads over time per well; dashed red lines mark measuring-point changes.");
   }
@@ -480,7 +483,9 @@ void write_report(const ReportContext& c, const StageResults& results,
   }
   out.open("run.json") << util::json_text(record) << '\n';
   if (contours && !c.crs.empty())
-    write_contours_geopackage(*contours, c.crs, c.target, out.reserve("contours.gpkg"));
+    write_contours_geopackage(*contours, c.crs, c.target,
+                              results.heads ? to_string(results.heads->result.unit) : "m",
+                              out.reserve("contours.gpkg"));
   out.commit();
 }
 

@@ -105,9 +105,15 @@ Svg loop_chart(const LoopResult& loops) {
 
 // Heads of the contouring round: wells coloured by head, quick-look
 // contours, the flow arrow.
+HeightDisplay height_display(LengthUnit unit) {
+  return {1.0 / metres_per_unit(unit), unit == LengthUnit::metre            ? "m"
+                                       : unit == LengthUnit::us_survey_foot ? "US ft"
+                                                                            : "ft"};
+}
+
 std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
-                            std::optional<double> interval,
-                            std::optional<QuickContours>& contours) {
+                            std::optional<double> interval, std::optional<QuickContours>& contours,
+                            const HeightDisplay& display) {
   struct Shown {
     PlacedPoint at;
     double head;
@@ -119,7 +125,7 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
   Bounds b;
   for (const EventHead& h : event.heads) {
     auto& list = aquifer.empty() || h.aquifer == aquifer ? shown : other_aquifers;
-    list.push_back({{h.x, h.y}, h.head, h.well});
+    list.push_back({{h.x, h.y}, h.head * display.per_metre, h.well});
     b.add(h.x, h.y);
   }
   if (shown.size() < 2) return std::nullopt;
@@ -203,12 +209,12 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
     svg.rect(640, 80 + 20 * (10 - i), 20, 20, report::ramp_colour(v, low, high),
              Stroke{"#555555", 0.5});
   }
-  svg.text(665, 95, fixed(high, 2) + " m", 10);
-  svg.text(665, 295, fixed(low, 2) + " m", 10);
+  svg.text(665, 95, fixed(high, 2) + " " + display.unit, 10);
+  svg.text(665, 295, fixed(low, 2) + " " + display.unit, 10);
   svg.text(640, 70, "head", 10, "start", "#222222", true);
   if (contours) {
     svg.line(640, 315, 670, 315, Stroke{"#5d6d7e", 1.0, "5 2"});
-    svg.text(675, 319, fmt::format("contours, {:g} m", contours->interval), 10);
+    svg.text(675, 319, fmt::format("contours, {:g} {}", contours->interval, display.unit), 10);
   }
   if (!aquifer.empty()) svg.text(640, 50, aquifer, 10, "start", "#222222", true);
   if (!other_aquifers.empty()) {
@@ -222,12 +228,14 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
 
 // Heads over time per well, measuring-point changes as vertical lines.
 std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoint>>& heads,
-                               const std::vector<MeasuringPointSurvey>& surveys) {
+                               const std::vector<MeasuringPointSurvey>& surveys,
+                               const HeightDisplay& display) {
   std::map<std::string, std::vector<SeriesPoint>> series;
   double t0 = INFINITY, t1 = -INFINITY;
   for (const auto& [well, points] : heads) {
     if (points.empty()) continue;
     series[well] = points;
+    for (SeriesPoint& p : series[well]) p.head *= display.per_metre;
     for (const SeriesPoint& p : points) {
       t0 = std::min(t0, p.time);
       t1 = std::max(t1, p.time);
@@ -281,8 +289,9 @@ std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoi
   svg.text(
       10, static_cast<double>(rows) * cell_h + 5,
       fmt::format(
-          "{} to {}; dashed: measuring point changed; open red: not for contouring (pumping, ...)",
-          format_utc(t0).substr(0, 10), format_utc(t1).substr(0, 10)),
+          "{} to {}; heads in {}; dashed: measuring point changed; open red: not for contouring "
+          "(pumping, ...)",
+          format_utc(t0).substr(0, 10), format_utc(t1).substr(0, 10), display.unit),
       9);
   return svg;
 }

@@ -38,14 +38,23 @@ std::optional<Svg> network_map(const AdjustStage& adjust, const LoopsStage* loop
 // Bars of |misclosure| / tolerance per loop, the limit at 1.
 Svg loop_chart(const LoopResult& loops);
 
+// Heights shown in the heads' unit (the target reference's).
+struct HeightDisplay {
+  double per_metre = 1.0;
+  std::string unit = "m";
+};
+HeightDisplay height_display(LengthUnit unit);
+
 // Heads of the contouring round: wells coloured by head, quick-look
-// contours, the flow arrow.
+// contours (interval and levels in the display unit), the flow arrow.
 std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
-                            std::optional<double> interval, std::optional<QuickContours>& contours);
+                            std::optional<double> interval, std::optional<QuickContours>& contours,
+                            const HeightDisplay& display);
 
 // Heads over time per well, measuring-point changes as vertical lines.
 std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoint>>& heads,
-                               const std::vector<MeasuringPointSurvey>& surveys);
+                               const std::vector<MeasuringPointSurvey>& surveys,
+                               const HeightDisplay& display);
 
 // Displacements since the first epoch to the last, with their confidence
 // intervals (epochs has at least one epoch).

@@ -30,10 +30,12 @@ double shared_covariance(const std::vector<CommonError>& a, const std::vector<Co
 // Sum of the variances of `parts` (m^2).
 double total_variance(const std::vector<CommonError>& parts);
 
-// As a table cell: "SOURCE=SIGMA; SOURCE=SIGMA" with sigmas in m to 0.1 mm
-// (0.0000 m kept: the part is shared though tiny); empty for none.
-std::string format_common_errors(const std::vector<CommonError>& parts);
-// The cell read back; nothing when it is not in that form.
-std::optional<std::vector<CommonError>> parse_common_errors(std::string_view text);
+// As a table cell: "SOURCE=SIGMA; SOURCE=SIGMA" with sigmas in the table's
+// unit (`per_metre` of them in a metre) to 4 decimals; empty for none.
+std::string format_common_errors(const std::vector<CommonError>& parts, double per_metre = 1.0);
+// The cell read back into metres (`metres_per_unit` of the table); nothing
+// when it is not in that form.
+std::optional<std::vector<CommonError>> parse_common_errors(std::string_view text,
+                                                            double metres_per_unit = 1.0);
 
 }  // namespace levelhead

@@ -35,7 +35,7 @@ struct ContourLine {
 };
 
 struct QuickContours {
-  double interval = 0.0;  // m
+  double interval = 0.0;  // in the heads' unit
   double cell = 0.0;      // m, grid spacing
   std::vector<ContourLine> lines;
 };
@@ -43,10 +43,11 @@ struct QuickContours {
 std::optional<QuickContours> quick_contours(const std::vector<HeadAtWell>& heads,
                                             std::optional<double> interval = std::nullopt);
 
-// One line layer `contours` with `level` (m) and `reference` (the vertical
-// reference of the levels) in `crs`. Written to `path` (a temporary name of
-// an OutputSet: the caller commits).
+// One line layer `contours` with `level` (in `unit`, "m", "ft" or "us-ft")
+// and `reference` (the vertical reference of the levels) in `crs`. Written
+// to `path` (a temporary name of an OutputSet: the caller commits).
 void write_contours_geopackage(const QuickContours& contours, const std::string& crs,
-                               const std::string& reference, const std::filesystem::path& path);
+                               const std::string& reference, const std::string& unit,
+                               const std::filesystem::path& path);
 
 }  // namespace levelhead

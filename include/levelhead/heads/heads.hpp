@@ -77,10 +77,10 @@ struct NetworkHeight {
 };
 using NetworkHeights = std::unordered_map<std::string, NetworkHeight>;
 
-// Heads, their sigmas and the gradient downstream are in metres: a target
-// whose heights are in feet (EPSG:6360) would label metres as feet. Throws
-// ReferenceError naming the same datum in metres when PROJ knows one.
-void require_metric_target(const std::string& target, const ReferenceSet& references);
+// The unit heads are written in: that of the target reference (EPSG:6360 is
+// in US survey feet; a reference of our own in metres). Inside, heads stay
+// in metres. Throws ReferenceError for a target in any other unit.
+LengthUnit target_length_unit(const std::string& target, const ReferenceSet& references);
 
 // heights.csv of `levelhead adjust`: id, height, sigma, reference, and
 // optionally checked (yes/no; without the column every height counts as
@@ -185,6 +185,7 @@ struct HeadsResult {
   std::vector<MeasuringPointSurvey> measuring_points;  // per well in wells order, by valid_from
   std::vector<QaEntry> measuring_point_qa;  // of the records (mp-unchecked, mp-changed, ...)
   std::optional<HeadEvent> event;           // with options.event
+  LengthUnit unit = LengthUnit::metre;  // of the tables written (the target's); values here in m
 };
 
 class HeadSink;  // head_core.hpp

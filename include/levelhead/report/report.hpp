@@ -46,7 +46,7 @@ struct ReportContext {
   std::vector<ReportSetting> settings;       // differing from the commands' defaults
   std::vector<std::string> stages;           // that ran, in order
   std::vector<std::filesystem::path> grids;  // grid files named by the references
-  std::optional<double> contour_interval;    // m; default: about eight levels over the heads
+  std::optional<double> contour_interval;    // in the heads' unit; default: about eight levels
   std::string run_time;                      // the one line that changes run to run
 };
 
