@@ -217,11 +217,11 @@ TEST_CASE("the report is built from the stages' results alone, with no stage out
   write_report(context, results, chain_findings(results), run);
 
   const std::string report = testing::read_file(run / "report.md");
-  for (const char* part :
-       {"## Levelling network", "### Loop misclosures", "### Adjustment",
-        "Adjusted heights (m):", "## GNSS heights against the levelling", "## Monitoring epochs",
-        "## Pressure transducers", "## Measuring points", "## Heads", "hydraulic gradient (m/m)",
-        "## QA flags and re-measure list", "Blunder: the section"}) {
+  for (const char* part : {"## Levelling network", "### Loop misclosures", "### Adjustment",
+                           "Adjusted heights (m):", "## GNSS heights against the levelling",
+                           "## Monitoring epochs", "## Pressure transducers", "## Measuring points",
+                           "## Heads", "hydraulic gradient (m/m, dimensionless)",
+                           "## QA flags and re-measure list", "Blunder: the section"}) {
     INFO(part);
     CHECK(report.find(part) != std::string::npos);
   }

@@ -59,6 +59,10 @@ std::string to_string(LengthUnit unit) {
   throw std::logic_error("unhandled LengthUnit");
 }
 
+std::string unit_label(LengthUnit unit) {
+  return unit == LengthUnit::us_survey_foot ? "US ft" : to_string(unit);
+}
+
 std::optional<LengthUnit> length_unit_of(double metres) {
   // The three definitions differ by far more than the 1e-12 of rounding.
   for (const LengthUnit unit :

@@ -293,17 +293,21 @@ void transducer_findings(const TransducerStage& t, FindingList& out) {
 
 void measuring_point_findings(const HeadsStage& heads, FindingList& out) {
   const std::vector<MeasuringPointSurvey>& surveys = heads.result.measuring_points;
+  // In the heads' unit, as their tables.
+  const double k_unit = 1.0 / metres_per_unit(heads.result.unit);
+  const std::string unit = unit_label(heads.result.unit);
   for (std::size_t k = 0; k < surveys.size(); ++k) {
     const MeasuringPointRecord& r = surveys[k].record;
     if (!r.starts_new_series()) continue;
     const bool has_before = k > 0 && surveys[k - 1].record.well == r.well;
     out.add("heads", "mp-change", FindingLevel::information,
-            fmt::format("Measuring point of {} changed on {} ({}): now {:.4f} m{}; heads are not "
-                        "interpolated across the change.",
-                        r.well, r.valid_from_text, r.reason, surveys[k].height,
-                        has_before ? fmt::format(", {:+.4f} m against the survey before",
-                                                 surveys[k].height - surveys[k - 1].height)
-                                   : std::string()));
+            fmt::format(
+                "Measuring point of {} changed on {} ({}): now {:.4f} {}{}; heads are not "
+                "interpolated across the change.",
+                r.well, r.valid_from_text, r.reason, surveys[k].height * k_unit, unit,
+                has_before ? fmt::format(", {:+.4f} {} against the survey before",
+                                         (surveys[k].height - surveys[k - 1].height) * k_unit, unit)
+                           : std::string()));
   }
   // The datum mix-up a naive merge would have made: each record's height
   // as given (in metres) against its converted height.
@@ -320,9 +324,9 @@ void measuring_point_findings(const HeadsStage& heads, FindingList& out) {
     out.add("heads", "datum-mix-up", FindingLevel::information,
             fmt::format("Datum mix-up avoided: the measuring points of {} well(s) were surveyed "
                         "on '{}'; merged with heights in {} as if in one reference, their heads "
-                        "would be {:.3f} m too {}.",
-                        entry.second.size(), datum, heads.target, std::abs(entry.first),
-                        entry.first > 0 ? "low" : "high"));
+                        "would be {:.3f} {} too {}.",
+                        entry.second.size(), datum, heads.target, std::abs(entry.first) * k_unit,
+                        unit, entry.first > 0 ? "low" : "high"));
   }
 }
 

@@ -235,10 +235,11 @@ void transducer_section(Document& doc, const StageResults& results) {
             rows);
 }
 
-void flow_table(Document& doc, const FlowStage& flow) {
+void flow_table(Document& doc, const FlowStage& flow, const HeightDisplay& display) {
   const FlowResult& f = flow.result;
   std::vector<std::vector<std::string>> rows = {
-      {"hydraulic gradient (m/m)", fmt::format("{:.2e} +- {:.1e}", f.gradient, f.gradient_sigma)},
+      {fmt::format("hydraulic gradient ({0}/{0}, dimensionless)", display.unit),
+       fmt::format("{:.2e} +- {:.1e}", f.gradient, f.gradient_sigma)},
       {"flow direction (degrees from grid north)",
        fmt::format("{:.1f} +- {:.1f}", f.azimuth, f.azimuth_sigma)},
       {"wells in the fit", std::to_string(flow.wells)},
@@ -296,7 +297,7 @@ void heads_section(Document& doc, const ReportContext& c, const StageResults& re
           "not contoured. A quick look, not a contour map for decisions.");
     }
   }
-  if (flow) flow_table(doc, *flow);
+  if (flow) flow_table(doc, *flow, display);
   if (auto figure = hydrographs(heads.series, heads.result.measuring_points, display)) {
     doc.figure("hydrographs", *figure,
                "Heads over time per well; dashed red lines mark measuring-point changes.");

@@ -106,9 +106,7 @@ Svg loop_chart(const LoopResult& loops) {
 // Heads of the contouring round: wells coloured by head, quick-look
 // contours, the flow arrow.
 HeightDisplay height_display(LengthUnit unit) {
-  return {1.0 / metres_per_unit(unit), unit == LengthUnit::metre            ? "m"
-                                       : unit == LengthUnit::us_survey_foot ? "US ft"
-                                                                            : "ft"};
+  return {1.0 / metres_per_unit(unit), unit_label(unit)};
 }
 
 std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,

@@ -23,6 +23,8 @@ double metres_per_unit(LengthUnit unit);
 // them otherwise.
 LengthUnit parse_length_unit(std::string_view text);
 std::string to_string(LengthUnit unit);
+// The unit as a person reads it beside a number: "m", "ft", "US ft".
+std::string unit_label(LengthUnit unit);
 
 // The unit of that many metres (as a CRS states its axis unit); nullopt for
 // any other unit.
