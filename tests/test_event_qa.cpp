@@ -62,3 +62,28 @@ TEST_CASE("uncertain measuring points, mixed aquifers and nests", "[heads][event
   CHECK(r.nests[0].direction == "downward");
   CHECK(r.nests[0].significant);
 }
+
+TEST_CASE("errors the heads share cancel in the nest difference and the sigma check",
+          "[heads][event][uncertainty]") {
+  EventHead shallow = on_plane("N1-S", 200, 200, 0.01), deep = on_plane("N1-D", 201, 200, 0.01);
+  shallow.nest = deep.nest = "N1";
+  shallow.screen_middle = 5.0;
+  deep.screen_middle = 20.0;
+  const auto nest_sigma = [&](const EventQaOptions& options) {
+    const EventQaResult r = check_event({shallow, deep}, options);
+    REQUIRE(r.nests.size() == 1);
+    return r.nests[0].sigma;
+  };
+  CHECK_THAT(nest_sigma({}), WithinAbs(std::sqrt(2.0) * 0.01, 1e-12));  // independent
+  // Both tops levelled from one benchmark: covariance 0.9e-4 m^2 (correlation 0.9).
+  shallow.network_point = "N1-S-top";
+  deep.network_point = "N1-D-top";
+  EventQaOptions levelled;
+  levelled.network_covariance = [](const std::string&, const std::string&) { return 0.9e-4; };
+  CHECK_THAT(nest_sigma(levelled), WithinAbs(std::sqrt(2e-4 - 1.8e-4), 1e-12));
+  // The same as a shared error of the conversion.
+  shallow.network_point.clear();
+  deep.network_point.clear();
+  shallow.common = deep.common = {{"reference site", 0.9e-4}};
+  CHECK_THAT(nest_sigma({}), WithinAbs(std::sqrt(2e-4 - 1.8e-4), 1e-12));
+}

@@ -112,9 +112,24 @@ CommandRunner add_heads_command(CLI::App& app) {
     NetworkHeights network;
     const bool network_from_chain =
         chain && chain->adjust && names_file(a->adjusted, chain->adjust->written_to);
-    if (network_from_chain)
+    if (network_from_chain) {
       network = chain->adjust->heights();
-    else if (!a->adjusted.empty())
+      // The adjustment's covariance between the points measuring points
+      // name, for the event's checks across wells.
+      std::vector<std::string> ids;
+      for (const MeasuringPointRecord& m : records)
+        if (!m.point.empty() && network.count(m.point)) ids.push_back(m.point);
+      std::sort(ids.begin(), ids.end());
+      ids.erase(std::unique(ids.begin(), ids.end()), ids.end());
+      auto block = std::make_shared<std::vector<double>>(chain->adjust->covariance(ids));
+      options.network_covariance = [ids, block](const std::string& a, const std::string& b) {
+        const auto ia = std::lower_bound(ids.begin(), ids.end(), a);
+        const auto ib = std::lower_bound(ids.begin(), ids.end(), b);
+        if (ia == ids.end() || *ia != a || ib == ids.end() || *ib != b) return 0.0;
+        return (*block)[static_cast<std::size_t>(ia - ids.begin()) * ids.size() +
+                        static_cast<std::size_t>(ib - ids.begin())];
+      };
+    } else if (!a->adjusted.empty())
       network = read_network_heights(read_table(a->adjusted));
     MonitoredHeights monitored;
     if (chain && chain->epochs && names_file(a->monitored, chain->epochs->written_to))

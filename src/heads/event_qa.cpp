@@ -19,11 +19,6 @@ struct PlaneFit {
   double misfit_sigma = 0.0;  // m, of head(i) - prediction
 };
 
-// Covariance of two event heads (m^2): the variance for one, else what they share.
-double covariance(const EventHead& a, const EventHead& b, bool same) {
-  return same ? a.sigma * a.sigma : shared_covariance(a.common, b.common);
-}
-
 // h = a + b (x - x_i) + c (y - y_i) through the neighbours, weighted least
 // squares (weights 1 / sigma^2 of each head's own, unshared part); a is the
 // prediction at the well, a linear combination g'h of the neighbours' heads
@@ -31,7 +26,11 @@ double covariance(const EventHead& a, const EventHead& b, bool same) {
 // propagated with the heads' full covariance (common_error.hpp), so errors
 // the heads share cancel. Nothing when the neighbours lie on a line.
 std::optional<PlaneFit> fit_plane(const std::vector<EventHead>& heads, std::size_t i,
-                                  const std::vector<std::size_t>& near) {
+                                  const std::vector<std::size_t>& near,
+                                  const EventQaOptions& options) {
+  const auto covariance = [&](const EventHead& a, const EventHead& b, bool same) {
+    return head_covariance(a, b, same, options);
+  };
   const auto m = static_cast<Eigen::Index>(near.size());
   Eigen::MatrixXd A(m, 3);
   Eigen::VectorXd l(m), p(m);
@@ -102,7 +101,7 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
     if (near.empty()) continue;
     const EventHead& other = heads[near.front()];
     const double own = std::sqrt(std::max(
-        heads[i].sigma * heads[i].sigma - shared_covariance(heads[i].common, other.common), 0.0));
+        heads[i].sigma * heads[i].sigma - head_covariance(heads[i], other, false, options), 0.0));
     if (own > std::abs(heads[i].head - other.head) / 3.0)
       result.wells[i].flags.push_back("mp-sigma-large");
   }
@@ -113,7 +112,7 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
       EventCheck& c = result.wells[i];
       if (excluded[i]) continue;
       const auto near = neighbours(i);
-      const auto fit = near.size() >= 3 ? fit_plane(heads, i, near) : std::nullopt;
+      const auto fit = near.size() >= 3 ? fit_plane(heads, i, near, options) : std::nullopt;
       c.prediction.reset();
       c.misfit.reset();
       if (!fit) continue;
@@ -143,8 +142,9 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
     for (std::size_t k = 1; k < members.size(); ++k) {
       const EventHead& s = heads[members[k - 1]];
       const EventHead& d = heads[members[k]];
-      NestPair pair{nest, s.well, d.well, s.head - d.head, std::sqrt(difference_variance(s, d)),
-                    "",   false};
+      NestPair pair{
+          nest, s.well, d.well, s.head - d.head, std::sqrt(difference_variance(s, d, options)),
+          "",   false};
       pair.direction = pair.dh > 0.0 ? "downward" : "upward";
       pair.significant = std::abs(pair.dh) > 2.0 * pair.sigma;
       result.nests.push_back(pair);
@@ -153,9 +153,18 @@ EventQaResult check_event(const std::vector<EventHead>& heads, const EventQaOpti
   return result;
 }
 
-double difference_variance(const EventHead& a, const EventHead& b) {
+double head_covariance(const EventHead& a, const EventHead& b, bool same,
+                       const EventQaOptions& options) {
+  if (same) return a.sigma * a.sigma;
+  double c = shared_covariance(a.common, b.common);
+  if (options.network_covariance && !a.network_point.empty() && !b.network_point.empty())
+    c += options.network_covariance(a.network_point, b.network_point);
+  return c;
+}
+
+double difference_variance(const EventHead& a, const EventHead& b, const EventQaOptions& options) {
   return std::max(
-      a.sigma * a.sigma + b.sigma * b.sigma - 2.0 * shared_covariance(a.common, b.common), 0.0);
+      a.sigma * a.sigma + b.sigma * b.sigma - 2.0 * head_covariance(a, b, false, options), 0.0);
 }
 
 }  // namespace levelhead

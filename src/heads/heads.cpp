@@ -380,13 +380,15 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
 // (event_qa.hpp), and the wells to re-measure.
 HeadEvent synoptic_event(const WellSet& wells, const std::vector<WellState>& state,
                          const std::map<std::string, std::vector<std::string>>& history_departures,
-                         double centre) {
+                         double centre, const HeadOptions& options) {
   HeadEvent event;
   event.centre = centre;
   for (const WellState& ws : state) {
     if (ws.event) event.heads.push_back(*ws.event);
   }
-  event.checks = check_event(event.heads, EventQaOptions{});
+  EventQaOptions checks;
+  checks.network_covariance = options.network_covariance;
+  event.checks = check_event(event.heads, checks);
   for (std::size_t i = 0; i < event.heads.size(); ++i) {
     const EventCheck& c = event.checks.wells[i];
     for (const std::string& f : c.flags) {
@@ -517,7 +519,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   // 4. Across wells, for the synoptic event.
   nlohmann::json event_summary = nullptr;
   if (options.event) {
-    result.event = synoptic_event(wells, state, history_departures, *options.event);
+    result.event = synoptic_event(wells, state, history_departures, *options.event, options);
     summary.remeasure = result.event->remeasure.size();
     event_summary = write_event(*result.event, out, per_metre);
     event_summary["window_hours"] = options.synoptic_window_hours;

@@ -22,6 +22,7 @@
 //      leave out the errors the heads share.
 // Units: m. Errors: none (wells that cannot be checked are marked so).
 
+#include <functional>
 #include <optional>
 #include <string>
 #include <vector>
@@ -38,9 +39,6 @@ struct EventHead {
   std::vector<CommonError> common;      // the parts of sigma other heads may share
   std::string network_point;            // the adjusted point its measuring point is; empty: none
 };
-
-// Variance of the difference of two heads (m^2): what they share cancels.
-double difference_variance(const EventHead& a, const EventHead& b);
 
 struct EventCheck {
   std::optional<double> prediction, misfit;  // m
@@ -60,7 +58,20 @@ struct EventQaOptions {
   // from the site's own scatter)
   double neighbour_tolerance = 0.10;
   std::size_t neighbours = 8;
+  // Covariance of two heads' measuring points beyond their shared errors
+  // (m^2), e.g. of points adjusted in one levelling network, by their
+  // network points (EventHead::network_point, both non-empty); unset: none.
+  std::function<double(const std::string&, const std::string&)> network_covariance;
 };
+
+// Covariance of heads a and b (m^2): a's variance when `same`, else their
+// shared errors plus the network covariance of their measuring points.
+double head_covariance(const EventHead& a, const EventHead& b, bool same,
+                       const EventQaOptions& options);
+
+// Variance of the difference of two heads (m^2): what they share cancels.
+double difference_variance(const EventHead& a, const EventHead& b,
+                           const EventQaOptions& options = {});
 
 struct EventQaResult {
   std::vector<EventCheck> wells;  // in input order

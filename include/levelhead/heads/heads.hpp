@@ -23,6 +23,7 @@
 
 #include <cstddef>
 #include <filesystem>
+#include <functional>
 #include <map>
 #include <optional>
 #include <string>
@@ -40,6 +41,9 @@
 namespace levelhead {
 
 struct HeadOptions {
+  // In a run: the covariance of two adjusted network points (m^2, scaled as
+  // their sigmas), for the event's checks across wells; unset: none.
+  std::function<double(const std::string&, const std::string&)> network_covariance;
   std::string target;                   // target vertical reference
   std::string crs;                      // CRS of the wells' x, y
   bool interpolate = false;             // linear between surveys (moving ground)
