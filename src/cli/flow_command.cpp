@@ -192,7 +192,8 @@ CommandRunner add_flow_command(CLI::App& app) {
       return s ? nlohmann::json{{"gradient", s->gradient}, {"azimuth", s->azimuth}}
                : nlohmann::json(nullptr);
     };
-    j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}, {"unit", "m/m"}};
+    const std::string ratio = fmt::format("{0}/{0}", unit_label(unit));  // dimensionless
+    j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}, {"unit", ratio}};
     j["azimuth"] = {{"value", f.azimuth},
                     {"sigma", f.azimuth_sigma},
                     {"unit", "degrees clockwise from grid north, direction of flow"}};
@@ -240,9 +241,9 @@ CommandRunner add_flow_command(CLI::App& app) {
     files.commit();
     if (!a->quiet) {
       out << fmt::format(
-          "{} wells: gradient {:.2e} +- {:.1e} m/m, flow towards {:.1f} +- {:.1f} "
+          "{} wells: gradient {:.2e} +- {:.1e} {}, flow towards {:.1f} +- {:.1f} "
           "degrees from grid north\n",
-          used.size(), f.gradient, f.gradient_sigma, f.azimuth, f.azimuth_sigma);
+          used.size(), f.gradient, f.gradient_sigma, ratio, f.azimuth, f.azimuth_sigma);
       out << "  " << describe_flow_uncertainty(f) << '\n';
       if (f.nearly_collinear)
         out << "Warning: the wells lie nearly on a line; the direction is weak\n";

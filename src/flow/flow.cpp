@@ -159,12 +159,11 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
 }
 
 std::string describe_flow_uncertainty(const FlowResult& r) {
-  const std::string heads =
-      fmt::format("from the heads' covariance +- {:.1e} m/m and {:.1f} degrees",
-                  r.from_heads.gradient, r.from_heads.azimuth);
+  const std::string heads = fmt::format("from the heads' covariance +- {:.1e} and {:.1f} degrees",
+                                        r.from_heads.gradient, r.from_heads.azimuth);
   if (!r.from_misfit) return "Uncertainty " + heads + " (3 wells: no misfit to judge the plane by)";
   return fmt::format(
-      "Uncertainty {}; from the plane's misfit +- {:.1e} m/m and {:.1f} degrees (sigma0 {:.2f}, "
+      "Uncertainty {}; from the plane's misfit +- {:.1e} and {:.1f} degrees (sigma0 {:.2f}, "
       "global test {}: v'Pv = {:.2f} against {:.2f} .. {:.2f}); the {} dominates",
       heads, r.from_misfit->gradient, r.from_misfit->azimuth, *r.sigma0,
       *r.misfit_passed           ? "passed"
