@@ -135,7 +135,6 @@ GnssCheckResult check_gnss_marks(const std::vector<GnssMark>& marks,
     group.erase(group.begin() + static_cast<std::ptrdiff_t>(worst));
     fit.reset();  // refitted without it, if 3 marks remain
   }
-  std::optional<double> offset;
   if (fit) {
     result.fit.offset = fit->relation.offset;
     result.fit.offset_sigma = std::sqrt((*fit->relation.covariance)[0][0]);
