@@ -132,10 +132,10 @@ CommandRunner add_flow_command(CLI::App& app) {
           const auto parsed =
               parse_common_errors(heads.cell(r, *common_col), metres_per_unit(unit));
           if (!parsed) {
-            throw InputError(heads.location(r, *common_col),
-                             std::string(heads.cell(r, *common_col)),
-                             "expected the errors this head shares as SOURCE=SIGMA; SOURCE=SIGMA "
-                             "(sigma in m), as event.csv of levelhead heads writes them");
+            throw InputError(
+                heads.location(r, *common_col), std::string(heads.cell(r, *common_col)),
+                "expected the errors this head shares as SOURCE=SIGMA; SOURCE=SIGMA "
+                "(sigma in the table's unit), as event.csv of levelhead heads writes them");
           }
           common = *parsed;
         }

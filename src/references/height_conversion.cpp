@@ -100,7 +100,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
         sigma_text = fmt::format("{:.5f}", s / unit);
         relative_text =
             fmt::format("{:.5f}", std::sqrt(given * given + r.relative_variance_added()) / unit);
-        common_text = format_common_errors(r.common);
+        common_text = format_common_errors(r.common, 1.0 / unit);
       }
       if (!sigma_in) notes.push_back("input-sigma-missing");
       if (!r.variance_complete) notes.push_back("step-variance-unknown");
