@@ -217,3 +217,18 @@ TEST_CASE("GeoJSON values are read as written, not as GDAL guesses them", "[tabl
   CHECK(t.cell(0, date) == "2024-01-02T10:00:00");
   CHECK(t.cell(1, date) == "2024-01-02");
 }
+
+TEST_CASE("a whole number written as a decimal is that whole number", "[table]") {
+  // Spreadsheet writers (GDAL's ODS driver among them) give integers as
+  // "1.0000000000000000".
+  const Table t =
+      parse_delimited_text("setups\n4\n4.0\n1.0000000000000000\n12.\n2.5\n-1.0\n.0\n", "s.csv");
+  const std::size_t c = t.require_column("setups");
+  CHECK(*t.count(0, c) == 4);
+  CHECK(*t.count(1, c) == 4);
+  CHECK(*t.count(2, c) == 1);
+  CHECK(*t.count(3, c) == 12);
+  CHECK_THROWS_WITH(t.count(4, c), Contains("row 6") && Contains("whole number"));
+  CHECK_THROWS_WITH(t.count(5, c), Contains("whole number"));
+  CHECK_THROWS_WITH(t.count(6, c), Contains("whole number"));
+}

@@ -123,9 +123,17 @@ std::optional<double> Table::length(std::size_t row, std::size_t column) const {
 std::optional<long long> Table::count(std::size_t row, std::size_t column) const {
   const std::string_view text = cell(row, column);
   if (text.empty()) return std::nullopt;
+  // A whole number written as a decimal ("4.0", or "1.0000000000000000" as
+  // spreadsheet writers give it) is that number: the zeros after the point
+  // are dropped, any other digit there is refused.
+  std::string_view digits = text;
+  if (const std::size_t point = text.find('.'); point != std::string_view::npos) {
+    const std::string_view fraction = text.substr(point + 1);
+    if (fraction.find_first_not_of('0') == std::string_view::npos) digits = text.substr(0, point);
+  }
   long long value = 0;
-  const auto [end, ec] = std::from_chars(text.data(), text.data() + text.size(), value, 10);
-  if (ec != std::errc() || end != text.data() + text.size() || value < 0) {
+  const auto [end, ec] = std::from_chars(digits.data(), digits.data() + digits.size(), value, 10);
+  if (digits.empty() || ec != std::errc() || end != digits.data() + digits.size() || value < 0) {
     throw InputError(location(row, column), std::string(text), "expected a whole number >= 0");
   }
   return value;
