@@ -67,6 +67,23 @@ TEST_CASE("usage errors exit 2", "[cli]") {
   CHECK(run_cli({"--help"}).code == 0);
 }
 
+TEST_CASE("a mistyped command or option is named, with the nearest one", "[cli]") {
+  const CliRun command = run_cli({"ajust", "--points", "p.csv"});
+  CHECK(command.code == 2);
+  CHECK_THAT(command.err, Contains("unknown command 'ajust'") && Contains("did you mean 'adjust'"));
+  const CliRun option = run_cli({"adjust", "--pionts", "p.csv", "--sections", "s", "--out", "o"});
+  CHECK(option.code == 2);
+  CHECK_THAT(option.err,
+             Contains("unknown option '--pionts' for 'adjust'") && Contains("'--points'"));
+  CHECK_THAT(option.err, !Contains("required"));
+  // Far from every name: no guess.
+  const CliRun far = run_cli({"flow", "--zzzzzzzz", "1"});
+  CHECK(far.code == 2);
+  CHECK_THAT(far.err, Contains("unknown option '--zzzzzzzz'") && !Contains("did you mean"));
+  // --name=value is the same option.
+  CHECK_THAT(run_cli({"adjust", "--alpah=0.05"}).err, Contains("'--alpha'"));
+}
+
 TEST_CASE("strict mode exits 3 when a check fails, 0 otherwise", "[cli]") {
   levelhead::testing::TempFolder tmp;
   // The good corpus misclosure is 1 mm in 530 m of levelling; at 0.1 mm/sqrt(km)

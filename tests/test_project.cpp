@@ -452,7 +452,8 @@ TEST_CASE("diff names what moved between two runs and why", "[project][diff]") {
     const fs::path json = tmp.path() / "diff.json";
     const Run diff = cli({"diff", before.string(), after.string(), "--json", json.string()});
     INFO(diff.out << diff.err);
-    CHECK(diff.code == 0);
+    CHECK(diff.code == 1);  // as diff and cmp: the runs differ
+    CHECK(diff.err.empty());
     CHECK_THAT(diff.out, Contains("input measuring_points"));
     std::ifstream json_file(json);
     const auto d = nlohmann::json::parse(json_file);

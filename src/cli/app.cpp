@@ -2,10 +2,12 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <cstdlib>
 #include <optional>
 #include <sstream>
+#include <string_view>
 #include <utility>
 
 #include "cli/commands.hpp"
@@ -42,6 +44,64 @@ using CommandList = std::vector<std::pair<std::string, CommandRunner>>;
 // CLI11 takes the arguments reversed and without the program name.
 std::vector<std::string> reversed_arguments(const std::vector<std::string>& args) {
   return {args.rbegin(), args.rend() - (args.empty() ? 0 : 1)};
+}
+
+// Levenshtein distance (Wagner and Fischer 1974), for suggestions.
+std::size_t edit_distance(std::string_view a, std::string_view b) {
+  std::vector<std::size_t> row(b.size() + 1);
+  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
+  for (std::size_t i = 1; i <= a.size(); ++i) {
+    std::size_t diagonal = row[0];
+    row[0] = i;
+    for (std::size_t j = 1; j <= b.size(); ++j) {
+      const std::size_t above = row[j];
+      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] == b[j - 1] ? 0 : 1)});
+      diagonal = above;
+    }
+  }
+  return row[b.size()];
+}
+
+// The choice nearest `word` when it is close enough to be a slip of the
+// keyboard (a third of its letters, at least one), with a ", did you mean"
+// phrase; empty otherwise.
+std::string suggestion(std::string_view word, const std::vector<std::string>& choices) {
+  const std::string* best = nullptr;
+  std::size_t best_distance = std::max<std::size_t>(1, word.size() / 3) + 1;
+  for (const std::string& c : choices) {
+    const std::size_t d = edit_distance(word, c);
+    if (d < best_distance) best = &c, best_distance = d;
+  }
+  return best ? fmt::format("; did you mean '{}'?", *best) : std::string();
+}
+
+// An unknown command or an unknown option of the command, with the nearest
+// known one; CLI11 would call the first "A subcommand is required" and the
+// second a missing required option.
+std::optional<std::string> misspelling(const std::vector<std::string>& args, const CLI::App& app,
+                                       const CommandList& commands) {
+  if (args.size() < 2 || args[1].empty() || args[1][0] == '-') return std::nullopt;
+  std::vector<std::string> names;
+  for (const auto& [name, runner] : commands) names.push_back(name);
+  if (std::find(names.begin(), names.end(), args[1]) == names.end()) {
+    return fmt::format("unknown command '{}'{} (levelhead --help lists them all)", args[1],
+                       suggestion(args[1], names));
+  }
+  std::vector<std::string> options;
+  const CLI::App* command = app.get_subcommand(args[1]);
+  for (const CLI::Option* o : command->get_options()) {
+    for (const std::string& name : o->get_lnames()) options.push_back("--" + name);
+  }
+  for (std::size_t k = 2; k < args.size(); ++k) {
+    if (args[k] == "--") break;
+    if (args[k].rfind("--", 0) != 0) continue;
+    const std::string flag = args[k].substr(0, args[k].find('='));
+    if (std::find(options.begin(), options.end(), flag) == options.end()) {
+      return fmt::format("unknown option '{}' for '{}'{} (levelhead {} --help lists them all)",
+                         flag, args[1], suggestion(flag, options), args[1]);
+    }
+  }
+  return std::nullopt;
 }
 
 // CLI11 reads "nan" and "inf" into a number option like any other value;
@@ -95,6 +155,7 @@ std::optional<std::string> usage_error(const std::vector<std::string>& args) {
   CLI::App app{description, "levelhead"};
   // The runners own the variables the options write into: keep them alive.
   const CommandList commands = add_commands(app);
+  if (auto problem = misspelling(args, app, commands)) return problem;
   std::vector<std::string> reversed = reversed_arguments(args);
   try {
     app.parse(reversed);
@@ -126,6 +187,10 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   CLI::App app{description, "levelhead"};
   const CommandList commands = add_commands(app);
 
+  if (const auto problem = misspelling(args, app, commands)) {
+    err << "levelhead: " << *problem << '\n';
+    return exit_usage;
+  }
   std::vector<std::string> reversed = reversed_arguments(args);
   try {
     app.parse(reversed);

@@ -74,7 +74,8 @@ CommandRunner add_diff_command(CLI::App& app) {
       files.open(path.filename().string()) << util::json_text(as_json(d)) << '\n';
       files.commit();
     }
-    return static_cast<int>(exit_ok);
+    // As diff and cmp: 0 when the runs agree, 1 when they differ.
+    return static_cast<int>(d.identical() ? exit_ok : exit_failure);
   };
 }
 
