@@ -3,6 +3,10 @@
 // checks, the contouring decision and the flag table. Invented wells; every
 // expected value is worked by hand from the formulas in head_core.hpp.
 
+#include <gdal.h>
+#include <ogr_api.h>
+#include <ogr_srs_api.h>
+
 #include <algorithm>
 #include <catch2/catch.hpp>
 #include <cmath>
@@ -334,4 +338,58 @@ TEST_CASE("heads --keep-going sets bad readings aside and finishes with status 4
     const std::string heads = levelhead::testing::read_file(out / "heads.csv");
     CHECK(std::count(heads.begin(), heads.end(), '\n') == 3);  // header and the two good rows
   }
+}
+
+TEST_CASE("heads.gpkg is typed as a GIS expects, with NULLs and the layer's metadata",
+          "[heads][gpkg]") {
+  OneWellFiles files;
+  std::vector<std::string> args =
+      files.heads_args("W1,2020-03-01T08:00-06:00,4.100\nW1,2020-06-10T08:00Z,dry\n", "typed");
+  args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
+  args.insert(args.end(), {"--event", "2020-06-10T12:00Z", "--compound-crs"});
+  const auto run = levelhead::testing::run_cli(args);
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  GDALAllRegister();
+  GDALDatasetH gpkg = GDALOpenEx((files.tmp.path() / "typed" / "heads.gpkg").string().c_str(),
+                                 GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr, nullptr);
+  REQUIRE(gpkg);
+  OGRLayerH layer = GDALDatasetGetLayerByName(gpkg, "heads");
+  REQUIRE(layer);
+  OGRFeatureDefnH defn = OGR_L_GetLayerDefn(layer);
+  const auto field = [&](const char* name) {
+    const int i = OGR_FD_GetFieldIndex(defn, name);
+    REQUIRE(i >= 0);
+    return OGR_FD_GetFieldDefn(defn, i);
+  };
+  CHECK(OGR_Fld_GetType(field("time_utc")) == OFTDateTime);
+  CHECK(OGR_Fld_GetType(field("head")) == OFTReal);
+  CHECK(OGR_Fld_GetSubType(field("contour")) == OFSTBoolean);
+  CHECK(OGR_Fld_GetSubType(field("in_event")) == OFSTBoolean);
+  CHECK_THAT(std::string(GDALGetMetadataItem(layer, "DESCRIPTION", nullptr)),
+             Catch::Matchers::Contains("EPSG:5703") && Catch::Matchers::Contains("(m)"));
+  // The compound CRS: UTM 13N + NAVD88 height.
+  OGRSpatialReferenceH srs = OGR_L_GetSpatialRef(layer);
+  REQUIRE(srs);
+  CHECK(OSRIsCompound(srs));
+  // First reading: a head, no state (NULL), outside the event; second: dry, no head.
+  OGR_L_ResetReading(layer);
+  OGRFeatureH first = OGR_L_GetNextFeature(layer);
+  OGRFeatureH second = OGR_L_GetNextFeature(layer);
+  REQUIRE(first);
+  REQUIRE(second);
+  const auto index = [&](const char* name) { return OGR_FD_GetFieldIndex(defn, name); };
+  CHECK(OGR_F_IsFieldNull(first, index("state")));
+  CHECK_FALSE(OGR_F_IsFieldNull(first, index("head")));
+  CHECK(OGR_F_GetFieldAsInteger(first, index("in_event")) == 0);
+  int y = 0, mo = 0, d = 0, h = 0, mi = 0, tz = 0;
+  float s = 0;
+  REQUIRE(OGR_F_GetFieldAsDateTimeEx(first, index("time_utc"), &y, &mo, &d, &h, &mi, &s, &tz));
+  CHECK((y == 2020 && mo == 3 && d == 1 && h == 14 && mi == 0 && tz == 100));  // 08:00-06:00
+  CHECK(OGR_F_IsFieldNull(second, index("head")));
+  CHECK(std::string(OGR_F_GetFieldAsString(second, index("state"))) == "dry");
+  CHECK(OGR_F_GetFieldAsInteger(second, index("contour")) == 0);
+  OGR_F_Destroy(first);
+  OGR_F_Destroy(second);
+  GDALClose(gpkg);
 }

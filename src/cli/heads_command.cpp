@@ -87,6 +87,9 @@ CommandRunner add_heads_command(CLI::App& app) {
                 "Reference elevation z_r of environmental-water heads (m, target reference); wells "
                 "need column_density");
   c->add_flag("--no-gpkg", a->no_geopackage, "Do not write heads.gpkg");
+  c->add_flag("--compound-crs", a->options.compound_crs,
+              "Write heads.gpkg in the compound CRS of --crs and the target (horizontal + "
+              "vertical; the target must be a vertical CRS GDAL knows, e.g. EPSG:5703)");
   c->add_flag("--strict", a->strict,
               "Exit with status 3 when a reading carries a flag that needs a look (not merely "
               "information such as outside-synoptic-window)");

@@ -2,6 +2,7 @@
 
 #include <cpl_conv.h>
 #include <cpl_error.h>
+#include <cpl_string.h>
 #include <fmt/format.h>
 #include <gdal.h>
 #include <gdal_alg.h>
@@ -159,18 +160,27 @@ void write_contours_geopackage(const QuickContours& contours, const std::string&
     OSRDestroySpatialReference(srs);
     throw OptionError(fmt::format("'{}' is not a CRS GDAL knows", crs));
   }
-  OGRLayerH layer = GDALDatasetCreateLayer(gpkg.get(), "contours", srs, wkbLineString, nullptr);
+  const std::string description = fmt::format(
+      "Quick-look contours of heads in {} ({}), every {:g} {}; linear between wells, not for "
+      "decisions",
+      reference, unit, contours.interval, unit);
+  char** options = CSLSetNameValue(nullptr, "IDENTIFIER", "contours");
+  options = CSLSetNameValue(options, "DESCRIPTION", description.c_str());
+  OGRLayerH layer = GDALDatasetCreateLayer(gpkg.get(), "contours", srs, wkbLineString, options);
+  CSLDestroy(options);
   OSRDestroySpatialReference(srs);
   if (!layer)
     throw OutputError("cannot create the contours layer: " + std::string(CPLGetLastErrorMsg()));
-  for (const char* name : {"level", "reference"}) {
+  // `datum`, as heads.gpkg and heads.csv name the reference.
+  for (const char* name : {"level", "datum"}) {
     OGRFieldDefnH field = OGR_Fld_Create(name, std::string(name) == "level" ? OFTReal : OFTString);
     OGR_L_CreateField(layer, field, TRUE);
     OGR_Fld_Destroy(field);
   }
-  GDALSetMetadataItem(gpkg.get(), "VERTICAL_REFERENCE", reference.c_str(), nullptr);
-  GDALSetMetadataItem(gpkg.get(), "HEIGHT_UNIT", unit.c_str(), nullptr);
-  GDALSetMetadataItem(gpkg.get(), "CONTOUR_INTERVAL", fmt::format("{}", contours.interval).c_str(),
+  // On the layer, as heads.gpkg keeps them.
+  GDALSetMetadataItem(layer, "VERTICAL_REFERENCE", reference.c_str(), nullptr);
+  GDALSetMetadataItem(layer, "HEIGHT_UNIT", unit.c_str(), nullptr);
+  GDALSetMetadataItem(layer, "CONTOUR_INTERVAL", fmt::format("{}", contours.interval).c_str(),
                       nullptr);
   if (OGR_L_StartTransaction(layer) != OGRERR_NONE) {
     throw OutputError("cannot start writing contours.gpkg: " + std::string(CPLGetLastErrorMsg()));

@@ -1,20 +1,43 @@
 #include "heads/head_writers.hpp"
 
 #include <cpl_conv.h>
+#include <cpl_string.h>
 #include <fmt/format.h>
 #include <fmt/ranges.h>
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <iterator>
 
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/output_files.hpp"
+#include "levelhead/core/time.hpp"
 #include "levelhead/version.hpp"
 
 namespace levelhead {
+
+namespace {
+
+// A time in seconds since 1970 UTC as an OGR DateTime in UTC (TZ flag 100).
+void set_utc(OGRFeatureH feature, int field, double seconds) {
+  using namespace std::chrono;
+  const double whole = std::floor(seconds);
+  const sys_seconds t{std::chrono::seconds{static_cast<long long>(whole)}};
+  const sys_days day = floor<days>(t);
+  const year_month_day date{day};
+  const hh_mm_ss clock{t - day};
+  OGR_F_SetFieldDateTimeEx(
+      feature, field, static_cast<int>(date.year()),
+      static_cast<int>(static_cast<unsigned>(date.month())),
+      static_cast<int>(static_cast<unsigned>(date.day())), static_cast<int>(clock.hours().count()),
+      static_cast<int>(clock.minutes().count()),
+      static_cast<float>(clock.seconds().count()) + static_cast<float>(seconds - whole), 100);
+}
+
+}  // namespace
 
 HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
                                const std::string& target, bool has_event, double per_metre)
@@ -84,25 +107,46 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
   OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
   if (OSRSetFromUserInput(srs, crs.c_str()) != OGRERR_NONE) {
     OSRDestroySpatialReference(srs);
-    throw OptionError(fmt::format("--crs '{}' is not a CRS GDAL knows", crs));
+    throw OptionError(
+        crs.find('+') == std::string::npos
+            ? fmt::format("--crs '{}' is not a CRS GDAL knows", crs)
+            : fmt::format("'{}' is not a compound CRS GDAL knows: --compound-crs needs a target "
+                          "that is a vertical CRS of its own (an EPSG code), not a reference "
+                          "defined in a references file",
+                          crs));
   }
   OSRSetAxisMappingStrategy(srs, OAMS_TRADITIONAL_GIS_ORDER);
-  layer_ = GDALDatasetCreateLayer(dataset_, "heads", srs, wkbPoint, nullptr);
+  // The layer says what its numbers are: GIS lists show the identifier and
+  // description of gpkg_contents.
+  const std::string description =
+      fmt::format("Groundwater heads in {} ({}), one point per reading; time_utc in UTC", target,
+                  unit_label(unit));
+  char** options = CSLSetNameValue(nullptr, "IDENTIFIER", "heads");
+  options = CSLSetNameValue(options, "DESCRIPTION", description.c_str());
+  layer_ = GDALDatasetCreateLayer(dataset_, "heads", srs, wkbPoint, options);
+  CSLDestroy(options);
   OSRDestroySpatialReference(srs);
-  for (const auto& [name, type] :
-       std::vector<std::pair<const char*, OGRFieldType>>{{"well", OFTString},
-                                                         {"time", OFTString},
-                                                         {"time_utc", OFTString},
-                                                         {"head", OFTReal},
-                                                         {"sigma", OFTReal},
-                                                         {"sigma_relative", OFTReal},
-                                                         {"datum", OFTString},
-                                                         {"mp_elevation", OFTReal},
-                                                         {"state", OFTString},
-                                                         {"flags", OFTString},
-                                                         {"contour", OFTString},
-                                                         {"in_event", OFTString}}) {
-    OGRFieldDefnH field = OGR_Fld_Create(name, type);
+  // Types a GIS can use: a DateTime for its time controls, Booleans, Reals;
+  // missing values are NULL.
+  struct FieldType {
+    const char* name;
+    OGRFieldType type;
+    OGRFieldSubType subtype;
+  };
+  for (const FieldType& f : std::vector<FieldType>{{"well", OFTString, OFSTNone},
+                                                   {"time", OFTString, OFSTNone},
+                                                   {"time_utc", OFTDateTime, OFSTNone},
+                                                   {"head", OFTReal, OFSTNone},
+                                                   {"sigma", OFTReal, OFSTNone},
+                                                   {"sigma_relative", OFTReal, OFSTNone},
+                                                   {"datum", OFTString, OFSTNone},
+                                                   {"mp_elevation", OFTReal, OFSTNone},
+                                                   {"state", OFTString, OFSTNone},
+                                                   {"flags", OFTString, OFSTNone},
+                                                   {"contour", OFTInteger, OFSTBoolean},
+                                                   {"in_event", OFTInteger, OFSTBoolean}}) {
+    OGRFieldDefnH field = OGR_Fld_Create(f.name, f.type);
+    OGR_Fld_SetSubType(field, f.subtype);
     OGR_L_CreateField(layer_, field, 1);
     OGR_Fld_Destroy(field);
   }
@@ -120,7 +164,7 @@ void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const
   OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer_));
   OGR_F_SetFieldString(f, 0, well.id.c_str());
   OGR_F_SetFieldString(f, 1, reading.time_text.c_str());
-  OGR_F_SetFieldString(f, 2, format_utc(reading.time).c_str());
+  set_utc(f, 2, reading.time);
   if (r.head) {
     OGR_F_SetFieldDouble(f, 3, *r.head * k_);
     OGR_F_SetFieldDouble(f, 4, r.sigma * k_);
@@ -128,10 +172,11 @@ void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const
   }
   OGR_F_SetFieldString(f, 6, target_.c_str());
   OGR_F_SetFieldDouble(f, 7, r.mp.height * k_);
-  OGR_F_SetFieldString(f, 8, r.state.c_str());
-  OGR_F_SetFieldString(f, 9, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
-  OGR_F_SetFieldString(f, 10, r.contour() ? "yes" : "no");
-  if (has_event_) OGR_F_SetFieldString(f, 11, r.outside_event ? "no" : "yes");
+  if (!r.state.empty()) OGR_F_SetFieldString(f, 8, r.state.c_str());
+  if (!r.flags.empty())
+    OGR_F_SetFieldString(f, 9, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
+  OGR_F_SetFieldInteger(f, 10, r.contour() ? 1 : 0);
+  if (has_event_) OGR_F_SetFieldInteger(f, 11, r.outside_event ? 0 : 1);
   OGRGeometryH g = OGR_G_CreateGeometry(wkbPoint);
   OGR_G_SetPoint_2D(g, 0, well.x, well.y);
   OGR_F_SetGeometryDirectly(f, g);

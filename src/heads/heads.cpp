@@ -468,8 +468,9 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
                          per_metre);
   std::optional<HeadsGpkgWriter> gpkg;
   if (geopackage)
-    gpkg.emplace(out.reserve("heads.gpkg"), options.crs, options.target, options.event.has_value(),
-                 unit);
+    gpkg.emplace(out.reserve("heads.gpkg"),
+                 options.compound_crs ? options.crs + "+" + options.target : options.crs,
+                 options.target, options.event.has_value(), unit);
   std::ostream& qa_csv = out.open("qa.csv");
   qa_csv << "table,row,well,time,flag,detail\n";
   for (const QaEntry& e : history.qa()) write_qa(qa_csv, e);

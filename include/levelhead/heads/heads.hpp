@@ -47,6 +47,7 @@ struct HeadOptions {
   std::string target;                   // target vertical reference
   std::string crs;                      // CRS of the wells' x, y
   bool interpolate = false;             // linear between surveys (moving ground)
+  bool compound_crs = false;            // heads.gpkg in the compound CRS crs + target
   bool allow_before_first = false;      // use the first survey for earlier readings (flagged)
   double depth_sigma = 0.003;           // m, a tape or sounder reading (about 0.01 ft)
   double mp_change_tolerance = 0.02;    // m, measuring point change between surveys
