@@ -1,3 +1,4 @@
+#include <cpl_conv.h>
 #include <gdal.h>
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
@@ -5,6 +6,8 @@
 #include <catch2/catch.hpp>
 #include <filesystem>
 #include <fstream>
+#include <iostream>
+#include <sstream>
 
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
@@ -231,4 +234,32 @@ TEST_CASE("a whole number written as a decimal is that whole number", "[table]")
   CHECK_THROWS_WITH(t.count(4, c), Contains("row 6") && Contains("whole number"));
   CHECK_THROWS_WITH(t.count(5, c), Contains("whole number"));
   CHECK_THROWS_WITH(t.count(6, c), Contains("whole number"));
+}
+
+TEST_CASE("GDAL dataset names and standard input are tables too", "[table]") {
+  testing::TempFolder tmp;
+  const std::string text = "id,height\nBM1,10.5\nBM2,11.25\n";
+  SECTION("a CSV inside a zip archive, through GDAL's /vsizip/") {
+    // Written by GDAL's own zip writer, read back by name inside the archive.
+    const std::string zip = (tmp.path() / "points.zip").string();
+    void* handle = CPLCreateZip(zip.c_str(), nullptr);
+    REQUIRE(handle);
+    REQUIRE(CPLCreateFileInZip(handle, "points.csv", nullptr) == CE_None);
+    REQUIRE(CPLWriteFileInZip(handle, text.data(), static_cast<int>(text.size())) == CE_None);
+    CPLCloseFileInZip(handle);
+    CPLCloseZip(handle);
+    const Table t = read_table("/vsizip/" + zip + "/points.csv");
+    REQUIRE(t.row_count() == 2);
+    CHECK_THAT(*t.number(1, t.require_column("height")), WithinAbs(11.25, 1e-12));
+    CHECK_THROWS_WITH(read_table("/vsizip/" + zip + "/other.csv"), Contains("other.csv"));
+  }
+  SECTION("\"-\" is a CSV on standard input") {
+    std::istringstream input(text);
+    std::streambuf* const saved = std::cin.rdbuf(input.rdbuf());
+    const Table t = read_table("-");
+    std::cin.rdbuf(saved);
+    REQUIRE(t.row_count() == 2);
+    CHECK(t.cell(0, t.require_column("id")) == "BM1");
+    CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(10.5, 1e-12));
+  }
 }

@@ -1,10 +1,15 @@
 #include "levelhead/core/table.hpp"
 
+#include <cpl_vsi.h>
 #include <fmt/format.h>
 
+#include <algorithm>
+#include <cctype>
 #include <charconv>
 #include <cmath>
+#include <iostream>
 #include <set>
+#include <sstream>
 
 #include "levelhead/core/bounds.hpp"
 #include "levelhead/core/input_files.hpp"
@@ -206,7 +211,59 @@ void Table::add_row(const std::vector<std::string_view>& cells, std::size_t sour
   source_rows_.push_back(source_row);
 }
 
+namespace {
+
+// A dataset name GDAL opens that is no plain file: a virtual file system
+// (/vsizip/, /vsicurl/, ...) or a connection (PG:..., MySQL:...; a prefix of
+// two letters or more, so a drive letter is not one).
+bool gdal_dataset_name(const std::string& name) {
+  if (name.rfind("/vsi", 0) == 0) return true;
+  const std::size_t colon = name.find(':');
+  return colon != std::string::npos && colon >= 2 &&
+         std::all_of(name.begin(), name.begin() + static_cast<std::ptrdiff_t>(colon),
+                     [](unsigned char c) { return std::isalnum(c) != 0; });
+}
+
+bool delimited_extension(const std::filesystem::path& path) {
+  const std::string extension = util::to_lower(path.extension().string());
+  return extension == ".csv" || extension == ".tsv" || extension == ".txt";
+}
+
+// The whole of a file of a GDAL virtual file system.
+std::string read_virtual_file(const std::string& name) {
+  VSILFILE* file = VSIFOpenL(name.c_str(), "rb");
+  if (!file) {
+    throw InputError(name,
+                     "GDAL cannot open this virtual file (check the archive and the path "
+                     "inside it)");
+  }
+  std::string text;
+  char buffer[1 << 16];
+  std::size_t got = 0;
+  while ((got = VSIFReadL(buffer, 1, sizeof buffer, file)) > 0) text.append(buffer, got);
+  VSIFCloseL(file);
+  return text;
+}
+
+}  // namespace
+
 Table read_table(const std::filesystem::path& path, const TableOptions& options) {
+  // "-": a CSV on standard input.
+  if (path == "-") {
+    std::ostringstream text;
+    text << std::cin.rdbuf();
+    Table table = parse_delimited_text(text.str(), "standard input", options);
+    check_coordinates_in_crs(table, options.xy_crs);
+    return table;
+  }
+  if (gdal_dataset_name(path.string())) {
+    Table table =
+        delimited_extension(path) && path.string().rfind("/vsi", 0) == 0
+            ? parse_delimited_text(read_virtual_file(path.string()), path.string(), options)
+            : detail::read_ogr_table(path, options);
+    check_coordinates_in_crs(table, options.xy_crs);
+    return table;
+  }
   std::error_code ec;
   if (!std::filesystem::is_regular_file(path, ec)) {
     throw InputError(path.string(),
@@ -214,10 +271,8 @@ Table read_table(const std::filesystem::path& path, const TableOptions& options)
                      "the current folder)");
   }
   note_input_file(path);
-  const std::string extension = util::to_lower(path.extension().string());
-  Table table = extension == ".csv" || extension == ".tsv" || extension == ".txt"
-                    ? detail::read_delimited_file(path, options)
-                    : detail::read_ogr_table(path, options);
+  Table table = delimited_extension(path) ? detail::read_delimited_file(path, options)
+                                          : detail::read_ogr_table(path, options);
   check_coordinates_in_crs(table, options.xy_crs);
   return table;
 }
