@@ -22,6 +22,7 @@ packages=(
   catch2
   python3 python3-numpy
   clang-format
+  help2man
 )
 if [ "${1:-}" = "--browser" ]; then packages+=(chromium); fi
 
