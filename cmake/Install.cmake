@@ -50,6 +50,28 @@ add_custom_target(levelhead_docs ALL DEPENDS ${generated_docs})
 install(FILES ${CMAKE_CURRENT_BINARY_DIR}/share/bash-completion/completions/levelhead
         DESTINATION ${CMAKE_INSTALL_DATADIR}/bash-completion/completions)
 
+# The library for other programs: headers, the static library and a CMake
+# package (find_package(levelhead) -> levelhead::levelhead).
+include(CMakePackageConfigHelpers)
+set_target_properties(levelhead_lib PROPERTIES EXPORT_NAME levelhead)
+target_include_directories(levelhead_lib PUBLIC $<INSTALL_INTERFACE:${CMAKE_INSTALL_INCLUDEDIR}>)
+install(TARGETS levelhead_lib EXPORT levelheadTargets
+        ARCHIVE DESTINATION ${CMAKE_INSTALL_LIBDIR})
+install(DIRECTORY include/levelhead DESTINATION ${CMAKE_INSTALL_INCLUDEDIR})
+install(FILES ${CMAKE_CURRENT_BINARY_DIR}/generated/levelhead/version.hpp
+        DESTINATION ${CMAKE_INSTALL_INCLUDEDIR}/levelhead)
+set(package_dir ${CMAKE_INSTALL_LIBDIR}/cmake/levelhead)
+install(EXPORT levelheadTargets NAMESPACE levelhead:: DESTINATION ${package_dir})
+configure_package_config_file(cmake/levelheadConfig.cmake.in
+                              ${CMAKE_CURRENT_BINARY_DIR}/levelheadConfig.cmake
+                              INSTALL_DESTINATION ${package_dir})
+write_basic_package_version_file(${CMAKE_CURRENT_BINARY_DIR}/levelheadConfigVersion.cmake
+                                 COMPATIBILITY SameMinorVersion)
+install(FILES ${CMAKE_CURRENT_BINARY_DIR}/levelheadConfig.cmake
+              ${CMAKE_CURRENT_BINARY_DIR}/levelheadConfigVersion.cmake
+              cmake/FindCholmod.cmake
+        DESTINATION ${package_dir})
+
 set(CPACK_GENERATOR DEB)
 set(CPACK_PACKAGE_NAME levelhead)
 set(CPACK_PACKAGE_CONTACT "levelhead maintainers <levelhead@invalid>")

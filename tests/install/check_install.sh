@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Installs the build into a temporary prefix and runs the installed program on
-# the demo; checks the man pages and the bash completion, then builds the
-# Debian package and lists what it holds.
+# the demo; checks the man pages and the bash completion, builds a program of
+# its own against the installed CMake package, then builds the Debian package
+# and lists what it holds.
 # Usage: check_install.sh BUILD_DIR WORK_DIR
 set -euo pipefail
 build=$1
@@ -30,6 +31,27 @@ if [ -d "$build/share/man/man1" ]; then
     { echo "levelhead-adjust.1 lacks the command's options"; exit 1; }
 fi
 
+# A program of the user's own against the installed CMake package.
+consumer="$work/consumer"
+mkdir -p "$consumer"
+cat > "$consumer/CMakeLists.txt" <<'CMAKE'
+cmake_minimum_required(VERSION 3.20)
+project(uses_levelhead LANGUAGES CXX)
+set(CMAKE_CXX_STANDARD 20)
+find_package(levelhead REQUIRED)
+add_executable(uses_levelhead main.cpp)
+target_link_libraries(uses_levelhead PRIVATE levelhead::levelhead)
+CMAKE
+cat > "$consumer/main.cpp" <<'CPP'
+#include <cstdio>
+#include "levelhead/levelling/statistics.hpp"
+int main() { std::printf("%.5f\n", levelhead::normal_quantile(0.975)); }
+CPP
+cmake -S "$consumer" -B "$consumer/build" -DCMAKE_PREFIX_PATH="$prefix" > "$work/consumer.log"
+cmake --build "$consumer/build" >> "$work/consumer.log"
+# z(0.975) = 1.95996 (standard normal table, common practice)
+test "$("$consumer/build/uses_levelhead")" = "1.95996" || { echo "the library gave a wrong quantile"; exit 1; }
+
 if command -v dpkg-deb > /dev/null; then
   cpack -G DEB --config "$build/CPackConfig.cmake" -B "$work/package" > "$work/cpack.log"
   deb=$(ls "$work"/package/*.deb)
@@ -39,4 +61,4 @@ if command -v dpkg-deb > /dev/null; then
     { echo ".deb holds no completion"; exit 1; }
   dpkg-deb -f "$deb" Depends | grep -q "proj-data" || { echo ".deb depends on no PROJ data"; exit 1; }
 fi
-echo "installed, ran the demo, man pages, completion and .deb: fine"
+echo "installed, ran the demo, man pages, completion, the CMake package and .deb: fine"
