@@ -123,6 +123,17 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
   // through it fail, and data snooping removes it before the final adjustment.
   CHECK_THAT(r.out, Contains("FAILED") && Contains("Removed (step 1): section SBM-B -> MW-04"));
   CHECK_THAT(r.out, Contains("-> passed"));
+  // Every JSON of the run says which layout it follows.
+  std::size_t summaries = 0;
+  for (const auto& entry : fs::recursive_directory_iterator(tmp.path())) {
+    const std::string name = entry.path().filename().string();
+    if (name != "summary.json" && name != "run.json" && name != "flow.json") continue;
+    INFO(entry.path());
+    const auto json = nlohmann::json::parse(std::ifstream(entry.path()));
+    CHECK(json.value("format_version", 0) == 1);
+    ++summaries;
+  }
+  CHECK(summaries >= 9);
 }
 
 TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "[cli][loops]") {

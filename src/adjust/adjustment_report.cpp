@@ -124,6 +124,7 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
 
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
+  summary["format_version"] = output_format_version;
   summary["command"] = "adjust";
   summary["inputs"] = {{"points", inputs.points_file},
                        {"sections", inputs.sections_file},

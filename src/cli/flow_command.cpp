@@ -184,6 +184,7 @@ CommandRunner add_flow_command(CLI::App& app) {
     }
     nlohmann::json j;
     j["levelhead_version"] = version_string();
+    j["format_version"] = output_format_version;
     j["command"] = "flow";
     j["wells"] = used.size();
     j["heads_unit"] = to_string(unit);

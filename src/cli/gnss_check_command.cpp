@@ -172,6 +172,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
     }
     nlohmann::json summary;
     summary["levelhead_version"] = version_string();
+    summary["format_version"] = output_format_version;
     summary["command"] = "gnss-check";
     summary["units"] = "m";
     summary["levelled_reference"] = levelled_ref;

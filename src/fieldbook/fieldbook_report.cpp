@@ -68,6 +68,7 @@ void write_field_book_outputs(const FieldBook& book, const FieldBookResult& resu
 
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
+  summary["format_version"] = output_format_version;
   summary["command"] = "reduce";
   summary["inputs"] = {{"field_book", book.file}};
   summary["units"] = "m";

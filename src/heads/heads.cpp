@@ -530,6 +530,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   nlohmann::json s;
   s["event"] = event_summary;
   s["levelhead_version"] = version_string();
+  s["format_version"] = output_format_version;
   s["command"] = "heads";
   s["target_reference"] = options.target;
   s["units"] = to_string(unit);

@@ -472,6 +472,7 @@ void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit uni
 std::string summary_json(const TransducerSummary& summary, const TransducerOptions& options) {
   nlohmann::json json;
   json["levelhead_version"] = version_string();
+  json["format_version"] = output_format_version;
   json["command"] = "transducer";
   json["manual_readings"] = summary.manual;
   json["transducer_readings_written"] = summary.written;

@@ -61,6 +61,7 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
 
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
+  summary["format_version"] = output_format_version;
   summary["command"] = "loops";
   summary["inputs"] = {{"points", net.points_file}, {"sections", net.sections_file}};
   summary["units"] = "m";

@@ -139,6 +139,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
 
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
+  summary["format_version"] = output_format_version;
   summary["command"] = "convert";
   summary["proj"] = proj_version_text();
   summary["input"] = table.source();
