@@ -393,3 +393,19 @@ TEST_CASE(
     CHECK(r.loops.size() == r.cyclomatic_number);
   }
 }
+
+TEST_CASE("a network of one loop, or of none, has its minimum basis at once", "[loops][basis]") {
+  using testing::point;
+  using testing::section;
+  const Network ring =
+      make_network({point("A", 100.0), point("B"), point("C")},
+                   {section("A", "B", 1.0), section("B", "C", 1.0), section("C", "A", -2.0)});
+  const LoopResult one = find_loops(ring, LoopOptions{});
+  CHECK(one.loops.size() == 1);
+  CHECK(one.minimum_basis);
+  const Network line = make_network({point("A", 100.0), point("B"), point("C")},
+                                    {section("A", "B", 1.0), section("B", "C", 1.0)});
+  const LoopResult none = find_loops(line, LoopOptions{});
+  CHECK(none.loops.empty());
+  CHECK(none.minimum_basis);
+}

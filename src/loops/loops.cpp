@@ -449,6 +449,8 @@ LoopResult find_loops(const Network& net, const LoopOptions& options) {
   // would generate more than max_exact_candidates.
   std::vector<Candidate> candidates;
   start_basis();
+  // Rings alone (a network of one loop, or none): nothing to choose.
+  result.minimum_basis = chosen.size() == target;
   if (!lengths.empty()) {
     std::nth_element(lengths.begin(), lengths.begin() + lengths.size() / 2, lengths.end());
     double limit = 4.0 * lengths[lengths.size() / 2];
