@@ -14,6 +14,7 @@
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/input_files.hpp"
 #include "levelhead/version.hpp"
+#include "util/text.hpp"
 
 namespace levelhead::cli {
 
@@ -46,33 +47,15 @@ std::vector<std::string> reversed_arguments(const std::vector<std::string>& args
   return {args.rbegin(), args.rend() - (args.empty() ? 0 : 1)};
 }
 
-// Levenshtein distance (Wagner and Fischer 1974), for suggestions.
-std::size_t edit_distance(std::string_view a, std::string_view b) {
-  std::vector<std::size_t> row(b.size() + 1);
-  for (std::size_t j = 0; j <= b.size(); ++j) row[j] = j;
-  for (std::size_t i = 1; i <= a.size(); ++i) {
-    std::size_t diagonal = row[0];
-    row[0] = i;
-    for (std::size_t j = 1; j <= b.size(); ++j) {
-      const std::size_t above = row[j];
-      row[j] = std::min({row[j] + 1, row[j - 1] + 1, diagonal + (a[i - 1] == b[j - 1] ? 0 : 1)});
-      diagonal = above;
-    }
-  }
-  return row[b.size()];
-}
-
 // The choice nearest `word` when it is close enough to be a slip of the
 // keyboard (a third of its letters, at least one), with a ", did you mean"
 // phrase; empty otherwise.
 std::string suggestion(std::string_view word, const std::vector<std::string>& choices) {
-  const std::string* best = nullptr;
-  std::size_t best_distance = std::max<std::size_t>(1, word.size() / 3) + 1;
-  for (const std::string& c : choices) {
-    const std::size_t d = edit_distance(word, c);
-    if (d < best_distance) best = &c, best_distance = d;
-  }
-  return best ? fmt::format("; did you mean '{}'?", *best) : std::string();
+  if (choices.empty()) return {};
+  const std::string nearest = util::nearest_name(word, choices);
+  const std::size_t slip = std::max<std::size_t>(1, word.size() / 3);
+  return util::edit_distance(word, nearest) <= slip ? fmt::format("; did you mean '{}'?", nearest)
+                                                    : std::string();
 }
 
 // An unknown command or an unknown option of the command, with the nearest
