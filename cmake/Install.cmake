@@ -79,6 +79,6 @@ set(CPACK_PACKAGE_DESCRIPTION_SUMMARY
     "Levelling adjustment and vertical datum reconciliation for well measuring points")
 set(CPACK_DEBIAN_PACKAGE_SECTION science)
 set(CPACK_DEBIAN_PACKAGE_SHLIBDEPS ON)
-set(CPACK_DEBIAN_PACKAGE_DEPENDS "proj-data")
+set(CPACK_DEBIAN_PACKAGE_DEPENDS "proj-data, tzdata")
 set(CPACK_DEBIAN_FILE_NAME DEB-DEFAULT)
 include(CPack)

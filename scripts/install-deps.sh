@@ -19,6 +19,7 @@ packages=(
   nlohmann-json3-dev
   libfmt-dev
   libutfcpp-dev
+  libhowardhinnant-date-dev tzdata
   catch2
   python3 python3-numpy
   clang-format

@@ -52,7 +52,7 @@ struct TwoSurveys {
     MeasuringPointRecord m;
     m.well = "W1";
     m.valid_from_text = from;
-    m.valid_from = *parse_iso8601(from);
+    m.valid_from = parse_iso8601(from)->seconds;
     m.height = height;
     m.sigma = sigma;
     m.datum = "EPSG:5703";

@@ -1,6 +1,8 @@
 // Heads from water levels: hand-worked cases (invented wells) and every QA flag.
 
 #include <fmt/format.h>
+#include <gdal.h>
+#include <ogr_api.h>
 
 #include <catch2/catch.hpp>
 #include <fstream>
@@ -29,6 +31,9 @@ struct Site {
   std::string network;    // heights.csv of `adjust`, when not empty
   LengthUnit mp_unit = LengthUnit::metre;
   HeadOptions options;
+  std::optional<TimeZone> default_zone;  // --time-zone
+  TableOptions levels_table;             // its time_zone: --levels-time-zone
+  std::filesystem::path levels_path;     // a levels file of the test's own, else `levels`
   ReferenceSet references;
 
   Site() {
@@ -47,10 +52,11 @@ struct Site {
   Table run() {
     write("wells.csv", wells);
     write("mp.csv", mp);
-    write("levels.csv", levels);
+    if (levels_path.empty()) write("levels.csv", levels);
     const WellSet w = read_wells(read_table(tmp.path() / "wells.csv"));
-    const auto records =
-        read_measuring_points(read_table(tmp.path() / "mp.csv", TableOptions{{}, mp_unit, {}}), w);
+    TimeReader times(default_zone);
+    const auto records = read_measuring_points(
+        read_table(tmp.path() / "mp.csv", TableOptions{{}, mp_unit, {}}), w, &times);
     MonitoredHeights moving;
     if (!monitored.empty()) {
       write("monitored.csv", monitored);
@@ -61,8 +67,9 @@ struct Site {
       write("heights.csv", network);
       adjusted = read_network_heights(read_table(tmp.path() / "heights.csv"));
     }
-    compute_heads(w, records, adjusted, moving, references, ProjSettings{}, options,
-                  tmp.path() / "levels.csv", TableOptions{}, tmp.path() / "out", true);
+    compute_heads(w, records, adjusted, moving, references, ProjSettings{}, options, times,
+                  levels_path.empty() ? tmp.path() / "levels.csv" : levels_path, levels_table,
+                  tmp.path() / "out", true);
     return read_table(tmp.path() / "out" / "heads.csv");
   }
   void write(const char* name, const std::string& text) {
@@ -397,5 +404,48 @@ TEST_CASE("measuring points on unchecked levelling are flagged once and per read
     site.levels = "well,time,depth\nW1,2024-07-02,2.000\n";
     CHECK_THROWS_WITH(site.run(), Contains("heights.csv") && Contains("checked") &&
                                       Contains("maybe") && Contains("yes or no"));
+  }
+}
+
+TEST_CASE("an XLSX of local times read in a named zone gives the right UTC",
+          "[heads][time][gdal]") {
+  // Spreadsheet date-time cells carry no zone. Two tape readings of W1 at
+  // 08:00 on the clock of a Chicago crew: in January on CST (-06:00), in July
+  // on CDT (-05:00; US daylight saving, tz database).
+  Site site;
+  site.levels_path = site.tmp.path() / "levels.xlsx";
+  GDALAllRegister();
+  GDALDatasetH ds = GDALCreate(GDALGetDriverByName("XLSX"), site.levels_path.string().c_str(), 0, 0,
+                               0, GDT_Unknown, nullptr);
+  REQUIRE(ds != nullptr);
+  OGRLayerH layer = GDALDatasetCreateLayer(ds, "levels", nullptr, wkbNone, nullptr);
+  const std::pair<const char*, OGRFieldType> fields[] = {
+      {"well", OFTString}, {"time", OFTDateTime}, {"depth", OFTReal}};
+  for (const auto& [name, type] : fields) {
+    OGRFieldDefnH f = OGR_Fld_Create(name, type);
+    OGR_L_CreateField(layer, f, 1);
+    OGR_Fld_Destroy(f);
+  }
+  for (const int month : {1, 7}) {
+    OGRFeatureH f = OGR_F_Create(OGR_L_GetLayerDefn(layer));
+    OGR_F_SetFieldString(f, 0, "W1");
+    OGR_F_SetFieldDateTime(f, 1, 2021, month, 15, 8, 0, 0, 0);  // 0: zone unknown
+    OGR_F_SetFieldDouble(f, 2, 3.0);
+    REQUIRE(OGR_L_CreateFeature(layer, f) == OGRERR_NONE);
+    OGR_F_Destroy(f);
+  }
+  GDALClose(ds);
+
+  site.levels_table.time_zone = TimeZone::find("America/Chicago");
+  const Table t = site.run();
+  REQUIRE(t.row_count() == 2);
+  CHECK(t.cell(0, *t.find_column("time_utc")) == "2021-01-15T14:00:00Z");
+  CHECK(t.cell(1, *t.find_column("time_utc")) == "2021-07-15T13:00:00Z");
+
+  SECTION("undeclared, beside a measuring point valid from a zoned time, it is an error") {
+    site.levels_table.time_zone.reset();
+    site.mp = "well,valid_from,height,datum,sigma\nW1,2020-01-01T00:00Z,10.000,EPSG:5703,0.002\n";
+    CHECK_THROWS_WITH(site.run(), Contains("levels.xlsx, row 2, column 'time'") &&
+                                      Contains("has no zone") && Contains("mp.csv, row 2"));
   }
 }

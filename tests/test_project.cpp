@@ -208,7 +208,7 @@ TEST_CASE("a failing stage stops the chain and keeps nothing of that run", "[pro
   const fs::path project = demo_project(tmp.path());
   const fs::path out = tmp.path() / "out";
   std::ofstream(project.parent_path() / "levels.csv", std::ios::app)
-      << "MW-01,2026-10-12T09:00,deep,\n";
+      << "MW-01,2026-10-12T09:00-06:00,deep,\n";
   SECTION("into a new folder: the folder is not created") {
     const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
     CHECK(run.code == 1);
@@ -532,12 +532,57 @@ TEST_CASE("project column maps reach every stage that reads the table", "[projec
   CHECK(fs::exists(out / "flow" / "flow.json"));
 }
 
+TEST_CASE("project time zones: tape times without a zone need one declared", "[project][time]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  const fs::path levels = project.parent_path() / "levels.csv";
+  std::string text = read_file(levels);
+  for (auto at = text.find("-06:00"); at != std::string::npos; at = text.find("-06:00"))
+    text.erase(at, 6);
+  std::ofstream(levels, std::ios::binary) << text;
+  const fs::path out = tmp.path() / "out";
+
+  // The logger's records are read in its -06:00 (sensors.csv): tape readings
+  // read as UTC would check it 6 h off.
+  const Run refused = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+  CHECK(refused.code == 1);
+  CHECK_THAT(refused.err, Contains("levels.csv, row 2, column 'time'") && Contains("has no zone") &&
+                              Contains("read in -06:00"));
+  CHECK_FALSE(fs::exists(out));
+
+  SECTION("declared for the table") {
+    replace_in(project, "[report]", "[time_zones]\nlevels = \"-06:00\"\n\n[report]");
+  }
+  SECTION("declared for the site") {
+    replace_in(project, "unit = \"m\"", "unit = \"m\"\ntime_zone = \"-06:00\"");
+  }
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  // The same heads as the demo's zoned tape times: levels.csv of the
+  // transducer writes them back with their offset.
+  CHECK(read_file(out / "heads" / "heads.csv") ==
+        read_file(tmp.path() / "seed" / "heads" / "heads.csv"));
+  const auto summary = nlohmann::json::parse(read_file(out / "transducer" / "summary.json"));
+  CHECK(summary["times"]["zoneless_read_in"]["-06:00"].get<int>() > 3000);
+}
+
+TEST_CASE("a project's time zone that is no zone is named with its line", "[project][time]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  replace_in(project, "[report]", "[time_zones]\nrecords = \"Central Time\"\n\n[report]");
+  const Run run = cli({"run", project.string(), "--out", (tmp.path() / "out").string()});
+  CHECK(run.code == 1);
+  CHECK_THAT(run.err,
+             Contains("line") && Contains("'records' = \"Central Time\" is not a time zone"));
+}
+
 TEST_CASE("keep_going in the project: the chain finishes, exits 4 and the report says why",
           "[project][rejects]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());
   std::ofstream(project.parent_path() / "levels.csv", std::ios::app)
-      << "MW-01,2026-10-12T09:00,deep,\n";
+      << "MW-01,2026-10-12T09:00-06:00,deep,\n";
   std::ofstream(project, std::ios::app) << "\n[transducer]\nkeep_going = true\n";
   const fs::path out = tmp.path() / "out";
   const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});

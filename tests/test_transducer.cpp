@@ -32,15 +32,17 @@ struct Bench {
   std::string records = "sensor,time,pressure\n";
   std::string levels = "well,time,depth\n";
   TransducerOptions options;
+  std::optional<TimeZone> default_zone;  // --time-zone
 
   TransducerSummary run() {
     write("wells.csv", wells);
     write("sensors.csv", sensors);
     write("records.csv", records);
     write("levels.csv", levels);
+    TimeReader times(default_zone);
     return reduce_transducers(read_wells(read_table(tmp.path() / "wells.csv")),
                               read_table(tmp.path() / "sensors.csv"), tmp.path() / "records.csv",
-                              TableOptions{}, read_table(tmp.path() / "levels.csv"), options,
+                              TableOptions{}, read_table(tmp.path() / "levels.csv"), options, times,
                               tmp.path() / "out");
   }
   void write(const char* name, const std::string& text) {
@@ -167,12 +169,50 @@ TEST_CASE("readings outside the sensor's range or out of the water are rejected"
   }
 }
 
-TEST_CASE("logger clocks in a local zone are brought to UTC", "[transducer]") {
+TEST_CASE("logger clocks in a local zone are brought to UTC (column under its earlier name)",
+          "[transducer]") {
   Bench b;
   b.sensors = "sensor,kind,well,hung_depth,utc_offset\nT1,vented,W1,20.0,-06:00\n";
   b.records += "T1,2026-01-15T06:00:00," + std::to_string(kpa(8.0)) + "\n";
   b.run();
   CHECK_THAT(depth_at(b.output("levels.csv"), "2026-01-15T12:00:00Z"), WithinAbs(12.0, 1e-6));
+}
+
+TEST_CASE("a logger on daylight-saving time across the night the clocks go back",
+          "[transducer][time]") {
+  // America/Chicago leaves CDT (-05:00) for CST (-06:00) on 2026-11-01 at
+  // 02:00 local (US rule since 2007, first Sunday of November; tz database).
+  // The logger writes 00:30, 01:30, 01:30 again, 02:30: the second 01:30 is
+  // an hour after the first, told apart by the record order.
+  Bench b;
+  b.sensors = "sensor,kind,well,hung_depth,time_zone\nT1,vented,W1,20.0,America/Chicago\n";
+  for (const char* local : {"00:30", "01:30", "01:30", "02:30"})
+    b.records += fmt::format("T1,2026-11-01T{}:00,{:.6f}\n", local, kpa(8.0));
+  // A tape reading in local time, the levels table declared in the same zone
+  // (as a default zone): written back with its offset.
+  b.default_zone = TimeZone::find("America/Chicago");
+  b.levels += "W1,2026-10-31T12:00,12.000\n";
+  const TransducerSummary s = b.run();
+  CHECK(s.sensors[0].records == 4);
+  const Table levels = b.output("levels.csv");
+  for (const char* utc : {"2026-11-01T05:30:00Z", "2026-11-01T06:30:00Z", "2026-11-01T07:30:00Z",
+                          "2026-11-01T08:30:00Z"}) {
+    INFO(utc);
+    CHECK_THAT(depth_at(levels, utc), WithinAbs(12.0, 1e-6));
+  }
+  CHECK_THAT(depth_at(levels, "2026-10-31T12:00:00-05:00"), WithinAbs(12.0, 1e-9));
+  CHECK(s.zoneless_times.at("America/Chicago") == 5);
+
+  SECTION("a zone-less tape reading among zoned ones, with no zone declared, stops the stage") {
+    b.default_zone.reset();
+    b.sensors = "sensor,kind,well,hung_depth\nT1,vented,W1,20.0\n";
+    b.records = "sensor,time,pressure\nT1,2026-10-31T17:00:00Z," + std::to_string(kpa(8.0)) + "\n";
+    CHECK_THROWS_WITH(b.run(), Contains("levels.csv, row 2, column 'time'") &&
+                                   Contains("has no zone") && Contains("records.csv, row 2"));
+    // The earlier run's output stays as it was.
+    CHECK_THAT(depth_at(b.output("levels.csv"), "2026-10-31T12:00:00-05:00"),
+               WithinAbs(12.0, 1e-9));
+  }
 }
 
 TEST_CASE("a sensor without a hung depth is calibrated on the first tape reading", "[transducer]") {

@@ -72,7 +72,7 @@ CommandRunner add_convert_command(CLI::App& app) {
                                         ? parse_length_unit(a->out_unit)
                                         : own_unit(converter.target_unit(), converter.to());
     const Table table = read_table(
-        a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer, a->crs});
+        a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer, a->crs, {}});
     // Without --crs, x and y are in the source reference's horizontal CRS:
     // checked against its area of use all the same.
     if (a->crs.empty()) check_coordinates_in_crs(table, converter.points_crs());

@@ -34,7 +34,7 @@ std::vector<EpochSections> read_epochs(const EpochArguments& a, LengthUnit unit)
   std::vector<EpochSections> epochs;
   for (const std::string& file : a.sections) {
     const Table table =
-        read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}, {}});
+        read_table(file, TableOptions{parse_column_map(a.sections_columns), unit, {}, {}, {}});
     // Grouped by epoch: every section of an epoch in one group, set below.
     const std::string& groups = a.options.adjustment.variance_groups;
     SectionTable sections = read_sections(table, groups == "epoch" ? std::string() : groups);
@@ -96,7 +96,7 @@ int run_epochs(const EpochArguments& a, std::ostream& out, StageResults* chain) 
   for (const std::string* map : {&a.points_columns, &a.sections_columns}) parse_column_map(*map);
   if (options_check_only()) return exit_ok;
   const PointTable points = read_points(
-      read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}, {}}));
+      read_table(a.points, TableOptions{parse_column_map(a.points_columns), unit, {}, {}, {}}));
   require_point_units(points, unit);
   EpochAnalysis analysis =
       analyse_epochs(points, read_epochs(a, unit), candidate_marks(a, points), options);

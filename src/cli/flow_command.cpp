@@ -79,7 +79,8 @@ CommandRunner add_flow_command(CLI::App& app) {
     if (options_check_only()) return exit_ok;
     options.distance = a->distance;
     const WellSet wells = read_wells(read_table(
-        a->wells, TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs}));
+        a->wells,
+        TableOptions{parse_column_map(a->wells_columns), LengthUnit::metre, {}, a->crs, {}}));
     std::vector<FlowWell> used;
     // Whether a well enters the fit: of the aquifer asked for (the wells table says).
     const auto in_aquifer = [&](const Well& w) {
@@ -103,7 +104,7 @@ CommandRunner add_flow_command(CLI::App& app) {
         network_point_of[h.well] = h.network_point;
       }
     } else {
-      const Table heads = read_table(a->heads, TableOptions{{}, unit, {}, {}});
+      const Table heads = read_table(a->heads, TableOptions{{}, unit, {}, {}, {}});
       const std::size_t well_col = heads.require_column("well"),
                         head_col = heads.require_column("head");
       const auto sigma_col = heads.find_column("sigma"), contour_col = heads.find_column("contour");

@@ -92,7 +92,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
       for (const auto& [id, h] : chain->adjust->heights())
         levelled.emplace(id, std::pair{h.height, h.sigma.value_or(0.0)});
     } else {
-      const Table table = read_table(a->levelled, TableOptions{{}, levelled_unit, {}, {}});
+      const Table table = read_table(a->levelled, TableOptions{{}, levelled_unit, {}, {}, {}});
       const std::size_t lid = table.require_column("id"), lh = table.require_column("height");
       const auto ls = table.find_column("sigma");
       for (std::size_t r = 0; r < table.row_count(); ++r) {
@@ -102,7 +102,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
         }
       }
     }
-    const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}, a->crs});
+    const Table gnss = read_table(a->gnss, TableOptions{{}, unit, {}, a->crs, {}});
     const std::size_t gid = gnss.require_column("id"), gh = gnss.require_column("height");
     const std::size_t gx = gnss.require_column("x"), gy = gnss.require_column("y");
     const auto gs = gnss.find_column("sigma");

@@ -8,6 +8,7 @@
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
+#include "cli/time_options.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
@@ -23,6 +24,7 @@ struct HeadArguments {
   std::string wells, mp, levels, out, adjusted, monitored, event, unit = "m";
   std::string wells_columns, mp_columns, levels_columns;
   ReferenceInputs refs;
+  TimeZoneOptions zones;
   HeadOptions options;
   bool no_geopackage = false, strict = false, quiet = false;
 };
@@ -65,6 +67,7 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_flag("--allow-before-first", o.allow_before_first,
               "Use the first survey for older readings (flagged) instead of failing");
   c->add_option("--event", a->event, "Centre of a synoptic measurement event (ISO 8601)");
+  add_time_zone_options(*c, a->zones, {"levels", "mp"});
   c->add_option("--synoptic-window", o.synoptic_window_hours, "Length of the event window (h)")
       ->capture_default_str();
   c->add_option("--depth-sigma", o.depth_sigma, "Sigma of a depth reading without one (m)")
@@ -96,20 +99,23 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream& err, StageResults* chain) -> int {
     HeadOptions options = a->options;
+    TimeReader times(a->zones.default_time_zone());
     if (!a->event.empty()) {
-      const auto when = parse_iso8601(a->event);
-      if (!when) throw OptionError(fmt::format("--event '{}' is not an ISO 8601 time", a->event));
-      options.event = when->seconds;
+      if (!parse_iso8601(a->event))
+        throw OptionError(fmt::format("--event '{}' is not an ISO 8601 time", a->event));
+      options.event = times.read(a->event, CellLocation{"--event", 0, {}});
     }
     options.validate();
     const LengthUnit unit = parse_length_unit(a->unit);
-    const TableOptions table_options{parse_column_map(a->levels_columns), unit, {}, {}};
-    for (const std::string* map : {&a->wells_columns, &a->mp_columns}) parse_column_map(*map);
+    const TableOptions table_options{
+        parse_column_map(a->levels_columns), unit, {}, {}, a->zones.table_time_zone("levels")};
+    const TableOptions mp_options{
+        parse_column_map(a->mp_columns), unit, {}, {}, a->zones.table_time_zone("mp")};
+    parse_column_map(a->wells_columns);
     if (options_check_only()) return exit_ok;
     const WellSet wells = read_wells(read_table(
-        a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}, a->options.crs}));
-    const auto records = read_measuring_points(
-        read_table(a->mp, TableOptions{parse_column_map(a->mp_columns), unit, {}, {}}), wells);
+        a->wells, TableOptions{parse_column_map(a->wells_columns), unit, {}, a->options.crs, {}}));
+    const auto records = read_measuring_points(read_table(a->mp, mp_options), wells, &times);
     // In the chain, the adjustment's and the epochs' own results at full
     // precision; else the files.
     NetworkHeights network;
@@ -145,8 +151,8 @@ CommandRunner add_heads_command(CLI::App& app) {
     std::vector<HeadSink*> more_sinks;
     if (chain) more_sinks.push_back(&series);
     HeadsResult result =
-        compute_heads(wells, records, network, monitored, references, settings, options, a->levels,
-                      table_options, a->out, !a->no_geopackage, more_sinks);
+        compute_heads(wells, records, network, monitored, references, settings, options, times,
+                      a->levels, table_options, a->out, !a->no_geopackage, more_sinks);
     const HeadsSummary& s = result.summary;
     if (!a->quiet) {
       std::vector<std::string> states;
@@ -158,6 +164,8 @@ CommandRunner add_heads_command(CLI::App& app) {
                              ? std::string()
                              : fmt::format("; states carried: {}", fmt::join(states, ", ")));
       for (const auto& [flag, count] : s.flags) out << fmt::format("  {}: {}\n", flag, count);
+      if (const std::string line = zoneless_times_line(s.zoneless_times); !line.empty())
+        out << line << '\n';
       if (options.event) {
         out << fmt::format(
             "event {} +- {:g} h: {} of {} readings inside the window (heads.csv `in_event`)\n",

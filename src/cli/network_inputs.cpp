@@ -72,11 +72,11 @@ void check_network_input_options(const NetworkInputs& inputs) {
 Network load_network(const NetworkInputs& inputs, const std::string& group_column) {
   const LengthUnit unit = parse_length_unit(inputs.unit);
   const TableOptions point_options{
-      parse_column_map(inputs.points_columns), unit, inputs.points_layer, {}};
+      parse_column_map(inputs.points_columns), unit, inputs.points_layer, {}, {}};
   const LengthUnit sections_unit =
       inputs.sections_unit.empty() ? unit : parse_length_unit(inputs.sections_unit);
   const TableOptions section_options{
-      parse_column_map(inputs.sections_columns), sections_unit, inputs.sections_layer, {}};
+      parse_column_map(inputs.sections_columns), sections_unit, inputs.sections_layer, {}, {}};
   const Table point_table = read_table(inputs.points, point_options);
   const Table section_table = read_table(inputs.sections, section_options);
   PointTable points = read_points(point_table);

@@ -75,7 +75,11 @@ bool wired_by_chain(const std::string& key) {
                                               "sections_columns",
                                               "wells_columns",
                                               "mp_columns",
-                                              "levels_columns"};
+                                              "levels_columns",
+                                              "time_zone",
+                                              "levels_time_zone",
+                                              "records_time_zone",
+                                              "mp_time_zone"};
   return wired.count(key) > 0;
 }
 
@@ -120,14 +124,27 @@ std::string scalar_text(const Project& p, const toml::node& node, const std::str
   throw InputError(where(p, node), fmt::format("'{}' must be a number or a string", name));
 }
 
+// A zone as time.hpp reads it, checked here so that the file's line is named.
+std::string zone_value(const Project& p, const toml::node& node, const std::string& name) {
+  std::string zone = text_value(p, node, name);
+  if (!TimeZone::find(zone)) {
+    throw InputError(where(p, node),
+                     fmt::format("'{}' = \"{}\" is not a time zone: give an IANA name such as "
+                                 "\"America/Chicago\", a fixed offset such as \"-06:00\", or "
+                                 "\"UTC\"",
+                                 name, zone));
+  }
+  return zone;
+}
+
 fs::path resolve(const Project& p, const std::string& path) {
   const fs::path given(path);
   return given.is_absolute() ? given : p.folder / given;
 }
 
 void read_site(Project& p, const toml::table& site) {
-  const std::vector<std::string> allowed = {"name",       "crs",       "target",         "unit",
-                                            "references", "grid_path", "levelling_class"};
+  const std::vector<std::string> allowed = {
+      "name", "crs", "target", "unit", "time_zone", "references", "grid_path", "levelling_class"};
   for (const auto& [k, node] : site) {
     const std::string key(k.str());
     if (key == "name")
@@ -136,6 +153,8 @@ void read_site(Project& p, const toml::table& site) {
       p.crs = text_value(p, node, key);
     else if (key == "target")
       p.target = text_value(p, node, key);
+    else if (key == "time_zone")
+      p.time_zone = zone_value(p, node, key);
     else if (key == "unit") {
       p.unit = text_value(p, node, key);
       try {
@@ -238,6 +257,17 @@ void add_setting_args(const Project& p, const std::string& section,
   }
 }
 
+// `flag ZONE` when the project declares a zone for `role`'s times, and
+// --time-zone for the site's default zone.
+void add_time_zones(const Project& p, const std::vector<std::pair<std::string, const char*>>& roles,
+                    std::vector<std::string>& args) {
+  if (!p.time_zone.empty()) args.insert(args.end(), {"--time-zone", p.time_zone});
+  for (const auto& [role, flag] : roles) {
+    const auto it = p.time_zones.find(role);
+    if (it != p.time_zones.end()) args.insert(args.end(), {flag, it->second});
+  }
+}
+
 // `flag MAP` when the project maps the columns of `role`.
 void add_columns(const Project& p, const std::string& role, const char* flag,
                  std::vector<std::string>& args) {
@@ -270,7 +300,7 @@ Project parse_project(std::string_view text, const fs::path& file) {
                      std::string(e.description()));
   }
   p.settings = chain_defaults();
-  std::vector<std::string> sections = {"site", "inputs", "report", "columns"};
+  std::vector<std::string> sections = {"site", "inputs", "report", "columns", "time_zones"};
   for (const auto& [section, command] : stage_sections()) sections.push_back(section);
   for (const auto& [k, node] : root) {
     const std::string name(k.str());
@@ -296,6 +326,14 @@ Project parse_project(std::string_view text, const fs::path& file) {
         } catch (const OptionError& e) {
           throw InputError(where(p, cnode), e.what());
         }
+      }
+    } else if (name == "time_zones") {
+      const std::vector<std::string> allowed = {"levels", "records", "measuring_points"};
+      for (const auto& [zk, znode] : *table) {
+        const std::string key(zk.str());
+        if (std::find(allowed.begin(), allowed.end(), key) == allowed.end())
+          unknown_key(p, znode, "time_zones", key, allowed);
+        p.time_zones[key] = zone_value(p, znode, key);
       }
     } else if (name == "inputs") {
       read_inputs(p, *table);
@@ -424,6 +462,9 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     if (!p.crs.empty()) t.args.insert(t.args.end(), {"--crs", p.crs});
     add_columns(p, "wells", "--wells-columns", t.args);
     add_columns(p, "levels", "--levels-columns", t.args);  // its levels.csv has our names
+    // Its levels.csv writes zone-less tape times with their offset.
+    add_time_zones(p, {{"levels", "--levels-time-zone"}, {"records", "--records-time-zone"}},
+                   t.args);
     add(std::move(t));
     levels = (out / "transducer" / "levels.csv").string();
   }
@@ -440,6 +481,15 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     add_columns(p, "wells", "--wells-columns", h.args);
     add_columns(p, "measuring_points", "--mp-columns", h.args);
     if (!p.input("sensors")) add_columns(p, "levels", "--levels-columns", h.args);
+    add_time_zones(
+        p,
+        p.input("sensors")
+            ? std::vector<std::pair<std::string, const char*>>{{"measuring_points",
+                                                                "--mp-time-zone"}}
+            : std::vector<std::pair<std::string, const char*>>{{"measuring_points",
+                                                                "--mp-time-zone"},
+                                                               {"levels", "--levels-time-zone"}},
+        h.args);
     if (network)
       h.args.insert(h.args.end(), {"--adjusted", (out / "adjust" / "heights.csv").string()});
     if (!epoch_files.empty()) {

@@ -9,8 +9,10 @@
 //      [adjustment] -> adjust, [epochs], [heads], [flow]), and [report]
 //      (title, prepared_for, prepared_by, contour_interval) and [columns]
 //      (a column map per input table: points, sections, fieldbook, epochs,
-//      wells, measuring_points, levels). Relative paths are relative to the
-//      project file.
+//      wells, measuring_points, levels) and [time_zones] (the zone of an
+//      input table's times written without one: levels, records,
+//      measuring_points; [site] time_zone is the default). Relative paths
+//      are relative to the project file.
 // Out: the stages in chain order, each a command line of the same commands
 //      a user would type, writing into its own folder of the output folder.
 // Errors: InputError naming the file and line for an unknown section or key
@@ -46,8 +48,10 @@ struct Project {
   std::filesystem::path file, folder;
   std::string name, crs, target, unit = "m";
   std::string levelling_class;  // [site] levelling_class: --class of reduce, loops, adjust, epochs
-  std::vector<ProjectInput> inputs;  // in the order of [inputs]
-  std::filesystem::path references;  // empty when none
+  std::string time_zone;        // [site] time_zone: --time-zone of transducer and heads
+  std::map<std::string, std::string> time_zones;  // [time_zones]: input role -> zone
+  std::vector<ProjectInput> inputs;               // in the order of [inputs]
+  std::filesystem::path references;               // empty when none
   std::vector<std::filesystem::path> grid_paths;
   std::map<std::string, std::string> report;   // title, prepared_for, prepared_by
   std::optional<double> contour_interval;      // m, [report] contour_interval

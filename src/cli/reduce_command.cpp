@@ -97,7 +97,7 @@ CommandRunner add_reduce_command(CLI::App& app) {
     }
     options.validate();
     const TableOptions table_options{
-        parse_column_map(a->columns), parse_length_unit(a->unit), a->layer, {}};
+        parse_column_map(a->columns), parse_length_unit(a->unit), a->layer, {}, {}};
     if (options_check_only()) return static_cast<int>(exit_ok);
     const FieldBook book = read_field_book(read_table(a->field_book, table_options));
     FieldBookResult result = reduce_field_book(book, options);

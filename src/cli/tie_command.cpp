@@ -60,9 +60,9 @@ CommandRunner add_tie_command(CLI::App& app) {
     options.min_ties = a->min_ties;
     const LengthUnit unit = parse_length_unit(a->unit);
     const Table site =
-        read_table(a->site, TableOptions{parse_column_map(a->site_columns), unit, {}, {}});
+        read_table(a->site, TableOptions{parse_column_map(a->site_columns), unit, {}, {}, {}});
     const Table base =
-        read_table(a->base, TableOptions{parse_column_map(a->base_columns), unit, {}, {}});
+        read_table(a->base, TableOptions{parse_column_map(a->base_columns), unit, {}, {}, {}});
     const std::vector<TiePoint> ties = match_tie_points(site, base);
     const TieResult result = estimate_tie(ties, options);
 

@@ -7,6 +7,7 @@
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
+#include "cli/time_options.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/units.hpp"
@@ -20,6 +21,7 @@ namespace {
 struct TransducerArguments {
   std::string wells, sensors, records, levels, out, unit = "m";
   std::string wells_columns, levels_columns, crs;
+  TimeZoneOptions zones;
   TransducerOptions options;
   bool strict = false, quiet = false;
 };
@@ -34,7 +36,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, density)")->required();
   c->add_option(
        "--sensors", a->sensors,
-       "Sensors (sensor, kind, well, barometer, hung_depth, range_kpa, sigma, utc_offset, x, y, "
+       "Sensors (sensor, kind, well, barometer, hung_depth, range_kpa, sigma, time_zone, x, y, "
        "elevation)")
       ->required();
   c->add_option("--records", a->records, "Pressure records (sensor, time, pressure in kPa)")
@@ -50,6 +52,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_option(
       "--levels-columns", a->levels_columns,
       "Column map for the manual readings (levels.csv is written with levelhead's names)");
+  add_time_zone_options(*c, a->zones, {"levels", "records"});
   c->add_option("--density", o.density, "Water density for wells that give none (kg/m^3)")
       ->capture_default_str();
   c->add_option("--gravity", o.gravity, "Acceleration of gravity (m/s^2; default standard gravity)")
@@ -83,15 +86,23 @@ CommandRunner add_transducer_command(CLI::App& app) {
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
   return [a](std::ostream& out, std::ostream& err, StageResults* chain) -> int {
     a->options.validate();
-    const TableOptions table{{}, parse_length_unit(a->unit), {}, {}};
-    for (const std::string* map : {&a->wells_columns, &a->levels_columns}) parse_column_map(*map);
+    const TableOptions table{{}, parse_length_unit(a->unit), {}, {}, {}};
+    const TableOptions levels{parse_column_map(a->levels_columns),
+                              table.length_unit,
+                              {},
+                              {},
+                              a->zones.table_time_zone("levels")};
+    TableOptions records;
+    records.time_zone = a->zones.table_time_zone("records");
+    TimeReader times(a->zones.default_time_zone());
+    parse_column_map(a->wells_columns);
     if (options_check_only()) return exit_ok;
     const WellSet wells = read_wells(read_table(
-        a->wells, TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}, a->crs}));
-    const TableOptions levels{parse_column_map(a->levels_columns), table.length_unit, {}, {}};
+        a->wells,
+        TableOptions{parse_column_map(a->wells_columns), table.length_unit, {}, a->crs, {}}));
     TransducerSummary s =
-        reduce_transducers(wells, read_table(a->sensors, table), a->records, TableOptions{},
-                           read_table(a->levels, levels), a->options, a->out);
+        reduce_transducers(wells, read_table(a->sensors, table), a->records, records,
+                           read_table(a->levels, levels), a->options, times, a->out);
     bool problems = false;
     if (!a->quiet) {
       out << fmt::format("{} manual readings passed through, {} transducer readings written\n",
@@ -118,6 +129,8 @@ CommandRunner add_transducer_command(CLI::App& app) {
                            sensor.efficiency->pairs);
       }
     }
+    if (const std::string line = zoneless_times_line(s.zoneless_times); !line.empty() && !a->quiet)
+      out << line << '\n';
     if (!a->quiet)
       out << fmt::format("Wrote levels.csv, checks.csv, qa.csv and summary.json in {}\n", a->out);
     const int status = s.rejected > 0 ? report_rejected(err, "transducer", s.rejected, "row(s)")

@@ -55,10 +55,10 @@ MeasuringPointHistory::GivenHeights MeasuringPointHistory::resolve_sources(
                          "heights_by_epoch.csv of `levelhead epochs`)");
       }
       elevations_[k].motion = &it->second;
-      elevations_[k].motion_base = monitored_at(it->second, m.valid_from.seconds);
+      elevations_[k].motion_base = monitored_at(it->second, m.valid_from);
     }
     if (monitored_point != monitored.end()) {
-      const MonitoredValue at_survey = monitored_at(monitored_point->second, m.valid_from.seconds);
+      const MonitoredValue at_survey = monitored_at(monitored_point->second, m.valid_from);
       given[k] = at_survey.height;
       given_sigma[k] = at_survey.sigma;
       datum = monitored_point->second.reference;
@@ -201,12 +201,12 @@ void MeasuringPointHistory::order_and_check(const WellSet& wells, const HeadOpti
   }
   for (std::vector<std::size_t>& h : by_well_) {
     std::stable_sort(h.begin(), h.end(), [&](std::size_t a, std::size_t b) {
-      return records[a].valid_from.seconds < records[b].valid_from.seconds;
+      return records[a].valid_from < records[b].valid_from;
     });
     for (std::size_t j = 1; j < h.size(); ++j) {
       const MeasuringPointRecord& a = records[h[j - 1]];
       const MeasuringPointRecord& b = records[h[j]];
-      if (std::abs(a.valid_from.seconds - b.valid_from.seconds) < 0.5) {
+      if (std::abs(a.valid_from - b.valid_from) < 0.5) {
         throw InputError(CellLocation{"measuring points", b.row, "valid_from"}, b.valid_from_text,
                          fmt::format("well '{}' has two measuring-point records from the same "
                                      "time (rows {} and {})",
@@ -230,7 +230,7 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
   if (h.empty()) return std::nullopt;
   MeasuringPointAt at;
   const auto after = std::upper_bound(h.begin(), h.end(), time, [&](double t, std::size_t k) {
-    return t < records_[k].valid_from.seconds;
+    return t < records_[k].valid_from;
   });
   if (after == h.begin()) {
     at.record = h.front();
@@ -272,7 +272,7 @@ std::optional<MeasuringPointAt> MeasuringPointHistory::at(std::size_t well, doub
     // Linear in time between the two surveys; the sigmas combine as the
     // weights of two independent heights.
     const std::size_t next = *after;
-    const double t0 = records_[k].valid_from.seconds, t1 = records_[next].valid_from.seconds;
+    const double t0 = records_[k].valid_from, t1 = records_[next].valid_from;
     const double f = (time - t0) / (t1 - t0);
     at.height = (1.0 - f) * e.height + f * elevations_[next].height;
     at.sigma = std::hypot((1.0 - f) * e.sigma, f * elevations_[next].sigma);

@@ -25,6 +25,7 @@
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
+#include "util/time_audit.hpp"
 
 namespace levelhead {
 
@@ -197,7 +198,7 @@ struct LevelsColumns {
 
 // One row of the levels table, every cell checked and named when bad.
 ReadingInput read_reading(const Table& t, std::size_t r, const LevelsColumns& c,
-                          const WellSet& wells, const HeadOptions& options) {
+                          const WellSet& wells, const HeadOptions& options, TimeReader& times) {
   ReadingInput reading;
   reading.row = t.source_row(r);
   const std::string well_id(t.cell(r, c.well));
@@ -206,12 +207,7 @@ ReadingInput read_reading(const Table& t, std::size_t r, const LevelsColumns& c,
     throw InputError(t.location(r, c.well), well_id, "this well is not in the wells table");
   reading.well = well->second;
   reading.time_text = std::string(t.cell(r, c.time));
-  const auto when = parse_iso8601(reading.time_text);
-  if (!when) {
-    throw InputError(t.location(r, c.time), reading.time_text,
-                     "expected an ISO 8601 time, e.g. 2026-10-06T08:30 or 2026-10-06T08:30+02:00");
-  }
-  reading.time = when->seconds;
+  reading.time = times.read(reading.time_text, t.location(r, c.time), t.time_zone());
   if (c.flags) {
     std::string_view given = util::trim(t.cell(r, *c.flags));
     while (!given.empty()) {
@@ -450,9 +446,10 @@ nlohmann::json write_event(const HeadEvent& event, OutputSet& out, double per_me
 HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
                           const NetworkHeights& network, const MonitoredHeights& monitored,
                           const ReferenceSet& references, const ProjSettings& settings,
-                          const HeadOptions& options, const std::filesystem::path& levels,
-                          const TableOptions& levels_table, const std::filesystem::path& folder,
-                          bool geopackage, const std::vector<HeadSink*>& more_sinks) {
+                          const HeadOptions& options, TimeReader& times,
+                          const std::filesystem::path& levels, const TableOptions& levels_table,
+                          const std::filesystem::path& folder, bool geopackage,
+                          const std::vector<HeadSink*>& more_sinks) {
   options.validate();
   const LengthUnit unit = target_length_unit(options.target, references);
   const double per_metre = 1.0 / metres_per_unit(unit);
@@ -489,8 +486,8 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
     for (std::size_t r = 0; r < t.row_count(); ++r) {
       ++summary.readings;
       try {
-        process_reading(read_reading(t, r, columns, wells, options), t, r, columns, wells, history,
-                        options, state, sinks, qa_csv, summary);
+        process_reading(read_reading(t, r, columns, wells, options, times), t, r, columns, wells,
+                        history, options, state, sinks, qa_csv, summary);
       } catch (const InputError& e) {
         // A row fails before anything of it is written or counted.
         if (!options.keep_going) throw;
@@ -498,6 +495,8 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
       }
     }
   });
+  times.require_consistent_zones();
+  summary.zoneless_times = times.zoneless_read_in();
   summary.rejected = rejects.size();
   if (options.keep_going) write_rejects(out.open("rejects.csv"), rejects);
   if (gpkg) gpkg->finish();
@@ -534,7 +533,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   s["command"] = "heads";
   s["target_reference"] = options.target;
   s["units"] = to_string(unit);
-  s["time_rule"] = "times with a zone are converted to UTC; times without one are read as UTC";
+  s["times"] = util::time_audit_json(times);
   s["counts"] = {{"readings", summary.readings}, {"heads", summary.heads},
                  {"states", summary.states},     {"contourable", summary.contourable},
                  {"rejected", summary.rejected}, {"measuring_point_records", records.size()},

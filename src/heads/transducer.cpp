@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <limits>
 #include <nlohmann/json.hpp>
 #include <unordered_map>
 
@@ -20,6 +21,7 @@
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
+#include "util/time_audit.hpp"
 
 namespace levelhead {
 
@@ -73,28 +75,20 @@ struct Sample {
 };
 
 struct Sensor {
-  std::string id, kind, well, barometer, utc_offset_text;
+  std::string id, kind, well, barometer;
   std::optional<double> hung_depth, range_kpa, sigma, x, y, elevation;
-  double utc_offset = 0.0;  // s
+  std::optional<TimeZone> zone;  // of the logger's clock, for times written without one
   std::size_t row = 0;
   std::vector<Sample> samples;
 };
-
-std::optional<double> parse_offset(std::string_view text) {
-  text = util::trim(text);
-  if (text.empty() || text == "Z" || text == "z") return 0.0;
-  const auto zoned = parse_iso8601(fmt::format("2000-01-01T00:00{}", text));
-  if (!zoned || !zoned->had_zone) return std::nullopt;
-  const auto plain = parse_iso8601("2000-01-01T00:00");
-  return plain->seconds - zoned->seconds;  // local = UTC + offset
-}
 
 std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells) {
   const std::size_t id = t.require_column("sensor"), kind = t.require_column("kind");
   const auto well = t.find_column("well"), baro = t.find_column("barometer"),
              hung = t.find_column("hung_depth");
   const auto range = t.find_column("range_kpa"), sigma = t.find_column("sigma"),
-             offset = t.find_column("utc_offset");
+             zone = t.find_column("time_zone") ? t.find_column("time_zone")
+                                               : t.find_column("utc_offset");  // its earlier name
   const auto x = t.find_column("x"), y = t.find_column("y"), elevation = t.find_column("elevation");
   std::map<std::string, Sensor> out;
   for (std::size_t r = 0; r < t.row_count(); ++r) {
@@ -117,13 +111,13 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
     if (x) s.x = t.number(r, *x);
     if (y) s.y = t.number(r, *y);
     if (elevation) s.elevation = t.height(r, *elevation);
-    if (offset) {
-      s.utc_offset_text = std::string(t.cell(r, *offset));
-      const auto o = parse_offset(s.utc_offset_text);
-      if (!o)
-        throw InputError(t.location(r, *offset), s.utc_offset_text,
-                         "expected a zone like -06:00, +01:00 or Z");
-      s.utc_offset = *o;
+    if (zone && !util::trim(t.cell(r, *zone)).empty()) {
+      s.zone = TimeZone::find(t.cell(r, *zone));
+      if (!s.zone)
+        throw InputError(t.location(r, *zone), std::string(t.cell(r, *zone)),
+                         "expected a fixed offset such as -06:00, UTC, or an IANA zone such as "
+                         "America/Chicago (only for a logger whose clock follows daylight "
+                         "saving)");
     }
     if (s.kind == "barometer") {
       if (!s.x || !s.y || !s.elevation) {
@@ -157,7 +151,8 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
 // Records are read in batches and kept as samples only: archives of
 // loggers run to tens of millions of rows.
 void read_records(const std::filesystem::path& path, const TableOptions& table,
-                  std::map<std::string, Sensor>& sensors, std::vector<RejectedRecord>* rejects) {
+                  std::map<std::string, Sensor>& sensors, TimeReader& times,
+                  std::vector<RejectedRecord>* rejects) {
   read_table_in_batches(path, table, 100000, [&](Table& t) {
     const std::size_t sensor = t.require_column("sensor"), time = t.require_column("time");
     const std::size_t pressure = t.require_column("pressure");
@@ -171,15 +166,15 @@ void read_records(const std::filesystem::path& path, const TableOptions& table,
                              "this sensor is not in the sensors table");
           last = &it->second;
         }
-        const auto when = parse_iso8601(t.cell(r, time));
-        if (!when)
-          throw InputError(t.location(r, time), std::string(t.cell(r, time)),
-                           "expected an ISO 8601 time");
+        // Logger clocks kept in a local zone are brought to UTC; the hour
+        // repeated when clocks go back is told apart by the record order.
+        const double utc = times.read(t.cell(r, time), t.location(r, time),
+                                      last->zone ? &*last->zone : t.time_zone(),
+                                      last->samples.empty() ? std::numeric_limits<double>::lowest()
+                                                            : last->samples.back().time);
         const auto p = t.number(r, pressure);
         if (!p)
           throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
-        // Logger clocks kept in a local zone are brought to UTC.
-        const double utc = when->had_zone ? when->seconds : when->seconds - last->utc_offset;
         last->samples.push_back({utc, *p, t.source_row(r)});
       } catch (const InputError& e) {
         if (!rejects) throw;
@@ -267,8 +262,13 @@ struct ManualPart {
 };
 
 ManualPart read_manual(const Table& manual, const WellSet& wells,
-                       const std::map<std::string, Sensor>& sensors,
+                       const std::map<std::string, Sensor>& sensors, TimeReader& times,
                        std::vector<RejectedRecord>* rejects) {
+  // A zone-less time read in a declared zone is written with its offset, so
+  // that levels.csv reads the same without the declaration.
+  const TimeZone* declared = manual.time_zone()
+                                 ? manual.time_zone()
+                                 : (times.default_zone() ? &*times.default_zone() : nullptr);
   ManualPart part;
   const std::size_t well_col = manual.require_column("well"),
                     time_col = manual.require_column("time");
@@ -294,11 +294,10 @@ ManualPart read_manual(const Table& manual, const WellSet& wells,
   for (auto& [w, k] : part.well_rank) k = rank++;
   for (std::size_t r = 0; r < manual.row_count(); ++r) try {
       const std::string well(manual.cell(r, well_col));
-      const auto when = parse_iso8601(manual.cell(r, time_col));
-      if (!when) {
-        throw InputError(manual.location(r, time_col), std::string(manual.cell(r, time_col)),
-                         "expected an ISO 8601 time");
-      }
+      const double when =
+          times.read(manual.cell(r, time_col), manual.location(r, time_col), manual.time_zone());
+      const auto as_written = parse_iso8601(manual.cell(r, time_col));
+      const bool add_offset = declared && as_written->had_time && !as_written->had_zone;
       if (!wells.index.count(well)) {
         throw InputError(manual.location(r, well_col), well, "this well is not in the wells table");
       }
@@ -307,13 +306,16 @@ ManualPart read_manual(const Table& manual, const WellSet& wells,
       // from it. Only a numeric depth is a check of a sensor.
       const LevelValue level =
           read_level_value(manual, r, depth_col, status_col, bounds::max_depth_to_water);
-      part.by_well[well].push_back(ManualReading{when->seconds, level.depth});
+      part.by_well[well].push_back(ManualReading{when, level.depth});
       std::string line;
       for (std::size_t c = 0; c < part.columns.size(); ++c) {
         if (c) line += ',';
-        if (c < manual.column_names().size()) append_csv_cell(line, manual.cell(r, c));
+        if (c == time_col && add_offset)
+          line += format_with_offset(when, declared->offset_at(when));
+        else if (c < manual.column_names().size())
+          append_csv_cell(line, manual.cell(r, c));
       }
-      part.rows.push_back({part.well_rank.at(well), when->seconds, manual_row, part.lines.size()});
+      part.rows.push_back({part.well_rank.at(well), when, manual_row, part.lines.size()});
       part.lines.push_back(std::move(line));
     } catch (const InputError& e) {
       if (!rejects) throw;
@@ -469,7 +471,8 @@ void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit uni
   }
 }
 
-std::string summary_json(const TransducerSummary& summary, const TransducerOptions& options) {
+nlohmann::json summary_json(const TransducerSummary& summary, const TransducerOptions& options,
+                            const TimeReader& times) {
   nlohmann::json json;
   json["levelhead_version"] = version_string();
   json["format_version"] = output_format_version;
@@ -511,7 +514,8 @@ std::string summary_json(const TransducerSummary& summary, const TransducerOptio
     list.push_back(std::move(j));
   }
   json["sensors"] = std::move(list);
-  return util::json_text(json);
+  json["times"] = util::time_audit_json(times);
+  return json;
 }
 
 }  // namespace
@@ -519,14 +523,15 @@ std::string summary_json(const TransducerSummary& summary, const TransducerOptio
 TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_table,
                                      const std::filesystem::path& records,
                                      const TableOptions& records_table, const Table& manual,
-                                     const TransducerOptions& options,
+                                     const TransducerOptions& options, TimeReader& times,
                                      const std::filesystem::path& folder) {
   options.validate();
   std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
   std::vector<RejectedRecord> rejects;
   std::vector<RejectedRecord>* set_aside = options.keep_going ? &rejects : nullptr;
-  read_records(records, records_table, sensors, set_aside);
-  ManualPart part = read_manual(manual, wells, sensors, set_aside);
+  read_records(records, records_table, sensors, times, set_aside);
+  ManualPart part = read_manual(manual, wells, sensors, times, set_aside);
+  times.require_consistent_zones();
 
   OutputSet out(folder);
   std::ostream& checks_csv = out.open("checks.csv");
@@ -627,7 +632,8 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
                options);
   summary.rejected = rejects.size();
   if (options.keep_going) write_rejects(out.open("rejects.csv"), rejects);
-  out.open("summary.json") << summary_json(summary, options) << '\n';
+  summary.zoneless_times = times.zoneless_read_in();
+  out.open("summary.json") << util::json_text(summary_json(summary, options, times)) << '\n';
   out.commit();
   return summary;
 }

@@ -45,7 +45,10 @@ WellSet read_wells(const Table& t) {
   return set;
 }
 
-std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const WellSet& wells) {
+std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const WellSet& wells,
+                                                        TimeReader* times) {
+  TimeReader as_utc;
+  TimeReader& reader = times ? *times : as_utc;
   const std::size_t well = t.require_column("well"), from = t.require_column("valid_from");
   const auto height = t.find_column("height"), datum = t.find_column("datum");
   const auto sigma = t.find_column("sigma"), point = t.find_column("point");
@@ -68,12 +71,7 @@ std::vector<MeasuringPointRecord> read_measuring_points(const Table& t, const We
       throw InputError(t.location(r, well), m.well, "this well is not in the wells table");
     }
     m.valid_from_text = std::string(t.cell(r, from));
-    const auto when = parse_iso8601(m.valid_from_text);
-    if (!when) {
-      throw InputError(t.location(r, from), m.valid_from_text,
-                       "expected an ISO 8601 date or time, e.g. 2026-10-06 or 2026-10-06T08:30Z");
-    }
-    m.valid_from = *when;
+    m.valid_from = reader.read(m.valid_from_text, t.location(r, from), t.time_zone());
     if (height) m.height = t.height(r, *height);
     m.table_unit = t.length_unit();
     if (sigma) m.sigma = t.sigma(r, *sigma);

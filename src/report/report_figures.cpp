@@ -242,7 +242,7 @@ std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoi
   if (series.empty() || !(t1 > t0)) return std::nullopt;
   std::map<std::string, std::vector<double>> changes;
   for (const MeasuringPointSurvey& m : surveys)
-    changes[m.record.well].push_back(m.record.valid_from.seconds);
+    changes[m.record.well].push_back(m.record.valid_from);
   const std::size_t columns = 3;
   const double cell_w = 245, cell_h = 120;
   const std::size_t rows = (series.size() + columns - 1) / columns;

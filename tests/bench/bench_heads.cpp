@@ -29,8 +29,9 @@ double run(const WellSet& wells, const std::vector<MeasuringPointRecord>& record
            const HeadOptions& options, const std::filesystem::path& levels,
            const std::filesystem::path& out, bool geopackage, std::size_t& readings) {
   const auto start = Clock::now();
+  TimeReader times;
   const HeadsResult r = compute_heads(wells, records, {}, {}, ReferenceSet{}, ProjSettings{},
-                                      options, levels, TableOptions{}, out, geopackage);
+                                      options, times, levels, TableOptions{}, out, geopackage);
   readings = r.summary.readings;
   return std::chrono::duration<double>(Clock::now() - start).count();
 }

@@ -54,7 +54,7 @@ int main(int argc, char** argv) {
   {
     std::ofstream(folder / "wells.csv") << "id,x,y,ground\nW1,500000,4400000,100.0\n";
     std::ofstream(folder / "sensors.csv")
-        << "sensor,kind,well,barometer,hung_depth,range_kpa,sigma,utc_offset,x,y,elevation\n"
+        << "sensor,kind,well,barometer,hung_depth,range_kpa,sigma,time_zone,x,y,elevation\n"
            "T1,absolute,W1,B1,12.0,200,0.01,-06:00,,,\n"
            "B1,barometer,,,,,,-06:00,500100,4400000,101.0\n";
     std::ofstream records(folder / "records.csv");
@@ -76,9 +76,10 @@ int main(int argc, char** argv) {
   const double baseline_mb = peak_rss_mb();
 
   auto start = Clock::now();
+  TimeReader times;
   const TransducerSummary s =
       reduce_transducers(wells, sensors, folder / "records.csv", TableOptions{}, levels,
-                         TransducerOptions{}, folder / "out");
+                         TransducerOptions{}, times, folder / "out");
   const double t_reduce = seconds_since(start);
   const double reduce_mb = peak_rss_mb();
 

@@ -56,8 +56,9 @@ extern "C" int LLVMFuzzerTestOneInput(const std::uint8_t* data, std::size_t size
     out.write(records.data(), static_cast<std::streamsize>(records.size()));
   }
   fuzz::accept_typed_errors([&] {
+    TimeReader times;
     reduce_transducers(site.wells, site.sensors, records_file, TableOptions{},
-                       parse_delimited_text(levels, "levels.csv"), TransducerOptions{},
+                       parse_delimited_text(levels, "levels.csv"), TransducerOptions{}, times,
                        site.folder / "out");
   });
   return 0;

@@ -24,6 +24,7 @@
 #include <vector>
 
 #include "levelhead/core/errors.hpp"
+#include "levelhead/core/time.hpp"
 #include "levelhead/core/units.hpp"
 
 namespace levelhead {
@@ -44,6 +45,9 @@ struct TableOptions {
   // also checks x and y against the CRS's area of use
   // (levelhead/references/coordinate_check.hpp). Empty: not checked.
   std::string xy_crs;
+  // The zone of the table's times written without one (time.hpp); unset:
+  // the command's default zone.
+  std::optional<TimeZone> time_zone;
 };
 
 class Table {
@@ -54,6 +58,10 @@ class Table {
   std::size_t row_count() const noexcept { return source_rows_.size(); }
   const std::vector<std::string>& column_names() const noexcept { return column_names_; }
   LengthUnit length_unit() const noexcept { return options_.length_unit; }
+  // The zone declared for this table's zone-less times, or null.
+  const TimeZone* time_zone() const noexcept {
+    return options_.time_zone ? &*options_.time_zone : nullptr;
+  }
 
   // Index of our column `name` (after the column map), or nullopt.
   std::optional<std::size_t> find_column(std::string_view name) const;

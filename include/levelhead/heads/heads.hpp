@@ -155,9 +155,11 @@ struct QaEntry {
 
 struct HeadsSummary {
   std::size_t readings = 0, heads = 0, states = 0, contourable = 0;
-  std::size_t remeasure = 0;                 // wells on the re-measure list (with an event)
-  std::size_t rejected = 0;                  // readings set aside (keep_going)
-  std::size_t in_event = 0;                  // readings inside the event's window (with an event)
+  std::size_t remeasure = 0;  // wells on the re-measure list (with an event)
+  std::size_t rejected = 0;   // readings set aside (keep_going)
+  std::size_t in_event = 0;   // readings inside the event's window (with an event)
+  // Times written without a zone, by the zone they were read in (time.hpp).
+  std::map<std::string, std::size_t> zoneless_times;
   std::map<std::string, std::size_t> flags;  // flag -> count
   std::map<std::string, std::size_t> states_by_kind;
   // Per kind of state, the first few readings as "WELL at TIME" (for findings).
@@ -201,12 +203,17 @@ class HeadSink;  // head_core.hpp
 // event.csv (one head per well, neighbour checks; event_qa.hpp), nests.csv
 // (vertical differences in piezometer nests) and remeasure.csv. Every
 // reading also goes to `more_sinks` (e.g. HeadSeriesSink for hydrographs).
-// The files are written from the result returned.
+// The files are written from the result returned. The readings' times are
+// read by `times`, the reader that read the event and the measuring points,
+// so that its zone rule spans all three (time.hpp): a zone-less time while
+// another had a zone and none is declared is an InputError before anything
+// is written.
 HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPointRecord>& records,
                           const NetworkHeights& network, const MonitoredHeights& monitored,
                           const ReferenceSet& references, const ProjSettings& settings,
-                          const HeadOptions& options, const std::filesystem::path& levels,
-                          const TableOptions& levels_table, const std::filesystem::path& folder,
-                          bool geopackage, const std::vector<HeadSink*>& more_sinks = {});
+                          const HeadOptions& options, TimeReader& times,
+                          const std::filesystem::path& levels, const TableOptions& levels_table,
+                          const std::filesystem::path& folder, bool geopackage,
+                          const std::vector<HeadSink*>& more_sinks = {});
 
 }  // namespace levelhead

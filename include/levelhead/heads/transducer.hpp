@@ -11,8 +11,10 @@
 //      estimate the barometric efficiency), hung_depth (m below the
 //      measuring point; empty: calibrated on the first manual check),
 //      range_kpa (the sensor's full scale), sigma (m, the sensor's accuracy
-//      as water depth), utc_offset (e.g. -06:00: the zone of the logger's
-//      clock for times written without one), x, y, elevation (barometers).
+//      as water depth), time_zone (the zone of the logger's clock for times
+//      written without one: -06:00, or America/Chicago for a clock that
+//      follows daylight saving; earlier name utc_offset), x, y, elevation
+//      (barometers).
 //      Records: sensor, time (ISO 8601), pressure (kPa).
 // Out: levels.csv: the manual readings as given and, per well sensor, one
 //      reading per record: depth = hung_depth - p_w / (rho g) + c(t), with
@@ -107,15 +109,20 @@ struct TransducerSummary {
   std::vector<SensorSummary> sensors;
   std::size_t manual = 0, written = 0;
   std::size_t rejected = 0;  // records and manual readings set aside (keep_going)
+  // Times written without a zone, by the zone they were read in (time.hpp).
+  std::map<std::string, std::size_t> zoneless_times;
 };
 
 // The records table is read from `records` in batches (it may hold tens of
 // millions of rows) and kept as compact samples; memory grows by about 100
-// bytes per record.
+// bytes per record. Times are read by `times` (time.hpp): a record in its
+// logger's zone, else the records table's, else the default; a manual
+// reading in the levels table's zone, else the default. A manual time read
+// in a declared zone is written to levels.csv with its UTC offset.
 TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors,
                                      const std::filesystem::path& records,
                                      const TableOptions& records_table, const Table& manual_levels,
-                                     const TransducerOptions& options,
+                                     const TransducerOptions& options, TimeReader& times,
                                      const std::filesystem::path& folder);
 
 }  // namespace levelhead

@@ -43,7 +43,7 @@ struct Well {
 
 struct MeasuringPointRecord {
   std::string well;
-  Instant valid_from;
+  double valid_from = 0.0;  // s, UTC
   std::string valid_from_text;
   std::optional<double> height;               // m, in `datum`
   LengthUnit table_unit = LengthUnit::metre;  // the unit the table gave it in
@@ -65,6 +65,9 @@ struct WellSet {
 };
 
 WellSet read_wells(const Table& table);
-std::vector<MeasuringPointRecord> read_measuring_points(const Table& table, const WellSet& wells);
+// valid_from is read by `times` (time.hpp: the table's zone, else the
+// default); without it, as UTC.
+std::vector<MeasuringPointRecord> read_measuring_points(const Table& table, const WellSet& wells,
+                                                        TimeReader* times = nullptr);
 
 }  // namespace levelhead
