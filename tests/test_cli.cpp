@@ -229,6 +229,38 @@ TEST_CASE("convert refuses a missing grid and writes nothing", "[cli][proj]") {
   CHECK(summary["counts"]["converted"] == 2);
 }
 
+TEST_CASE("convert --out - writes the table on standard output, the messages on stderr",
+          "[cli][proj]") {
+  // NAVD88 metres to NAVD88 US survey feet: 100 m = 328.08333 ftUS (US survey
+  // foot 1200/3937 m, US Federal Register, 1959).
+  levelhead::testing::TempFolder tmp;
+  const fs::path in = tmp.path() / "p.csv";
+  std::ofstream(in) << "id,x,y,height,sigma\nA,-100.0,40.0,100.000,0.003048\n";
+  const std::vector<std::string> base = {"convert",   "--from", "EPSG:5703", "--to",
+                                         "EPSG:6360", "--crs",  "EPSG:4326", "--in",
+                                         in.string(), "--out",  "-"};
+  const CliRun piped = run_cli(base);
+  INFO(piped.err);
+  REQUIRE(piped.code == 0);
+  CHECK_THAT(piped.out, Contains("id,x,y,height,") && Contains("A,-100.0,40.0,328.08333,"));
+  CHECK_THAT(piped.err, Contains("Converted 1 of 1") && Contains("standard output"));
+  CHECK(files_in(tmp.path()).size() == 1);  // no summary unless asked for
+
+  std::vector<std::string> with_summary = base;
+  with_summary.insert(with_summary.end(), {"--summary", (tmp.path() / "s.json").string()});
+  REQUIRE(run_cli(with_summary).code == 0);
+  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "s.json"));
+  CHECK(summary["counts"]["converted"] == 1);
+
+  SECTION("a failure writes nothing to standard output") {
+    std::ofstream(in) << "id,x,y,height,sigma\nA,-100.0,40.0,100.000,-1\n";
+    const CliRun bad_sigma = run_cli(base);
+    CHECK(bad_sigma.code == 1);
+    CHECK(bad_sigma.out.empty());
+    CHECK_THAT(bad_sigma.err, Contains("row 2, column 'sigma'"));
+  }
+}
+
 TEST_CASE("convert writes heights in the unit of the target reference", "[cli][proj][units]") {
   // 100 m in NAVD88 (EPSG:5703) is 100 * 3937 / 1200 = 328.08333 US survey
   // feet in NAVD88 height (ftUS), EPSG:6360 (US survey foot: 1200/3937 m,

@@ -3,11 +3,13 @@
 #include <fmt/format.h>
 
 #include <memory>
+#include <sstream>
 
 #include "cli/app.hpp"
 #include "cli/commands.hpp"
 #include "cli/reference_inputs.hpp"
 #include "levelhead/core/errors.hpp"
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/units.hpp"
 #include "levelhead/references/coordinate_check.hpp"
@@ -17,8 +19,15 @@
 namespace levelhead::cli {
 
 namespace {
+// One file, all-or-nothing (output_files.hpp).
+void write_file_whole(const std::filesystem::path& file, const std::string& text) {
+  OutputSet out(file.parent_path().empty() ? "." : file.parent_path());
+  out.open(file.filename().string()) << text;
+  out.commit();
+}
+
 struct ConvertArguments {
-  std::string from, to, input, output, crs, unit, out_unit, columns, layer;
+  std::string from, to, input, output, summary, crs, unit, out_unit, columns, layer;
   ReferenceInputs refs;
   std::optional<double> epoch;
   bool lenient = false, quiet = false;
@@ -33,9 +42,16 @@ CommandRunner add_convert_command(CLI::App& app) {
   c->add_option("--from", a->from, "Reference of the input heights (EPSG code, WKT, PROJJSON)")
       ->required();
   c->add_option("--to", a->to, "Target reference")->required();
-  c->add_option("--in", a->input, "Points table: id, x, y, height, optional sigma")->required();
-  c->add_option("--out", a->output, "Output CSV (a .summary.json is written beside it)")
+  c->add_option("--in", a->input,
+                "Points table: id, x, y, height, optional sigma ('-': a CSV on standard input)")
       ->required();
+  c->add_option("--out", a->output,
+                "Output CSV, a .summary.json written beside it ('-': standard output, the "
+                "messages then on standard error)")
+      ->required();
+  c->add_option("--summary", a->summary,
+                "The summary JSON elsewhere than beside --out (with --out -: written only "
+                "when given)");
   c->add_option(
       "--crs", a->crs,
       "CRS of x and y (x = easting or longitude); default: the horizontal part of --from");
@@ -52,7 +68,10 @@ CommandRunner add_convert_command(CLI::App& app) {
   c->add_flag("--lenient", a->lenient,
               "Write the points that convert and flag the others instead of failing");
   c->add_flag("--quiet", a->quiet, "Print nothing on success");
-  return [a, unit, out_unit](std::ostream& out, std::ostream&, StageResults*) {
+  return [a, unit, out_unit](std::ostream& console, std::ostream& err, StageResults*) {
+    // With the table on standard output, people read the messages on stderr.
+    const bool to_stdout = a->output == "-";
+    std::ostream& out = to_stdout ? err : console;
     const ProjSettings settings = a->refs.settings();
     const ReferenceSet references = a->refs.load();
     HeightConverter converter(a->from, a->to, a->crs, references, settings, a->epoch);
@@ -76,12 +95,25 @@ CommandRunner add_convert_command(CLI::App& app) {
     // Without --crs, x and y are in the source reference's horizontal CRS:
     // checked against its area of use all the same.
     if (a->crs.empty()) check_coordinates_in_crs(table, converter.points_crs());
+    const HeightConversionOptions options{a->lenient, a->epoch, written_unit};
     std::filesystem::path output(a->output);
-    std::filesystem::path summary = output;
-    summary.replace_extension(".summary.json");
-    const HeightConversionSummary counts = convert_points_table(
-        table, converter, HeightConversionOptions{a->lenient, a->epoch, written_unit}, output,
-        summary);
+    std::filesystem::path summary = a->summary;
+    if (summary.empty() && !to_stdout)
+      summary = std::filesystem::path(output).replace_extension(".summary.json");
+    HeightConversionSummary counts;
+    if (!to_stdout && summary.parent_path() == output.parent_path()) {
+      counts = convert_points_table(table, converter, options, output, summary);
+    } else {
+      // The table and its summary in different places: each written whole.
+      std::ostringstream csv, json;
+      counts =
+          convert_points_table(table, converter, options, csv, summary.empty() ? nullptr : &json);
+      if (!summary.empty()) write_file_whole(summary, json.str());
+      if (to_stdout)
+        console << csv.str() << std::flush;
+      else
+        write_file_whole(output, csv.str());
+    }
     if (!a->quiet) {
       out << fmt::format(
           "Converted {} of {} heights from {} to {} (heights read in {}, written in {})\n",
@@ -99,7 +131,13 @@ CommandRunner add_convert_command(CLI::App& app) {
         for (const std::string& w : proj->warnings()) out << "Warning: " << w << '\n';
       }
       if (counts.failed) out << fmt::format("{} point(s) NOT converted (flagged)\n", counts.failed);
-      out << fmt::format("Wrote {} and {}\n", output.string(), summary.string());
+      if (to_stdout) {
+        out << (summary.empty()
+                    ? std::string("Wrote the table to standard output\n")
+                    : fmt::format("Wrote the table to standard output and {}\n", summary.string()));
+      } else {
+        out << fmt::format("Wrote {} and {}\n", output.string(), summary.string());
+      }
     }
     return static_cast<int>(exit_ok);
   };

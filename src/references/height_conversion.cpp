@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cmath>
 #include <nlohmann/json.hpp>
+#include <sstream>
 
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/output_files.hpp"
@@ -15,8 +16,10 @@ namespace levelhead {
 
 HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
                                              const HeightConversionOptions& options,
-                                             const std::filesystem::path& output,
-                                             const std::filesystem::path& summary_path) {
+                                             std::ostream& csv_out, std::ostream* summary_json) {
+  // Built whole before any of it is written: a bad cell found half-way
+  // leaves the stream (standard output, say) untouched.
+  std::ostringstream csv;
   const std::size_t id_col = table.require_column("id");
   const std::size_t x_col = table.require_column("x");
   const std::size_t y_col = table.require_column("y");
@@ -65,9 +68,6 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   std::vector<std::optional<std::size_t>> result_of_row(table.row_count());
   for (std::size_t k = 0; k < rows.size(); ++k) result_of_row[rows[k]] = k;
 
-  const std::filesystem::path folder = output.parent_path().empty() ? "." : output.parent_path();
-  OutputSet out(folder);
-  std::ostream& csv = out.open(output.filename().string());
   // Columns this conversion writes; a table converted before has them
   // already, and they are replaced rather than repeated.
   std::vector<std::string> added = {"sigma_relative", "common", "reference", "transform", "flags"};
@@ -137,6 +137,8 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     csv << '\n';
   }
 
+  csv_out << csv.str();
+  if (!summary_json) return counts;
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
   summary["format_version"] = output_format_version;
@@ -195,10 +197,21 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     }
   }
   summary["failed_points"] = failed;
-  if (summary_path.parent_path() != output.parent_path()) {
+  *summary_json << util::json_text(summary) << '\n';
+  return counts;
+}
+
+HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
+                                             const HeightConversionOptions& options,
+                                             const std::filesystem::path& output,
+                                             const std::filesystem::path& summary) {
+  if (summary.parent_path() != output.parent_path()) {
     throw std::logic_error("summary must sit beside the output table");
   }
-  out.open(summary_path.filename().string()) << util::json_text(summary) << '\n';
+  OutputSet out(output.parent_path().empty() ? "." : output.parent_path());
+  std::ostream& csv = out.open(output.filename().string());
+  const HeightConversionSummary counts =
+      convert_points_table(table, converter, options, csv, &out.open(summary.filename().string()));
   out.commit();
   return counts;
 }

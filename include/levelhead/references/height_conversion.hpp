@@ -19,6 +19,7 @@
 
 #include <filesystem>
 #include <optional>
+#include <ostream>
 #include <string>
 
 #include "levelhead/core/table.hpp"
@@ -37,10 +38,15 @@ struct HeightConversionSummary {
   std::size_t points = 0, converted = 0, failed = 0;
 };
 
-// Writes `output` (CSV) and `summary` (JSON) all-or-nothing.
+// Writes `output` (CSV) and `summary` (JSON, in the same folder) all-or-nothing.
 HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
                                              const HeightConversionOptions& options,
                                              const std::filesystem::path& output,
                                              const std::filesystem::path& summary);
+// The same into streams (e.g. standard output), the summary only when
+// `summary` is given. Nothing is written when the conversion fails.
+HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
+                                             const HeightConversionOptions& options,
+                                             std::ostream& csv, std::ostream* summary);
 
 }  // namespace levelhead
