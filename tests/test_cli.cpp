@@ -1,5 +1,6 @@
 // The CLI driven in process: exit codes, messages, and all-or-nothing output.
 
+#include <algorithm>
 #include <catch2/catch.hpp>
 #include <filesystem>
 #include <fstream>
@@ -84,6 +85,37 @@ TEST_CASE("a mistyped command or option is named, with the nearest one", "[cli]"
   CHECK_THAT(run_cli({"adjust", "--alpah=0.05"}).err, Contains("'--alpha'"));
 }
 
+TEST_CASE("one name per concept: renamed options say their new name", "[cli]") {
+  const CliRun to = run_cli({"heads", "--to", "EPSG:5703"});
+  CHECK(to.code == 2);
+  CHECK_THAT(to.err, Contains("'--to' of 'heads' is now '--target'"));
+  CHECK_THAT(run_cli({"loops", "--tolerance", "12"}).err,
+             Contains("is now '--tolerance-mm-per-sqrt-km'"));
+  // Every new name exists, and no old one is still an option.
+  for (const auto& [was, now] : levelhead::cli::renamed_options()) {
+    INFO(was.first << " " << was.second << " -> " << now);
+    std::vector<std::string> flags;
+    for (const auto& o : levelhead::cli::command_options(was.first)) flags.push_back(o.flag);
+    CHECK(std::count(flags.begin(), flags.end(), now) == 1);
+    CHECK(std::count(flags.begin(), flags.end(), was.second) == 0);
+  }
+}
+
+TEST_CASE("every tolerance option carries its unit in its name", "[cli]") {
+  for (const char* command : {"reduce", "loops", "adjust", "epochs", "convert", "tie", "gnss-check",
+                              "transducer", "heads", "flow", "run", "diff"}) {
+    for (const auto& o : levelhead::cli::command_options(command)) {
+      if (o.flag.find("tolerance") == std::string::npos) continue;
+      INFO(command << " " << o.flag);
+      const auto ends = [&](const std::string& suffix) {
+        return o.flag.size() > suffix.size() &&
+               o.flag.compare(o.flag.size() - suffix.size(), suffix.size(), suffix) == 0;
+      };
+      CHECK((ends("-m") || ends("-mm") || ends("-mm-per-sqrt-km")));
+    }
+  }
+}
+
 TEST_CASE("strict mode exits 3 when a check fails, 0 otherwise", "[cli]") {
   levelhead::testing::TempFolder tmp;
   // The good corpus misclosure is 1 mm in 530 m of levelling; at 0.1 mm/sqrt(km)
@@ -157,10 +189,10 @@ TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "
   CHECK_THAT(row, Contains("BM1>A>B>BM1") || Contains("A>B>BM1>A") || Contains("B>BM1>A>B"));
   // The corpus loop misses by 1 mm over 530 m; 1 mm/sqrt(km) allows 0.73 mm.
   std::vector<std::string> tight = base;
-  tight.insert(tight.end(), {"--tolerance", "1"});
+  tight.insert(tight.end(), {"--tolerance-mm-per-sqrt-km", "1"});
   CHECK(run_cli(tight).code == 3);
   std::vector<std::string> both = base;
-  both.insert(both.end(), {"--tolerance", "1", "--class", "fgcc-third"});
+  both.insert(both.end(), {"--tolerance-mm-per-sqrt-km", "1", "--class", "fgcc-third"});
   CHECK(run_cli(both).code == 2);
   std::vector<std::string> unknown = base;
   unknown.insert(unknown.end(), {"--class", "best"});

@@ -182,6 +182,12 @@ TEST_CASE("project files: unknown keys suggest the nearest, bad values name the 
     CHECK_THAT(run.err, Contains("line"));
     CHECK_FALSE(fs::exists(out));
   }
+  SECTION("a key under its former name") {
+    replace_in(project, "synoptic_window = 72", "synoptic_window = 72\nrepeat_tolerance = 0.005");
+    const Run run = cli({"run", project.string(), "--out", out.string()});
+    CHECK(run.code == 1);
+    CHECK_THAT(run.err, Contains("'repeat_tolerance' in [heads] is now 'repeat_tolerance_m'"));
+  }
   SECTION("a misspelt section") {
     replace_in(project, "[heads]", "[head]");
     const Run run = cli({"run", project.string(), "--out", out.string()});
@@ -517,10 +523,10 @@ TEST_CASE("project column maps reach every stage that reads the table", "[projec
   // The wells table and the readings under the names of another program.
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());
-  replace_in(project.parent_path() / "wells.csv", "id,x,y,", "Well,East,North,");
+  replace_in(project.parent_path() / "wells.csv", "well,x,y,", "Well,East,North,");
   replace_in(project.parent_path() / "levels.csv", "well,time,depth,", "Well,When,DTW,");
   replace_in(project, "[report]",
-             "[columns]\nwells = \"id=Well,x=East,y=North\"\nlevels = "
+             "[columns]\nwells = \"well=Well,x=East,y=North\"\nlevels = "
              "\"well=Well,time=When,depth=DTW\"\n\n[report]");
   const fs::path out = tmp.path() / "out";
   const Run run = cli({"run", project.string(), "--out", out.string(), "--quiet"});

@@ -262,10 +262,10 @@ TEST_CASE("transducer levels feed heads: rejected readings are not contoured",
   b.write("mp.csv", "well,valid_from,height,datum,sigma\nW1,2020-01-01,101.000,EPSG:5703,0.003\n");
   std::ostringstream out, err;
   const int code = levelhead::cli::run(
-      {"levelhead", "heads", "--wells", (b.tmp.path() / "wells.csv").string(), "--mp",
+      {"levelhead", "heads", "--wells", (b.tmp.path() / "wells.csv").string(), "--measuring-points",
        (b.tmp.path() / "mp.csv").string(), "--levels",
-       (b.tmp.path() / "out" / "levels.csv").string(), "--to", "EPSG:5703", "--crs", "EPSG:32613",
-       "--out", (b.tmp.path() / "heads").string(), "--no-gpkg"},
+       (b.tmp.path() / "out" / "levels.csv").string(), "--target", "EPSG:5703", "--crs",
+       "EPSG:32613", "--out", (b.tmp.path() / "heads").string(), "--no-gpkg"},
       out, err);
   INFO(err.str());
   REQUIRE(code == 0);

@@ -74,10 +74,10 @@ TEST_CASE("five GNSS wells on a plane: the geoid model's 1 m cancels in the grad
        {std::pair{"wells.csv", wells}, {"mp.csv", mp}, {"levels.csv", levels}})
     std::ofstream(tmp.path() / name) << text;
   const auto heads = testing::run_cli(
-      {"heads", "--wells", (tmp.path() / "wells.csv").string(), "--mp",
-       (tmp.path() / "mp.csv").string(), "--levels", (tmp.path() / "levels.csv").string(), "--to",
-       "EPSG:5773", "--crs", "EPSG:32613", "--event", "2026-06-10T12:00Z", "--no-gpkg", "--quiet",
-       "--out", (tmp.path() / "heads").string()});
+      {"heads", "--wells", (tmp.path() / "wells.csv").string(), "--measuring-points",
+       (tmp.path() / "mp.csv").string(), "--levels", (tmp.path() / "levels.csv").string(),
+       "--target", "EPSG:5773", "--crs", "EPSG:32613", "--event", "2026-06-10T12:00Z", "--no-gpkg",
+       "--quiet", "--out", (tmp.path() / "heads").string()});
   INFO(heads.err);
   REQUIRE(heads.code == 0);
 

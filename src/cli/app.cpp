@@ -5,6 +5,7 @@
 #include <algorithm>
 #include <cmath>
 #include <cstdlib>
+#include <map>
 #include <optional>
 #include <sstream>
 #include <string_view>
@@ -58,6 +59,36 @@ std::string suggestion(std::string_view word, const std::vector<std::string>& ch
                                                     : std::string();
 }
 
+}  // namespace
+
+const std::map<std::pair<std::string, std::string>, std::string>& renamed_options() {
+  // One name per concept across the command line, the project file and the
+  // docs; tolerances carry their unit.
+  static const std::map<std::pair<std::string, std::string>, std::string> renamed = {
+      {{"heads", "--to"}, "--target"},
+      {{"heads", "--mp"}, "--measuring-points"},
+      {{"heads", "--mp-columns"}, "--measuring-points-columns"},
+      {{"heads", "--mp-change-tolerance"}, "--measuring-point-change-tolerance-m"},
+      {{"heads", "--repeat-tolerance"}, "--repeat-tolerance-m"},
+      {{"heads", "--history-tolerance"}, "--history-tolerance-m"},
+      {{"loops", "--tolerance"}, "--tolerance-mm-per-sqrt-km"},
+      {{"reduce", "--double-tolerance"}, "--double-tolerance-mm"},
+      {{"reduce", "--section-tolerance"}, "--section-tolerance-mm-per-sqrt-km"},
+      {{"gnss-check", "--tolerance"}, "--tolerance-m"},
+      {{"diff", "--tolerance"}, "--tolerance-m"},
+      {{"epochs", "--power"}, "--beta0"}};
+  return renamed;
+}
+
+std::optional<std::string> renamed_option(const std::string& command, const std::string& flag) {
+  const auto& renamed = renamed_options();
+  const auto it = renamed.find({command, flag});
+  if (it == renamed.end()) return std::nullopt;
+  return it->second;
+}
+
+namespace {
+
 // An unknown command or an unknown option of the command, with the nearest
 // known one; CLI11 would call the first "A subcommand is required" and the
 // second a missing required option.
@@ -80,6 +111,12 @@ std::optional<std::string> misspelling(const std::vector<std::string>& args, con
     if (args[k].rfind("--", 0) != 0) continue;
     const std::string flag = args[k].substr(0, args[k].find('='));
     if (std::find(options.begin(), options.end(), flag) == options.end()) {
+      if (const auto now = renamed_option(args[1], flag)) {
+        return fmt::format(
+            "option '{}' of '{}' is now '{}' (one name with the project file and "
+            "the docs)",
+            flag, args[1], *now);
+      }
       return fmt::format("unknown option '{}' for '{}'{} (levelhead {} --help lists them all)",
                          flag, args[1], suggestion(flag, options), args[1]);
     }

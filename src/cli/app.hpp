@@ -3,6 +3,7 @@
 // Exit status: 0 done; 1 bad input or failed computation; 2 usage error;
 // 3 with --strict when the work finished but a statistical test failed.
 
+#include <map>
 #include <optional>
 #include <ostream>
 #include <string>
@@ -30,6 +31,12 @@ struct OptionInfo {
   std::size_t values = 1;    // 1, or 2 and more (a range, a list)
   std::string default_text;  // as the command's help shows it; empty when none
 };
+
+// The present name of an option `command` had under the name `flag` (e.g.
+// heads --to: --target), or nullopt.
+std::optional<std::string> renamed_option(const std::string& command, const std::string& flag);
+// Every such rename: (command, former flag) -> present flag.
+const std::map<std::pair<std::string, std::string>, std::string>& renamed_options();
 
 // The long options of `command` (e.g. "adjust"), in the order they are declared.
 std::vector<OptionInfo> command_options(const std::string& command);

@@ -61,11 +61,11 @@ CommandRunner add_diff_command(CLI::App& app) {
   CLI::App* c = app.add_subcommand("diff", "What changed between two runs of the chain, and why");
   c->add_option("OLD", a->before, "Output folder of the earlier run")->required();
   c->add_option("NEW", a->after, "Output folder of the later run")->required();
-  c->add_option("--tolerance", a->tolerance, "Smallest change of a height or head reported (m)")
+  c->add_option("--tolerance-m", a->tolerance, "Smallest change of a height or head reported (m)")
       ->capture_default_str();
   c->add_option("--json", a->json, "Also write the differences to this JSON file");
   return [a](std::ostream& out, std::ostream&, StageResults*) {
-    if (!(a->tolerance >= 0.0)) throw OptionError("--tolerance must be 0 or more (m)");
+    if (!(a->tolerance >= 0.0)) throw OptionError("--tolerance-m must be 0 or more");
     const RunDifference d = compare_runs(a->before, a->after, a->tolerance);
     out << difference_text(d, a->tolerance);
     if (!a->json.empty()) {

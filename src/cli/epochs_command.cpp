@@ -138,7 +138,7 @@ CommandRunner add_epochs_command(CLI::App& app) {
       ->add_option("--alpha", a->options.alpha,
                    "Significance level of the congruence and displacement tests")
       ->capture_default_str();
-  command->add_option("--power", a->options.beta, "Power for the minimal detectable displacement")
+  command->add_option("--beta0", a->options.beta, "Power for the minimal detectable displacement")
       ->capture_default_str();
   command
       ->add_option("--variance", a->variance,

@@ -53,7 +53,7 @@ CommandRunner add_flow_command(CLI::App& app) {
                                    "(one per well), with Darcy velocity ranges");
   c->add_option("--heads", a->heads, "Heads, one per well (event.csv of heads --event)")
       ->required();
-  c->add_option("--wells", a->wells, "Wells table (id, x, y, aquifer)")->required();
+  c->add_option("--wells", a->wells, "Wells table (well, x, y, aquifer)")->required();
   c->add_option("--wells-columns", a->wells_columns, "Column map for the wells table");
   c->add_option("--crs", a->crs,
                 "Projected CRS of the wells' x and y (checked against a GIS layer's own)");

@@ -65,7 +65,7 @@ CommandRunner add_gnss_check_command(CLI::App& app) {
   c->add_option("--levelled-unit", a->levelled_unit,
                 "Length unit of the levelled table when it differs from --unit (the heights.csv "
                 "of levelhead adjust is in m)");
-  c->add_option("--tolerance", a->options.tolerance,
+  c->add_option("--tolerance-m", a->options.tolerance,
                 "Largest difference accepted as consistent (m); 3 sigma is used when larger")
       ->capture_default_str();
   c->add_option("--alpha0", a->options.alpha0,

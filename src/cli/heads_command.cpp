@@ -37,13 +37,13 @@ CommandRunner add_heads_command(CLI::App& app) {
                                    "Heads from water levels and measuring-point histories in one "
                                    "vertical reference, with QA before contouring");
   c->add_option("--wells", a->wells,
-                "Wells table (id, x, y, ground, screen_top, screen_bottom, ...)")
+                "Wells table (well, x, y, ground, screen_top, screen_bottom, ...)")
       ->required();
-  c->add_option("--mp", a->mp,
+  c->add_option("--measuring-points", a->mp,
                 "Measuring-point history (well, valid_from, height, datum, sigma, ...)")
       ->required();
   c->add_option("--levels", a->levels, "Water-level readings (well, time, depth, ...)")->required();
-  c->add_option("--to", o.target, "Target vertical reference of the heads")->required();
+  c->add_option("--target", o.target, "Target vertical reference of the heads")->required();
   c->add_option("--crs", o.crs, "CRS of the wells' x and y")->required();
   c->add_option("--out", a->out, "Output folder")->required();
   c->add_option("--adjusted", a->adjusted,
@@ -56,7 +56,8 @@ CommandRunner add_heads_command(CLI::App& app) {
       ->capture_default_str();
   c->add_option("--wells-columns", a->wells_columns,
                 "Column map for the wells table, e.g. id=Well,x=East");
-  c->add_option("--mp-columns", a->mp_columns, "Column map for the measuring-point table");
+  c->add_option("--measuring-points-columns", a->mp_columns,
+                "Column map for the measuring-point table");
   c->add_option("--levels-columns", a->levels_columns,
                 "Column map for the readings, e.g. depth=DTW");
   c->add_flag("--interpolate", o.interpolate,
@@ -67,15 +68,15 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_flag("--allow-before-first", o.allow_before_first,
               "Use the first survey for older readings (flagged) instead of failing");
   c->add_option("--event", a->event, "Centre of a synoptic measurement event (ISO 8601)");
-  add_time_zone_options(*c, a->zones, {"levels", "mp"});
+  add_time_zone_options(*c, a->zones, {"levels", "measuring-points"});
   c->add_option("--synoptic-window", o.synoptic_window_hours, "Length of the event window (h)")
       ->capture_default_str();
   c->add_option("--depth-sigma", o.depth_sigma, "Sigma of a depth reading without one (m)")
       ->capture_default_str();
-  c->add_option("--mp-change-tolerance", o.mp_change_tolerance,
+  c->add_option("--measuring-point-change-tolerance-m", o.mp_change_tolerance,
                 "Flag a measuring point that changes more than this between surveys (m)")
       ->capture_default_str();
-  c->add_option("--repeat-tolerance", o.repeat_tolerance,
+  c->add_option("--repeat-tolerance-m", o.repeat_tolerance,
                 "Repeat readings must agree within this (m)")
       ->capture_default_str();
   c->add_option("--repeat-window", o.repeat_window_hours,
@@ -83,7 +84,7 @@ CommandRunner add_heads_command(CLI::App& app) {
       ->capture_default_str();
   c->add_option("--map-contour-interval", o.map_contour_interval,
                 "Contour interval of maps measuring points were read from (m); sigma = half of it");
-  c->add_option("--history-tolerance", o.history_tolerance,
+  c->add_option("--history-tolerance-m", o.history_tolerance,
                 "Smallest departure of a head from its well's own trend that is flagged (m)")
       ->capture_default_str();
   c->add_option("--environmental-reference", o.environmental_reference,
@@ -109,8 +110,11 @@ CommandRunner add_heads_command(CLI::App& app) {
     const LengthUnit unit = parse_length_unit(a->unit);
     const TableOptions table_options{
         parse_column_map(a->levels_columns), unit, {}, {}, a->zones.table_time_zone("levels")};
-    const TableOptions mp_options{
-        parse_column_map(a->mp_columns), unit, {}, {}, a->zones.table_time_zone("mp")};
+    const TableOptions mp_options{parse_column_map(a->mp_columns),
+                                  unit,
+                                  {},
+                                  {},
+                                  a->zones.table_time_zone("measuring-points")};
     parse_column_map(a->wells_columns);
     if (options_check_only()) return exit_ok;
     const WellSet wells = read_wells(read_table(

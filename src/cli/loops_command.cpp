@@ -18,7 +18,8 @@ struct LoopArguments {
   NetworkInputs inputs;
   LoopOptions options;
   std::string closure_class;
-  CLI::Option* tolerance = nullptr;  // --tolerance, to tell a given k from the default
+  CLI::Option* tolerance =
+      nullptr;  // --tolerance-mm-per-sqrt-km, to tell a given k from the default
   bool strict = false;
   bool quiet = false;
 };
@@ -31,7 +32,7 @@ CommandRunner add_loops_command(CLI::App& app) {
   add_network_input_options(*command, args->inputs);
   CLI::Option* k =
       command
-          ->add_option("--tolerance", args->options.mm_per_sqrt_km,
+          ->add_option("--tolerance-mm-per-sqrt-km", args->options.mm_per_sqrt_km,
                        "Loop tolerance k in k mm * sqrt(loop length in km), instead of "
                        "--class")
           ->capture_default_str();

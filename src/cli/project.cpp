@@ -56,9 +56,9 @@ bool wired_by_chain(const std::string& key) {
                                               "grid_path",
                                               "network",
                                               "wells",
-                                              "mp",
+                                              "measuring_points",
                                               "levels",
-                                              "to",
+                                              "target",
                                               "crs",
                                               "adjusted",
                                               "monitored",
@@ -74,12 +74,12 @@ bool wired_by_chain(const std::string& key) {
                                               "points_columns",
                                               "sections_columns",
                                               "wells_columns",
-                                              "mp_columns",
+                                              "measuring_points_columns",
                                               "levels_columns",
                                               "time_zone",
                                               "levels_time_zone",
                                               "records_time_zone",
-                                              "mp_time_zone"};
+                                              "measuring_points_time_zone"};
   return wired.count(key) > 0;
 }
 
@@ -219,9 +219,17 @@ void read_stage(Project& p, const std::string& section, const std::string& comma
   for (const auto& [k, node] : table) {
     const std::string key(k.str());
     const auto it = std::find(allowed.begin(), allowed.end(), key);
-    if (it == allowed.end()) unknown_key(p, node, section, key, allowed);
     std::string flag = key;
     std::replace(flag.begin(), flag.end(), '_', '-');
+    if (const auto now = renamed_option(command, "--" + flag); now && it == allowed.end()) {
+      std::string now_key = now->substr(2);
+      std::replace(now_key.begin(), now_key.end(), '-', '_');
+      throw InputError(where(p, node),
+                       fmt::format("'{}' in [{}] is now '{}' (one name with the command line "
+                                   "and the docs)",
+                                   key, section, now_key));
+    }
+    if (it == allowed.end()) unknown_key(p, node, section, key, allowed);
     const OptionInfo& option = *std::find_if(
         options.begin(), options.end(), [&](const OptionInfo& o) { return o.flag == "--" + flag; });
     ProjectSetting s{section,        key,  {}, option.default_text, node.source().begin.line,
@@ -473,21 +481,21 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     require("crs", p.crs, "(the horizontal CRS of the wells' x and y, e.g. \"EPSG:32613\")");
     Stage h{"heads",
             "heads",
-            {"heads", "--wells", path("wells"), "--mp", path("measuring_points"), "--levels",
-             levels, "--to", p.target, "--crs", p.crs, "--unit", p.unit},
+            {"heads", "--wells", path("wells"), "--measuring-points", path("measuring_points"),
+             "--levels", levels, "--target", p.target, "--crs", p.crs, "--unit", p.unit},
             {"wells", "measuring_points", "levels"}};
     if (!p.references.empty()) h.args.insert(h.args.end(), {"--references", p.references.string()});
     for (const fs::path& g : p.grid_paths) h.args.insert(h.args.end(), {"--grid-path", g.string()});
     add_columns(p, "wells", "--wells-columns", h.args);
-    add_columns(p, "measuring_points", "--mp-columns", h.args);
+    add_columns(p, "measuring_points", "--measuring-points-columns", h.args);
     if (!p.input("sensors")) add_columns(p, "levels", "--levels-columns", h.args);
     add_time_zones(
         p,
         p.input("sensors")
             ? std::vector<std::pair<std::string, const char*>>{{"measuring_points",
-                                                                "--mp-time-zone"}}
+                                                                "--measuring-points-time-zone"}}
             : std::vector<std::pair<std::string, const char*>>{{"measuring_points",
-                                                                "--mp-time-zone"},
+                                                                "--measuring-points-time-zone"},
                                                                {"levels", "--levels-time-zone"}},
         h.args);
     if (network)

@@ -50,7 +50,7 @@ CommandRunner add_reduce_command(CLI::App& app) {
   c->add_option("--min-reading", o.min_reading,
                 "Lowest rod reading allowed: line of sight above ground (m)")
       ->capture_default_str();
-  c->add_option("--double-tolerance", a->double_tolerance_mm,
+  c->add_option("--double-tolerance-mm", a->double_tolerance_mm,
                 "Largest difference of the two height differences of a double-read setup (mm)")
       ->capture_default_str();
   c->add_option("--rod-length", o.rod_length, "Rod length: readings beyond it are errors (m)")
@@ -73,7 +73,7 @@ CommandRunner add_reduce_command(CLI::App& app) {
                 "Temperature of the rod calibration (degrees C)")
       ->capture_default_str();
   a->section_tolerance =
-      c->add_option("--section-tolerance", o.section_tolerance_mm_per_sqrt_km,
+      c->add_option("--section-tolerance-mm-per-sqrt-km", o.section_tolerance_mm_per_sqrt_km,
                     "Repeated runs over a section must agree within k mm * sqrt(km), instead of "
                     "--class")
           ->capture_default_str();

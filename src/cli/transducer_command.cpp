@@ -33,7 +33,7 @@ CommandRunner add_transducer_command(CLI::App& app) {
   CLI::App* c = app.add_subcommand(
       "transducer",
       "Pressure-transducer records to depths to water, checked against tape readings");
-  c->add_option("--wells", a->wells, "Wells table (id, x, y, ground, density)")->required();
+  c->add_option("--wells", a->wells, "Wells table (well, x, y, ground, density)")->required();
   c->add_option(
        "--sensors", a->sensors,
        "Sensors (sensor, kind, well, barometer, hung_depth, range_kpa, sigma, time_zone, x, y, "

@@ -39,7 +39,7 @@ void HeadOptions::validate() const {
   util::require_positive(history_tolerance, "history tolerance", "m");
   if (map_contour_interval)
     util::require_positive(*map_contour_interval, "map contour interval", "m");
-  if (target.empty()) throw OptionError("a target reference is needed (--to)");
+  if (target.empty()) throw OptionError("a target reference is needed (--target)");
   if (environmental_reference && !std::isfinite(*environmental_reference)) {
     throw OptionError("the environmental-head reference elevation must be a number (m)");
   }

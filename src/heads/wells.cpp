@@ -13,8 +13,11 @@ bool MeasuringPointRecord::starts_new_series() const {
 }
 
 WellSet read_wells(const Table& t) {
-  const std::size_t id = t.require_column("id"), x = t.require_column("x"),
-                    y = t.require_column("y");
+  // The key is `well`, as in every table that names a well; `id` is its
+  // earlier name, still read.
+  const std::size_t id = t.find_column("well") || !t.find_column("id") ? t.require_column("well")
+                                                                       : *t.find_column("id");
+  const std::size_t x = t.require_column("x"), y = t.require_column("y");
   const auto ground = t.find_column("ground"), ground_datum = t.find_column("ground_datum");
   const auto top = t.find_column("screen_top"), bottom = t.find_column("screen_bottom");
   const auto nest = t.find_column("nest"), aquifer = t.find_column("aquifer");
@@ -23,7 +26,7 @@ WellSet read_wells(const Table& t) {
   for (std::size_t r = 0; r < t.row_count(); ++r) {
     Well w;
     w.id = std::string(t.cell(r, id));
-    if (w.id.empty()) throw InputError(t.location(r, id), "", "every well needs an id");
+    if (w.id.empty()) throw InputError(t.location(r, id), "", "every well needs its id");
     const auto px = t.number(r, x), py = t.number(r, y);
     if (!px || !py) throw InputError(t.location(r, px ? y : x), "", "every well needs x and y");
     w.x = *px;

@@ -1,21 +1,17 @@
 #pragma once
 // Wells and the survey history of their measuring points.
 //
-// Wells table: id, x, y (project CRS), optional ground (ground elevation, m,
-// in the reference named by ground_datum, default the target reference),
-// screen_top and screen_bottom (depth below ground, m), nest, aquifer,
-// density (kg/m^3, for saline wells), column_density (kg/m^3, the mean
-// density of the water between the environmental-head reference elevation
-// and the screen).
-// Measuring-point table: well, valid_from (ISO 8601 date or time), height
-// (m), datum (a reference), sigma (m), optional point (a point id of the
-// adjusted network: height, sigma and reference are then taken from it),
-// source, method (levelled, gnss, hand-level, ...), reason (survey, resurvey,
-// casing-cut, repair, replaced), moves_with (a monitored point whose movement
-// since valid_from the measuring point follows: see heads.hpp).
-// Errors: InputError naming the row for a bad cell, an unknown well, a
-// record with neither height nor point, two records of a well from the same
-// time.
+// Wells table: well (the id; earlier name id), x, y (project CRS), optional ground (ground
+// elevation, m, in the reference named by ground_datum, default the target reference), screen_top
+// and screen_bottom (depth below ground, m), nest, aquifer, density (kg/m^3, for saline wells),
+// column_density (kg/m^3, the mean density of the water between the environmental-head reference
+// elevation and the screen). Measuring-point table: well, valid_from (ISO 8601 date or time),
+// height (m), datum (a reference), sigma (m), optional point (a point id of the adjusted network:
+// height, sigma and reference are then taken from it), source, method (levelled, gnss, hand-level,
+// ...), reason (survey, resurvey, casing-cut, repair, replaced), moves_with (a monitored point
+// whose movement since valid_from the measuring point follows: see heads.hpp). Errors: InputError
+// naming the row for a bad cell, an unknown well, a record with neither height nor point, two
+// records of a well from the same time.
 
 #include <optional>
 #include <string>
