@@ -116,6 +116,19 @@ TEST_CASE("every tolerance option carries its unit in its name", "[cli]") {
   }
 }
 
+TEST_CASE("PROJ's and GDAL's own messages are quoted in levelhead's, never printed raw",
+          "[cli][proj]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path in = tmp.path() / "p.csv";
+  std::ofstream(in) << "id,x,y,height\nA,512450,4409480,100.000\n";
+  const CliRun unknown =
+      run_cli({"convert", "--from", "EPSG:99999", "--to", "EPSG:5703", "--crs", "EPSG:32613",
+               "--in", in.string(), "--out", (tmp.path() / "o.csv").string()});
+  CHECK(unknown.code == 1);
+  CHECK_THAT(unknown.err, Contains("'EPSG:99999'") && Contains("crs not found"));
+  CHECK_THAT(unknown.err, !Contains("ERROR 1"));
+}
+
 TEST_CASE("strict mode exits 3 when a check fails, 0 otherwise", "[cli]") {
   levelhead::testing::TempFolder tmp;
   // The good corpus misclosure is 1 mm in 530 m of levelling; at 0.1 mm/sqrt(km)

@@ -12,6 +12,7 @@
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
 #include "support/temp_folder.hpp"
+#include "util/gdal_messages.hpp"
 
 using namespace levelhead;
 using Catch::Matchers::Contains;
@@ -262,4 +263,17 @@ TEST_CASE("GDAL dataset names and standard input are tables too", "[table]") {
     CHECK(t.cell(0, t.require_column("id")) == "BM1");
     CHECK_THAT(*t.number(0, t.require_column("height")), WithinAbs(10.5, 1e-12));
   }
+}
+
+TEST_CASE("GDAL's messages are caught for levelhead's own, not printed", "[table][gdal]") {
+  GDALAllRegister();
+  OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
+  std::string quoted;
+  {
+    const util::GdalMessages gdal;
+    CHECK(OSRSetFromUserInput(srs, "EPSG:99999") != OGRERR_NONE);
+    quoted = gdal.quoted();
+  }
+  OSRDestroySpatialReference(srs);
+  CHECK_THAT(quoted, Contains("(GDAL: ") && Contains("crs not found"));
 }

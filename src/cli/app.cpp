@@ -1,5 +1,6 @@
 #include "cli/app.hpp"
 
+#include <cpl_error.h>
 #include <fmt/format.h>
 
 #include <algorithm>
@@ -142,6 +143,31 @@ void refuse_non_finite_numbers(const CLI::App& app) {
   }
 }
 
+// GDAL's messages that no library call quotes in its own error
+// (util/gdal_messages.hpp) still reach the user, in levelhead's words on the
+// command's error stream rather than as GDAL's "ERROR 1: ..." on stderr.
+thread_local std::ostream* gdal_notes = nullptr;
+
+void CPL_STDCALL note_from_gdal(CPLErr level, CPLErrorNum, const char* line) {
+  if (level == CE_Debug || level == CE_None || !line || !gdal_notes) return;
+  *gdal_notes << "levelhead: note from GDAL: " << line << '\n';
+}
+
+// For the time of one command.
+class GdalNotesTo {
+ public:
+  explicit GdalNotesTo(std::ostream& err) : previous_(gdal_notes) {
+    gdal_notes = &err;
+    CPLSetErrorHandler(note_from_gdal);
+  }
+  ~GdalNotesTo() { gdal_notes = previous_; }
+  GdalNotesTo(const GdalNotesTo&) = delete;
+  GdalNotesTo& operator=(const GdalNotesTo&) = delete;
+
+ private:
+  std::ostream* previous_;
+};
+
 const char* const description =
     "levelhead: levelling adjustment and vertical datum reconciliation for well measuring points "
     "and groundwater heads";
@@ -225,6 +251,7 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
 
   // Whatever this command reads, none of its outputs may replace.
   const InputFileScope inputs;
+  const GdalNotesTo gdal_notes_to(err);
   try {
     for (const auto& [name, runner] : commands) {
       if (app.got_subcommand(name)) return runner(out, err, chain);

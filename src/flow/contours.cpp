@@ -14,6 +14,7 @@
 #include <memory>
 
 #include "levelhead/core/errors.hpp"
+#include "util/gdal_messages.hpp"
 
 namespace levelhead {
 
@@ -156,9 +157,10 @@ void write_contours_geopackage(const QuickContours& contours, const std::string&
                           nullptr));
   if (!gpkg) throw OutputError("cannot create contours.gpkg: " + std::string(CPLGetLastErrorMsg()));
   OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
+  const util::GdalMessages gdal;
   if (OSRSetFromUserInput(srs, crs.c_str()) != OGRERR_NONE) {
     OSRDestroySpatialReference(srs);
-    throw OptionError(fmt::format("'{}' is not a CRS GDAL knows", crs));
+    throw OptionError(fmt::format("'{}' is not a CRS GDAL knows{}", crs, gdal.quoted()));
   }
   const std::string description = fmt::format(
       "Quick-look contours of heads in {} ({}), every {:g} {}; linear between wells, not for "

@@ -16,6 +16,7 @@
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/time.hpp"
 #include "levelhead/version.hpp"
+#include "util/gdal_messages.hpp"
 
 namespace levelhead {
 
@@ -105,15 +106,16 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
   if (!dataset_)
     throw OutputError("cannot create heads.gpkg: " + std::string(CPLGetLastErrorMsg()));
   OGRSpatialReferenceH srs = OSRNewSpatialReference(nullptr);
+  const util::GdalMessages gdal;
   if (OSRSetFromUserInput(srs, crs.c_str()) != OGRERR_NONE) {
     OSRDestroySpatialReference(srs);
     throw OptionError(
         crs.find('+') == std::string::npos
-            ? fmt::format("--crs '{}' is not a CRS GDAL knows", crs)
-            : fmt::format("'{}' is not a compound CRS GDAL knows: --compound-crs needs a target "
+            ? fmt::format("--crs '{}' is not a CRS GDAL knows{}", crs, gdal.quoted())
+            : fmt::format("'{}' is not a compound CRS GDAL knows{}: --compound-crs needs a target "
                           "that is a vertical CRS of its own (an EPSG code), not a reference "
                           "defined in a references file",
-                          crs));
+                          crs, gdal.quoted()));
   }
   OSRSetAxisMappingStrategy(srs, OAMS_TRADITIONAL_GIS_ORDER);
   // The layer says what its numbers are: GIS lists show the identifier and

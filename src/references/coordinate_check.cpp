@@ -76,8 +76,7 @@ void check_coordinates_in_crs(const Table& table, const std::string& crs_text) {
   }
   if (points.empty()) return;
 
-  ContextPtr ctx(proj_context_create());
-  proj_log_level(ctx.get(), PJ_LOG_NONE);
+  ContextPtr ctx(proj::make_context());
   const PjPtr crs = horizontal_crs(ctx.get(), crs_text);
   if (!crs) return;
   const auto id_column = table.find_column("id");
@@ -157,8 +156,7 @@ void check_coordinates_in_crs(const Table& table, const std::string& crs_text) {
 }
 
 void require_horizontal_crs(const std::string& crs_text) {
-  ContextPtr ctx(proj_context_create());
-  proj_log_level(ctx.get(), PJ_LOG_NONE);
+  ContextPtr ctx(proj::make_context());
   const PjPtr crs = horizontal_crs(ctx.get(), crs_text);
   const PJ_TYPE type = crs ? proj_get_type(crs.get()) : PJ_TYPE_UNKNOWN;
   if (!geographic(crs.get()) && type != PJ_TYPE_PROJECTED_CRS) {
@@ -170,8 +168,7 @@ void require_horizontal_crs(const std::string& crs_text) {
 }
 
 void require_metric_plane_crs(const std::string& crs_text, const std::string& option) {
-  ContextPtr ctx(proj_context_create());
-  proj_log_level(ctx.get(), PJ_LOG_NONE);
+  ContextPtr ctx(proj::make_context());
   const PjPtr crs = horizontal_crs(ctx.get(), crs_text);
   if (geographic(crs.get()) || proj_get_type(crs.get()) != PJ_TYPE_PROJECTED_CRS) {
     throw OptionError(fmt::format(

@@ -22,18 +22,8 @@ namespace levelhead {
 using proj::ContextPtr;
 using proj::PjPtr;
 
-namespace {
-
-std::string proj_message(PJ_CONTEXT* ctx) {
-  const int code = proj_context_errno(ctx);
-  const char* text = code ? proj_context_errno_string(ctx, code) : nullptr;
-  return text ? text : "no reason given by PROJ";
-}
-
-}  // namespace
-
 struct SurfaceShift::Impl {
-  ContextPtr ctx{proj_context_create()};
+  ContextPtr ctx{proj::make_context()};
   PjPtr to_lonlat, pipeline;
   GridUse grid;
   std::filesystem::path converted;  // GeoTIFF made from a raster PROJ cannot read
@@ -141,7 +131,6 @@ SurfaceShift::SurfaceShift(const VerticalOffsetSlope& r, const std::string& poin
 void SurfaceShift::set_up(const std::string& step, const std::string& points_crs,
                           const ProjSettings& settings, const std::string& what) {
   PJ_CONTEXT* ctx = impl_->ctx.get();
-  proj_log_level(ctx, PJ_LOG_NONE);
   proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
   if (points_crs.empty()) {
     throw ReferenceError(
@@ -163,7 +152,7 @@ void SurfaceShift::set_up(const std::string& step, const std::string& points_crs
     throw ReferenceError(
         fmt::format("PROJ cannot use {} ({}); a grid must be a geographic "
                     "(longitude, latitude) height grid",
-                    what, proj_message(ctx)));
+                    what, proj::message(ctx)));
   }
 }
 

@@ -36,12 +36,6 @@ std::vector<std::string> split_paths(const char* text) {
   return out;
 }
 
-std::string proj_message(PJ_CONTEXT* ctx) {
-  const int code = proj_context_errno(ctx);
-  const char* text = code ? proj_context_errno_string(ctx, code) : nullptr;
-  return text ? text : "no reason given by PROJ";
-}
-
 bool is_dynamic(PJ_CONTEXT* ctx, const PJ* crs) {
   PjPtr datum(proj_crs_get_datum_forced(ctx, crs));
   if (!datum) return false;
@@ -109,7 +103,7 @@ struct Crs3d {
 }  // namespace
 
 struct VerticalTransformer::Impl {
-  ContextPtr ctx{proj_context_create()};
+  ContextPtr ctx{proj::make_context()};
   PjPtr points_crs;  // the points' horizontal CRS
   Crs3d source, target;
   PjPtr to_source_plane, to_lonlat;  // horizontal transforms of the points
@@ -129,7 +123,7 @@ struct VerticalTransformer::Impl {
       throw ReferenceError(fmt::format(
           "{} '{}' is not a coordinate reference system PROJ knows ({}); give an EPSG code such "
           "as EPSG:5703, a compound code such as EPSG:4326+5773, WKT or PROJJSON",
-          role, text, proj_message(ctx.get())));
+          role, text, proj::message(ctx.get())));
     }
     return crs;
   }
@@ -140,7 +134,7 @@ struct VerticalTransformer::Impl {
     PjPtr metric(proj_crs_alter_cs_linear_unit(ctx.get(), vertical, "metre", 1.0, "EPSG", "9001"));
     if (!metric) {
       throw ReferenceError(fmt::format("cannot express the heights of '{}' in metres: {}", text,
-                                       proj_message(ctx.get())));
+                                       proj::message(ctx.get())));
     }
     return metric;
   }
@@ -199,7 +193,7 @@ struct VerticalTransformer::Impl {
     }
     if (!out.crs || !out.horizontal) {
       throw ReferenceError(fmt::format("cannot build a 3D CRS from {} '{}': {}", role, text,
-                                       proj_message(ctx.get())));
+                                       proj::message(ctx.get())));
     }
     return out;
   }
@@ -210,7 +204,7 @@ struct VerticalTransformer::Impl {
       throw ReferenceError(
           fmt::format("PROJ cannot transform the points' coordinates from '{}' "
                       "to '{}': {}",
-                      proj_get_name(from), proj_get_name(to), proj_message(ctx.get())));
+                      proj_get_name(from), proj_get_name(to), proj::message(ctx.get())));
     }
     return PjPtr(proj_normalize_for_visualization(ctx.get(), raw.get()));
   }
@@ -324,7 +318,6 @@ void build(VerticalTransformer::Impl& impl, const std::string& from, const std::
            std::optional<double> epoch, bool provenance) {
   auto* impl_ = &impl;
   PJ_CONTEXT* ctx = impl_->ctx.get();
-  proj_log_level(ctx, PJ_LOG_NONE);
   proj_context_set_enable_network(ctx, settings.allow_network ? 1 : 0);
   if (!settings.grid_paths.empty()) {
     std::vector<std::string> paths;
@@ -487,21 +480,20 @@ std::vector<PointConversion> VerticalTransformer::convert(const std::vector<Plan
 }
 
 std::string proj_version_text() {
-  ContextPtr ctx(proj_context_create());
+  ContextPtr ctx(proj::make_context());
   const char* epsg = proj_context_get_database_metadata(ctx.get(), "EPSG.VERSION");
   return fmt::format("PROJ {}{}", proj_info().release ? proj_info().release : "?",
                      epsg ? fmt::format(", EPSG {}", epsg) : std::string());
 }
 
 HeightUnit height_unit_of(const std::string& definition) {
-  ContextPtr ctx(proj_context_create());
-  proj_log_level(ctx.get(), PJ_LOG_NONE);  // its message is ours to give
+  ContextPtr ctx(proj::make_context());
   PjPtr crs(proj_create(ctx.get(), definition.c_str()));
   if (!crs || !proj_is_crs(crs.get())) {
     throw ReferenceError(fmt::format(
         "'{}' is not a coordinate reference system PROJ knows ({}); give an EPSG code such as "
         "EPSG:5703, a compound code such as EPSG:4326+5773, WKT or PROJJSON",
-        definition, proj_message(ctx.get())));
+        definition, proj::message(ctx.get())));
   }
   PjPtr vertical;
   int axis = 0;

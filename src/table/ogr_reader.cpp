@@ -17,6 +17,7 @@
 
 #include "table/readers.hpp"
 #include "util/encoding.hpp"
+#include "util/gdal_messages.hpp"
 #include "util/text.hpp"
 
 namespace levelhead::detail {
@@ -80,6 +81,7 @@ void require_layer_crs(OGRLayerH layer, const std::string& expected, const std::
   OGRSpatialReferenceH layer_srs = OGR_L_GetSpatialRef(layer);
   if (expected.empty() || !layer_srs) return;
   OGRSpatialReferenceH wanted = OSRNewSpatialReference(nullptr);
+  const util::GdalMessages quiet;  // an unknown CRS is reported where it is used
   const bool known = OSRSetFromUserInput(wanted, expected.c_str()) == OGRERR_NONE;
   // Same CRS whatever the axis order GDAL maps the geometry to.
   const char* compare[] = {"IGNORE_DATA_AXIS_TO_SRS_AXIS_MAPPING=YES", nullptr};
