@@ -60,5 +60,13 @@ if command -v dpkg-deb > /dev/null; then
   grep -q "bash-completion/completions/levelhead" "$work/contents.txt" ||
     { echo ".deb holds no completion"; exit 1; }
   dpkg-deb -f "$deb" Depends | grep -q "proj-data" || { echo ".deb depends on no PROJ data"; exit 1; }
+  dpkg-deb -f "$deb" Depends | grep -q "tzdata" || { echo ".deb depends on no tz database"; exit 1; }
+  if [ -d "$build/share/man/man1" ]; then
+    grep -q "man1/levelhead-heads.1" "$work/contents.txt" || { echo ".deb holds no man pages"; exit 1; }
+  fi
+  # What the package installs runs: unpacked, the program does the demo.
+  dpkg-deb -x "$deb" "$work/deb-root"
+  "$work/deb-root/usr/bin/levelhead" demo --out "$work/deb-demo" > "$work/deb-demo.log"
+  test -f "$work/deb-demo/report.html" || { echo "the packaged program wrote no report"; exit 1; }
 fi
 echo "installed, ran the demo, man pages, completion, the CMake package and .deb: fine"
