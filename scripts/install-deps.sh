@@ -21,7 +21,7 @@ packages=(
   libutfcpp-dev
   libhowardhinnant-date-dev tzdata
   catch2
-  python3 python3-numpy
+  python3 python3-numpy python3-jsonschema
   clang-format
   help2man
 )

@@ -52,7 +52,8 @@ TEST_CASE("adjust writes the three outputs for a good network", "[cli]") {
   for (const char* key : {"statistic", "lower", "upper", "passed"}) {
     CHECK(summary["global_test"].contains(key));
   }
-  CHECK(files_in(tmp.path() / "out").size() == 3);  // no temporary file left
+  CHECK(files_in(tmp.path() / "out").size() ==
+        5);  // two tables with their CSVT, the summary; no temporary file
 }
 
 TEST_CASE("usage errors exit 2", "[cli]") {
@@ -163,7 +164,7 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
   // towards atan2(1.2, 0.8) = 56.3 degrees; 3 mm noise on 7 wells allows a degree.
   CHECK_THAT(flow["gradient"]["value"].get<double>(),
              Catch::Matchers::WithinAbs(1.442e-3, 0.05e-3));
-  CHECK_THAT(flow["azimuth"]["value"].get<double>(), Catch::Matchers::WithinAbs(56.3, 1.5));
+  CHECK_THAT(flow["azimuth_degrees"]["value"].get<double>(), Catch::Matchers::WithinAbs(56.3, 1.5));
   // The demo field book holds a 20 mm misreading on SBM-B -> MW-04: the loops
   // through it fail, and data snooping removes it before the final adjustment.
   CHECK_THAT(r.out, Contains("FAILED") && Contains("Removed (step 1): section SBM-B -> MW-04"));
@@ -175,7 +176,7 @@ TEST_CASE("demo runs on the built-in site", "[cli][demo]") {
     if (name != "summary.json" && name != "run.json" && name != "flow.json") continue;
     INFO(entry.path());
     const auto json = nlohmann::json::parse(std::ifstream(entry.path()));
-    CHECK(json.value("format_version", 0) == 1);
+    CHECK(json.value("format_version", 0) == 2);
     ++summaries;
   }
   CHECK(summaries >= 9);
@@ -221,7 +222,7 @@ TEST_CASE("reduce writes sections ready for adjust, and bad field books exit 1",
   const CliRun ok = run_cli({"reduce", book.string(), "--out", (tmp.path() / "r").string()});
   INFO(ok.err);
   REQUIRE(ok.code == 0);
-  CHECK(files_in(tmp.path() / "r").size() == 3);
+  CHECK(files_in(tmp.path() / "r").size() == 5);  // sections, setups, their CSVT, summary
   std::ifstream sections(tmp.path() / "r" / "sections.csv");
   std::string header;
   std::getline(sections, header);

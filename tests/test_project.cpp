@@ -15,6 +15,7 @@
 #include <sstream>
 
 #include "cli/app.hpp"
+#include "levelhead/core/output_columns.hpp"
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/units.hpp"
@@ -58,6 +59,22 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
     CHECK(fs::exists(tmp.path() / stage / "summary.json"));
   }
   CHECK(fs::exists(tmp.path() / "flow" / "flow.json"));
+  // Every column of every table written is one of output_columns.hpp (one
+  // type and unit, in docs/formats.md), with its CSVT beside it.
+  for (const auto& entry : fs::recursive_directory_iterator(tmp.path())) {
+    const fs::path& csv = entry.path();
+    if (csv.extension() != ".csv" || csv.parent_path().filename() == "inputs") continue;
+    INFO(csv.string());
+    CHECK(fs::exists(fs::path(csv).replace_extension(".csvt")));
+    std::ifstream in(csv);
+    std::string header;
+    std::getline(in, header);
+    std::stringstream cells(header);
+    for (std::string name; std::getline(cells, name, ',');) {
+      INFO(name);
+      CHECK(levelhead::find_output_column(name) != nullptr);
+    }
+  }
   const std::string html = read_file(tmp.path() / "report.html");
   for (const char* section :
        {"Findings", "Levelling network", "Loop misclosures", "Adjustment",
@@ -312,7 +329,7 @@ TEST_CASE("a project whose target is in feet gives the metre run's heads in thos
   };
   CHECK_THAT(double(flow_of("ft")["gradient"]["value"]),
              Catch::Matchers::WithinAbs(double(flow_of("m")["gradient"]["value"]), 1e-12));
-  CHECK(flow_of("ft")["heads_unit"] == "us-ft");
+  CHECK(flow_of("ft")["units"] == "us-ft");
   const std::string report = read_file(tmp.path() / "ft" / "report.md");
   CHECK_THAT(report, Contains("height (US ft)") && !Contains("height (m)"));
 }
@@ -384,8 +401,8 @@ TEST_CASE(
   const auto flow = [&](const char* run_name) {
     return nlohmann::json::parse(std::ifstream(tmp.path() / run_name / "flow" / "flow.json"));
   };
-  CHECK_THAT(flow("ft")["azimuth"]["value"].get<double>(),
-             Catch::Matchers::WithinAbs(flow("m")["azimuth"]["value"].get<double>(), 0.5));
+  CHECK_THAT(flow("ft")["azimuth_degrees"]["value"].get<double>(),
+             Catch::Matchers::WithinAbs(flow("m")["azimuth_degrees"]["value"].get<double>(), 0.5));
   // The report's datum findings rest on the heights as given (in metres):
   // the same in both runs (they once re-read the user's table as metres).
   CHECK_THAT(read_file(tmp.path() / "ft" / "report.md"), Contains("95.250 m too low"));

@@ -1,4 +1,5 @@
 #include <cpl_conv.h>
+#include <fmt/format.h>
 #include <gdal.h>
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
@@ -7,8 +8,11 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <map>
 #include <sstream>
 
+#include "levelhead/core/output_columns.hpp"
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
 #include "support/temp_folder.hpp"
@@ -276,4 +280,60 @@ TEST_CASE("GDAL's messages are caught for levelhead's own, not printed", "[table
   }
   OSRDestroySpatialReference(srs);
   CHECK_THAT(quoted, Contains("(GDAL: ") && Contains("crs not found"));
+}
+
+TEST_CASE("every output column has one type and unit, and the formats doc lists each",
+          "[table][outputs]") {
+  // The dictionary is sorted (find_output_column searches it) and unique.
+  const auto& columns = output_columns();
+  for (std::size_t i = 1; i < columns.size(); ++i) {
+    INFO(columns[i].name);
+    CHECK(columns[i - 1].name < columns[i].name);
+  }
+  // docs/formats.md: "| `name` | Type | unit |" for every column, the same.
+  std::ifstream doc(std::filesystem::path(LEVELHEAD_FIXTURES_DIR) / ".." / "docs" / "formats.md");
+  REQUIRE(doc);
+  std::map<std::string, std::string> documented;
+  bool in_section = false;
+  for (std::string line; std::getline(doc, line);) {
+    if (line.rfind("## ", 0) == 0) in_section = line == "## Columns of the CSV outputs";
+    if (!in_section || line.rfind("| `", 0) != 0) continue;
+    const auto close = line.find('`', 3);
+    documented[line.substr(3, close - 3)] = line.substr(close + 1);
+  }
+  for (const OutputColumn& c : columns) {
+    INFO(c.name);
+    const auto it = documented.find(std::string(c.name));
+    REQUIRE(it != documented.end());
+    CHECK(it->second == fmt::format(" | {} | {} |", csvt_name(c.type), c.unit));
+  }
+  CHECK(csvt_line({"well", "head", "time_utc", "their_own"}) ==
+        "\"String\",\"Real\",\"DateTime\",\"String\"");
+}
+
+TEST_CASE("a CSV written by levelhead opens typed in GDAL through its CSVT",
+          "[table][outputs][gdal]") {
+  testing::TempFolder folder;
+  OutputSet out(folder.path());
+  out.open("heads.csv") << "well,head,time_utc,their_own\n007,12.5,2026-10-06T08:30:00Z,4\n";
+  out.commit();
+  REQUIRE(std::filesystem::exists(folder.path() / "heads.csvt"));
+  GDALAllRegister();
+  GDALDatasetH ds = GDALOpenEx((folder.path() / "heads.csv").string().c_str(), GDAL_OF_VECTOR,
+                               nullptr, nullptr, nullptr);
+  REQUIRE(ds);
+  OGRLayerH layer = GDALDatasetGetLayer(ds, 0);
+  OGRFeatureDefnH defn = OGR_L_GetLayerDefn(layer);
+  const auto type = [&](const char* name) {
+    return OGR_Fld_GetType(OGR_FD_GetFieldDefn(defn, OGR_FD_GetFieldIndex(defn, name)));
+  };
+  CHECK(type("well") == OFTString);
+  CHECK(type("head") == OFTReal);
+  CHECK(type("time_utc") == OFTDateTime);
+  CHECK(type("their_own") == OFTString);
+  OGRFeatureH f = OGR_L_GetNextFeature(layer);
+  REQUIRE(f);
+  CHECK(std::string(OGR_F_GetFieldAsString(f, OGR_FD_GetFieldIndex(defn, "well"))) == "007");
+  OGR_F_Destroy(f);
+  GDALClose(ds);
 }

@@ -104,13 +104,13 @@ TEST_CASE("five GNSS wells on a plane: the geoid model's 1 m cancels in the grad
   INFO(flow.err);
   REQUIRE(flow.code == 0);
   const auto j = nlohmann::json::parse(testing::read_file(tmp.path() / "flow" / "flow.json"));
-  const double gradient = j["gradient"]["value"], azimuth = j["azimuth"]["value"];
+  const double gradient = j["gradient"]["value"], azimuth = j["azimuth_degrees"]["value"];
   CHECK(std::abs(gradient / PlaneSite::gradient - 1.0) < 0.01);
   CHECK(std::abs(azimuth - PlaneSite::azimuth) < 0.5);
   // The shared metre does not reach the gradient: its sigma comes from the
   // wells' own 4 mm over some 800 m.
   CHECK(double(j["gradient"]["sigma"]) < 5e-5);
-  CHECK(double(j["azimuth"]["sigma"]) < 1.0);
+  CHECK(double(j["azimuth_degrees"]["sigma"]) < 1.0);
 }
 
 TEST_CASE("shared errors: the covariance of two heads and its cell round trip", "[uncertainty]") {

@@ -128,7 +128,7 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   summary["command"] = "adjust";
   summary["inputs"] = {{"points", inputs.points_file},
                        {"sections", inputs.sections_file},
-                       {"length_unit", to_string(inputs.unit)}};
+                       {"units", to_string(inputs.unit)}};
   summary["reference"] = result.reference;
   summary["free_point"] =
       result.free_point ? nlohmann::json(*result.free_point) : nlohmann::json(nullptr);

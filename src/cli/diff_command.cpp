@@ -10,6 +10,7 @@
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/report/run_diff.hpp"
+#include "levelhead/version.hpp"
 #include "util/json_text.hpp"
 
 namespace levelhead::cli {
@@ -21,8 +22,12 @@ struct DiffArguments {
   double tolerance = 0.001;
 };
 
-nlohmann::json as_json(const RunDifference& d) {
+nlohmann::json as_json(const RunDifference& d, double tolerance) {
   nlohmann::json out;
+  out["levelhead_version"] = version_string();
+  out["format_version"] = output_format_version;
+  out["command"] = "diff";
+  out["tolerance_m"] = tolerance;
   out["identical"] = d.identical();
   out["configuration"] = nlohmann::json::array();
   for (const ConfigurationChange& c : d.configuration) {
@@ -71,7 +76,7 @@ CommandRunner add_diff_command(CLI::App& app) {
     if (!a->json.empty()) {
       const std::filesystem::path path(a->json);
       OutputSet files(path.has_parent_path() ? path.parent_path() : std::filesystem::path("."));
-      files.open(path.filename().string()) << util::json_text(as_json(d)) << '\n';
+      files.open(path.filename().string()) << util::json_text(as_json(d, a->tolerance)) << '\n';
       files.commit();
     }
     // As diff and cmp: 0 when the runs agree, 1 when they differ.

@@ -188,17 +188,16 @@ CommandRunner add_flow_command(CLI::App& app) {
     j["format_version"] = output_format_version;
     j["command"] = "flow";
     j["wells"] = used.size();
-    j["heads_unit"] = to_string(unit);
+    j["units"] = to_string(unit);
     j["aquifer"] = a->aquifer;
     const auto sigmas_json = [](const std::optional<FlowSigmas>& s) {
-      return s ? nlohmann::json{{"gradient", s->gradient}, {"azimuth", s->azimuth}}
+      return s ? nlohmann::json{{"gradient", s->gradient}, {"azimuth_degrees", s->azimuth}}
                : nlohmann::json(nullptr);
     };
-    const std::string ratio = fmt::format("{0}/{0}", unit_label(unit));  // dimensionless
-    j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}, {"unit", ratio}};
-    j["azimuth"] = {{"value", f.azimuth},
-                    {"sigma", f.azimuth_sigma},
-                    {"unit", "degrees clockwise from grid north, direction of flow"}};
+    // The gradient is a ratio (no unit); the azimuth is the direction of
+    // flow, clockwise from grid north.
+    j["gradient"] = {{"value", f.gradient}, {"sigma", f.gradient_sigma}};
+    j["azimuth_degrees"] = {{"value", f.azimuth}, {"sigma", f.azimuth_sigma}};
     j["uncertainty"] = {
         {"from_heads", sigmas_json(f.from_heads)},
         {"from_misfit", sigmas_json(f.from_misfit)},
@@ -245,7 +244,8 @@ CommandRunner add_flow_command(CLI::App& app) {
       out << fmt::format(
           "{} wells: gradient {:.2e} +- {:.1e} {}, flow towards {:.1f} +- {:.1f} "
           "degrees from grid north\n",
-          used.size(), f.gradient, f.gradient_sigma, ratio, f.azimuth, f.azimuth_sigma);
+          used.size(), f.gradient, f.gradient_sigma, fmt::format("{0}/{0}", unit_label(unit)),
+          f.azimuth, f.azimuth_sigma);
       out << "  " << describe_flow_uncertainty(f) << '\n';
       if (f.nearly_collinear)
         out << "Warning: the wells lie nearly on a line; the direction is weak\n";

@@ -11,6 +11,7 @@
 
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/input_files.hpp"
+#include "levelhead/core/output_columns.hpp"
 #include "levelhead/core/rejects.hpp"
 
 namespace levelhead {
@@ -180,6 +181,49 @@ std::ostream& OutputSet::open(const std::string& name) {
   return it->second;
 }
 
+namespace {
+
+// The cells of a CSV header line (RFC 4180 quoting).
+std::vector<std::string> header_cells(const std::string& line) {
+  std::vector<std::string> cells(1);
+  bool quoted = false;
+  for (std::size_t i = 0; i < line.size(); ++i) {
+    const char c = line[i];
+    if (quoted && c == '"' && i + 1 < line.size() && line[i + 1] == '"') {
+      cells.back() += '"';
+      ++i;
+    } else if (c == '"') {
+      quoted = !quoted;
+    } else if (c == ',' && !quoted) {
+      cells.emplace_back();
+    } else if (c != '\r') {
+      cells.back() += c;
+    }
+  }
+  return cells;
+}
+
+}  // namespace
+
+void OutputSet::write_column_types() {
+  std::vector<std::string> tables;
+  for (const auto& [name, stream] : streams_) {
+    if (std::filesystem::path(name).extension() == ".csv") tables.push_back(name);
+  }
+  for (const std::string& table : tables) {
+    const std::string types = std::filesystem::path(table).stem().string() + ".csvt";
+    if (streams_.count(types)) continue;
+    std::string header;
+    std::ifstream in(temporary_path(table));
+    std::getline(in, header);
+    std::ofstream out(reserve(types), std::ios::binary | std::ios::trunc);
+    out << csvt_line(header_cells(header)) << '\n';
+    out.close();
+    if (!out)
+      throw OutputError(fmt::format("writing '{}' in '{}' failed", types, folder_.string()));
+  }
+}
+
 void OutputSet::commit() {
   for (auto& [name, stream] : streams_) {
     stream.flush();
@@ -189,6 +233,7 @@ void OutputSet::commit() {
           fmt::format("writing '{}' in '{}' failed (disk full?)", name, folder_.string()));
     }
   }
+  write_column_types();
   std::vector<std::string> names = reserved_;
   for (const auto& [name, stream] : streams_) names.push_back(name);
   // Inputs read after the files were opened (streamed tables) are checked

@@ -106,6 +106,8 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
   summary["format_version"] = output_format_version;
+  summary["command"] = "epochs";
+  summary["units"] = "m";
   summary["inputs"] = {{"points", inputs.points_file}, {"sections", inputs.sections_files}};
   nlohmann::json epoch_list = nlohmann::json::array();
   for (const EpochQuality& q : a.epochs) {

@@ -542,14 +542,14 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   s["states"] = summary.states_by_kind;
   s["options"] = {{"interpolate", options.interpolate},
                   {"allow_before_first", options.allow_before_first},
-                  {"depth_sigma", options.depth_sigma},
-                  {"mp_change_tolerance", options.mp_change_tolerance},
-                  {"repeat_tolerance", options.repeat_tolerance},
+                  {"depth_sigma_m", options.depth_sigma},
+                  {"measuring_point_change_tolerance_m", options.mp_change_tolerance},
+                  {"repeat_tolerance_m", options.repeat_tolerance},
                   {"repeat_window_hours", options.repeat_window_hours},
                   {"synoptic_window_hours", options.synoptic_window_hours},
-                  {"max_depth", options.max_depth},
+                  {"max_depth_m", options.max_depth},
                   {"keep_going", options.keep_going},
-                  {"history_tolerance", options.history_tolerance},
+                  {"history_tolerance_m", options.history_tolerance},
                   {"event", options.event ? nlohmann::json(format_utc(*options.event))
                                           : nlohmann::json(nullptr)}};
   out.open("summary.json") << util::json_text(s) << '\n';

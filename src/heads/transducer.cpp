@@ -477,6 +477,7 @@ nlohmann::json summary_json(const TransducerSummary& summary, const TransducerOp
   json["levelhead_version"] = version_string();
   json["format_version"] = output_format_version;
   json["command"] = "transducer";
+  json["units"] = "m";
   json["manual_readings"] = summary.manual;
   json["transducer_readings_written"] = summary.written;
   json["rejected"] = summary.rejected;

@@ -154,8 +154,8 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
     const auto info = [](const ReferenceInfo& r) {
       return nlohmann::json{{"definition", r.definition},
                             {"name", r.name},
-                            {"native_unit", r.unit},
-                            {"metres_per_unit", r.metres_per_unit},
+                            {"axis_units", r.unit},
+                            {"axis_units_in_m", r.metres_per_unit},
                             {"dynamic", r.dynamic}};
     };
     summary["proj_from"] = info(proj->source());

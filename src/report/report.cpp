@@ -388,6 +388,7 @@ nlohmann::json run_record(const ReportContext& c, const std::string& config_hash
   nlohmann::json record;
   record["levelhead_version"] = version_string();
   record["format_version"] = output_format_version;
+  record["command"] = "run";
   record["proj_version"] = proj_version_text();
   record["gdal_version"] = gdal_version();
   record["epsg_version"] = epsg_version();

@@ -33,7 +33,9 @@ class OutputSet {
   // A temporary path for a file written by another library (e.g. a
   // GeoPackage by GDAL); it is renamed to `name` at commit like the rest.
   std::filesystem::path reserve(const std::string& name);
-  // Closes every stream, checks it, and renames all files into place.
+  // Closes every stream, checks it, writes NAME.csvt beside every NAME.csv
+  // (GDAL's column types, output_columns.hpp), and renames all files into
+  // place.
   void commit();
 
   const std::filesystem::path& folder() const { return folder_; }
@@ -41,6 +43,7 @@ class OutputSet {
  private:
   std::filesystem::path temporary_path(const std::string& name) const;
   void refuse_input_destination(const std::string& name) const;
+  void write_column_types();
   std::filesystem::path folder_;
   std::map<std::string, std::ofstream> streams_;
   std::vector<std::string> reserved_;
