@@ -6,8 +6,10 @@
 #include <fstream>
 #include <nlohmann/json.hpp>
 #include <sstream>
+#include <thread>
 
 #include "cli/app.hpp"
+#include "cli/terminal_progress.hpp"
 #include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 
@@ -459,4 +461,27 @@ TEST_CASE("epochs: a mark missing from the points table is a clear error", "[cli
   CHECK(run.code == 1);
   CHECK_THAT(run.err, Contains("'X' is not in the points table"));
   CHECK_FALSE(fs::exists(tmp.path() / "out" / "summary.json"));
+}
+
+TEST_CASE("the progress line of a long stage, and its estimate", "[cli][progress]") {
+  using levelhead::cli::progress_line;
+  CHECK(progress_line("reading records.csv", 0.4, 10.0) ==
+        "reading records.csv: 40 % (about 15 s left)");
+  CHECK(progress_line("t", 0.1, 30.0) == "t: 10 % (about 5 min left)");
+  CHECK(progress_line("t", 0.005, 30.0) == "t: 0 %");  // too early to say
+  CHECK(progress_line("t", 0.5, 0.5) == "t: 50 %");    // the first second
+  CHECK(progress_line("t", 1.0, 30.0) == "t: 100 %");
+
+  // Shown only once a task has run a second, then erased when done.
+  std::ostringstream terminal;
+  levelhead::cli::TerminalProgress progress(terminal);
+  progress.report("t", 0.0);
+  progress.report("t", 0.2);
+  CHECK(terminal.str().empty());
+  std::this_thread::sleep_for(std::chrono::milliseconds(1050));
+  progress.report("t", 0.5);
+  // About the second it took so far (a loaded machine may take longer).
+  CHECK_THAT(terminal.str(), Contains("\rt: 50 % (about ") && Contains(" s left)"));
+  progress.done("t");
+  CHECK(terminal.str().back() == '\r');
 }

@@ -13,6 +13,7 @@
 
 #include "levelhead/core/output_columns.hpp"
 #include "levelhead/core/output_files.hpp"
+#include "levelhead/core/progress.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
 #include "support/temp_folder.hpp"
@@ -336,4 +337,42 @@ TEST_CASE("a CSV written by levelhead opens typed in GDAL through its CSVT",
   CHECK(std::string(OGR_F_GetFieldAsString(f, OGR_FD_GetFieldIndex(defn, "well"))) == "007");
   OGR_F_Destroy(f);
   GDALClose(ds);
+}
+
+namespace {
+struct RecordedProgress : ProgressReporter {
+  std::vector<std::pair<std::string, double>> reports;
+  std::vector<std::string> finished;
+  void report(const std::string& task, double fraction) override {
+    reports.emplace_back(task, fraction);
+  }
+  void done(const std::string& task) override { finished.push_back(task); }
+};
+}  // namespace
+
+TEST_CASE("reading a long table in batches reports its progress", "[table][progress]") {
+  testing::TempFolder folder;
+  const auto path = folder.path() / "records.csv";
+  {
+    std::ofstream out(path);
+    out << "sensor,time,pressure\n";
+    for (int i = 0; i < 25000; ++i) out << "T1,2026-01-01T00:00Z," << i << "\n";
+  }
+  RecordedProgress recorded;
+  std::size_t rows = 0;
+  {
+    const ProgressScope scope(&recorded);
+    read_table_in_batches(path, {}, 10000, [&](Table& t) { rows += t.row_count(); });
+  }
+  CHECK(rows == 25000);
+  // 0 at the start, then after each full batch, rising; done once.
+  REQUIRE(recorded.reports.size() == 3);
+  CHECK(recorded.reports.front() == std::pair<std::string, double>("reading records.csv", 0.0));
+  // Bytes read: the rows grow by a digit now and then, so about 2/5 and 4/5.
+  CHECK_THAT(recorded.reports[1].second, WithinAbs(0.4, 0.02));
+  CHECK_THAT(recorded.reports[2].second, WithinAbs(0.8, 0.02));
+  CHECK(recorded.finished == std::vector<std::string>{"reading records.csv"});
+  // Without a scope nothing is reported, and nothing fails.
+  read_table_in_batches(path, {}, 10000, [](Table&) {});
+  CHECK(recorded.reports.size() == 3);
 }

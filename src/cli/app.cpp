@@ -2,10 +2,12 @@
 
 #include <cpl_error.h>
 #include <fmt/format.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
 #include <cstdlib>
+#include <iostream>
 #include <map>
 #include <optional>
 #include <sstream>
@@ -13,6 +15,7 @@
 #include <utility>
 
 #include "cli/commands.hpp"
+#include "cli/terminal_progress.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/input_files.hpp"
 #include "levelhead/version.hpp"
@@ -252,6 +255,11 @@ int run(const std::vector<std::string>& args, std::ostream& out, std::ostream& e
   // Whatever this command reads, none of its outputs may replace.
   const InputFileScope inputs;
   const GdalNotesTo gdal_notes_to(err);
+  // A progress line for a person at a terminal (never in a pipe, a log or --quiet).
+  const bool watched = &err == &std::cerr && ::isatty(STDERR_FILENO) == 1 &&
+                       std::find(args.begin(), args.end(), "--quiet") == args.end();
+  TerminalProgress terminal(err);
+  const ProgressScope progress(watched ? &terminal : nullptr);
   try {
     for (const auto& [name, runner] : commands) {
       if (app.got_subcommand(name)) return runner(out, err, chain);

@@ -11,11 +11,13 @@
 
 #include <algorithm>
 #include <deque>
+#include <filesystem>
 #include <fstream>
 #include <optional>
 #include <sstream>
 
 #include "levelhead/core/input_files.hpp"
+#include "levelhead/core/progress.hpp"
 #include "table/readers.hpp"
 #include "util/encoding.hpp"
 #include "util/text.hpp"
@@ -49,6 +51,9 @@ class RecordReader {
  public:
   RecordReader(std::string_view text, char separator, std::string source)
       : text_(text), separator_(separator), source_(std::move(source)) {}
+
+  // Bytes read so far.
+  std::size_t position() const { return position_; }
 
   // Returns false at the end of the text. `line` is the line the record starts on.
   bool next(std::vector<std::string_view>& cells, std::size_t& line) {
@@ -184,12 +189,14 @@ void parse_delimited_batches(std::string_view text, const std::string& source,
     return table;
   };
   Table table = fresh();
+  const ProgressTask progress("reading " + std::filesystem::path(source).filename().string());
   while (reader.next(cells, line)) {
     if (blank(cells)) continue;
     table.add_row(cells, line);
     if (!one_batch && table.row_count() >= batch_rows) {
       consume(table);
       table = fresh();
+      progress.report(static_cast<double>(reader.position()) / static_cast<double>(text.size()));
     }
   }
   if (one_batch || table.row_count() > 0) consume(table);
