@@ -208,10 +208,10 @@ TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "
   tight.insert(tight.end(), {"--tolerance-mm-per-sqrt-km", "1"});
   CHECK(run_cli(tight).code == 3);
   std::vector<std::string> both = base;
-  both.insert(both.end(), {"--tolerance-mm-per-sqrt-km", "1", "--class", "fgcc-third"});
+  both.insert(both.end(), {"--tolerance-mm-per-sqrt-km", "1", "--levelling-class", "fgcc-third"});
   CHECK(run_cli(both).code == 2);
   std::vector<std::string> unknown = base;
-  unknown.insert(unknown.end(), {"--class", "best"});
+  unknown.insert(unknown.end(), {"--levelling-class", "best"});
   const CliRun r = run_cli(unknown);
   CHECK(r.code == 2);
   CHECK_THAT(r.err, Contains("fgcc-second-ii"));

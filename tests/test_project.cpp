@@ -590,6 +590,25 @@ TEST_CASE("project time zones: tape times without a zone need one declared", "[p
   CHECK(summary["times"]["zoneless_read_in"]["-06:00"].get<int>() > 3000);
 }
 
+TEST_CASE("the project file's names are the command line's", "[project][cli]") {
+  // [site] and [inputs] keys, each the option of the same name (with '-'
+  // for '_') of the command that takes it.
+  const std::vector<std::pair<std::string, std::string>> keys = {
+      {"target", "heads"},           {"crs", "heads"},          {"unit", "heads"},
+      {"references", "heads"},       {"grid_path", "heads"},    {"time_zone", "heads"},
+      {"levelling_class", "adjust"}, {"wells", "heads"},        {"measuring_points", "heads"},
+      {"levels", "heads"},           {"sensors", "transducer"}, {"records", "transducer"},
+      {"points", "adjust"},          {"sections", "adjust"},    {"gnss", "gnss-check"}};
+  for (const auto& [key, command] : keys) {
+    std::string flag = "--" + key;
+    std::replace(flag.begin(), flag.end(), '_', '-');
+    INFO(key << " -> " << command << " " << flag);
+    bool found = false;
+    for (const auto& o : levelhead::cli::command_options(command)) found = found || o.flag == flag;
+    CHECK(found);
+  }
+}
+
 TEST_CASE("a project's time zone that is no zone is named with its line", "[project][time]") {
   levelhead::testing::TempFolder tmp;
   const fs::path project = demo_project(tmp.path());

@@ -33,7 +33,7 @@ void add_adjustment_options(CLI::App& command, AdjustArguments& a) {
   a.mm_per_sqrt_km = command
                          .add_option("--mm-per-sqrt-km", a.options.mm_per_sqrt_km,
                                      "Sigma of a section without a sigma, per square root of its "
-                                     "length in km (mm/sqrt(km)), instead of --class")
+                                     "length in km (mm/sqrt(km)), instead of --levelling-class")
                          ->capture_default_str();
   add_levelling_class_option(command, a.levelling_class, a.mm_per_sqrt_km,
                              "the sigma of sections without one (its standard error)");

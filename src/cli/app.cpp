@@ -80,7 +80,11 @@ const std::map<std::pair<std::string, std::string>, std::string>& renamed_option
       {{"reduce", "--section-tolerance"}, "--section-tolerance-mm-per-sqrt-km"},
       {{"gnss-check", "--tolerance"}, "--tolerance-m"},
       {{"diff", "--tolerance"}, "--tolerance-m"},
-      {{"epochs", "--power"}, "--beta0"}};
+      {{"epochs", "--power"}, "--beta0"},
+      {{"reduce", "--class"}, "--levelling-class"},
+      {{"loops", "--class"}, "--levelling-class"},
+      {{"adjust", "--class"}, "--levelling-class"},
+      {{"epochs", "--class"}, "--levelling-class"}};
   return renamed;
 }
 

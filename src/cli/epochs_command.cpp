@@ -162,7 +162,7 @@ CommandRunner add_epochs_command(CLI::App& app) {
       command
           ->add_option("--mm-per-sqrt-km", a->options.adjustment.mm_per_sqrt_km,
                        "Sigma of a section without a sigma, per square root of km (mm), instead "
-                       "of --class")
+                       "of --levelling-class")
           ->capture_default_str();
   add_levelling_class_option(*command, a->levelling_class, a->mm_per_sqrt_km,
                              "the sigma of sections without one (its standard error)");

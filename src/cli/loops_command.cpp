@@ -34,7 +34,7 @@ CommandRunner add_loops_command(CLI::App& app) {
       command
           ->add_option("--tolerance-mm-per-sqrt-km", args->options.mm_per_sqrt_km,
                        "Loop tolerance k in k mm * sqrt(loop length in km), instead of "
-                       "--class")
+                       "--levelling-class")
           ->capture_default_str();
   add_levelling_class_option(*command, args->closure_class, k, "the loop tolerance");
   args->tolerance = k;

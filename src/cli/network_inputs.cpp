@@ -94,7 +94,7 @@ CLI::Option* add_levelling_class_option(CLI::App& command, std::string& name,
   }
   classes.pop_back();
   return command
-      .add_option("--class", name,
+      .add_option("--levelling-class", name,
                   fmt::format("Levelling class that sets {} (default {}):{}", what,
                               default_levelling_class().name, classes))
       ->excludes(explicit_value);

@@ -29,12 +29,12 @@ void require_point_units(const PointTable& points, LengthUnit table_unit);
 // Checks the units and column maps given, without reading (OptionError).
 void check_network_input_options(const NetworkInputs& inputs);
 
-// --class NAME: the levelling class (precision.hpp) that sets `what` of this
+// --levelling-class NAME: the levelling class (precision.hpp) that sets `what` of this
 // command; excludes `explicit_value`, the option that gives it by number.
 CLI::Option* add_levelling_class_option(CLI::App& command, std::string& name,
                                         CLI::Option* explicit_value, const std::string& what);
 
-// The adjustment's sigma per sqrt(km) from the class named with --class
+// The adjustment's sigma per sqrt(km) from the class named with --levelling-class
 // (its standard error); a k given by number (`given` counted) leaves no class.
 void apply_levelling_class(const std::string& name, const CLI::Option* given,
                            AdjustmentOptions& options);

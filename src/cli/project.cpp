@@ -77,6 +77,7 @@ bool wired_by_chain(const std::string& key) {
                                               "measuring_points_columns",
                                               "levels_columns",
                                               "time_zone",
+                                              "levelling_class",
                                               "levels_time_zone",
                                               "records_time_zone",
                                               "measuring_points_time_zone"};
@@ -381,7 +382,7 @@ std::vector<Stage> plan_stages(const Project& p, const fs::path& out) {
     const bool levelling = stage.name == "reduce" || stage.name == "loops" ||
                            stage.name == "adjust" || stage.name == "epochs";
     if (levelling && !p.levelling_class.empty())
-      stage.args.insert(stage.args.end(), {"--class", p.levelling_class});
+      stage.args.insert(stage.args.end(), {"--levelling-class", p.levelling_class});
     add_setting_args(p, stage.section, stage.args);
     stage.args.insert(stage.args.end(), {"--out", (out / stage.name).string()});
     stages.push_back(std::move(stage));

@@ -47,7 +47,8 @@ struct ProjectInput {
 struct Project {
   std::filesystem::path file, folder;
   std::string name, crs, target, unit = "m";
-  std::string levelling_class;  // [site] levelling_class: --class of reduce, loops, adjust, epochs
+  std::string levelling_class;  // [site] levelling_class: --levelling-class of reduce, loops,
+                                // adjust, epochs
   std::string time_zone;        // [site] time_zone: --time-zone of transducer and heads
   std::map<std::string, std::string> time_zones;  // [time_zones]: input role -> zone
   std::vector<ProjectInput> inputs;               // in the order of [inputs]

@@ -75,7 +75,7 @@ CommandRunner add_reduce_command(CLI::App& app) {
   a->section_tolerance =
       c->add_option("--section-tolerance-mm-per-sqrt-km", o.section_tolerance_mm_per_sqrt_km,
                     "Repeated runs over a section must agree within k mm * sqrt(km), instead of "
-                    "--class")
+                    "--levelling-class")
           ->capture_default_str();
   add_levelling_class_option(*c, a->levelling_class, a->section_tolerance,
                              "the section tolerance (its section closure)");
