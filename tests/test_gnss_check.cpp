@@ -77,7 +77,7 @@ TEST_CASE("without sigmas the marks are tested against each other by Pope's tau 
           "[gnss][verdicts]") {
   SECTION("a 5 m blunder in one of ten marks is found, the others are consistent") {
     const GnssCheckResult r = check_gnss_marks(ten_marks(0.003, 4, 5.0), GnssCheckOptions{0.05});
-    CHECK(r.fit.test == "tau (Pope)");
+    CHECK(r.fit.test == "Pope's tau test");
     // After the blunder is taken out: 9 marks, redundancy 8.
     CHECK(r.fit.marks == 9);
     CHECK(r.fit.critical == Approx(tau_test_critical_value(0.001, 8.0)).epsilon(1e-12));

@@ -208,7 +208,7 @@ TEST_CASE("a tie without sigmas flags a blunder with Pope's tau test", "[referen
   }
   const TieResult clean = estimate_tie(ties, TieOptions{});
   CHECK_FALSE(clean.weighted);
-  CHECK(clean.test == "tau (Pope)");
+  CHECK(clean.test == "Pope's tau test");
   CHECK(clean.suspects.empty());
   ties[6].base_height += 5.0;
   const TieResult bad = estimate_tie(ties, TieOptions{});

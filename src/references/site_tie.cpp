@@ -164,10 +164,10 @@ TieResult estimate_tie(const std::vector<TiePoint>& ties, const TieOptions& opti
   // Pope's tau distribution (statistics.hpp), which needs a redundancy >= 2.
   const bool testable = result.weighted || result.dof >= 2;
   if (result.weighted) {
-    result.test = "w (Baarda)";
+    result.test = "Baarda's w-test";
     result.w_critical = w_test_critical_value(options.alpha0);
   } else if (testable) {
-    result.test = "tau (Pope)";
+    result.test = "Pope's tau test";
     result.w_critical = tau_test_critical_value(options.alpha0, static_cast<double>(result.dof));
   } else {
     result.test = "none (redundancy < 2)";

@@ -232,7 +232,7 @@ void gnss_findings(const GnssStage& g, FindingList& out) {
             fmt::format("{} of {} marks lie beyond the tolerance ({:g} m) without being outliers: "
                         "the GNSS heights scatter more than the tolerance assumes{} ({}).",
                         scattered.size(), g.marks.size(), g.result.tolerance,
-                        g.result.fit.sigma0 && g.result.fit.test == "tau (Pope)"
+                        g.result.fit.sigma0 && g.result.fit.test == "Pope's tau test"
                             ? fmt::format(", sigma {:.3f} m about the offset", *g.result.fit.sigma0)
                             : std::string(),
                         listing(scattered)));
