@@ -332,6 +332,11 @@ TEST_CASE("a project whose target is in feet gives the metre run's heads in thos
   CHECK(flow_of("ft")["units"] == "us-ft");
   const std::string report = read_file(tmp.path() / "ft" / "report.md");
   CHECK_THAT(report, Contains("height (US ft)") && !Contains("height (m)"));
+  // diff compares the two in metres, as its tolerance: the target changed,
+  // no head moved.
+  const Run diff = cli({"diff", (tmp.path() / "m").string(), (tmp.path() / "ft").string()});
+  CHECK(diff.code == 1);
+  CHECK_THAT(diff.out, Contains("EPSG:6360") && !Contains("heads of"));
 }
 
 TEST_CASE(

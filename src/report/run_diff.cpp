@@ -105,6 +105,15 @@ Values settings_of(const Record& record) {
   return v;
 }
 
+// The site's settings: a change of target or CRS changes every head.
+Values site_of(const Record& record) {
+  Values v;
+  for (const char* key : {"target", "crs"}) {
+    if (record.has(key)) v[fmt::format("[site] {}", key)] = record.optional_text(key);
+  }
+  return v;
+}
+
 Values grids_of(const Record& record) {
   Values v;
   for (const auto& g : record.list("grids"))
@@ -163,12 +172,15 @@ std::string text_of(const Row& row, const std::string& column) {
 }
 
 // key columns joined by a space -> the numeric column and some text columns.
+// `value` in metres: the table is read in `unit`, the unit its run wrote it in.
 std::map<std::string, Row> read_keyed(const fs::path& file, const std::vector<std::string>& keys,
                                       const std::string& value,
-                                      const std::vector<std::string>& texts) {
+                                      const std::vector<std::string>& texts, LengthUnit unit) {
   std::map<std::string, Row> out;
   if (!path_exists(file)) return out;
-  const Table t = read_table(file);
+  TableOptions options;
+  options.length_unit = unit;
+  const Table t = read_table(file, options);
   std::vector<std::size_t> key_columns;
   for (const std::string& k : keys) key_columns.push_back(t.require_column(k));
   const std::size_t value_column = t.require_column(value);
@@ -179,7 +191,7 @@ std::map<std::string, Row> read_keyed(const fs::path& file, const std::vector<st
       key.append(t.cell(r, c));
     }
     Row row;
-    row.value = t.number(r, value_column);
+    row.value = t.height(r, value_column);
     for (const std::string& name : texts) {
       if (const auto c = t.find_column(name)) row.text[name] = std::string(t.cell(r, *c));
     }
@@ -238,6 +250,18 @@ RunDifference compare_runs(const fs::path& before, const fs::path& after, double
   RunDifference d;
   compare("input", inputs_of(b), inputs_of(a), d.configuration);
   compare("setting", settings_of(b), settings_of(a), d.configuration);
+  compare("setting", site_of(b), site_of(a), d.configuration);
+  // The record's checksum of the whole configuration, as a last net: named
+  // only when nothing above says what changed.
+  const bool setting_named =
+      std::any_of(d.configuration.begin(), d.configuration.end(),
+                  [](const ConfigurationChange& c) { return c.kind == "setting"; });
+  if (!setting_named && b.has("configuration_sha256") && a.has("configuration_sha256") &&
+      b.optional_text("configuration_sha256") != a.optional_text("configuration_sha256")) {
+    d.configuration.push_back({"setting", "configuration checksum",
+                               b.optional_text("configuration_sha256").substr(0, 12),
+                               a.optional_text("configuration_sha256").substr(0, 12)});
+  }
   compare("grid", grids_of(b), grids_of(a), d.configuration);
   compare("software", software_of(b), software_of(a), d.configuration);
   const std::set<std::string> unusable_before = unusable_outputs(b, before, "OLD", d.file_problems);
@@ -246,6 +270,14 @@ RunDifference compare_runs(const fs::path& before, const fs::path& after, double
   // One of the compared tables of both runs; a table only one run has (the
   // stage did not run there) or that changed since its run is named and
   // compared as if empty on both sides.
+  // Heads and measuring points are written in the target's unit (feet for a
+  // target in feet): compared in metres, as the tolerance is.
+  const auto heads_unit = [](const fs::path& run) {
+    std::ifstream in(run / "heads" / "summary.json");
+    const auto summary = nlohmann::json::parse(in, nullptr, false);
+    if (summary.is_discarded() || !summary.contains("units")) return LengthUnit::metre;
+    return parse_length_unit(summary["units"].get<std::string>());
+  };
   const auto both = [&](const std::string& name, const std::vector<std::string>& keys,
                         const std::string& value, const std::vector<std::string>& texts) {
     const bool usable = !unusable_before.count(name) && !unusable_after.count(name);
@@ -257,8 +289,11 @@ RunDifference compare_runs(const fs::path& before, const fs::path& after, double
     if (!usable || in_before != in_after) {
       return std::pair<std::map<std::string, Row>, std::map<std::string, Row>>{};
     }
-    return std::pair{read_keyed(before / name, keys, value, texts),
-                     read_keyed(after / name, keys, value, texts)};
+    const bool in_heads = name.rfind("heads/", 0) == 0;
+    return std::pair{read_keyed(before / name, keys, value, texts,
+                                in_heads ? heads_unit(before) : LengthUnit::metre),
+                     read_keyed(after / name, keys, value, texts,
+                                in_heads ? heads_unit(after) : LengthUnit::metre)};
   };
   const auto [heights_before, heights_after] = both("adjust/heights.csv", {"id"}, "height", {});
   d.heights = moved(heights_before, heights_after, tolerance, d.heights_one_sided);
