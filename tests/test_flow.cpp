@@ -161,3 +161,10 @@ TEST_CASE(
   CHECK(few.off_plane.empty());
   CHECK(std::isinf(few.tau_critical));
 }
+
+TEST_CASE("Darcy ranges read the same on the console and in the report", "[flow]") {
+  // Two significant digits; a Julian year of 365.25 days (IAU, common practice).
+  CHECK(describe_velocity({4.79e-8, 9.59e-6}) == "0.0041 to 0.83 m/day");
+  CHECK(describe_travel_time({5.2144e7, 1.0429e10}) == "1.7 to 330 years");
+  CHECK(describe_travel_time({3 * 86400.0, 40 * 86400.0}) == "3.0 to 40 days");
+}

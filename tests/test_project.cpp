@@ -119,6 +119,30 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
   CHECK_THAT(read_file(tmp.path() / "report.md"),
              Contains("Pope's tau test, \\|tau\\| \\> 2.45 at alpha0 = 0.001"));
   CHECK(fs::exists(tmp.path() / "figures" / "network.svg"));
+  // The basis of the survey and the cautions come before the first section
+  // of results: references by name, code and unit, the levelling standard
+  // with what the adjustment says of it, the campaigns.
+  const std::string md = read_file(tmp.path() / "report.md");
+  const std::size_t results = md.find("## Levelling network");
+  REQUIRE(results != std::string::npos);
+  for (const char* up_front :
+       {"## Basis of the survey", "Heights and heads in: NAVD88 height (EPSG:5703), metre.",
+        "Horizontal coordinates: WGS 84 / UTM zone 13N (EPSG:32613), metre.",
+        "site-1998: EPSG:5703 +95.250 m (sigma 5.0 mm)", "Levelling standard: fgcc-second-i",
+        "sigma0 = 0.65: consistent with the precision assumed",
+        "Field book: 6 runs from 2026-10-06 to 2026-10-09",
+        "Monitoring epochs: 2024-10 (2024-10-08)", "## Cautions",
+        "licensed surveyor, engineer or hydrogeologist"}) {
+    INFO(up_front);
+    const std::size_t at_text = md.find(up_front);
+    CHECK(at_text < results);
+  }
+  // Console and report give the Darcy ranges and the barometric efficiency alike.
+  for (const char* both : {"0.0041 to 0.83 m/day", "1.7 to 330 years", "0.00006 +- 0.00091"}) {
+    INFO(both);
+    CHECK_THAT(run.out, Contains(both));
+    CHECK_THAT(md, Contains(both));
+  }
 
   std::ifstream record_file(tmp.path() / "run.json");
   const auto record = nlohmann::json::parse(record_file);

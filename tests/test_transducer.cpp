@@ -342,3 +342,8 @@ TEST_CASE("the transducer core: drift between checks and the correction of a rea
   CHECK_THAT(td::correction_at(10.0, none, gap, from, flags), WithinAbs(0.0, 1e-15));
   CHECK(flags == td::unchecked);
 }
+
+TEST_CASE("a barometric efficiency is written to the digits its sigma carries", "[transducer]") {
+  CHECK(BarometricEfficiency{6.2e-5, 0.00091, 100}.text() == "0.00006 +- 0.00091");
+  CHECK(BarometricEfficiency{0.62, 0.031, 100}.text() == "0.620 +- 0.031");
+}

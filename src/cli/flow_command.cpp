@@ -256,13 +256,11 @@ CommandRunner add_flow_command(CLI::App& app) {
             used[i].id, *f.tau[i], f.tau_critical, options.alpha0);
       }
       if (f.velocity) {
-        out << fmt::format(
-            "  average linear velocity {:.2e} .. {:.2e} m/s ({:.3g} .. {:.3g} m/day)\n",
-            f.velocity->low, f.velocity->high, f.velocity->low * 86400, f.velocity->high * 86400);
+        out << fmt::format("  average linear velocity {}\n", describe_velocity(*f.velocity));
       }
       if (f.travel_time) {
-        out << fmt::format("  travel time over {} m: {:.3g} .. {:.3g} days\n", *options.distance,
-                           f.travel_time->low / 86400, f.travel_time->high / 86400);
+        out << fmt::format("  travel time over {:g} m: {}\n", *options.distance,
+                           describe_travel_time(*f.travel_time));
       }
       out << fmt::format("Wrote flow.json and flow_wells.csv in {}\n", a->out);
     }

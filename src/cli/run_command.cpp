@@ -5,6 +5,7 @@
 
 #include <algorithm>
 #include <chrono>
+#include <cmath>
 #include <ctime>
 #include <memory>
 #include <optional>
@@ -36,6 +37,32 @@ bool has_strict_option(const std::string& command) {
   return false;
 }
 
+// "site-1998: EPSG:5703 + 95.250 m (sigma 5.0 mm); assumed 100.000 m on ..."
+std::string describe_reference(const ReferenceDefinition& d) {
+  std::string how;
+  switch (d.kind) {
+    case ReferenceDefinition::Kind::crs:
+      how = "the CRS " + d.definition;
+      break;
+    case ReferenceDefinition::Kind::offset:
+      how = fmt::format("{} {:+.3f} m", d.base, d.relation.offset);
+      break;
+    case ReferenceDefinition::Kind::grid:
+      how = fmt::format("{} with the grid {}{}", d.base, d.grid.filename().string(),
+                        std::abs(d.grid_multiplier - 1.0) < 1e-12
+                            ? std::string()
+                            : fmt::format(" times {:g}", d.grid_multiplier));
+      break;
+    case ReferenceDefinition::Kind::vertoffset:
+      how = fmt::format("{} with an offset and slopes", d.base);
+      break;
+  }
+  std::string line = fmt::format("{}: {}", d.name, how);
+  if (d.relation.sigma) line += fmt::format(" (sigma {:.1f} mm)", 1000.0 * *d.relation.sigma);
+  if (!d.source.empty()) line += "; " + d.source;
+  return line;
+}
+
 ReportContext report_context(const Project& p, const std::vector<Stage>& stages) {
   ReportContext c;
   c.site = p.name;
@@ -56,6 +83,7 @@ ReportContext report_context(const Project& p, const std::vector<Stage>& stages)
     const ReferenceSet references = ReferenceSet::load(p.references);
     for (const auto& [name, definition] : references.definitions()) {
       if (!definition.grid.empty()) c.grids.push_back(definition.grid);
+      c.references.push_back(describe_reference(definition));
     }
   }
   for (const ProjectSetting& s : p.settings) {
@@ -64,6 +92,10 @@ ReportContext report_context(const Project& p, const std::vector<Stage>& stages)
     c.settings.push_back({s.section + "." + s.key, value, s.default_text, s.chain_default});
   }
   for (const Stage& s : stages) c.stages.push_back(s.name);
+  if (!p.time_zone.empty())
+    c.time_zones.push_back("times without a zone are read in " + p.time_zone);
+  for (const auto& [table, zone] : p.time_zones)
+    c.time_zones.push_back(fmt::format("times without a zone in {} are read in {}", table, zone));
   return c;
 }
 

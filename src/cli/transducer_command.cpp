@@ -124,9 +124,8 @@ CommandRunner add_transducer_command(CLI::App& app) {
       for (const auto& [flag, count] : sensor.flags)
         out << fmt::format("    {}: {}\n", flag, count);
       if (sensor.efficiency) {
-        out << fmt::format("    barometric efficiency {:.2f} +- {:.2f} ({} paired changes)\n",
-                           sensor.efficiency->value, sensor.efficiency->sigma,
-                           sensor.efficiency->pairs);
+        out << fmt::format("    barometric efficiency {} ({} paired changes)\n",
+                           sensor.efficiency->text(), sensor.efficiency->pairs);
       }
     }
     if (const std::string line = zoneless_times_line(s.zoneless_times); !line.empty() && !a->quiet)

@@ -158,6 +158,30 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
   return r;
 }
 
+namespace {
+
+// Two significant digits, in plain decimals where that stays short.
+std::string two_digits(double x) {
+  if (x == 0.0 || !std::isfinite(x)) return fmt::format("{:g}", x);
+  const int magnitude = static_cast<int>(std::floor(std::log10(std::abs(x))));
+  if (magnitude < -4 || magnitude > 5) return fmt::format("{:.1e}", x);
+  const double step = std::pow(10.0, magnitude - 1);
+  return fmt::format("{:.{}f}", std::round(x / step) * step, std::max(0, 1 - magnitude));
+}
+
+}  // namespace
+
+std::string describe_velocity(const Range& v) {
+  return fmt::format("{} to {} m/day", two_digits(v.low * 86400.0), two_digits(v.high * 86400.0));
+}
+
+std::string describe_travel_time(const Range& t) {
+  constexpr double day = 86400.0, year = 365.25 * day;  // Julian year
+  if (t.high < year)
+    return fmt::format("{} to {} days", two_digits(t.low / day), two_digits(t.high / day));
+  return fmt::format("{} to {} years", two_digits(t.low / year), two_digits(t.high / year));
+}
+
 std::string describe_flow_uncertainty(const FlowResult& r) {
   const std::string heads = fmt::format("from the heads' covariance +- {:.1e} and {:.1f} degrees",
                                         r.from_heads.gradient, r.from_heads.azimuth);

@@ -67,6 +67,12 @@ std::optional<BarometricEfficiency> barometric_efficiency(const std::vector<doub
   return be;
 }
 
+std::string BarometricEfficiency::text() const {
+  const int decimals =
+      sigma > 0.0 ? std::clamp(1 - static_cast<int>(std::floor(std::log10(sigma))), 0, 9) : 2;
+  return fmt::format("{:.{}f} +- {:.{}f}", value, decimals, sigma, decimals);
+}
+
 namespace {
 
 struct Sample {

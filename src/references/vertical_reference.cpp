@@ -520,6 +520,20 @@ HeightUnit height_unit_of(const std::string& definition) {
   return out;
 }
 
+std::optional<std::string> describe_crs(const std::string& definition) {
+  ContextPtr ctx(proj::make_context());
+  PjPtr crs(proj_create(ctx.get(), definition.c_str()));
+  proj::message(ctx.get());  // a definition PROJ does not know is no error here
+  if (!crs || !proj_is_crs(crs.get())) return std::nullopt;
+  const char* name = proj_get_name(crs.get());
+  PjPtr unit_of;
+  if (proj_get_type(crs.get()) == PJ_TYPE_COMPOUND_CRS)
+    unit_of.reset(proj_crs_get_sub_crs(ctx.get(), crs.get(), 1));
+  const AxisUnit unit = axis_unit(ctx.get(), unit_of ? unit_of.get() : crs.get(), 0);
+  return fmt::format("{} ({}){}", name ? name : "unnamed", definition,
+                     unit.name.empty() ? std::string() : ", " + unit.name);
+}
+
 std::optional<std::string> table_unit_mismatch(const HeightUnit& unit, const std::string& reference,
                                                LengthUnit table_unit) {
   const std::optional<LengthUnit> own = length_unit_of(unit.metres_per_unit);

@@ -17,6 +17,7 @@
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
 #include "levelhead/flow/contours.hpp"
+#include "levelhead/levelling/precision.hpp"
 #include "levelhead/references/vertical_reference.hpp"
 #include "levelhead/report/findings.hpp"
 #include "levelhead/version.hpp"
@@ -226,8 +227,7 @@ void transducer_section(Document& doc, const StageResults& results) {
     const auto& be = sensor.efficiency;
     rows.push_back({sensor.sensor, sensor.well, sensor.kind, std::to_string(sensor.written),
                     std::to_string(sensor.checks), fixed(1000 * sensor.largest_drift, 1),
-                    be ? fmt::format("{:.2f} +- {:.2f}", be->value, be->sigma) : "-",
-                    fmt::format("{:g}", sensor.density),
+                    be ? be->text() : "-", fmt::format("{:g}", sensor.density),
                     fmt::format("{}", fmt::join(flags, ", "))});
   }
   doc.table({"sensor", "well", "kind", "readings", "checks", "largest drift (mm)",
@@ -253,14 +253,11 @@ void flow_table(Document& doc, const FlowStage& flow, const HeightDisplay& displ
                     off.empty() ? "none" : fmt::format("{}", fmt::join(off, ", "))});
   }
   if (f.velocity) {
-    rows.push_back(
-        {"average linear velocity (m/day)",
-         fmt::format("{:.2g} to {:.2g}", 86400 * f.velocity->low, 86400 * f.velocity->high)});
+    rows.push_back({"average linear velocity", describe_velocity(*f.velocity)});
   }
   if (f.travel_time && flow.distance) {
-    rows.push_back({fmt::format("travel time over {:g} m (years)", *flow.distance),
-                    fmt::format("{:.2g} to {:.2g}", f.travel_time->low / 3.15576e7,
-                                f.travel_time->high / 3.15576e7)});
+    rows.push_back({fmt::format("travel time over {:g} m", *flow.distance),
+                    describe_travel_time(*f.travel_time)});
   }
   doc.table({"flow", "value"}, rows);
 }
@@ -362,6 +359,88 @@ const std::vector<std::string>& cautions() {
   return text;
 }
 
+// The basis of the survey, up front: what every number is in, the standard
+// the levelling was run to and what the data say of it, and when and by
+// whom it was measured.
+std::vector<std::string> survey_basis(const ReportContext& c, const StageResults& r) {
+  std::vector<std::string> lines;
+  const auto crs = [](const std::string& definition) {
+    return describe_crs(definition).value_or(definition);
+  };
+  if (!c.target.empty()) lines.push_back("Heights and heads in: " + crs(c.target) + ".");
+  if (!c.crs.empty()) lines.push_back("Horizontal coordinates: " + crs(c.crs) + ".");
+  for (const std::string& reference : c.references)
+    lines.push_back("Reference of the references file: " + reference + ".");
+  if (r.adjust) {
+    const AdjustmentOptions& o = r.adjust->options;
+    std::string standard =
+        o.levelling_class.empty()
+            ? fmt::format("Levelling precision assumed: {:g} mm per sqrt(km) (given)",
+                          o.mm_per_sqrt_km)
+            : [&] {
+                const LevellingClass& k = find_levelling_class(o.levelling_class);
+                return fmt::format(
+                    "Levelling standard: {}, {}: {:g} mm per sqrt(km) assumed for sections "
+                    "without a sigma; section closure {:g} and loop closure {:g} mm * sqrt(km)",
+                    k.name, k.source, k.sigma_mm_per_sqrt_km, k.section_closure_mm_per_sqrt_km,
+                    k.loop_closure_mm_per_sqrt_km);
+              }();
+    const AdjustmentResult& a = r.adjust->result;
+    if (a.sigma0 && a.global_test) {
+      const GlobalTest& t = *a.global_test;
+      const char* verdict = t.passed                ? "consistent with the precision assumed"
+                            : t.statistic < t.lower ? "better than assumed (the assumed precision "
+                                                      "is pessimistic)"
+                                                    : "poorer than assumed";
+      standard += fmt::format(
+          ". The adjustment estimates sigma0 = {:.2f}: {} (chi-square global test, alpha = {:g})",
+          *a.sigma0, verdict, t.alpha);
+    }
+    lines.push_back(standard + ".");
+  }
+  if (r.reduce && !r.reduce->result.setups.empty()) {
+    std::set<std::string> dates, instruments, observers;
+    for (const SetupReduction& s : r.reduce->result.setups)
+      if (!s.date.empty()) dates.insert(s.date);
+    // Merged runs join distinct instruments and observers with '+'.
+    const auto add_joined = [](const std::string& joined, std::set<std::string>& to) {
+      std::size_t start = 0;
+      while (start < joined.size()) {
+        const std::size_t plus = std::min(joined.find('+', start), joined.size());
+        if (plus > start) to.insert(joined.substr(start, plus - start));
+        start = plus + 1;
+      }
+    };
+    for (const ReducedSection& s : r.reduce->result.sections) {
+      add_joined(s.instrument, instruments);
+      add_joined(s.observer, observers);
+    }
+    std::string line = fmt::format("Field book: {} runs", r.reduce->result.run_count);
+    if (!dates.empty())
+      line += dates.size() == 1 ? " on " + *dates.begin()
+                                : fmt::format(" from {} to {}", *dates.begin(), *dates.rbegin());
+    line += instruments.empty() ? "; instruments not recorded"
+                                : fmt::format("; instruments {}", fmt::join(instruments, ", "));
+    line += observers.empty() ? "; observers not recorded"
+                              : fmt::format("; observers {}", fmt::join(observers, ", "));
+    lines.push_back(line + ".");
+  }
+  if (r.epochs && !r.epochs->analysis.epochs.empty()) {
+    std::vector<std::string> epochs;
+    for (const EpochQuality& e : r.epochs->analysis.epochs) {
+      epochs.push_back(e.first_date == e.last_date
+                           ? fmt::format("{} ({})", e.name, e.first_date)
+                           : fmt::format("{} ({} to {})", e.name, e.first_date, e.last_date));
+    }
+    lines.push_back(fmt::format("Monitoring epochs: {}.", fmt::join(epochs, ", ")));
+  }
+  if (r.gnss)
+    lines.push_back(fmt::format("GNSS heights in {}, checked against the levelling in {}.",
+                                r.gnss->gnss_reference, r.gnss->levelled_reference));
+  for (const std::string& zone : c.time_zones) lines.push_back("Times: " + zone + ".");
+  return lines;
+}
+
 // Every file the stages wrote, with its checksum, so that `diff` (or anyone)
 // can tell a file changed or cut short after the run from the run's own.
 nlohmann::json stage_outputs(const ReportContext& c, const fs::path& folder) {
@@ -444,8 +523,6 @@ void write_report(const ReportContext& c, const StageResults& results,
   std::optional<QuickContours> contours;
   heads_section(body, c, results, contours);
   inputs_section(body, c, hash);
-  body.heading(2, "Cautions");
-  body.bullets(cautions());
   body.heading(2, "Stages run");
   body.paragraph(
       fmt::format("{} (each in its own folder beside this report).", fmt::join(c.stages, ", ")));
@@ -456,15 +533,18 @@ void write_report(const ReportContext& c, const StageResults& results,
   if (!c.site.empty()) facts.push_back("Site: " + c.site);
   if (!c.prepared_for.empty()) facts.push_back("Prepared for: " + c.prepared_for);
   if (!c.prepared_by.empty()) facts.push_back("Prepared by: " + c.prepared_by);
-  if (!c.target.empty()) facts.push_back("Heights and heads in: " + c.target);
-  if (!c.crs.empty()) facts.push_back("Horizontal coordinates: " + c.crs);
   facts.push_back("Computed with " + version_string() + " on " + c.run_time);
   head.bullets(facts);
+  head.heading(2, "Basis of the survey");
+  head.bullets(survey_basis(c, results));
   head.heading(2, "Findings");
   std::vector<std::string> texts;
   for (const Finding& f : findings) texts.push_back(finding_line(f));
   if (texts.empty()) texts.push_back("Nothing to report: every check passed.");
   head.bullets(texts);
+  // With the findings, not after the tables: whoever acts on a finding reads these.
+  head.heading(2, "Cautions");
+  head.bullets(cautions());
 
   // Figures first: the report is the last file to appear.
   OutputSet figures(folder / "figures");

@@ -101,6 +101,12 @@ FlowResult estimate_flow(const std::vector<FlowWell>& wells, const FlowOptions& 
 // dominates.
 std::string describe_flow_uncertainty(const FlowResult& result);
 
+// The Darcy ranges as the console and the report both give them, to two
+// significant digits: "0.0041 to 0.83 m/day"; "1.7 to 330 years" (in days
+// when the longest is under a year).
+std::string describe_velocity(const Range& velocity_m_per_s);
+std::string describe_travel_time(const Range& travel_time_s);
+
 // The heads' covariance matrix (m^2) of estimate_flow, row-major n x n.
 std::vector<double> head_covariance(const std::vector<FlowWell>& wells,
                                     const std::vector<HeadCovariance>& covariances);

@@ -81,6 +81,9 @@ double water_column(double pressure_kpa, double density, double gravity);
 struct BarometricEfficiency {
   double value = 0.0, sigma = 0.0;  // dimensionless, 0..1 for a confined aquifer
   std::size_t pairs = 0;
+  // "0.0001 +- 0.0009": decimals to two significant digits of the sigma, as
+  // the console and the report both give it.
+  std::string text() const;
 };
 
 // Barometric efficiency by least squares on first differences: the change

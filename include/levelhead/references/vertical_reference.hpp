@@ -70,6 +70,11 @@ struct HeightUnit {
 };
 HeightUnit height_unit_of(const std::string& definition);
 
+// A CRS as a person reads it, for reports: "NAVD88 height (EPSG:5703),
+// metre"; for a compound CRS the unit of its vertical part. nullopt when PROJ
+// does not know the definition (e.g. a reference of a references file).
+std::optional<std::string> describe_crs(const std::string& definition);
+
 // When heights labelled with `reference` (whose unit is `unit`) come from a
 // table read in `table_unit` and the reference is in feet of another kind,
 // the numbers are off by a factor: the message saying so and how to fix it;

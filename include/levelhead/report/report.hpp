@@ -48,6 +48,10 @@ struct ReportContext {
   std::vector<std::filesystem::path> grids;  // grid files named by the references
   std::optional<double> contour_interval;    // in the heads' unit; default: about eight levels
   std::string run_time;                      // the one line that changes run to run
+  // The references of the references file, one line each, and the zones
+  // declared for times without one: the report's basis of the survey.
+  std::vector<std::string> references;
+  std::vector<std::string> time_zones;
 };
 
 // SHA-256 of the configuration: the settings and the inputs' checksums, in
