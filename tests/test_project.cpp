@@ -18,8 +18,10 @@
 #include "levelhead/core/output_columns.hpp"
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/table.hpp"
+#include "levelhead/core/time.hpp"
 #include "levelhead/core/units.hpp"
 #include "report/report_document.hpp"
+#include "report/report_figures.hpp"
 #include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 
@@ -662,4 +664,22 @@ TEST_CASE("keep_going in the project: the chain finishes, exits 4 and the report
   CHECK_THAT(read_file(out / "transducer" / "rejects.csv"), Contains(",669,depth,"));
   CHECK_THAT(read_file(out / "report.md"),
              Contains("transducer: 1 record(s) or tape reading(s) could not be read"));
+}
+
+TEST_CASE("figure axes: round head ticks and month-start date ticks", "[report]") {
+  using levelhead::report::month_ticks;
+  using levelhead::report::round_ticks;
+  const std::vector<double> heads = round_ticks(98.77, 99.46, 5);
+  REQUIRE(heads.size() == 4);
+  for (std::size_t i = 0; i < heads.size(); ++i)
+    CHECK_THAT(heads[i], Catch::Matchers::WithinAbs(98.8 + 0.2 * static_cast<double>(i), 1e-9));
+  CHECK(round_ticks(0.0, 1.0, 5) == std::vector<double>{0.0, 0.5, 1.0});
+  CHECK(round_ticks(1.0, 1.0, 5).empty());
+  // 2025-01-10 to 2026-10-11: 22 months, so every 6 months (at most 4 ticks).
+  const auto at = [](const char* text) { return levelhead::parse_iso8601(text)->seconds; };
+  const std::vector<double> dates =
+      month_ticks(at("2025-01-10T00:00Z"), at("2026-10-11T00:00Z"), 4);
+  REQUIRE(dates.size() == 3);
+  CHECK(levelhead::format_utc(dates[0]) == "2025-07-01T00:00:00Z");
+  CHECK(levelhead::format_utc(dates[2]) == "2026-07-01T00:00:00Z");
 }

@@ -3,6 +3,7 @@
 #include <fmt/format.h>
 
 #include <algorithm>
+#include <chrono>
 #include <cmath>
 #include <set>
 
@@ -225,6 +226,54 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
 }
 
 // Heads over time per well, measuring-point changes as vertical lines.
+std::vector<double> round_ticks(double low, double high, std::size_t max_count) {
+  std::vector<double> ticks;
+  if (!(high > low) || max_count < 2) return ticks;
+  // A step of at least range / (max_count - 1) never gives more than max_count.
+  const double rough = (high - low) / static_cast<double>(max_count - 1);
+  const double power = std::pow(10.0, std::floor(std::log10(rough)));
+  double step = 10.0 * power;
+  for (const double m : {1.0, 2.0, 5.0}) {
+    if (m * power >= rough) {
+      step = m * power;
+      break;
+    }
+  }
+  // Half a step of tolerance: 0.1 + 0.2 is not 0.3 in binary.
+  for (double t = std::ceil(low / step) * step; t <= high + 1e-9 * step; t += step)
+    ticks.push_back(std::abs(t) < 1e-9 * step ? 0.0 : t);
+  return ticks;
+}
+
+std::vector<double> month_ticks(double t0, double t1, std::size_t max_count) {
+  std::vector<double> ticks;
+  if (!(t1 > t0) || max_count == 0) return ticks;
+  using namespace std::chrono;
+  const auto month_start = [](double seconds) {
+    const year_month_day day{floor<days>(
+        sys_seconds(std::chrono::seconds(static_cast<long long>(std::floor(seconds)))))};
+    return year_month{day.year(), day.month()};
+  };
+  const year_month first = month_start(t0), last = month_start(t1);
+  const int span = (last.year() - first.year()).count() * 12 +
+                   static_cast<int>(static_cast<unsigned>(last.month())) -
+                   static_cast<int>(static_cast<unsigned>(first.month())) + 1;
+  int step = 24;
+  for (const int months : {1, 2, 3, 6, 12, 24}) {
+    if (span / months + 1 <= static_cast<int>(max_count)) {
+      step = months;
+      break;
+    }
+  }
+  for (year_month m = first;; m += std::chrono::months(1)) {
+    const double at = static_cast<double>(sys_seconds(sys_days(m / 1)).time_since_epoch().count());
+    if (at > t1) break;
+    const int index = static_cast<int>(static_cast<unsigned>(m.month())) - 1;
+    if (at >= t0 && index % step == 0) ticks.push_back(at);
+  }
+  return ticks;
+}
+
 std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoint>>& heads,
                                const std::vector<MeasuringPointSurvey>& surveys,
                                const HeightDisplay& display) {
@@ -243,8 +292,9 @@ std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoi
   std::map<std::string, std::vector<double>> changes;
   for (const MeasuringPointSurvey& m : surveys)
     changes[m.record.well].push_back(m.record.valid_from);
-  const std::size_t columns = 3;
-  const double cell_w = 245, cell_h = 120;
+  // Two panels a row: at a page's width their text prints at about 8 pt.
+  const std::size_t columns = 2;
+  const double cell_w = 370, cell_h = 170;
   const std::size_t rows = (series.size() + columns - 1) / columns;
   Svg svg(columns * cell_w + 10, static_cast<double>(rows) * cell_h + 10, "Hydrographs per well");
   std::size_t i = 0;
@@ -263,13 +313,26 @@ std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoi
       lo = mid - 0.05;
       hi = mid + 0.05;
     }
-    const double px = ox + 40, pw = cell_w - 55, py = oy + 18, ph = cell_h - 42;
+    const double px = ox + 58, pw = cell_w - 70, py = oy + 22, ph = cell_h - 58;
     const auto X = [&](double t) { return px + (t - t0) / (t1 - t0) * pw; };
     const auto Y = [&](double h) { return py + ph - (h - lo) / (hi - lo) * ph; };
     svg.rect(px, py, pw, ph, "#fbfbf8", Stroke{"#999999", 0.6});
-    svg.text(ox + 2, oy + 12, well, 11, "start", "#222222", true);
-    svg.text(px - 3, py + 8, fixed(hi, 2), 8, "end");
-    svg.text(px - 3, py + ph, fixed(lo, 2), 8, "end");
+    svg.text(ox + 2, oy + 14, fmt::format("{}: head ({})", well, display.unit), 12, "start",
+             "#222222", true);
+    // Heads on round values, with their decimals; dates at month starts.
+    const std::vector<double> levels = round_ticks(lo, hi, 5);
+    const int decimals =
+        levels.size() >= 2
+            ? std::max(0, -static_cast<int>(std::floor(std::log10(levels[1] - levels[0]) + 1e-9)))
+            : 2;
+    for (const double h : levels) {
+      svg.line(px, Y(h), px + pw, Y(h), Stroke{"#e2e2dc", 0.6});
+      svg.text(px - 4, Y(h) + 3.5, fixed(h, decimals), 10, "end");
+    }
+    for (const double t : month_ticks(t0, t1, 4)) {
+      svg.line(X(t), py + ph, X(t), py + ph + 4, Stroke{"#999999", 0.6});
+      svg.text(X(t), py + ph + 15, format_utc(t).substr(0, 7), 10, "middle");
+    }
     for (double c : changes[well]) {
       if (c > t0 && c < t1) svg.line(X(c), py, X(c), py + ph, Stroke{"#b2352b", 1, "3 2"});
     }
@@ -286,11 +349,10 @@ std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoi
   }
   svg.text(
       10, static_cast<double>(rows) * cell_h + 5,
-      fmt::format(
-          "{} to {}; heads in {}; dashed: measuring point changed; open red: not for contouring "
-          "(pumping, ...)",
-          format_utc(t0).substr(0, 10), format_utc(t1).substr(0, 10), display.unit),
-      9);
+      fmt::format("{} to {} (UTC); heads in {}; dashed: measuring point changed; open red: not for "
+                  "contouring (pumping, ...)",
+                  format_utc(t0).substr(0, 10), format_utc(t1).substr(0, 10), display.unit),
+      10);
   return svg;
 }
 

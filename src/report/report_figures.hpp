@@ -8,6 +8,7 @@
 #include <map>
 #include <optional>
 #include <string>
+#include <vector>
 
 #include "levelhead/flow/contours.hpp"
 #include "levelhead/report/stage_results.hpp"
@@ -51,7 +52,15 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
                             std::optional<double> interval, std::optional<QuickContours>& contours,
                             const HeightDisplay& display);
 
-// Heads over time per well, measuring-point changes as vertical lines.
+// Axis ticks: round values (1, 2 or 5 x 10^n apart) within [low, high], at
+// most `max_count`; and month starts (every 1, 2, 3, 6, 12 or 24 months)
+// within [t0, t1] (s, UTC), at most `max_count`.
+std::vector<double> round_ticks(double low, double high, std::size_t max_count);
+std::vector<double> month_ticks(double t0, double t1, std::size_t max_count);
+
+// Heads over time per well, on axes of round heads (with the unit) and
+// dates; measuring-point changes as vertical lines, readings kept out of
+// contouring as open circles.
 std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoint>>& heads,
                                const std::vector<MeasuringPointSurvey>& surveys,
                                const HeightDisplay& display);
