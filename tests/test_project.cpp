@@ -683,3 +683,35 @@ TEST_CASE("figure axes: round head ticks and month-start date ticks", "[report]"
   CHECK(levelhead::format_utc(dates[0]) == "2025-07-01T00:00:00Z");
   CHECK(levelhead::format_utc(dates[2]) == "2026-07-01T00:00:00Z");
 }
+
+TEST_CASE("the demo's figures have no text over another", "[report][demo]") {
+  // Boxes as report::text_box estimates them from each <text> of the SVG.
+  levelhead::testing::TempFolder tmp;
+  REQUIRE(cli({"demo", "--out", tmp.path().string()}).code == 0);
+  const std::regex text_element(
+      R"re(<text x="([-0-9.]+)" y="([-0-9.]+)" font-size="([0-9.]+)" text-anchor="(\w+)"[^>]*>([^<]*)</text>)re");
+  std::size_t figures = 0;
+  for (const auto& entry : fs::directory_iterator(tmp.path() / "figures")) {
+    const std::string svg = read_file(entry.path());
+    std::vector<std::pair<levelhead::report::Box, std::string>> boxes;
+    for (auto it = std::sregex_iterator(svg.begin(), svg.end(), text_element);
+         it != std::sregex_iterator(); ++it) {
+      const std::smatch& m = *it;
+      boxes.push_back({levelhead::report::text_box(std::stod(m[1]), std::stod(m[2]), m[5],
+                                                   std::stod(m[3]), m[4]),
+                       m[5]});
+    }
+    ++figures;
+    for (std::size_t i = 0; i < boxes.size(); ++i) {
+      for (std::size_t j = i + 1; j < boxes.size(); ++j) {
+        INFO(entry.path().filename().string()
+             << ": '" << boxes[i].second << "' and '" << boxes[j].second << "'");
+        CHECK_FALSE(boxes[i].first.overlaps(boxes[j].first));
+      }
+    }
+  }
+  CHECK(figures == 5);
+  // The check itself can fire: two labels 10 px apart on one line collide.
+  CHECK(levelhead::report::text_box(10, 10, "MW-01", 11, "start")
+            .overlaps(levelhead::report::text_box(20, 12, "PW-1", 11, "start")));
+}

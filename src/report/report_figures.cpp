@@ -9,71 +9,153 @@
 
 #include "levelhead/core/time.hpp"
 #include "levelhead/flow/contours.hpp"
+#include "levelhead/levelling/statistics.hpp"
 
 namespace levelhead::report {
 
-// The levelling network: sections coloured and dashed by |w|, removed
-// sections dotted, failing loops outlined.
+namespace {
+
+// A mark's symbol on the network map: what holds the network and what it
+// carries must not look alike.
+enum class MarkSymbol { fixed_control, weighted_control, benchmark, other };
+
+MarkSymbol mark_symbol(const Point& p) {
+  if (p.is_fixed()) return MarkSymbol::fixed_control;
+  if (p.has_control()) return MarkSymbol::weighted_control;
+  return p.kind == "benchmark" ? MarkSymbol::benchmark : MarkSymbol::other;
+}
+
+void draw_mark(Svg& svg, double x, double y, MarkSymbol symbol) {
+  const Stroke outline{"#222222", 1.3};
+  switch (symbol) {
+    case MarkSymbol::fixed_control:
+      svg.polyline({{x, y - 6}, {x - 5.5, y + 4}, {x + 5.5, y + 4}, {x, y - 6}}, outline,
+                   "#222222");
+      break;
+    case MarkSymbol::weighted_control:
+      svg.polyline({{x, y - 6}, {x - 5.5, y + 4}, {x + 5.5, y + 4}, {x, y - 6}}, outline,
+                   "#ffffff");
+      break;
+    case MarkSymbol::benchmark:
+      svg.rect(x - 4, y - 4, 8, 8, "#ffffff", outline);
+      break;
+    case MarkSymbol::other:
+      svg.circle(x, y, 3.5, "#ffffff", outline);
+      break;
+  }
+}
+
+}  // namespace
+
+// The levelling network: sections coloured and dashed by the outlier test
+// the adjustment used (its own statistic and critical value), removed
+// sections dotted, failing loops shaded and numbered as in the loop table,
+// marks by their role, in a frame of the CRS's coordinates.
 std::optional<Svg> network_map(const AdjustStage& adjust, const LoopsStage* loops) {
   const Network& net = adjust.network;
   std::map<std::string, PlacedPoint> points;
+  std::map<std::string, MarkSymbol> symbols;
   for (const Point& p : net.points) {
-    if (p.x && p.y) points[p.id] = {*p.x, *p.y};
+    if (p.x && p.y) {
+      points[p.id] = {*p.x, *p.y};
+      symbols[p.id] = mark_symbol(p);
+    }
   }
   if (points.size() < 2) return std::nullopt;
   Bounds b;
   for (const auto& [id, p] : points) b.add(p.x, p.y);
-  Svg svg(800, 520, "Levelling network: sections by normalised residual |w|");
-  const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 30, 30, 540, 450);
+  const OutlierTest& test = adjust.result.test;
+  const std::string stat = test.kind == OutlierTest::Kind::w_test ? "w" : "tau";
+  Svg svg(820, 540, fmt::format("Levelling network: sections by {}", stat));
+  const double left = 75, top = 20, width = 500, height = 460;
+  // A margin inside the neat line, so that marks and labels stay off it.
+  const double margin = 0.06 * std::max(b.max_x - b.min_x, b.max_y - b.min_y);
+  const MapFrame frame(b.min_x - margin, b.min_y - margin, b.max_x + margin, b.max_y + margin, left,
+                       top, width, height);
+  // Rings first, then their numbers, so that no ring covers another's number.
+  std::vector<std::pair<std::pair<double, double>, std::size_t>> loop_labels;
   if (loops) {
     for (std::size_t k = 0; k < loops->result.loops.size(); ++k) {
       if (loops->result.loops[k].passed) continue;
       std::vector<std::pair<double, double>> ring;
+      double cx = 0.0, cy = 0.0;
       for (const std::string& id : loops->loop_points[k]) {
         const auto it = points.find(id);
-        if (it != points.end()) ring.emplace_back(frame.x(it->second.x), frame.y(it->second.y));
+        if (it == points.end()) continue;
+        ring.emplace_back(frame.x(it->second.x), frame.y(it->second.y));
       }
-      if (ring.size() >= 3) svg.polyline(ring, Stroke{"#d9bfe4", 10, ""}, "#f7f0fa");
+      if (ring.size() < 3) continue;
+      svg.polyline(ring, Stroke{"#d9bfe4", 10, ""}, "#f7f0fa");
+      for (std::size_t v = 0; v + 1 < ring.size(); ++v) {  // the last repeats the first
+        cx += ring[v].first;
+        cy += ring[v].second;
+      }
+      const double n = static_cast<double>(ring.size() - 1);
+      loop_labels.push_back({{cx / n, cy / n}, k + 1});
     }
   }
+  // Labels clear of every mark and of each other.
+  LabelPlacer labels({left, top, left + width, top + height});
+  for (const auto& [id, p] : points) labels.keep_clear(frame.x(p.x), frame.y(p.y), 6);
+  const double warn = normal_quantile(0.975);  // the usual 5 % band, for w only
   for (const AdjustedSection& a : adjust.result.sections) {
     const Section& section = net.sections[a.section];
     const auto f = points.find(section.from), t = points.find(section.to);
     if (f == points.end() || t == points.end()) continue;
+    const auto statistic = a.statistic();
     Stroke s{"#7d8b8f", 1.5, ""};
     if (a.removal_step) {
       s = Stroke{"#b2352b", 3, "2 4"};
-    } else if (a.w && std::abs(*a.w) > 3.29) {
+    } else if (statistic && std::abs(*statistic) > test.critical) {
       s = Stroke{"#b2352b", 3, "8 3"};
-    } else if (a.w && std::abs(*a.w) > 1.96) {
+    } else if (test.kind == OutlierTest::Kind::w_test && statistic && std::abs(*statistic) > warn) {
       s = Stroke{"#d08c1a", 2.5, "4 2"};
-    } else if (!a.w) {
+    } else if (!statistic) {
       s = Stroke{"#444444", 1.2, "1 2"};
     }
     svg.line(frame.x(f->second.x), frame.y(f->second.y), frame.x(t->second.x), frame.y(t->second.y),
              s);
   }
+  for (const auto& [at, number] : loop_labels)
+    labels.place(svg, at.first, at.second, 0,
+                 {{fmt::format("loop {}", number), 12, "#6a3d7c", true}});
   for (const auto& [id, p] : points) {
-    svg.circle(frame.x(p.x), frame.y(p.y), 4, "#ffffff", Stroke{"#222222", 1.3});
-    svg.text(frame.x(p.x) + 6, frame.y(p.y) - 6, id, 10);
+    draw_mark(svg, frame.x(p.x), frame.y(p.y), symbols[id]);
+    labels.place(svg, frame.x(p.x), frame.y(p.y), 6, {{id, 11}});
   }
-  // Legend.
-  const double lx = 630;
-  double ly = 60;
-  const std::vector<std::pair<Stroke, std::string>> legend = {
-      {{"#7d8b8f", 1.5, ""}, "|w| <= 1.96"},
-      {{"#d08c1a", 2.5, "4 2"}, "1.96 < |w| <= 3.29"},
-      {{"#b2352b", 3, "8 3"}, "|w| > 3.29 (suspect)"},
-      {{"#b2352b", 3, "2 4"}, "removed by snooping"},
-      {{"#444444", 1.2, "1 2"}, "no check (r = 0)"},
-      {{"#d9bfe4", 10, ""}, "failed loop (band)"}};
+  coordinate_frame(svg, frame, left, top, width, height);
+  // Legend: the sections by the test the adjustment used, then the marks.
+  const double lx = 600;
+  double ly = 40;
+  std::vector<std::pair<Stroke, std::string>> legend = {
+      {{"#7d8b8f", 1.5, ""},
+       fmt::format("|{}| <= {:.2f}", stat,
+                   test.kind == OutlierTest::Kind::w_test ? warn : test.critical)}};
+  if (test.kind == OutlierTest::Kind::w_test)
+    legend.push_back(
+        {{"#d08c1a", 2.5, "4 2"}, fmt::format("{:.2f} < |w| <= {:.2f}", warn, test.critical)});
+  legend.push_back(
+      {{"#b2352b", 3, "8 3"}, fmt::format("|{}| > {:.2f} (suspect)", stat, test.critical)});
+  legend.push_back({{"#b2352b", 3, "2 4"}, "removed by snooping"});
+  legend.push_back({{"#444444", 1.2, "1 2"}, "no check (r = 0)"});
+  legend.push_back({{"#d9bfe4", 10, ""}, "failed loop (numbered)"});
   for (const auto& [stroke, label] : legend) {
     svg.line(lx, ly, lx + 30, ly, stroke);
-    svg.text(lx + 36, ly + 4, label, 10);
-    ly += 20;
+    svg.text(lx + 36, ly + 4, label, 11);
+    ly += 21;
   }
-  north_arrow(svg, 700, 330);
-  scale_bar(svg, frame, 630, 420, 540);
+  ly += 6;
+  for (const auto& [symbol, label] : {std::pair{MarkSymbol::fixed_control, "fixed control"},
+                                      std::pair{MarkSymbol::weighted_control, "weighted control"},
+                                      std::pair{MarkSymbol::benchmark, "benchmark"},
+                                      std::pair{MarkSymbol::other, "well or other mark"}}) {
+    draw_mark(svg, lx + 15, ly, symbol);
+    svg.text(lx + 36, ly + 4, label, 11);
+    ly += 21;
+  }
+  svg.text(lx, ly + 10, fmt::format("{} at alpha0 = {:g}", test.name(), test.alpha0), 10);
+  north_arrow(svg, 700, 380);
+  scale_bar(svg, frame, 610, 470, width);
   return svg;
 }
 
@@ -138,16 +220,17 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
   std::vector<HeadAtWell> at_wells;
   for (const Shown& s : shown) at_wells.push_back({s.at.x, s.at.y, s.head});
   contours = quick_contours(at_wells, interval);
+  std::vector<std::vector<std::pair<double, double>>> contour_paths;
   if (contours) {
     for (const ContourLine& line : contours->lines) {
       std::vector<std::pair<double, double>> path;
       for (const auto& [x, y] : line.vertices) path.emplace_back(frame.x(x), frame.y(y));
       svg.polyline(path, Stroke{"#5d6d7e", 1.0, "5 2"});
-      const auto& [lx, ly] = path[path.size() / 2];
-      svg.text(lx, ly - 2, fixed(line.level, contours->interval < 0.1 ? 2 : 1), 8.5, "middle",
-               "#3d4b5a");
+      contour_paths.push_back(std::move(path));
     }
   }
+  // The flow arrow's path, kept clear of the labels placed below.
+  std::vector<std::pair<double, double>> arrow_path;
   if (flow) {
     const double azimuth = flow->result.azimuth * M_PI / 180.0;
     const double x0 = flow->result.x0, y0 = flow->result.y0;
@@ -155,6 +238,8 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
     const double dx = std::sin(azimuth) * length, dy = -std::cos(azimuth) * length;
     const Stroke arrow{"#b2352b", 3.5, ""};
     svg.line(cx - dx / 2, cy - dy / 2, cx + dx / 2, cy + dy / 2, arrow);
+    for (int k = 0; k <= 10; ++k)
+      arrow_path.emplace_back(cx - dx / 2 + dx * k / 10.0, cy - dy / 2 + dy * k / 10.0);
     const double hx = cx + dx / 2, hy = cy + dy / 2, ux = dx / length, uy = dy / length;
     svg.polyline({{hx, hy},
                   {hx - 14 * ux - 7 * uy, hy - 14 * uy + 7 * ux},
@@ -167,40 +252,44 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
              true);
     svg.text(674, 405, fmt::format("i = {:.2g}", flow->result.gradient), 10, "start", "#b2352b");
   }
+  // Every well's symbol first, then the labels clear of all symbols and of
+  // each other (nested piezometers share a spot: their labels fan out,
+  // with leader lines when they must).
+  LabelPlacer labels({0, 0, 632, svg.height()});
+  for (const Shown& s : shown) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 8);
+  for (const Shown& s : other_aquifers) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 5);
+  for (const auto& [x, y] : arrow_path) labels.keep_clear(x, y, 6);
   for (const Shown& s : other_aquifers) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
     svg.rect(x - 4, y - 4, 8, 8, "#ffffff", Stroke{"#777777", 1});
-    svg.text(x + 7, y + 12, s.well, 8, "start", "#777777");
   }
-  // Labels beside their well: right, left, below right or above left,
-  // whichever first misses the labels already placed (boxes of about
-  // 55 x 24 px, kept by their left edge and baseline).
-  std::vector<std::pair<double, double>> placed_labels;
   for (const Shown& s : shown) {
-    const double x = frame.x(s.at.x), y = frame.y(s.at.y);
-    svg.circle(x, y, 7, report::ramp_colour(s.head, low, high), Stroke{"#111111", 1});
-    const auto clashes = [&](double left_edge, double baseline) {
-      return std::any_of(placed_labels.begin(), placed_labels.end(), [&](const auto& o) {
-        return std::abs(o.first - left_edge) < 55 && std::abs(o.second - baseline) < 24;
-      });
-    };
-    struct Spot {
-      double dx, dy;
-      bool to_left;
-    };
-    const Spot spots[] = {{9, 0, false}, {-9, 0, true}, {9, 24, false}, {-9, -24, true}};
-    Spot chosen = spots[0];
-    for (const Spot& spot : spots) {
-      if (!clashes(x + spot.dx - (spot.to_left ? 55 : 0), y + spot.dy)) {
-        chosen = spot;
+    svg.circle(frame.x(s.at.x), frame.y(s.at.y), 7, report::ramp_colour(s.head, low, high),
+               Stroke{"#111111", 1});
+  }
+  for (const Shown& s : shown) {
+    labels.place(svg, frame.x(s.at.x), frame.y(s.at.y), 7,
+                 {{s.well, 11}, {fixed(s.head, 2), 10, "#333333"}});
+  }
+  for (const Shown& s : other_aquifers)
+    labels.place(svg, frame.x(s.at.x), frame.y(s.at.y), 5, {{s.well, 10, "#777777"}});
+  // Each contour's level on the line, where it is clear of the wells'
+  // labels: the middle first, then towards either end.
+  for (std::size_t c = 0; c < contour_paths.size(); ++c) {
+    const auto& path = contour_paths[c];
+    const std::string level = fixed(contours->lines[c].level, contours->interval < 0.1 ? 2 : 1);
+    std::optional<std::pair<double, double>> at;
+    for (const double f : {0.5, 0.35, 0.65, 0.2, 0.8}) {
+      const auto& [x, y] = path[static_cast<std::size_t>(f * static_cast<double>(path.size() - 1))];
+      const Box box = text_box(x, y - 2, level, 10, "middle");
+      if (labels.is_free(box)) {
+        labels.take(box);
+        at = {x, y};
         break;
       }
     }
-    const double lx = x + chosen.dx, ly = y + chosen.dy;
-    const std::string anchor = chosen.to_left ? "end" : "start";
-    svg.text(lx, ly - 3, s.well, 10, anchor);
-    svg.text(lx, ly + 9, fixed(s.head, 2), 9, anchor, "#333333");
-    placed_labels.emplace_back(chosen.to_left ? lx - 55 : lx, ly);
+    if (!at) at = path[path.size() / 2];  // nowhere clear: the middle, as before
+    svg.text(at->first, at->second - 2, level, 10, "middle", "#3d4b5a");
   }
   // Colour key.
   for (int i = 0; i <= 10; ++i) {
@@ -226,25 +315,6 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
 }
 
 // Heads over time per well, measuring-point changes as vertical lines.
-std::vector<double> round_ticks(double low, double high, std::size_t max_count) {
-  std::vector<double> ticks;
-  if (!(high > low) || max_count < 2) return ticks;
-  // A step of at least range / (max_count - 1) never gives more than max_count.
-  const double rough = (high - low) / static_cast<double>(max_count - 1);
-  const double power = std::pow(10.0, std::floor(std::log10(rough)));
-  double step = 10.0 * power;
-  for (const double m : {1.0, 2.0, 5.0}) {
-    if (m * power >= rough) {
-      step = m * power;
-      break;
-    }
-  }
-  // Half a step of tolerance: 0.1 + 0.2 is not 0.3 in binary.
-  for (double t = std::ceil(low / step) * step; t <= high + 1e-9 * step; t += step)
-    ticks.push_back(std::abs(t) < 1e-9 * step ? 0.0 : t);
-  return ticks;
-}
-
 std::vector<double> month_ticks(double t0, double t1, std::size_t max_count) {
   std::vector<double> ticks;
   if (!(t1 > t0) || max_count == 0) return ticks;

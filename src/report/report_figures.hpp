@@ -52,10 +52,8 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
                             std::optional<double> interval, std::optional<QuickContours>& contours,
                             const HeightDisplay& display);
 
-// Axis ticks: round values (1, 2 or 5 x 10^n apart) within [low, high], at
-// most `max_count`; and month starts (every 1, 2, 3, 6, 12 or 24 months)
-// within [t0, t1] (s, UTC), at most `max_count`.
-std::vector<double> round_ticks(double low, double high, std::size_t max_count);
+// Date ticks: month starts (every 1, 2, 3, 6, 12 or 24 months) within
+// [t0, t1] (s, UTC), at most `max_count`.
 std::vector<double> month_ticks(double t0, double t1, std::size_t max_count);
 
 // Heads over time per well, on axes of round heads (with the unit) and

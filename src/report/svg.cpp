@@ -4,6 +4,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <optional>
 
 namespace levelhead::report {
 
@@ -99,6 +100,123 @@ MapFrame::MapFrame(double min_x, double min_y, double max_x, double max_y, doubl
 
 double MapFrame::x(double world_x) const { return left_ + (world_x - min_x_) * scale_; }
 double MapFrame::y(double world_y) const { return top_ + height_ - (world_y - min_y_) * scale_; }
+double MapFrame::world_x(double pixel_x) const { return min_x_ + (pixel_x - left_) / scale_; }
+double MapFrame::world_y(double pixel_y) const {
+  return min_y_ + (top_ + height_ - pixel_y) / scale_;
+}
+
+std::vector<double> round_ticks(double low, double high, std::size_t max_count) {
+  std::vector<double> ticks;
+  if (!(high > low) || max_count < 2) return ticks;
+  // A step of at least range / (max_count - 1) never gives more than max_count.
+  const double rough = (high - low) / static_cast<double>(max_count - 1);
+  const double power = std::pow(10.0, std::floor(std::log10(rough)));
+  double step = 10.0 * power;
+  for (const double m : {1.0, 2.0, 5.0}) {
+    if (m * power >= rough) {
+      step = m * power;
+      break;
+    }
+  }
+  // Half a step of tolerance: 0.1 + 0.2 is not 0.3 in binary.
+  for (double t = std::ceil(low / step) * step; t <= high + 1e-9 * step; t += step)
+    ticks.push_back(std::abs(t) < 1e-9 * step ? 0.0 : t);
+  return ticks;
+}
+
+Box text_box(double x, double y, const std::string& text, double size, const std::string& anchor) {
+  const double width = 0.6 * size * static_cast<double>(text.size());
+  const double left = anchor == "middle" ? x - width / 2 : anchor == "end" ? x - width : x;
+  // From the ascender to the descender around the baseline at y.
+  return {left, y - 0.8 * size, left + width, y + 0.25 * size};
+}
+
+bool LabelPlacer::is_free(const Box& box) const {
+  if (box.x0 < area_.x0 || box.y0 < area_.y0 || box.x1 > area_.x1 || box.y1 > area_.y1)
+    return false;
+  return std::none_of(taken_.begin(), taken_.end(), [&](const Box& t) { return t.overlaps(box); });
+}
+
+void LabelPlacer::place(Svg& svg, double x, double y, double radius,
+                        const std::vector<LabelLine>& lines) {
+  double width = 0.0, height = 0.0;
+  for (const LabelLine& l : lines) {
+    width = std::max(width, 0.6 * l.size * static_cast<double>(l.text.size()));
+    height += 1.15 * l.size;
+  }
+  // Candidate boxes (left, top) around the point: right, left, above right,
+  // above left, below right, below left, above, below; then farther out.
+  const auto candidate = [&](int k, double gap) -> Box {
+    const double r = radius + gap;
+    double left = 0, top = 0;
+    switch (k) {
+      case 0:
+        left = x + r, top = y - height / 2;
+        break;
+      case 1:
+        left = x - r - width, top = y - height / 2;
+        break;
+      case 2:
+        left = x + r * 0.7, top = y - r * 0.7 - height;
+        break;
+      case 3:
+        left = x - r * 0.7 - width, top = y - r * 0.7 - height;
+        break;
+      case 4:
+        left = x + r * 0.7, top = y + r * 0.7;
+        break;
+      case 5:
+        left = x - r * 0.7 - width, top = y + r * 0.7;
+        break;
+      case 6:
+        left = x - width / 2, top = y - r - height;
+        break;
+      default:
+        left = x - width / 2, top = y + r;
+        break;
+    }
+    return {left, top, left + width, top + height};
+  };
+  const auto free = [&](const Box& box) { return is_free(box); };
+  std::optional<Box> chosen;
+  bool leader = false;
+  for (const double gap : {3.0, 16.0, 32.0}) {
+    for (int k = 0; k < 8 && !chosen; ++k) {
+      if (free(candidate(k, gap))) chosen = candidate(k, gap);
+    }
+    if (chosen) {
+      leader = gap > 3.0;
+      break;
+    }
+  }
+  if (!chosen) chosen = candidate(0, 3.0);  // nowhere free: the first place, as before
+  if (leader) {
+    const double cx = std::clamp(x, chosen->x0, chosen->x1),
+                 cy = std::clamp(y, chosen->y0, chosen->y1);
+    svg.line(x, y, cx, cy, Stroke{"#777777", 0.6});
+  }
+  double baseline = chosen->y0;
+  for (const LabelLine& l : lines) {
+    baseline += 1.15 * l.size - 0.25 * l.size;
+    svg.text(chosen->x0, baseline, l.text, l.size, "start", l.colour, l.bold);
+    baseline += 0.25 * l.size;
+  }
+  taken_.push_back(*chosen);
+}
+
+void coordinate_frame(Svg& svg, const MapFrame& frame, double left, double top, double width,
+                      double height) {
+  svg.rect(left, top, width, height, "none", Stroke{"#555555", 0.8});
+  const Stroke tick{"#555555", 0.8};
+  for (const double e : round_ticks(frame.world_x(left), frame.world_x(left + width), 5)) {
+    svg.line(frame.x(e), top + height, frame.x(e), top + height + 5, tick);
+    svg.text(frame.x(e), top + height + 17, fmt::format("{:.0f}", e), 10, "middle");
+  }
+  for (const double n : round_ticks(frame.world_y(top + height), frame.world_y(top), 5)) {
+    svg.line(left - 5, frame.y(n), left, frame.y(n), tick);
+    svg.text(left - 7, frame.y(n) + 3.5, fmt::format("{:.0f}", n), 10, "end");
+  }
+}
 
 void north_arrow(Svg& svg, double x, double y) {
   svg.polyline({{x, y}, {x - 7, y + 22}, {x, y + 16}, {x + 7, y + 22}, {x, y}},
