@@ -215,8 +215,11 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
     low = std::min(low, s.head);
     high = std::max(high, s.head);
   }
-  Svg svg(760, 520, "Heads of the contouring round");
-  const MapFrame frame(b.min_x, b.min_y, b.max_x, b.max_y, 50, 40, 540, 430);
+  Svg svg(780, 530, "Heads of the contouring round");
+  const double left = 70, top = 15, width = 550, height = 480;
+  const double margin = 0.06 * std::max(b.max_x - b.min_x, b.max_y - b.min_y);
+  const MapFrame frame(b.min_x - margin, b.min_y - margin, b.max_x + margin, b.max_y + margin, left,
+                       top, width, height);
   std::vector<HeadAtWell> at_wells;
   for (const Shown& s : shown) at_wells.push_back({s.at.x, s.at.y, s.head});
   contours = quick_contours(at_wells, interval);
@@ -255,7 +258,7 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
   // Every well's symbol first, then the labels clear of all symbols and of
   // each other (nested piezometers share a spot: their labels fan out,
   // with leader lines when they must).
-  LabelPlacer labels({0, 0, 632, svg.height()});
+  LabelPlacer labels({left, top, left + width, top + height});
   for (const Shown& s : shown) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 8);
   for (const Shown& s : other_aquifers) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 5);
   for (const auto& [x, y] : arrow_path) labels.keep_clear(x, y, 6);
@@ -309,8 +312,9 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
     svg.rect(641, 326, 8, 8, "#ffffff", Stroke{"#777777", 1});
     svg.text(655, 334, "other aquifers", 10);
   }
+  coordinate_frame(svg, frame, left, top, width, height);
   north_arrow(svg, 700, 354);
-  scale_bar(svg, frame, 620, 440, 540);
+  scale_bar(svg, frame, 645, 450, width);
   return svg;
 }
 
