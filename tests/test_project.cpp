@@ -715,3 +715,25 @@ TEST_CASE("the demo's figures have no text over another", "[report][demo]") {
   CHECK(levelhead::report::text_box(10, 10, "MW-01", 11, "start")
             .overlaps(levelhead::report::text_box(20, 12, "PW-1", 11, "start")));
 }
+
+TEST_CASE("run --pdf prints the report with the browser's own print engine", "[project][pdf]") {
+  if (std::system("command -v chromium > /dev/null 2>&1") != 0) {
+    WARN("chromium is not installed (scripts/install-deps.sh --browser): not checked");
+    return;
+  }
+  levelhead::testing::TempFolder tmp;
+  const fs::path project = demo_project(tmp.path());
+  const fs::path out = tmp.path() / "out";
+  const Run run = cli({"run", project.string(), "--out", out.string(), "--pdf"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  CHECK_THAT(run.out, Contains("report.pdf"));
+  const std::string pdf = read_file(out / "report.pdf");
+  CHECK(pdf.rfind("%PDF-", 0) == 0);
+  // A4 pages (595 x 842 points, ISO 216), several of them.
+  CHECK_THAT(
+      pdf, Contains("/MediaBox [0 0 594.95996 841.91998]") || Contains("/MediaBox [0 0 595 842]"));
+  const std::regex page("/Type\\s*/Page[^s]");
+  CHECK(std::distance(std::sregex_iterator(pdf.begin(), pdf.end(), page), std::sregex_iterator()) >=
+        5);
+}

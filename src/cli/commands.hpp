@@ -35,6 +35,7 @@ CommandRunner add_diff_command(CLI::App& app);
 struct ChainOptions {
   bool quiet = false, verbose = false, strict = false;
   bool replace = false;  // replace an output folder holding another project's run
+  bool pdf = false;      // also print the report to report.pdf (headless Chromium)
 };
 
 // Runs the chain of `project_file` into `folder` (levelhead run). Every

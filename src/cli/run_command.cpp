@@ -224,13 +224,22 @@ int run_chain(const std::filesystem::path& project_file, const std::filesystem::
   const std::vector<Finding> findings = chain_findings(results);
   write_report(context, results, findings, folder);
   open_folder->commit();
+  // After the commit: a print that fails leaves the run complete.
+  if (a.pdf) {
+    try {
+      print_report_pdf(folder);
+    } catch (const OutputError& e) {
+      err << "levelhead run: the run is complete, but " << e.what() << '\n';
+      return exit_failure;
+    }
+  }
   if (!a.quiet) {
     // The same findings, word for word, as the report's and run.json's.
     out << "\n== findings ==\n";
     if (findings.empty()) out << "Nothing to report: every check passed.\n";
     for (const Finding& f : findings) out << "- " << finding_line(f) << '\n';
-    out << fmt::format("\nReport: {} (also report.md); audit record: run.json\n",
-                       (folder / "report.html").string());
+    out << fmt::format("\nReport: {} (also report.md{}); audit record: run.json\n",
+                       (folder / "report.html").string(), a.pdf ? ", report.pdf" : "");
   }
   if (!failed_checks.empty()) {
     err << fmt::format(
@@ -256,6 +265,8 @@ CommandRunner add_run_command(CLI::App& app) {
       ->required();
   c->add_flag("--quiet", a->chain.quiet, "Print nothing but errors");
   c->add_flag("--verbose", a->chain.verbose, "Also print each stage's command line");
+  c->add_flag("--pdf", a->chain.pdf,
+              "Also print the report to report.pdf (A4, page numbers) with headless Chromium");
   c->add_flag("--replace", a->chain.replace,
               "Replace an output folder that holds the run of another project");
   c->add_flag("--strict", a->chain.strict,

@@ -1,11 +1,15 @@
 #include "levelhead/report/report.hpp"
 
+#include <fcntl.h>
 #include <fmt/format.h>
 #include <gdal.h>
 #include <proj.h>
+#include <sys/wait.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cmath>
+#include <cstdlib>
 #include <fstream>
 #include <map>
 #include <nlohmann/json.hpp>
@@ -569,6 +573,73 @@ void write_report(const ReportContext& c, const StageResults& results,
     write_contours_geopackage(*contours, c.crs, c.target,
                               results.heads ? to_string(results.heads->result.unit) : "m",
                               out.reserve("contours.gpkg"));
+  out.commit();
+}
+
+namespace {
+
+// The first of `names` on the PATH, or empty.
+std::string find_program(const std::vector<std::string>& names) {
+  const char* path = std::getenv("PATH");
+  if (!path) return {};
+  const std::string dirs(path);
+  for (const std::string& name : names) {
+    std::size_t start = 0;
+    while (start <= dirs.size()) {
+      const std::size_t colon = std::min(dirs.find(':', start), dirs.size());
+      const fs::path candidate = fs::path(dirs.substr(start, colon - start)) / name;
+      if (colon > start && ::access(candidate.c_str(), X_OK) == 0) return candidate.string();
+      start = colon + 1;
+    }
+  }
+  return {};
+}
+
+// Runs `args` (no shell), its output discarded; returns its exit status.
+int run_quietly(const std::vector<std::string>& args) {
+  std::vector<char*> argv;
+  for (const std::string& a : args) argv.push_back(const_cast<char*>(a.c_str()));
+  argv.push_back(nullptr);
+  const pid_t child = ::fork();
+  if (child < 0) return -1;
+  if (child == 0) {
+    const int null = ::open("/dev/null", O_WRONLY);
+    if (null >= 0) {
+      ::dup2(null, STDOUT_FILENO);
+      ::dup2(null, STDERR_FILENO);
+    }
+    ::execv(argv[0], argv.data());
+    ::_exit(127);
+  }
+  int status = 0;
+  if (::waitpid(child, &status, 0) < 0) return -1;
+  return WIFEXITED(status) ? WEXITSTATUS(status) : -1;
+}
+
+}  // namespace
+
+void print_report_pdf(const fs::path& folder) {
+  const std::string browser = find_program({"chromium", "chromium-browser"});
+  if (browser.empty()) {
+    throw OutputError(
+        "--pdf prints the report with headless Chromium, which is not installed (Debian: apt-get "
+        "install chromium; scripts/install-deps.sh --browser); report.html is complete, print it "
+        "from any browser");
+  }
+  OutputSet out(folder);
+  const fs::path pdf = out.reserve("report.pdf");
+  const fs::path html = fs::absolute(folder / "report.html");
+  const int status =
+      run_quietly({browser, "--headless", "--no-sandbox", "--disable-gpu", "--no-pdf-header-footer",
+                   "--allow-file-access-from-files", "--print-to-pdf=" + fs::absolute(pdf).string(),
+                   "file://" + html.string()});
+  std::error_code ec;
+  if (status != 0 || !fs::exists(pdf) || fs::file_size(pdf, ec) == 0) {
+    throw OutputError(fmt::format(
+        "printing the report to PDF with {} failed (exit status {}); report.html is complete, "
+        "print it from any browser",
+        browser, status));
+  }
   out.commit();
 }
 

@@ -24,13 +24,15 @@ const char* const css =
 h1{font-family:sans-serif;border-bottom:3px solid #2f8f83;padding-bottom:.2em}
 h2{font-family:sans-serif;color:#2c347a;margin-top:2em;border-bottom:1px solid #bbb}
 h3{font-family:sans-serif}
-table{border-collapse:collapse;margin:.8em 0;font-size:.9em}
-th,td{border:1px solid #999;padding:.25em .55em;text-align:left}
+table{border-collapse:collapse;margin:.8em 0;font-size:.9em;max-width:100%}
+th,td{border:1px solid #999;padding:.25em .55em;text-align:left;overflow-wrap:anywhere}
 th{background:#e9eef0}
-figure{margin:1.2em 0;page-break-inside:avoid}
+figure{margin:1.2em 0;page-break-inside:avoid;break-inside:avoid}
+figure svg{max-width:100%;height:auto}
 figcaption{font-size:.9em;font-style:italic}
 .note{font-size:.85em;color:#444}
-@media print{body{max-width:none}h2{page-break-after:avoid}}
+@page{size:A4;margin:16mm 14mm 18mm;@bottom-center{content:"page " counter(page) " of " counter(pages);font:9pt sans-serif;color:#444}}
+@media print{body{max-width:none;margin:0;padding:0;font-size:10.5pt}h2,h3{page-break-after:avoid;break-after:avoid}table,tr{page-break-inside:avoid;break-inside:avoid}}
 )";
 
 std::string gdal_version() { return GDALVersionInfo("RELEASE_NAME"); }

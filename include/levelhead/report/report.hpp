@@ -63,4 +63,11 @@ std::string configuration_hash(const ReportContext& context);
 void write_report(const ReportContext& context, const StageResults& results,
                   const std::vector<Finding>& findings, const std::filesystem::path& folder);
 
+// report.html of `folder` printed to report.pdf (A4, page numbers, figures
+// and small tables kept whole: the report's print style) by headless
+// Chromium's own print engine, found on the PATH (chromium or
+// chromium-browser). All-or-nothing: a failed print leaves no report.pdf.
+// Errors: OutputError when no Chromium is installed or the print fails.
+void print_report_pdf(const std::filesystem::path& folder);
+
 }  // namespace levelhead
