@@ -684,7 +684,8 @@ TEST_CASE("figure axes: round head ticks and month-start date ticks", "[report]"
   CHECK(levelhead::format_utc(dates[2]) == "2026-07-01T00:00:00Z");
 }
 
-TEST_CASE("the demo's figures have no text over another", "[report][demo]") {
+TEST_CASE("the demo's figures have no text over another, and print at 7 pt or more",
+          "[report][demo]") {
   // Boxes as report::text_box estimates them from each <text> of the SVG.
   levelhead::testing::TempFolder tmp;
   REQUIRE(cli({"demo", "--out", tmp.path().string()}).code == 0);
@@ -693,10 +694,16 @@ TEST_CASE("the demo's figures have no text over another", "[report][demo]") {
   std::size_t figures = 0;
   for (const auto& entry : fs::directory_iterator(tmp.path() / "figures")) {
     const std::string svg = read_file(entry.path());
+    std::smatch size;
+    REQUIRE(std::regex_search(svg, size, std::regex(R"re(<svg [^>]*width="([0-9.]+)")re")));
+    // Scaled to an A4 page's text width: 7 pt = 9.33 px (1 pt = 4/3 px).
+    const double print_scale = std::min(1.0, 688.0 / std::stod(size[1]));
     std::vector<std::pair<levelhead::report::Box, std::string>> boxes;
     for (auto it = std::sregex_iterator(svg.begin(), svg.end(), text_element);
          it != std::sregex_iterator(); ++it) {
       const std::smatch& m = *it;
+      INFO(entry.path().filename().string() << ": '" << m[5] << "' at " << m[3] << " px");
+      CHECK(std::stod(m[3]) * print_scale >= 9.33);
       boxes.push_back({levelhead::report::text_box(std::stod(m[1]), std::stod(m[2]), m[5],
                                                    std::stod(m[3]), m[4]),
                        m[5]});

@@ -284,7 +284,7 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
     std::optional<std::pair<double, double>> at;
     for (const double f : {0.5, 0.35, 0.65, 0.2, 0.8}) {
       const auto& [x, y] = path[static_cast<std::size_t>(f * static_cast<double>(path.size() - 1))];
-      const Box box = text_box(x, y - 2, level, 10, "middle");
+      const Box box = text_box(x, y - 2, level, std::max(10.0, svg.min_text_size()), "middle");
       if (labels.is_free(box)) {
         labels.take(box);
         at = {x, y};
@@ -387,7 +387,7 @@ std::optional<Svg> hydrographs(const std::map<std::string, std::vector<SeriesPoi
       lo = mid - 0.05;
       hi = mid + 0.05;
     }
-    const double px = ox + 58, pw = cell_w - 70, py = oy + 22, ph = cell_h - 58;
+    const double px = ox + 58, pw = cell_w - 70, py = oy + 30, ph = cell_h - 66;
     const auto X = [&](double t) { return px + (t - t0) / (t1 - t0) * pw; };
     const auto Y = [&](double h) { return py + ph - (h - lo) / (hi - lo) * ph; };
     svg.rect(px, py, pw, ph, "#fbfbf8", Stroke{"#999999", 0.6});

@@ -74,6 +74,7 @@ void Svg::rect(double x, double y, double w, double h, const std::string& fill,
 
 void Svg::text(double x, double y, const std::string& text, double size, const std::string& anchor,
                const std::string& colour, bool bold) {
+  size = std::max(size, min_text_size());
   body_ += fmt::format(
       R"(<text x="{:.1f}" y="{:.1f}" font-size="{:.1f}" text-anchor="{}" fill="{}"{}>{}</text>)", x,
       y, size, anchor, colour, bold ? R"( font-weight="bold")" : "", escape_xml(text));
@@ -127,8 +128,9 @@ std::vector<double> round_ticks(double low, double high, std::size_t max_count) 
 Box text_box(double x, double y, const std::string& text, double size, const std::string& anchor) {
   const double width = 0.6 * size * static_cast<double>(text.size());
   const double left = anchor == "middle" ? x - width / 2 : anchor == "end" ? x - width : x;
-  // From the ascender to the descender around the baseline at y.
-  return {left, y - 0.8 * size, left + width, y + 0.25 * size};
+  // The line box a browser gives it (ascent and descent of a sans-serif
+  // font such as DejaVu Sans, about 0.95 and 0.25 of the size).
+  return {left, y - 0.95 * size, left + width, y + 0.25 * size};
 }
 
 bool LabelPlacer::is_free(const Box& box) const {
@@ -138,11 +140,13 @@ bool LabelPlacer::is_free(const Box& box) const {
 }
 
 void LabelPlacer::place(Svg& svg, double x, double y, double radius,
-                        const std::vector<LabelLine>& lines) {
+                        const std::vector<LabelLine>& given) {
+  std::vector<LabelLine> lines = given;  // in the sizes the figure will draw them
+  for (LabelLine& l : lines) l.size = std::max(l.size, svg.min_text_size());
   double width = 0.0, height = 0.0;
   for (const LabelLine& l : lines) {
     width = std::max(width, 0.6 * l.size * static_cast<double>(l.text.size()));
-    height += 1.15 * l.size;
+    height += 1.3 * l.size;  // the line box and a tenth of the size between lines
   }
   // Candidate boxes (left, top) around the point: right, left, above right,
   // above left, below right, below left, above, below; then farther out.
@@ -197,9 +201,9 @@ void LabelPlacer::place(Svg& svg, double x, double y, double radius,
   }
   double baseline = chosen->y0;
   for (const LabelLine& l : lines) {
-    baseline += 1.15 * l.size - 0.25 * l.size;
+    baseline += 0.95 * l.size;
     svg.text(chosen->x0, baseline, l.text, l.size, "start", l.colour, l.bold);
-    baseline += 0.25 * l.size;
+    baseline += 0.35 * l.size;
   }
   taken_.push_back(*chosen);
 }

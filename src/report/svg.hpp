@@ -4,6 +4,7 @@
 // Written by hand because the figures need only these few elements, and a
 // plotting library would add a dependency and external resources.
 
+#include <algorithm>
 #include <string>
 #include <utility>
 #include <vector>
@@ -20,6 +21,12 @@ struct Stroke {
   std::string dash;  // SVG dash array, empty for solid: style tells classes apart in print too
 };
 
+// Printed on A4 (210 mm less 2 x 14 mm margins, at 96 px per inch) a figure
+// wider than this is scaled down to it; its text must stay at 7 pt or more
+// (9.33 px), a common floor for print legibility.
+inline constexpr double print_width_px = 688.0;
+inline constexpr double min_print_text_px = 9.4;
+
 class Svg {
  public:
   Svg(double width, double height, std::string title);
@@ -28,11 +35,16 @@ class Svg {
                 const std::string& fill = "none");
   void circle(double x, double y, double r, const std::string& fill, const Stroke& stroke);
   void rect(double x, double y, double w, double h, const std::string& fill, const Stroke& stroke);
-  // anchor: start, middle, end
+  // anchor: start, middle, end. A size too small to read once the figure is
+  // printed at the page's width is raised to the smallest that is
+  // (min_text_size()).
   void text(double x, double y, const std::string& text, double size = 11.0,
             const std::string& anchor = "start", const std::string& colour = "#222222",
             bool bold = false);
   double width() const { return width_; }
+  double min_text_size() const {
+    return min_print_text_px * std::max(1.0, width_ / print_width_px);
+  }
   double height() const { return height_; }
   std::string str() const;
 
