@@ -88,10 +88,12 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
        {"fig-network", "fig-loops", "fig-displacements", "fig-heads", "fig-hydrographs"}) {
     CHECK_THAT(html, Contains(figure));
   }
-  // Self-contained: no resource is fetched (the SVG namespace is a name, not a request).
-  for (const char* request : {"src=", "href=", "url(", "@import", "<link", "<script"}) {
+  // Self-contained: no resource is fetched (the SVG namespace is a name, not a
+  // request; the contents link within the page only).
+  for (const char* request : {"src=", "url(", "@import", "<link", "<script"}) {
     CHECK_THAT(html, !Contains(request));
   }
+  CHECK_FALSE(std::regex_search(html, std::regex(R"re(href="[^#])re")));
   CHECK_THAT(html, Contains("SBM-B -&gt; MW-04"));  // the planted blunder is a finding
   CHECK_THAT(html, Contains("95.250 m too low"));   // and the datum mix-ups it avoided
   CHECK_THAT(html, Contains("'gnss-2024'"));
@@ -139,6 +141,16 @@ TEST_CASE("the demo runs every stage and writes the report and audit record", "[
     const std::size_t at_text = md.find(up_front);
     CHECK(at_text < results);
   }
+  // The contents link every section, each to its own heading.
+  const std::string page = read_file(tmp.path() / "report.html");
+  const std::regex link(R"re(<a href="#(sec-\d+)">([^<]*)</a>)re");
+  std::size_t links = 0;
+  for (auto it = std::sregex_iterator(page.begin(), page.end(), link); it != std::sregex_iterator();
+       ++it, ++links) {
+    INFO((*it)[2]);
+    CHECK_THAT(page, Contains("<h2 id=\"" + (*it)[1].str() + "\">" + (*it)[2].str() + "</h2>"));
+  }
+  CHECK(links >= 10);
   // Console and report give the Darcy ranges and the barometric efficiency alike.
   for (const char* both : {"0.0041 to 0.83 m/day", "1.7 to 330 years", "0.00006 +- 0.00091"}) {
     INFO(both);

@@ -519,7 +519,31 @@ std::string configuration_hash(const ReportContext& c) {
 void write_report(const ReportContext& c, const StageResults& results,
                   const std::vector<Finding>& findings, const fs::path& folder) {
   const std::string hash = configuration_hash(c);
+  // The title block, then the contents, the front matter (what every
+  // number rests on, the findings, the cautions) and the results.
+  Document title;
+  title.heading(1, c.title);
+  std::vector<std::string> facts;
+  if (!c.site.empty()) facts.push_back("Site: " + c.site);
+  if (!c.prepared_for.empty()) facts.push_back("Prepared for: " + c.prepared_for);
+  if (!c.prepared_by.empty()) facts.push_back("Prepared by: " + c.prepared_by);
+  facts.push_back("Computed with " + version_string() + " on " + c.run_time);
+  title.bullets(facts);
+
+  Document front;
+  front.heading(2, "Basis of the survey");
+  front.bullets(survey_basis(c, results));
+  front.heading(2, "Findings");
+  std::vector<std::string> texts;
+  for (const Finding& f : findings) texts.push_back(finding_line(f));
+  if (texts.empty()) texts.push_back("Nothing to report: every check passed.");
+  front.bullets(texts);
+  // With the findings, not after the tables: whoever acts on a finding reads these.
+  front.heading(2, "Cautions");
+  front.bullets(cautions());
+
   Document body;
+  body.number_sections_from(front.sections().size());
   levelling_section(body, results);
   gnss_section(body, results);
   monitoring_section(body, results);
@@ -531,24 +555,12 @@ void write_report(const ReportContext& c, const StageResults& results,
   body.paragraph(
       fmt::format("{} (each in its own folder beside this report).", fmt::join(c.stages, ", ")));
 
-  Document head;
-  head.heading(1, c.title);
-  std::vector<std::string> facts;
-  if (!c.site.empty()) facts.push_back("Site: " + c.site);
-  if (!c.prepared_for.empty()) facts.push_back("Prepared for: " + c.prepared_for);
-  if (!c.prepared_by.empty()) facts.push_back("Prepared by: " + c.prepared_by);
-  facts.push_back("Computed with " + version_string() + " on " + c.run_time);
-  head.bullets(facts);
-  head.heading(2, "Basis of the survey");
-  head.bullets(survey_basis(c, results));
-  head.heading(2, "Findings");
-  std::vector<std::string> texts;
-  for (const Finding& f : findings) texts.push_back(finding_line(f));
-  if (texts.empty()) texts.push_back("Nothing to report: every check passed.");
-  head.bullets(texts);
-  // With the findings, not after the tables: whoever acts on a finding reads these.
-  head.heading(2, "Cautions");
-  head.bullets(cautions());
+  std::vector<std::string> sections = front.sections();
+  sections.insert(sections.end(), body.sections().begin(), body.sections().end());
+  Document contents;
+  contents.contents(sections);
+  Document head;  // what comes before the results, in order
+  for (const Document* part : {&title, &contents, &front}) head.append(*part);
 
   // Figures first: the report is the last file to appear.
   OutputSet figures(folder / "figures");

@@ -30,6 +30,8 @@ th{background:#e9eef0}
 figure{margin:1.2em 0;page-break-inside:avoid;break-inside:avoid}
 figure svg{max-width:100%;height:auto}
 figcaption{font-size:.9em;font-style:italic}
+nav.contents{font-family:sans-serif;font-size:.9em;margin:1em 0}
+nav.contents ol{margin:.3em 0;columns:2}
 .note{font-size:.85em;color:#444}
 @page{size:A4;margin:16mm 14mm 18mm;@bottom-center{content:"page " counter(page) " of " counter(pages);font:9pt sans-serif;color:#444}}
 @media print{body{max-width:none;margin:0;padding:0;font-size:10.5pt}h2,h3{page-break-after:avoid;break-after:avoid}table,tr{page-break-inside:avoid;break-inside:avoid}}

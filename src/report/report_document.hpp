@@ -23,11 +23,39 @@ std::string markdown_text(const std::string& text);
 // One document rendered twice: Markdown (figures as files) and HTML (inline).
 class Document {
  public:
+  // Sections (level 2) get an id "sec-N" for the table of contents.
   void heading(int level, const std::string& text) {
     md_ += fmt::format("\n{} {}\n\n", std::string(static_cast<std::size_t>(level), '#'),
                        markdown_text(text));
-    html_ += fmt::format("<h{0}>{1}</h{0}>\n", level, report::escape_xml(text));
+    if (level == 2) {
+      sections_.push_back(text);
+      html_ += fmt::format("<h2 id=\"{}\">{}</h2>\n", section_id(sections_.size() - 1),
+                           report::escape_xml(text));
+    } else {
+      html_ += fmt::format("<h{0}>{1}</h{0}>\n", level, report::escape_xml(text));
+    }
   }
+  // A list of the sections of `documents` (in order), linked in HTML; the
+  // ids continue from one document to the next as they are rendered.
+  void contents(const std::vector<std::string>& titles) {
+    md_ += "Contents: " + markdown_text(fmt::format("{}", fmt::join(titles, "; "))) + "\n\n";
+    html_ += "<nav class=\"contents\"><strong>Contents</strong><ol>\n";
+    for (std::size_t i = 0; i < titles.size(); ++i) {
+      html_ += fmt::format("<li><a href=\"#{}\">{}</a></li>\n", section_id(i),
+                           report::escape_xml(titles[i]));
+    }
+    html_ += "</ol></nav>\n";
+  }
+  const std::vector<std::string>& sections() const { return sections_; }
+  // `other`'s text after this one's (figures and sections as rendered).
+  void append(const Document& other) {
+    md_ += other.md_;
+    html_ += other.html_;
+    figures_.insert(figures_.end(), other.figures_.begin(), other.figures_.end());
+  }
+  // Continues the numbering of section ids after `count` sections of an
+  // earlier document.
+  void number_sections_from(std::size_t count) { section_offset_ = count; }
   void paragraph(const std::string& text) {
     md_ += markdown_text(text) + "\n\n";
     html_ += "<p>" + report::escape_xml(text) + "</p>\n";
@@ -82,7 +110,12 @@ class Document {
   const std::vector<std::pair<std::string, std::string>>& figures() const { return figures_; }
 
  private:
+  std::string section_id(std::size_t index) const {
+    return fmt::format("sec-{}", section_offset_ + index + 1);
+  }
   std::string md_, html_;
+  std::vector<std::string> sections_;
+  std::size_t section_offset_ = 0;
   std::vector<std::pair<std::string, std::string>> figures_;
 };
 

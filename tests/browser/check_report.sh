@@ -51,7 +51,8 @@ function measure(frame) {
   });
   var page = doc.documentElement;
   lines.push(width + (page.scrollWidth <= page.clientWidth + 1 ? ' fits' : ' CUT-OFF ' + page.scrollWidth));
-  var fetching = doc.querySelectorAll('[src], [href], link, script, iframe, object, embed, image').length;
+  // Links within the page (the contents) fetch nothing.
+  var fetching = doc.querySelectorAll('[src], [href]:not([href^="#"]), link, script, iframe, object, embed, image').length;
   lines.push(width + ' requests ' + (fetching + frame.contentWindow.performance.getEntriesByType('resource').length));
   lines.push(width + ' title ' + doc.title);
   if (--pending === 0) document.getElementById('result').textContent = lines.join('\n');
