@@ -55,7 +55,7 @@ CommandRunner add_heads_command(CLI::App& app) {
   c->add_option("--unit", a->unit, "Length unit of the tables: m, ft, us-ft")
       ->capture_default_str();
   c->add_option("--wells-columns", a->wells_columns,
-                "Column map for the wells table, e.g. id=Well,x=East");
+                "Column map for the wells table, e.g. well=Well,x=East");
   c->add_option("--measuring-points-columns", a->mp_columns,
                 "Column map for the measuring-point table");
   c->add_option("--levels-columns", a->levels_columns,
