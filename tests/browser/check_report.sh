@@ -17,19 +17,38 @@ work=$(cd "$work" && pwd)
 "$levelhead" demo --out "$work/demo" > /dev/null
 
 # A harness page frames the report at a narrow (700 px) and a wide
-# (1280 px) width and writes what it measured into its own DOM, which
-# --dump-dom prints once both have loaded: the figures drawn with a size,
-# nothing wider than the page (cut off), no text of a figure over another
-# (the browser's own boxes), and no request for anything.
+# (1280 px) width, and as printed (its print rules, at an A4 page's text
+# width), and writes what it measured into its own DOM, which --dump-dom
+# prints once all have loaded: the figures drawn with a size, nothing wider
+# than the page (cut off), no text of a figure over another (the browser's
+# own boxes), and no request for anything.
 cat > "$work/check.html" <<'HTML'
 <!DOCTYPE html>
 <html><body><pre id="result">not loaded</pre>
 <iframe class="report" src="demo/report.html" width="700" height="900"></iframe>
 <iframe class="report" src="demo/report.html" width="1280" height="900"></iframe>
+<iframe class="report print" src="demo/report.html" width="688" height="900"></iframe>
 <script>
-var lines = [], pending = 2;
+var lines = [], pending = 3;
+// As printed: the report's print rules applied on screen, at an A4 page's
+// text width (210 mm less 2 x 14 mm at 96 px per inch).
+function apply_print_rules(doc) {
+  var style = doc.createElement('style'), rules = [];
+  Array.prototype.forEach.call(doc.styleSheets, function (sheet) {
+    Array.prototype.forEach.call(sheet.cssRules, function (rule) {
+      if (rule.media && rule.media.mediaText === 'print') {
+        Array.prototype.forEach.call(rule.cssRules, function (r) { rules.push(r.cssText); });
+      }
+    });
+  });
+  style.textContent = rules.join('\n');
+  doc.head.appendChild(style);
+  lines.push('print rules ' + rules.length);
+}
 function measure(frame) {
-  var doc = frame.contentDocument, width = frame.width;
+  var doc = frame.contentDocument;
+  var width = frame.classList.contains('print') ? 'print' : frame.width;
+  if (width === 'print') apply_print_rules(doc);
   var figures = doc.querySelectorAll('figure');
   lines.push(width + ' figures ' + figures.length);
   figures.forEach(function (f) {
@@ -70,12 +89,13 @@ result=$(printf '%s\n' "$dom" | sed -n '/<pre id="result">/,/<\/pre>/p')
 printf '%s\n' "$result"
 
 fail=0
-for width in 700 1280; do
+for width in 700 1280 print; do
   count=$(printf '%s\n' "$result" | sed -n "s/.*$width figures \([0-9]*\).*/\1/p")
   if [ -z "$count" ] || [ "$count" -lt 4 ]; then echo "FAIL: $width px: expected at least 4 figures"; fail=1; fi
   if ! printf '%s\n' "$result" | grep -q "^$width requests 0$"; then echo "FAIL: $width px: the report requested resources"; fail=1; fi
   if ! printf '%s\n' "$result" | grep -q "^$width fits$"; then echo "FAIL: $width px: something is cut off"; fail=1; fi
 done
+if ! printf '%s\n' "$result" | grep -q "^print rules [1-9]"; then echo "FAIL: no print rules found"; fail=1; fi
 if printf '%s\n' "$result" | grep -q "EMPTY"; then echo "FAIL: a figure has no size"; fail=1; fi
 if printf '%s\n' "$result" | grep -q "OVERLAP"; then echo "FAIL: text over text in a figure"; fail=1; fi
 if printf '%s\n' "$result" | grep -q "not loaded"; then echo "FAIL: the report did not load"; fail=1; fi
