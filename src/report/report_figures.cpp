@@ -258,24 +258,39 @@ std::optional<Svg> head_map(const HeadEvent& event, const FlowStage* flow,
   // Every well's symbol first, then the labels clear of all symbols and of
   // each other (nested piezometers share a spot: their labels fan out,
   // with leader lines when they must).
-  LabelPlacer labels({left, top, left + width, top + height});
-  for (const Shown& s : shown) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 8);
-  for (const Shown& s : other_aquifers) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 5);
-  for (const auto& [x, y] : arrow_path) labels.keep_clear(x, y, 6);
+  // A well of another aquifer beside a contoured one (a nest) is drawn a
+  // little aside, tied to its place, so that its square does not hide under
+  // the circle.
+  std::vector<std::pair<double, double>> square_at;
   for (const Shown& s : other_aquifers) {
     const double x = frame.x(s.at.x), y = frame.y(s.at.y);
-    svg.rect(x - 4, y - 4, 8, 8, "#ffffff", Stroke{"#777777", 1});
+    const bool covered = std::any_of(shown.begin(), shown.end(), [&](const Shown& o) {
+      return std::hypot(frame.x(o.at.x) - x, frame.y(o.at.y) - y) < 12.0;
+    });
+    square_at.emplace_back(covered ? x - 16.0 : x, covered ? y + 16.0 : y);
   }
+  LabelPlacer labels({left, top, left + width, top + height});
+  for (const Shown& s : shown) labels.keep_clear(frame.x(s.at.x), frame.y(s.at.y), 8);
+  for (const auto& [x, y] : square_at) labels.keep_clear(x, y, 6);
+  for (const auto& [x, y] : arrow_path) labels.keep_clear(x, y, 6);
   for (const Shown& s : shown) {
     svg.circle(frame.x(s.at.x), frame.y(s.at.y), 7, report::ramp_colour(s.head, low, high),
                Stroke{"#111111", 1});
+  }
+  for (std::size_t i = 0; i < other_aquifers.size(); ++i) {
+    const double x = frame.x(other_aquifers[i].at.x), y = frame.y(other_aquifers[i].at.y);
+    const auto& [sx, sy] = square_at[i];
+    if (std::hypot(sx - x, sy - y) > 0.5) svg.line(x, y, sx, sy, Stroke{"#777777", 0.8});
+    svg.rect(sx - 4, sy - 4, 8, 8, "#ffffff", Stroke{"#777777", 1});
   }
   for (const Shown& s : shown) {
     labels.place(svg, frame.x(s.at.x), frame.y(s.at.y), 7,
                  {{s.well, 11}, {fixed(s.head, 2), 10, "#333333"}});
   }
-  for (const Shown& s : other_aquifers)
-    labels.place(svg, frame.x(s.at.x), frame.y(s.at.y), 5, {{s.well, 10, "#777777"}});
+  for (std::size_t i = 0; i < other_aquifers.size(); ++i) {
+    labels.place(svg, square_at[i].first, square_at[i].second, 5,
+                 {{other_aquifers[i].well, 10, "#777777"}});
+  }
   // Each contour's level on the line, where it is clear of the wells'
   // labels: the middle first, then towards either end.
   for (std::size_t c = 0; c < contour_paths.size(); ++c) {
