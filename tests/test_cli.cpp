@@ -203,6 +203,15 @@ TEST_CASE("loops writes loops.csv and exits 3 under strict when a loop fails", "
   std::getline(loops, row);
   CHECK(header.rfind("loop,points,length,misclosure,tolerance,passed", 0) == 0);
   CHECK_THAT(row, Contains("BM1>A>B>BM1") || Contains("A>B>BM1>A") || Contains("B>BM1>A>B"));
+  // Sections no loop or repeat checks are listed in a table, the summary
+  // keeping their counts.
+  const std::string weak =
+      levelhead::testing::read_file(tmp.path() / "o" / "unchecked_sections.csv");
+  CHECK(weak.rfind("from,to,row,in_loop,observed_once\n", 0) == 0);
+  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "o" / "summary.json"));
+  CHECK(std::count(weak.begin(), weak.end(), '\n') - 1 >=
+        summary["counts"]["single_observations"].get<long>());
+  CHECK_FALSE(summary.contains("single_observations"));
   // The corpus loop misses by 1 mm over 530 m; 1 mm/sqrt(km) allows 0.73 mm.
   std::vector<std::string> tight = base;
   tight.insert(tight.end(), {"--tolerance-mm-per-sqrt-km", "1"});

@@ -2,6 +2,7 @@
 
 #include <fmt/format.h>
 
+#include <algorithm>
 #include <cmath>
 #include <nlohmann/json.hpp>
 
@@ -100,13 +101,24 @@ void write_loop_outputs(const Network& net, const LoopResult& result,
                       {"shared_with_failing", shared}});
   }
   summary["failed_loops"] = failed;
-  nlohmann::json unchecked = nlohmann::json::array();
-  for (std::size_t s : result.unchecked_sections) unchecked.push_back(section_json(net, s));
-  summary["unchecked_sections"] = unchecked;
-  nlohmann::json single = nlohmann::json::array();
-  for (std::size_t s : result.single_observations) single.push_back(section_json(net, s));
-  summary["single_observations"] = single;
   out.open("summary.json") << util::json_text(summary) << '\n';
+  // The sections no loop or repeat checks, one line each: a list that runs
+  // to a million lines in a national network belongs in a table, not in
+  // the summary (which keeps their counts).
+  std::vector<std::size_t> listed = result.unchecked_sections;
+  listed.insert(listed.end(), result.single_observations.begin(), result.single_observations.end());
+  std::sort(listed.begin(), listed.end());
+  listed.erase(std::unique(listed.begin(), listed.end()), listed.end());
+  std::ostream& weak = out.open("unchecked_sections.csv");
+  weak << "from,to,row,in_loop,observed_once\n";
+  const auto among = [](const std::vector<std::size_t>& sorted, std::size_t s) {
+    return std::binary_search(sorted.begin(), sorted.end(), s);
+  };
+  for (const std::size_t s : listed) {
+    weak << csv_cell(net.sections[s].from) << ',' << csv_cell(net.sections[s].to) << ','
+         << net.sections[s].row << ',' << (among(result.unchecked_sections, s) ? "no" : "yes")
+         << ',' << (among(result.single_observations, s) ? "yes" : "no") << '\n';
+  }
   out.commit();
 }
 

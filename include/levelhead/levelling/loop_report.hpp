@@ -6,8 +6,14 @@
 //               (yes/no), sections (count), ratio (|misclosure| / tolerance),
 //               shared_with_failing (sections also in other failing loops:
 //               "from>to@loops 2 5;...").
-// summary.json  counts (sections, points, parts, loops, failed), tolerance,
-//               failed loops, unchecked sections, single observations.
+// unchecked_sections.csv  from, to, row (of the sections table), in_loop
+//               (no: no loop checks it), observed_once (yes: no other
+//               observation joins the same points): every section a blunder
+//               could hide in.
+// summary.json  counts (sections, points, parts, loops, failed, unchecked
+//               sections, single observations), tolerance, failed loops.
+//               The lists are in unchecked_sections.csv: at a million
+//               sections they would make the summary hundreds of MB.
 
 #include <filesystem>
 #include <string>
