@@ -57,7 +57,8 @@ CommandRunner add_loops_command(CLI::App& app) {
     write_loop_outputs(network, result, args->inputs.out);
     if (!args->quiet) {
       out << loop_summary_text(network, result);
-      out << fmt::format("Wrote loops.csv and summary.json in {}\n", args->inputs.out);
+      out << fmt::format("Wrote loops.csv, unchecked_sections.csv and summary.json in {}\n",
+                         args->inputs.out);
     }
     const int status = args->strict && result.failed > 0 ? exit_checks_failed : exit_ok;
     if (chain) {
