@@ -3,6 +3,7 @@
 #include <cholmod.h>
 #include <fmt/format.h>
 
+#include <Eigen/Dense>
 #include <algorithm>
 #include <chrono>
 #include <cmath>
@@ -59,6 +60,17 @@ NormalSolver::NormalSolver(const LowerMatrix& lower, const SolverLimits& limits)
   view.sorted = 1;
   view.packed = 1;
 
+  switch (limits.layout) {
+    case FactorLayout::automatic:
+      c.supernodal = CHOLMOD_AUTO;
+      break;
+    case FactorLayout::simplicial:
+      c.supernodal = CHOLMOD_SIMPLICIAL;
+      break;
+    case FactorLayout::supernodal:
+      c.supernodal = CHOLMOD_SUPERNODAL;
+      break;
+  }
   auto start = std::chrono::steady_clock::now();
   cholmod_->factor = cholmod_analyze(&view, &c);
   figures_.analyse_seconds = seconds_since(start);
@@ -85,20 +97,38 @@ NormalSolver::NormalSolver(const LowerMatrix& lower, const SolverLimits& limits)
         "magnitude. " +
         last_cholmod_message);
   }
-  // Simplicial LDL' with sorted, packed columns: the layout of the selected inverse.
-  if (!cholmod_change_factor(CHOLMOD_REAL, 0, 0, 1, 1, cholmod_->factor, &c)) {
+  // A simplicial factor is taken as LDL' with sorted, packed columns, the
+  // layout of the column-by-column selected inverse; a supernodal one stays
+  // as CHOLMOD made it (L L', dense blocks).
+  if (!figures_.supernodal &&
+      !cholmod_change_factor(CHOLMOD_REAL, 0, 0, 1, 1, cholmod_->factor, &c)) {
     throw ComputationError("factor conversion failed: " + last_cholmod_message);
   }
   figures_.factor_seconds = seconds_since(start);
 
   const cholmod_factor* L = cholmod_->factor;
-  const int* Lp = static_cast<const int*>(L->p);
   const double* Lx = static_cast<const double*>(L->x);
   double d_min = INFINITY, d_max = 0.0;
-  for (int j = 0; j < n_; ++j) {
-    const double d = Lx[Lp[j]];
+  const auto take_pivot = [&](double d) {
     d_min = std::min(d_min, d);
     d_max = std::max(d_max, d);
+  };
+  if (figures_.supernodal) {
+    const int* super = static_cast<const int*>(L->super);
+    const int* pi = static_cast<const int*>(L->pi);
+    const int* px = static_cast<const int*>(L->px);
+    supernode_of_.resize(static_cast<std::size_t>(n_));
+    for (int s = 0; s < static_cast<int>(L->nsuper); ++s) {
+      const int rows = pi[s + 1] - pi[s];
+      for (int k = super[s]; k < super[s + 1]; ++k) {
+        supernode_of_[static_cast<std::size_t>(k)] = s;
+        const double l_kk = Lx[px[s] + (k - super[s]) * (rows + 1)];
+        take_pivot(l_kk * l_kk);
+      }
+    }
+  } else {
+    const int* Lp = static_cast<const int*>(L->p);
+    for (int j = 0; j < n_; ++j) take_pivot(Lx[Lp[j]]);
   }
   figures_.pivot_ratio = n_ > 0 ? d_min / d_max : 1.0;
   // A genuine datum defect leaves a pivot at rounding level (about 1e-16 of
@@ -147,8 +177,7 @@ Eigen::VectorXd NormalSolver::solve(const Eigen::VectorXd& rhs) {
 // pattern (the structure of column j is a clique of the filled graph), and
 // is found by scattering column j's rows into a position map and walking
 // column k once, so no searching is needed.
-void NormalSolver::compute_selected_inverse() {
-  const auto start = std::chrono::steady_clock::now();
+void NormalSolver::invert_simplicial() {
   const cholmod_factor* L = cholmod_->factor;
   const int* Lp = static_cast<const int*>(L->p);
   const int* Li = static_cast<const int*>(L->i);
@@ -185,6 +214,86 @@ void NormalSolver::compute_selected_inverse() {
     }
     Z[Lp[j]] = diagonal;
   }
+}
+
+// Supernodal selected inversion (Lin, Yang, Meza, Lu, Ying & E 2011, "SelInv:
+// an algorithm for selected inversion of a sparse symmetric matrix", ACM
+// TOMS 37(4), eq. 2.6-2.8), on CHOLMOD's supernodal N = L L'. For supernode
+// J with columns J and the rows R below its diagonal block,
+//   Y    = L_RJ L_JJ^-1,
+//   Z_RJ = -Z_RR Y,
+//   Z_JJ = L_JJ^-T L_JJ^-1 - Y' Z_RJ.
+// R is a clique of the filled graph, so every entry of Z_RR lies in the
+// blocks of later supernodes, already computed when supernodes are taken
+// from last to first. Z_RR is gathered into a dense matrix, group by group
+// of the rows of R that are columns of one supernode, with one merge of the
+// sorted row lists per group; the products are dense (level-3) kernels.
+void NormalSolver::invert_supernodal() {
+  using Matrix = Eigen::MatrixXd;
+  using ConstBlock = Eigen::Map<const Matrix>;
+  const cholmod_factor* L = cholmod_->factor;
+  const int* super = static_cast<const int*>(L->super);
+  const int* pi = static_cast<const int*>(L->pi);
+  const int* px = static_cast<const int*>(L->px);
+  const int* row_index = static_cast<const int*>(L->s);
+  const double* Lx = static_cast<const double*>(L->x);
+  inverse_.assign(L->xsize, 0.0);
+  double* Z = inverse_.data();
+
+  Matrix y, z_rr, z_rj, l_inverse;
+  std::vector<int> position_in_group;  // row of R -> row of the group's supernode block
+  for (int s = static_cast<int>(L->nsuper) - 1; s >= 0; --s) {
+    const int columns = super[s + 1] - super[s];
+    const int rows = pi[s + 1] - pi[s];
+    const int below = rows - columns;
+    const ConstBlock block(Lx + px[s], rows, columns);
+    const auto l_jj = block.topRows(columns).triangularView<Eigen::Lower>();
+    l_inverse.setIdentity(columns, columns);
+    l_jj.solveInPlace(l_inverse);
+    Eigen::Map<Matrix> z_block(Z + px[s], rows, columns);
+    if (below == 0) {
+      z_block.noalias() = l_inverse.transpose() * l_inverse;
+      continue;
+    }
+    y = block.bottomRows(below);
+    l_jj.solveInPlace<Eigen::OnTheRight>(y);
+    z_rr.resize(below, below);
+    const int* r = row_index + pi[s] + columns;
+    position_in_group.resize(static_cast<std::size_t>(below));
+    for (int a = 0; a < below;) {
+      const int t = supernode_of_[static_cast<std::size_t>(r[a])];
+      const int t_rows = pi[t + 1] - pi[t];
+      const int* t_row = row_index + pi[t];
+      // Rows of R from a on, found in supernode t's sorted row list.
+      int p = r[a] - super[t];
+      for (int q = a; q < below; ++q) {
+        while (p < t_rows && t_row[p] != r[q]) ++p;
+        if (p == t_rows)
+          throw std::logic_error("supernodal factor without the filled graph's cliques");
+        position_in_group[static_cast<std::size_t>(q)] = p;
+      }
+      const ConstBlock z_t(Z + px[t], t_rows, super[t + 1] - super[t]);
+      int b = a;
+      for (; b < below && r[b] < super[t + 1]; ++b) {
+        const int local_column = r[b] - super[t];
+        for (int q = b; q < below; ++q)
+          z_rr(q, b) = z_t(position_in_group[static_cast<std::size_t>(q)], local_column);
+      }
+      a = b;
+    }
+    z_rj.noalias() = -(z_rr.selfadjointView<Eigen::Lower>() * y);
+    z_block.bottomRows(below) = z_rj;
+    z_block.topRows(columns).noalias() = l_inverse.transpose() * l_inverse;
+    z_block.topRows(columns).noalias() -= y.transpose() * z_rj;
+  }
+}
+
+void NormalSolver::compute_selected_inverse() {
+  const auto start = std::chrono::steady_clock::now();
+  if (figures_.supernodal)
+    invert_supernodal();
+  else
+    invert_simplicial();
   figures_.inverse_seconds = seconds_since(start);
 }
 
@@ -192,6 +301,34 @@ double NormalSolver::inverse_entry(int i, int j) const {
   int a = position_[static_cast<std::size_t>(i)];
   int b = position_[static_cast<std::size_t>(j)];
   if (a > b) std::swap(a, b);
+  return figures_.supernodal ? supernodal_entry(a, b) : simplicial_entry(a, b);
+}
+
+// Z_ba (a <= b, permuted) from the block of a's supernode: row b is either
+// one of the supernode's own columns or in its sorted list of rows below.
+double NormalSolver::supernodal_entry(int a, int b) const {
+  const cholmod_factor* L = cholmod_->factor;
+  const int* super = static_cast<const int*>(L->super);
+  const int* pi = static_cast<const int*>(L->pi);
+  const int* px = static_cast<const int*>(L->px);
+  const int* row_index = static_cast<const int*>(L->s);
+  const int s = supernode_of_[static_cast<std::size_t>(a)];
+  const int rows = pi[s + 1] - pi[s];
+  const int columns = super[s + 1] - super[s];
+  int row = b - super[s];
+  if (row >= columns) {
+    const int* first = row_index + pi[s] + columns;
+    const int* last = row_index + pi[s + 1];
+    const int* found = std::lower_bound(first, last, b);
+    if (found == last || *found != b) {
+      throw std::logic_error("inverse_entry asked for an entry outside the factor's pattern");
+    }
+    row = static_cast<int>(found - (row_index + pi[s]));
+  }
+  return inverse_[static_cast<std::size_t>(px[s] + (a - super[s]) * rows + row)];
+}
+
+double NormalSolver::simplicial_entry(int a, int b) const {
   const cholmod_factor* L = cholmod_->factor;
   const int* Lp = static_cast<const int*>(L->p);
   const int* Li = static_cast<const int*>(L->i);
@@ -208,9 +345,7 @@ double NormalSolver::inverse_entry(int i, int j) const {
 
 Eigen::VectorXd NormalSolver::inverse_diagonal() const {
   Eigen::VectorXd d(n_);
-  const int* Lp = static_cast<const int*>(cholmod_->factor->p);
-  for (int i = 0; i < n_; ++i)
-    d[i] = inverse_[static_cast<std::size_t>(Lp[position_[static_cast<std::size_t>(i)]])];
+  for (int i = 0; i < n_; ++i) d[i] = inverse_entry(i, i);
   return d;
 }
 

@@ -17,10 +17,16 @@
 
 namespace levelhead::detail {
 
+// How the factor is laid out. CHOLMOD chooses by the work per nonzero
+// (supernodal where columns share enough structure, as in meshes; simplicial
+// for long lines of degree-2 points); tests and benchmarks force either.
+enum class FactorLayout { automatic, simplicial, supernodal };
+
 struct SolverLimits {
   // Refuse factors with more nonzeros than this (each costs about 20 bytes
   // with the selected inverse); 2e8 is about 4 GB.
   double max_factor_nonzeros = 2e8;
+  FactorLayout layout = FactorLayout::automatic;
 };
 
 struct SolverFigures {
@@ -28,7 +34,7 @@ struct SolverFigures {
   double factor_nonzeros = 0;
   double factor_flops = 0;
   bool supernodal = false;
-  double pivot_ratio = 0;  // min(D) / max(D) of the LDL' factor
+  double pivot_ratio = 0;  // min(D) / max(D) of N = L D L' (D_j = L_jj^2 of N = L L')
 };
 
 class NormalSolver {
@@ -42,8 +48,9 @@ class NormalSolver {
 
   Eigen::VectorXd solve(const Eigen::VectorXd& rhs);
 
-  // Computes N^-1 on the factor's pattern (Takahashi recurrences). Call once
-  // before inverse_entry / inverse_diagonal.
+  // Computes N^-1 on the factor's pattern: supernode by supernode with dense
+  // blocks on a supernodal factor, column by column on a simplicial one.
+  // Call once before inverse_entry / inverse_diagonal.
   void compute_selected_inverse();
   // (N^-1)_{ij} for unknowns i, j that are equal or share a nonzero of N.
   double inverse_entry(int i, int j) const;
@@ -56,8 +63,14 @@ class NormalSolver {
   std::unique_ptr<Cholmod> cholmod_;
   SolverFigures figures_;
   int n_ = 0;
-  std::vector<int> position_;    // unknown -> row of the permuted factor
-  std::vector<double> inverse_;  // N^-1 on the factor pattern, same layout as L->x
+  std::vector<int> position_;      // unknown -> row of the permuted factor
+  std::vector<int> supernode_of_;  // permuted column -> its supernode (supernodal only)
+  std::vector<double> inverse_;    // N^-1 on the factor pattern, same layout as L->x
+
+  void invert_simplicial();
+  void invert_supernodal();
+  double simplicial_entry(int a, int b) const;
+  double supernodal_entry(int a, int b) const;
 };
 
 }  // namespace levelhead::detail
