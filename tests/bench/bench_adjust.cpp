@@ -15,9 +15,16 @@
 //        bench_adjust --dense N  sparse vs dense ratio on a random network
 //        bench_adjust --solvers  Eigen SimplicialLDLT vs CHOLMOD factorisation
 //        bench_adjust --loops    loop finding on the same shapes
+//        bench_adjust --cli national|mesh N
+//                                `levelhead adjust` end to end (its CPU
+//                                and wall time, peak memory) against one
+//                                general-purpose sparse solve of the same
+//                                normal equations in this process
 
 #include <fmt/format.h>
+#include <spawn.h>
 #include <sys/resource.h>
+#include <sys/wait.h>
 
 #include <Eigen/Dense>
 #include <Eigen/SparseCholesky>
@@ -160,6 +167,79 @@ int run_solver_comparison() {
   return 0;
 }
 
+double cpu_seconds(const rusage& usage) {
+  return static_cast<double>(usage.ru_utime.tv_sec + usage.ru_stime.tv_sec) +
+         1e-6 * static_cast<double>(usage.ru_utime.tv_usec + usage.ru_stime.tv_usec);
+}
+
+double own_cpu_seconds() {
+  rusage usage{};
+  getrusage(RUSAGE_SELF, &usage);
+  return cpu_seconds(usage);
+}
+
+// `levelhead adjust` on the shape's tables as a child process, against the
+// general-purpose anchor: Eigen's SimplicialLDLT (AMD ordering) factorising
+// and solving the same normal equations in this process, no sigma. Both CPU
+// time (both cores counted) and wall time are given as ratios to it.
+int run_cli_against_anchor(const std::string& shape, std::size_t n) {
+  const std::filesystem::path folder =
+      std::filesystem::temp_directory_path() / fmt::format("levelhead-bench-cli-{}-{}", shape, n);
+  std::filesystem::create_directories(folder);
+  NormalEquations normal;
+  std::size_t n_points = 0;
+  {
+    testing::SyntheticNetwork synthetic = make_shape(shape, n);
+    write_csv(synthetic, folder);
+    n_points = synthetic.points.size();
+    normal = assemble(make_network(std::move(synthetic.points), std::move(synthetic.sections)));
+  }
+
+  const std::string points = (folder / "points.csv").string();
+  const std::string sections = (folder / "sections.csv").string();
+  const std::string out = (folder / "out").string();
+  std::vector<std::string> args = {
+      LEVELHEAD_CLI_PATH,      "adjust", "--points", points, "--sections", sections, "--out", out,
+      "--max-factor-nonzeros", "1e9",    "--quiet"};
+  std::vector<char*> argv;
+  for (std::string& a : args) argv.push_back(a.data());
+  argv.push_back(nullptr);
+  const auto start = Clock::now();
+  pid_t child = 0;
+  if (posix_spawn(&child, argv[0], nullptr, nullptr, argv.data(), environ) != 0) {
+    fmt::print(stderr, "cannot start {}\n", argv[0]);
+    return 1;
+  }
+  int status = 0;
+  rusage usage{};
+  wait4(child, &status, 0, &usage);
+  const double cli_wall = seconds_since(start);
+  const double cli_cpu = cpu_seconds(usage);
+  const double cli_peak_mb = static_cast<double>(usage.ru_maxrss) / 1024.0;
+  if (!WIFEXITED(status) || WEXITSTATUS(status) != 0) {
+    fmt::print(stderr, "levelhead adjust failed (status {})\n", status);
+    return 1;
+  }
+
+  const auto m = static_cast<int>(normal.rhs.size());
+  detail::NormalSolver::LowerMatrix N(m, m);
+  N.setFromTriplets(normal.lower.begin(), normal.lower.end());
+  N.makeCompressed();
+  normal.lower = {};
+  const double anchor_start = own_cpu_seconds();
+  Eigen::SimplicialLDLT<Eigen::SparseMatrix<double, Eigen::ColMajor, int>, Eigen::Lower,
+                        Eigen::AMDOrdering<int>>
+      anchor(N);
+  const Eigen::VectorXd x = anchor.solve(normal.rhs);
+  const double anchor_cpu = own_cpu_seconds() - anchor_start;
+  if (!std::getenv("LEVELHEAD_BENCH_KEEP")) std::filesystem::remove_all(folder);
+
+  fmt::print("{:<9}{:>9}{:>10.2f}{:>10.2f}{:>9.0f}{:>11.2f}{:>10.2f}{:>10.2f}   (x[0] {:.4f})\n",
+             shape, n_points, cli_cpu, cli_wall, cli_peak_mb, anchor_cpu, cli_cpu / anchor_cpu,
+             cli_wall / anchor_cpu, x[0]);
+  return 0;
+}
+
 // Loop finding (levelhead loops) against the adjustment of the same network,
 // in one process.
 int run_loop_timing() {
@@ -227,6 +307,11 @@ int main(int argc, char** argv) {
   if (argc == 3 && std::string(argv[1]) == "--dense") return run_dense_ratio(std::stoul(argv[2]));
   if (argc == 2 && std::string(argv[1]) == "--solvers") return run_solver_comparison();
   if (argc == 2 && std::string(argv[1]) == "--loops") return run_loop_timing();
+  if (argc == 4 && std::string(argv[1]) == "--cli") {
+    fmt::print("{:<9}{:>9}{:>10}{:>10}{:>9}{:>11}{:>10}{:>10}\n", "shape", "points", "CLI cpu",
+               "CLI wall", "peak MB", "anchor cpu", "cpu/anch", "wall/anch");
+    return run_cli_against_anchor(argv[2], std::stoul(argv[3]));
+  }
   const bool quick = argc == 2 && std::string(argv[1]) == "--quick";
 
   fmt::print("levelhead adjust benchmark (seconds; every height's sigma computed)\n");

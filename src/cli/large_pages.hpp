@@ -1,0 +1,16 @@
+#pragma once
+// Large inputs run with glibc's allocator asking the kernel for transparent
+// huge pages (the tunable glibc.malloc.hugetlb=1, glibc 2.35 and later).
+//
+// In:  the program's arguments, before anything else runs.
+// Out: returns when the process should go on as it is; otherwise the
+//      process is replaced by the same program with the tunable set, and
+//      that run restores the environment it was given before doing
+//      anything else. Set LEVELHEAD_LARGE_PAGES=0 to never restart.
+// Errors: none; if the restart cannot be made, the run goes on as it is.
+
+namespace levelhead::cli {
+
+void restart_with_large_pages_for_large_inputs(int argc, char** argv);
+
+}  // namespace levelhead::cli
