@@ -15,7 +15,12 @@ namespace {
 constexpr const char* tunables = "GLIBC_TUNABLES";
 // Holds the caller's GLIBC_TUNABLES across the restart ("-" when unset).
 constexpr const char* saved_tunables = "LEVELHEAD_TUNABLES_BEFORE_RESTART";
-constexpr const char* huge_pages = "glibc.malloc.hugetlb=1";
+// Huge pages, and freed memory kept for reuse rather than handed back and
+// faulted in again: blocks up to 32 MB (glibc's largest mmap threshold) come
+// from the heap, and the heap is not trimmed below 4 GB.
+constexpr const char* huge_pages =
+    "glibc.malloc.hugetlb=1:glibc.malloc.mmap_threshold=33554432:"
+    "glibc.malloc.trim_threshold=4294967296";
 
 // Below this much input the restart (one more start of the program and its
 // libraries, about 80 ms) costs about what huge pages save: measured with
@@ -52,9 +57,10 @@ std::uintmax_t input_bytes(int argc, char** argv) {
 // Huge pages matter for levelhead's large runs because it builds big arrays
 // (tables, normal matrix, factor, selected inverse) and each 4 kB page of
 // them costs a page fault on first touch. Measured on a 2-core virtual
-// machine, `adjust` of a 1e6-point national network: 8.4 s wall and 366 000
-// page faults became 4.5 s and 8 400. glibc reads the tunable only at
-// start-up, hence the restart.
+// machine, `adjust` of a 1e6-point national network: 8.2 s wall and 366 000
+// page faults became 5.0 s and 9 300 with huge pages, and 3.8 s and 6 300
+// with freed memory kept. glibc reads tunables only at start-up, hence the
+// restart.
 void restart_with_large_pages_for_large_inputs(int argc, char** argv) {
 #if defined(__linux__) && defined(__GLIBC__)
   if (const char* before = std::getenv(saved_tunables)) {  // the restarted run
