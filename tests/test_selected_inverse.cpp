@@ -8,6 +8,7 @@
 #include <cmath>
 #include <memory>
 #include <random>
+#include <thread>
 #include <vector>
 
 #include "adjust/normal_solver.hpp"
@@ -117,6 +118,9 @@ TEST_CASE("supernodal and simplicial selected inverses agree on a large mesh", "
   const auto simplicial = inverted(m, FactorLayout::simplicial);
   const auto automatic = inverted(m, FactorLayout::automatic);
   CHECK(automatic->figures().supernodal);  // a mesh has the fill that makes supernodes pay
+  // Large enough for the supernodes to be shared among the cores, when there are several.
+  CHECK(supernodal->figures().inverse_threads ==
+        std::min(8u, std::max(1u, std::thread::hardware_concurrency())));
   double scale = 0.0, worst = 0.0;
   for (const auto& [i, j] : m.pattern) scale = std::max(scale, simplicial->inverse_entry(i, i));
   for (const auto& [i, j] : m.pattern) {

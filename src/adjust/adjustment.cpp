@@ -403,6 +403,7 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
     result.timings.solve = figures.solve_seconds;
     result.timings.sigmas = figures.inverse_seconds;
     result.factor_nonzeros = figures.factor_nonzeros;
+    result.factor_flops = figures.factor_flops;
     result.supernodal = figures.supernodal;
   }
 

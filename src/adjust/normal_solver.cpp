@@ -7,6 +7,10 @@
 #include <algorithm>
 #include <chrono>
 #include <cmath>
+#include <condition_variable>
+#include <exception>
+#include <mutex>
+#include <thread>
 
 #include "levelhead/core/errors.hpp"
 
@@ -216,76 +220,174 @@ void NormalSolver::invert_simplicial() {
   }
 }
 
-// Supernodal selected inversion (Lin, Yang, Meza, Lu, Ying & E 2011, "SelInv:
-// an algorithm for selected inversion of a sparse symmetric matrix", ACM
-// TOMS 37(4), eq. 2.6-2.8), on CHOLMOD's supernodal N = L L'. For supernode
-// J with columns J and the rows R below its diagonal block,
+namespace {
+
+// CHOLMOD's supernodal factor as the selected inversion reads it, and the
+// blocks of Z = N^-1 it writes (same layout as the factor's values).
+struct SupernodalFactor {
+  const int* super;      // first column of each supernode; super[nsuper] = n
+  const int* pi;         // start of each supernode's row list in row_index
+  const int* px;         // start of each supernode's block in values
+  const int* row_index;  // sorted rows of each supernode: its columns, then those below
+  const double* values;  // column-major blocks, rows x columns each
+  const std::vector<int>& supernode_of;
+  double* inverse;
+};
+
+struct InversionWorkspace {
+  Eigen::MatrixXd y, z_rr, z_rj, l_inverse;
+  std::vector<int> position_in_group;  // row of R -> row of the group's supernode block
+};
+
+// One supernode of the supernodal selected inversion (Lin, Yang, Meza, Lu,
+// Ying & E 2011, "SelInv: an algorithm for selected inversion of a sparse
+// symmetric matrix", ACM TOMS 37(4), eq. 2.6-2.8), on N = L L'. For
+// supernode J with columns J and the rows R below its diagonal block,
 //   Y    = L_RJ L_JJ^-1,
 //   Z_RJ = -Z_RR Y,
 //   Z_JJ = L_JJ^-T L_JJ^-1 - Y' Z_RJ.
 // R is a clique of the filled graph, so every entry of Z_RR lies in the
-// blocks of later supernodes, already computed when supernodes are taken
-// from last to first. Z_RR is gathered into a dense matrix, group by group
-// of the rows of R that are columns of one supernode, with one merge of the
-// sorted row lists per group; the products are dense (level-3) kernels.
-void NormalSolver::invert_supernodal() {
+// blocks of J's ancestors in the supernodal elimination tree, which must be
+// done. Z_RR is gathered into a dense matrix, group by group of the rows of
+// R that are columns of one supernode, with one merge of the sorted row
+// lists per group; the products are dense (level-3) kernels.
+void invert_supernode(const SupernodalFactor& f, int s, InversionWorkspace& w) {
   using Matrix = Eigen::MatrixXd;
   using ConstBlock = Eigen::Map<const Matrix>;
-  const cholmod_factor* L = cholmod_->factor;
-  const int* super = static_cast<const int*>(L->super);
-  const int* pi = static_cast<const int*>(L->pi);
-  const int* px = static_cast<const int*>(L->px);
-  const int* row_index = static_cast<const int*>(L->s);
-  const double* Lx = static_cast<const double*>(L->x);
-  inverse_.assign(L->xsize, 0.0);
-  double* Z = inverse_.data();
-
-  Matrix y, z_rr, z_rj, l_inverse;
-  std::vector<int> position_in_group;  // row of R -> row of the group's supernode block
-  for (int s = static_cast<int>(L->nsuper) - 1; s >= 0; --s) {
-    const int columns = super[s + 1] - super[s];
-    const int rows = pi[s + 1] - pi[s];
-    const int below = rows - columns;
-    const ConstBlock block(Lx + px[s], rows, columns);
-    const auto l_jj = block.topRows(columns).triangularView<Eigen::Lower>();
-    l_inverse.setIdentity(columns, columns);
-    l_jj.solveInPlace(l_inverse);
-    Eigen::Map<Matrix> z_block(Z + px[s], rows, columns);
-    if (below == 0) {
-      z_block.noalias() = l_inverse.transpose() * l_inverse;
-      continue;
-    }
-    y = block.bottomRows(below);
-    l_jj.solveInPlace<Eigen::OnTheRight>(y);
-    z_rr.resize(below, below);
-    const int* r = row_index + pi[s] + columns;
-    position_in_group.resize(static_cast<std::size_t>(below));
-    for (int a = 0; a < below;) {
-      const int t = supernode_of_[static_cast<std::size_t>(r[a])];
-      const int t_rows = pi[t + 1] - pi[t];
-      const int* t_row = row_index + pi[t];
-      // Rows of R from a on, found in supernode t's sorted row list.
-      int p = r[a] - super[t];
-      for (int q = a; q < below; ++q) {
-        while (p < t_rows && t_row[p] != r[q]) ++p;
-        if (p == t_rows)
-          throw std::logic_error("supernodal factor without the filled graph's cliques");
-        position_in_group[static_cast<std::size_t>(q)] = p;
-      }
-      const ConstBlock z_t(Z + px[t], t_rows, super[t + 1] - super[t]);
-      int b = a;
-      for (; b < below && r[b] < super[t + 1]; ++b) {
-        const int local_column = r[b] - super[t];
-        for (int q = b; q < below; ++q)
-          z_rr(q, b) = z_t(position_in_group[static_cast<std::size_t>(q)], local_column);
-      }
-      a = b;
-    }
-    z_rj.noalias() = -(z_rr.selfadjointView<Eigen::Lower>() * y);
-    z_block.bottomRows(below) = z_rj;
-    z_block.topRows(columns).noalias() = l_inverse.transpose() * l_inverse;
-    z_block.topRows(columns).noalias() -= y.transpose() * z_rj;
+  const int columns = f.super[s + 1] - f.super[s];
+  const int rows = f.pi[s + 1] - f.pi[s];
+  const int below = rows - columns;
+  const ConstBlock block(f.values + f.px[s], rows, columns);
+  const auto l_jj = block.topRows(columns).triangularView<Eigen::Lower>();
+  w.l_inverse.setIdentity(columns, columns);
+  l_jj.solveInPlace(w.l_inverse);
+  Eigen::Map<Matrix> z_block(f.inverse + f.px[s], rows, columns);
+  if (below == 0) {
+    z_block.noalias() = w.l_inverse.transpose() * w.l_inverse;
+    return;
   }
+  w.y = block.bottomRows(below);
+  l_jj.solveInPlace<Eigen::OnTheRight>(w.y);
+  w.z_rr.resize(below, below);
+  const int* r = f.row_index + f.pi[s] + columns;
+  w.position_in_group.resize(static_cast<std::size_t>(below));
+  for (int a = 0; a < below;) {
+    const int t = f.supernode_of[static_cast<std::size_t>(r[a])];
+    const int t_rows = f.pi[t + 1] - f.pi[t];
+    const int* t_row = f.row_index + f.pi[t];
+    // Rows of R from a on, found in supernode t's sorted row list.
+    int p = r[a] - f.super[t];
+    for (int q = a; q < below; ++q) {
+      while (p < t_rows && t_row[p] != r[q]) ++p;
+      if (p == t_rows)
+        throw std::logic_error("supernodal factor without the filled graph's cliques");
+      w.position_in_group[static_cast<std::size_t>(q)] = p;
+    }
+    const ConstBlock z_t(f.inverse + f.px[t], t_rows, f.super[t + 1] - f.super[t]);
+    int b = a;
+    for (; b < below && r[b] < f.super[t + 1]; ++b) {
+      const int local_column = r[b] - f.super[t];
+      for (int q = b; q < below; ++q)
+        w.z_rr(q, b) = z_t(w.position_in_group[static_cast<std::size_t>(q)], local_column);
+    }
+    a = b;
+  }
+  w.z_rj.noalias() = -(w.z_rr.selfadjointView<Eigen::Lower>() * w.y);
+  z_block.bottomRows(below) = w.z_rj;
+  z_block.topRows(columns).noalias() = w.l_inverse.transpose() * w.l_inverse;
+  z_block.topRows(columns).noalias() -= w.y.transpose() * w.z_rj;
+}
+
+// Below this many factor entries the inversion takes milliseconds and
+// threads would cost more than they save.
+constexpr std::size_t parallel_inversion_entries = 200000;
+
+}  // namespace
+
+// Supernodes are inverted from the roots of the supernodal elimination tree
+// down: a supernode is ready once its parent is done, and ready supernodes
+// are independent, so the machine's cores take them from one shared list
+// (last in, first out: a core tends to stay in one subtree). Every block is
+// computed by the same operations whatever the order, so the result does not
+// depend on the number of threads.
+void NormalSolver::invert_supernodal() {
+  const cholmod_factor* L = cholmod_->factor;
+  inverse_.assign(L->xsize, 0.0);
+  const SupernodalFactor f{static_cast<const int*>(L->super),
+                           static_cast<const int*>(L->pi),
+                           static_cast<const int*>(L->px),
+                           static_cast<const int*>(L->s),
+                           static_cast<const double*>(L->x),
+                           supernode_of_,
+                           inverse_.data()};
+  const int n_super = static_cast<int>(L->nsuper);
+
+  // The supernodal elimination tree: a supernode's parent holds its first row below.
+  std::vector<int> child_start(static_cast<std::size_t>(n_super) + 1, 0), children;
+  std::vector<int> ready;
+  const auto parent = [&](int s) {
+    const int first_below = f.pi[s] + (f.super[s + 1] - f.super[s]);
+    return first_below < f.pi[s + 1]
+               ? supernode_of_[static_cast<std::size_t>(f.row_index[first_below])]
+               : -1;
+  };
+  for (int s = 0; s < n_super; ++s) {
+    const int p = parent(s);
+    if (p < 0)
+      ready.push_back(s);
+    else
+      ++child_start[static_cast<std::size_t>(p) + 1];
+  }
+  for (int s = 0; s < n_super; ++s) child_start[s + 1] += child_start[s];
+  children.resize(static_cast<std::size_t>(child_start[n_super]));
+  {
+    std::vector<int> next(child_start.begin(), child_start.end() - 1);
+    for (int s = 0; s < n_super; ++s) {
+      const int p = parent(s);
+      if (p >= 0) children[static_cast<std::size_t>(next[p]++)] = s;
+    }
+  }
+
+  std::mutex mutex;
+  std::condition_variable changed;
+  int done = 0;
+  std::exception_ptr failure;
+  const auto work = [&] {
+    InversionWorkspace workspace;
+    while (true) {
+      int s = -1;
+      {
+        std::unique_lock lock(mutex);
+        changed.wait(lock, [&] { return !ready.empty() || done == n_super || failure; });
+        if (ready.empty() || failure) return;
+        s = ready.back();
+        ready.pop_back();
+      }
+      try {
+        invert_supernode(f, s, workspace);
+      } catch (...) {
+        const std::lock_guard lock(mutex);
+        failure = std::current_exception();
+        changed.notify_all();
+        return;
+      }
+      {
+        const std::lock_guard lock(mutex);
+        ++done;
+        ready.insert(ready.end(), children.begin() + child_start[s],
+                     children.begin() + child_start[s + 1]);
+      }
+      changed.notify_all();
+    }
+  };
+  const unsigned cores = std::max(1u, std::thread::hardware_concurrency());
+  const unsigned threads = L->xsize < parallel_inversion_entries ? 1u : std::min(cores, 8u);
+  figures_.inverse_threads = threads;
+  std::vector<std::thread> helpers;
+  for (unsigned t = 1; t < threads; ++t) helpers.emplace_back(work);
+  work();
+  for (std::thread& helper : helpers) helper.join();
+  if (failure) std::rethrow_exception(failure);
 }
 
 void NormalSolver::compute_selected_inverse() {

@@ -34,7 +34,8 @@ struct SolverFigures {
   double factor_nonzeros = 0;
   double factor_flops = 0;
   bool supernodal = false;
-  double pivot_ratio = 0;  // min(D) / max(D) of N = L D L' (D_j = L_jj^2 of N = L L')
+  unsigned inverse_threads = 1;  // threads that shared the selected inverse
+  double pivot_ratio = 0;        // min(D) / max(D) of N = L D L' (D_j = L_jj^2 of N = L L')
 };
 
 class NormalSolver {

@@ -15,12 +15,6 @@ namespace {
 constexpr const char* tunables = "GLIBC_TUNABLES";
 // Holds the caller's GLIBC_TUNABLES across the restart ("-" when unset).
 constexpr const char* saved_tunables = "LEVELHEAD_TUNABLES_BEFORE_RESTART";
-// Huge pages, and freed memory kept for reuse rather than handed back and
-// faulted in again: blocks up to 32 MB (glibc's largest mmap threshold) come
-// from the heap, and the heap is not trimmed below 4 GB.
-constexpr const char* huge_pages =
-    "glibc.malloc.hugetlb=1:glibc.malloc.mmap_threshold=33554432:"
-    "glibc.malloc.trim_threshold=4294967296";
 
 // Below this much input the restart (one more start of the program and its
 // libraries, about 80 ms) costs about what huge pages save: measured with
@@ -82,7 +76,8 @@ void restart_with_large_pages_for_large_inputs(int argc, char** argv) {
 
   const std::string original = current ? current : "-";
   const std::string with_huge_pages =
-      current && *current ? std::string(current) + ":" + huge_pages : std::string(huge_pages);
+      current && *current ? std::string(current) + ":" + large_input_malloc_tunables
+                          : std::string(large_input_malloc_tunables);
   ::setenv(saved_tunables, original.c_str(), 1);
   ::setenv(tunables, with_huge_pages.c_str(), 1);
   ::execv("/proc/self/exe", argv);

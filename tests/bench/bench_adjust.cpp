@@ -36,6 +36,7 @@
 #include <string>
 
 #include "adjust/normal_solver.hpp"
+#include "cli/large_pages.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/levelling/adjustment.hpp"
 #include "levelhead/levelling/loops.hpp"
@@ -98,10 +99,11 @@ int run_case(const std::string& shape, std::size_t n) {
 
   const AdjustmentTimings& t = r.timings;
   fmt::print(
-      "{:<9}{:>9}{:>9}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>9.3g}{:>9.0f}"
-      "   sigma0 {:.3f}\n",
+      "{:<9}{:>9}{:>9}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>8.2f}{:>9.3g}{:>9.3g}"
+      "{:>5}{:>9.0f}   sigma0 {:.3f}\n",
       shape, n_points, n_sections, read_seconds, t.assembly, t.ordering, t.factorisation, t.solve,
-      t.sigmas, total, r.factor_nonzeros, peak_rss_mb(), r.sigma0.value_or(0.0));
+      t.sigmas, total, r.factor_nonzeros, r.factor_flops, r.supernodal ? "sn" : "simp",
+      peak_rss_mb(), r.sigma0.value_or(0.0));
   return 0;
 }
 
@@ -313,11 +315,13 @@ int main(int argc, char** argv) {
     return run_cli_against_anchor(argv[2], std::stoul(argv[3]));
   }
   const bool quick = argc == 2 && std::string(argv[1]) == "--quick";
+  // Each case runs with the allocator settings the CLI uses on large inputs.
+  ::setenv("GLIBC_TUNABLES", cli::large_input_malloc_tunables, 1);
 
   fmt::print("levelhead adjust benchmark (seconds; every height's sigma computed)\n");
-  fmt::print("{:<9}{:>9}{:>9}{:>8}{:>8}{:>8}{:>8}{:>8}{:>8}{:>8}{:>9}{:>9}\n", "shape", "points",
-             "sections", "read", "assem", "order", "factor", "solve", "sigmas", "total", "nnz(L)",
-             "peak MB");
+  fmt::print("{:<9}{:>9}{:>9}{:>8}{:>8}{:>8}{:>8}{:>8}{:>8}{:>8}{:>9}{:>9}{:>5}{:>9}\n", "shape",
+             "points", "sections", "read", "assem", "order", "factor", "solve", "sigmas", "total",
+             "nnz(L)", "flops", "L", "peak MB");
   std::vector<std::size_t> sizes = {10000, 100000};
   if (!quick) sizes.push_back(1000000);
   int status = 0;

@@ -182,6 +182,7 @@ struct AdjustmentResult {
   std::string precision;
   AdjustmentTimings timings;
   double factor_nonzeros = 0.0;
+  double factor_flops = 0.0;  // of the factorisation, as CHOLMOD's analysis counts them
   bool supernodal = false;
 };
 
