@@ -376,3 +376,22 @@ TEST_CASE("reading a long table in batches reports its progress", "[table][progr
   read_table_in_batches(path, {}, 10000, [](Table&) {});
   CHECK(recorded.reports.size() == 3);
 }
+
+TEST_CASE("a CSV with a cell that is not a number is never put in place",
+          "[table][outputs][safety]") {
+  for (const char* bad : {"nan", "-nan", "NaN", "inf", "-Inf", "+inf"}) {
+    testing::TempFolder folder;
+    {
+      OutputSet out(folder.path());
+      out.open("heights.csv") << "point,height\nBM1,101.2\nBM2," << bad << "\n";
+      CHECK_THROWS_AS(out.commit(), InternalCheckError);
+    }
+    CHECK_FALSE(std::filesystem::exists(folder.path() / "heights.csv"));
+  }
+  // Text that only begins like one, and quoted text, is written.
+  testing::TempFolder folder;
+  OutputSet out(folder.path());
+  out.open("notes.csv") << "point,note\nBM1,info\nBM2,nano\nBM3,\"nan\"\nBM4,nan1\n";
+  CHECK_NOTHROW(out.commit());
+  CHECK(std::filesystem::exists(folder.path() / "notes.csv"));
+}

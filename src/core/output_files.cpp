@@ -60,12 +60,13 @@ std::optional<std::string> find_non_finite_cell(const std::filesystem::path& fil
   std::size_t row = 1, column = 0;
   const auto end_cell = [&]() -> std::optional<std::string> {
     if (row == 1) header.push_back(cell);
-    std::string lower = cell;
-    for (char& c : lower) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
     std::optional<std::string> found;
-    if (row > 1 && !too_long &&
-        (lower == "nan" || lower == "-nan" || lower == "+nan" || lower == "inf" ||
-         lower == "-inf" || lower == "+inf")) {
+    // "nan", "inf" and their signed forms are 3 or 4 characters long.
+    const bool may_be_non_finite = row > 1 && !too_long && cell.size() >= 3 && cell.size() <= 4;
+    std::string lower = may_be_non_finite ? cell : std::string();
+    for (char& c : lower) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
+    if (may_be_non_finite && (lower == "nan" || lower == "-nan" || lower == "+nan" ||
+                              lower == "inf" || lower == "-inf" || lower == "+inf")) {
       found =
           fmt::format("row {}, column '{}' ('{}')", row,
                       column < header.size() ? header[column] : std::to_string(column + 1), cell);
