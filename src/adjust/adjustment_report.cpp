@@ -15,11 +15,7 @@ namespace {
 
 // Resolution of the tables: heights and differences to 0.01 mm, which is
 // finer than any levelling measures, so rounding never adds error that matters.
-std::string metres(double value) { return fmt::format("{:.5f}", value); }
-std::string metres(const std::optional<double>& value) { return value ? metres(*value) : ""; }
-std::string ratio(const std::optional<double>& value, int decimals) {
-  return value ? fmt::format("{:.{}f}", *value, decimals) : "";
-}
+constexpr int metre_decimals = 5;
 
 nlohmann::json optional_number(const std::optional<double>& value) {
   return value ? nlohmann::json(*value) : nlohmann::json(nullptr);
@@ -94,33 +90,57 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
                               const std::filesystem::path& folder) {
   OutputSet out(folder);
 
-  std::ostream& heights = out.open("heights.csv");
-  heights << "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
-             "reference,kind,checked\n";
+  CsvRows heights(out.open("heights.csv"));
+  heights.line(
+      "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
+      "reference,kind,checked");
   for (const AdjustedPoint& a : result.points) {
     const Point& p = net.points[a.point];
-    heights << csv_cell(p.id) << ',' << metres(a.height) << ',' << metres(a.sigma) << ','
-            << metres(a.sigma_apriori) << ',' << to_string(a.control) << ',' << metres(p.height)
-            << ',' << metres(a.control_residual) << ',' << ratio(a.control_w, 3) << ','
-            << csv_cell(result.reference) << ',' << csv_cell(p.kind) << ','
-            << (a.checked ? "yes" : "no") << '\n';
+    heights.text(p.id)
+        .fixed(a.height, metre_decimals)
+        .fixed(a.sigma, metre_decimals)
+        .fixed(a.sigma_apriori, metre_decimals)
+        .text(to_string(a.control))
+        .fixed(p.height, metre_decimals)
+        .fixed(a.control_residual, metre_decimals)
+        .fixed(a.control_w, 3)
+        .text(result.reference)
+        .text(p.kind)
+        .text(a.checked ? "yes" : "no")
+        .end_row();
   }
+  heights.finish();
 
-  std::ostream& residuals = out.open("residuals.csv");
-  residuals << "from,to,dh,residual,w,tau,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,"
-               "run,date,suspect,removed_step\n";
+  CsvRows residuals(out.open("residuals.csv"));
+  residuals.line(
+      "from,to,dh,residual,w,tau,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,"
+      "run,date,suspect,removed_step");
   for (const AdjustedSection& a : result.sections) {
     const Section& s = net.sections[a.section];
     const auto statistic = a.statistic();
     const bool suspect = statistic && std::abs(*statistic) > result.test.critical;
-    residuals << csv_cell(s.from) << ',' << csv_cell(s.to) << ',' << metres(s.dh) << ','
-              << metres(a.residual) << ',' << ratio(a.w, 3) << ',' << ratio(a.tau, 3) << ','
-              << metres(a.adjusted_dh) << ',' << metres(a.sigma) << ',' << to_string(a.rule) << ','
-              << fmt::format("{:.4f}", a.redundancy) << ',' << metres(a.mdb) << ','
-              << (s.length ? fmt::format("{:.3f}", *s.length) : "") << ',' << csv_cell(s.run) << ','
-              << csv_cell(s.date) << ',' << (suspect ? "yes" : "") << ','
-              << (a.removal_step ? std::to_string(*a.removal_step) : "") << '\n';
+    residuals.text(s.from)
+        .text(s.to)
+        .fixed(s.dh, metre_decimals)
+        .fixed(a.residual, metre_decimals)
+        .fixed(a.w, 3)
+        .fixed(a.tau, 3)
+        .fixed(a.adjusted_dh, metre_decimals)
+        .fixed(a.sigma, metre_decimals)
+        .text(to_string(a.rule))
+        .fixed(a.redundancy, 4)
+        .fixed(a.mdb, metre_decimals)
+        .fixed(s.length, 3)
+        .text(s.run)
+        .text(s.date)
+        .text(suspect ? "yes" : "");
+    if (a.removal_step)
+      residuals.integer(static_cast<long long>(*a.removal_step));
+    else
+      residuals.empty();
+    residuals.end_row();
   }
+  residuals.finish();
 
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();

@@ -75,9 +75,9 @@ void restart_with_large_pages_for_large_inputs(int argc, char** argv) {
   if (input_bytes(argc, argv) < large_input_bytes) return;
 
   const std::string original = current ? current : "-";
-  const std::string with_huge_pages =
-      current && *current ? std::string(current) + ":" + large_input_malloc_tunables
-                          : std::string(large_input_malloc_tunables);
+  const std::string with_huge_pages = current && *current
+                                          ? std::string(current) + ":" + large_input_malloc_tunables
+                                          : std::string(large_input_malloc_tunables);
   ::setenv(saved_tunables, original.c_str(), 1);
   ::setenv(tunables, with_huge_pages.c_str(), 1);
   ::execv("/proc/self/exe", argv);

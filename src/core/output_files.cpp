@@ -7,6 +7,7 @@
 
 #include <algorithm>
 #include <cctype>
+#include <iterator>
 #include <optional>
 
 #include "levelhead/core/errors.hpp"
@@ -280,6 +281,68 @@ std::string csv_cell(const std::string& text) {
   std::string out;
   append_csv_cell(out, text);
   return out;
+}
+
+namespace {
+constexpr std::size_t csv_block_bytes = 1 << 20;
+}
+
+CsvRows::CsvRows(std::ostream& out) : out_(out) { buffer_.reserve(csv_block_bytes + 4096); }
+
+CsvRows::~CsvRows() { finish(); }
+
+void CsvRows::separate() {
+  if (row_started_) buffer_.push_back(',');
+  row_started_ = true;
+}
+
+CsvRows& CsvRows::line(std::string_view text) {
+  buffer_.append(text);
+  buffer_.push_back('\n');
+  return *this;
+}
+
+CsvRows& CsvRows::text(std::string_view text) {
+  separate();
+  append_csv_cell(buffer_, text);
+  return *this;
+}
+
+CsvRows& CsvRows::fixed(double value, int decimals) {
+  separate();
+  fmt::format_to(std::back_inserter(buffer_), "{:.{}f}", value, decimals);
+  return *this;
+}
+
+CsvRows& CsvRows::fixed(const std::optional<double>& value, int decimals) {
+  if (!value) return empty();
+  return fixed(*value, decimals);
+}
+
+CsvRows& CsvRows::integer(long long value) {
+  separate();
+  fmt::format_to(std::back_inserter(buffer_), "{}", value);
+  return *this;
+}
+
+CsvRows& CsvRows::empty() {
+  separate();
+  return *this;
+}
+
+void CsvRows::end_row() {
+  buffer_.push_back('\n');
+  row_started_ = false;
+  if (buffer_.size() >= csv_block_bytes) {
+    out_.write(buffer_.data(), static_cast<std::streamsize>(buffer_.size()));
+    buffer_.clear();
+  }
+}
+
+void CsvRows::finish() {
+  if (buffer_.empty()) return;
+  out_.write(buffer_.data(), static_cast<std::streamsize>(buffer_.size()));
+  buffer_.clear();
 }
 
 void write_rejects(std::ostream& out, const std::vector<RejectedRecord>& rejects) {

@@ -14,6 +14,7 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <optional>
 #include <string>
 #include <string_view>
 #include <vector>
@@ -55,5 +56,33 @@ class OutputSet {
 std::string csv_cell(const std::string& text);
 // The same, appended to `out` (no allocation for plain cells).
 void append_csv_cell(std::string& out, std::string_view text);
+
+// A CSV table written cell by cell into one buffer that goes to the stream
+// in blocks of about 1 MB: numbers are formatted straight into the buffer,
+// no string is made per cell. Cells are separated by commas; end_row ends a
+// line. The last block is written by finish() or the destructor; the
+// stream's state is checked by OutputSet::commit as for any stream.
+class CsvRows {
+ public:
+  explicit CsvRows(std::ostream& out);
+  ~CsvRows();
+  CsvRows(const CsvRows&) = delete;
+  CsvRows& operator=(const CsvRows&) = delete;
+
+  CsvRows& line(std::string_view text);  // a whole line as it is (the header)
+  CsvRows& text(std::string_view text);  // quoted when needed (csv_cell)
+  CsvRows& fixed(double value, int decimals);
+  CsvRows& fixed(const std::optional<double>& value, int decimals);  // empty when unset
+  CsvRows& integer(long long value);
+  CsvRows& empty();
+  void end_row();
+  void finish();
+
+ private:
+  void separate();
+  std::ostream& out_;
+  std::string buffer_;
+  bool row_started_ = false;
+};
 
 }  // namespace levelhead
