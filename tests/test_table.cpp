@@ -8,7 +8,9 @@
 #include <filesystem>
 #include <fstream>
 #include <iostream>
+#include <limits>
 #include <map>
+#include <random>
 #include <sstream>
 
 #include "levelhead/core/output_columns.hpp"
@@ -394,4 +396,64 @@ TEST_CASE("a CSV with a cell that is not a number is never put in place",
   out.open("notes.csv") << "point,note\nBM1,info\nBM2,nano\nBM3,\"nan\"\nBM4,nan1\n";
   CHECK_NOTHROW(out.commit());
   CHECK(std::filesystem::exists(folder.path() / "notes.csv"));
+}
+
+TEST_CASE("fixed notation is written as fmt writes it", "[table][outputs][numbers]") {
+  const auto fixed = [](double value, int decimals) {
+    std::string out;
+    append_fixed(out, value, decimals);
+    return out;
+  };
+  const auto reference = [](double value, int decimals) {
+    return fmt::format("{:.{}f}", value, decimals);
+  };
+  // Exact binary ties (printf rounds them to even), values that only look
+  // like ties, negative values that round to zero, and the special values.
+  for (const double value : {0.0,
+                             -0.0,
+                             0.125,
+                             0.375,
+                             2.5,
+                             3.5,
+                             -2.5,
+                             1.0005,
+                             2.675,
+                             1e-6,
+                             -1e-6,
+                             -0.000004,
+                             0.000005,
+                             123456.789012345,
+                             -98765.4321,
+                             4503599627370495.0,
+                             1e17,
+                             9.999995,
+                             99.9999949999,
+                             std::numeric_limits<double>::infinity(),
+                             -std::numeric_limits<double>::infinity(),
+                             std::numeric_limits<double>::quiet_NaN(),
+                             std::numeric_limits<double>::denorm_min()}) {
+    for (int decimals : {0, 1, 2, 3, 5, 9, 15}) {
+      INFO(value << " with " << decimals);
+      CHECK(fixed(value, decimals) == reference(value, decimals));
+    }
+  }
+  // Random heights, differences and sigmas in the ranges of survey tables.
+  std::mt19937_64 rng(11);
+  std::uniform_real_distribution<double> heights(-500.0, 9000.0), small(-0.05, 0.05);
+  std::uniform_int_distribution<int> decimals(0, 8);
+  int differing = 0;
+  for (int i = 0; i < 200000; ++i) {
+    const double value = i % 2 ? heights(rng) : small(rng);
+    const int d = decimals(rng);
+    differing += fixed(value, d) != reference(value, d);
+  }
+  CHECK(differing == 0);
+  // Near-ties made on purpose: k + 0.5 ulp-scale neighbours at 5 decimals.
+  for (long k = 0; k < 20000; ++k) {
+    const double tie = (static_cast<double>(k) + 0.5) / 1e5;
+    for (double value : {std::nextafter(tie, 0.0), tie, std::nextafter(tie, 1.0)}) {
+      INFO(value);
+      CHECK(fixed(value, 5) == reference(value, 5));
+    }
+  }
 }

@@ -7,6 +7,9 @@
 
 #include <algorithm>
 #include <cctype>
+#include <charconv>
+#include <cmath>
+#include <cstdint>
 #include <iterator>
 #include <optional>
 
@@ -285,6 +288,61 @@ std::string csv_cell(const std::string& text) {
 
 namespace {
 constexpr std::size_t csv_block_bytes = 1 << 20;
+
+constexpr double powers_of_ten[] = {1e0, 1e1, 1e2,  1e3,  1e4,  1e5,  1e6,  1e7,
+                                    1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15};
+constexpr std::uint64_t integer_powers_of_ten[] = {1,
+                                                   10,
+                                                   100,
+                                                   1000,
+                                                   10000,
+                                                   100000,
+                                                   1000000,
+                                                   10000000,
+                                                   100000000,
+                                                   1000000000,
+                                                   10000000000,
+                                                   100000000000,
+                                                   1000000000000,
+                                                   10000000000000,
+                                                   100000000000000,
+                                                   1000000000000000};
+}  // namespace
+
+// Fixed notation by scaling (common practice in fast number formatting):
+// y = |value| 10^d is computed with one rounding, an error of at most half
+// an ulp of y (10^d is exact for d <= 15). When y < 2^52 and its fraction
+// lies farther than two ulps from one half, rounding y to the nearest integer
+// gives the same integer as rounding the exact product, which is what a
+// correctly rounded formatter writes. Anything else (near-ties, huge values,
+// NaN, infinities) goes to fmt, whose output this reproduces.
+void append_fixed(std::string& out, double value, int decimals) {
+  if (decimals < 0 || decimals > 15 || !std::isfinite(value)) {
+    fmt::format_to(std::back_inserter(out), "{:.{}f}", value, decimals);
+    return;
+  }
+  const double magnitude = std::abs(value);
+  const double y = magnitude * powers_of_ten[decimals];
+  constexpr double two_to_52 = 4503599627370496.0;
+  const double whole = std::floor(y);
+  const double fraction = y - whole;
+  const double ulp = std::nextafter(y, INFINITY) - y;
+  if (!(y < two_to_52) || std::abs(fraction - 0.5) <= 2.0 * ulp) {
+    fmt::format_to(std::back_inserter(out), "{:.{}f}", value, decimals);
+    return;
+  }
+  const auto scaled = static_cast<std::uint64_t>(whole) + (fraction > 0.5 ? 1u : 0u);
+  if (std::signbit(value)) out.push_back('-');
+  const std::uint64_t unit = integer_powers_of_ten[decimals];
+  char digits[24];
+  auto written = std::to_chars(digits, digits + sizeof digits, scaled / unit);
+  out.append(digits, written.ptr);
+  if (decimals == 0) return;
+  out.push_back('.');
+  written = std::to_chars(digits, digits + sizeof digits, scaled % unit);
+  const auto length = static_cast<int>(written.ptr - digits);
+  out.append(static_cast<std::size_t>(decimals - length), '0');
+  out.append(digits, written.ptr);
 }
 
 CsvRows::CsvRows(std::ostream& out) : out_(out) { buffer_.reserve(csv_block_bytes + 4096); }
@@ -310,7 +368,7 @@ CsvRows& CsvRows::text(std::string_view text) {
 
 CsvRows& CsvRows::fixed(double value, int decimals) {
   separate();
-  fmt::format_to(std::back_inserter(buffer_), "{:.{}f}", value, decimals);
+  append_fixed(buffer_, value, decimals);
   return *this;
 }
 

@@ -57,6 +57,12 @@ std::string csv_cell(const std::string& text);
 // The same, appended to `out` (no allocation for plain cells).
 void append_csv_cell(std::string& out, std::string_view text);
 
+// `value` in fixed notation with `decimals` (0-15) digits after the point,
+// appended to `out`: the same text as fmt's "{:.Nf}" and printf's "%.Nf"
+// (correctly rounded, "-0.00" for a small negative value), made without
+// the general algorithm for the usual table values.
+void append_fixed(std::string& out, double value, int decimals);
+
 // A CSV table written cell by cell into one buffer that goes to the stream
 // in blocks of about 1 MB: numbers are formatted straight into the buffer,
 // no string is made per cell. Cells are separated by commas; end_row ends a
