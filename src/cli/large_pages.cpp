@@ -50,11 +50,12 @@ std::uintmax_t input_bytes(int argc, char** argv) {
 
 // Huge pages matter for levelhead's large runs because it builds big arrays
 // (tables, normal matrix, factor, selected inverse) and each 4 kB page of
-// them costs a page fault on first touch. Measured on a 2-core virtual
-// machine, `adjust` of a 1e6-point national network: 8.2 s wall and 366 000
-// page faults became 5.0 s and 9 300 with huge pages, and 3.8 s and 6 300
-// with freed memory kept. glibc reads tunables only at start-up, hence the
-// restart.
+// them costs a page fault on first touch, and its clearing. Measured on a
+// 2-core virtual machine, `adjust` of a 1e6-point national network: 8.2 s
+// wall and 366 000 page faults became 5.0 s and 9 300 with huge pages, and
+// 3.8 s and 6 300 with freed memory kept; taking every block from the heap
+// then gave 2.22 s against 2.36 s (least of four runs each) and 3 000 faults.
+// glibc reads tunables only at start-up, hence the restart.
 void restart_with_large_pages_for_large_inputs(int argc, char** argv) {
 #if defined(__linux__) && defined(__GLIBC__)
   if (const char* before = std::getenv(saved_tunables)) {  // the restarted run

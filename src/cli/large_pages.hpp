@@ -12,12 +12,11 @@
 namespace levelhead::cli {
 
 // The glibc tunables the restart sets: huge pages, and freed memory kept for
-// reuse rather than handed back and faulted in again (blocks up to 32 MB,
-// glibc's largest mmap threshold, come from the heap, and the heap is not
-// trimmed below 4 GB). Benchmarks set the same for their child runs.
+// reuse rather than handed back and faulted in again (every block comes
+// from the heap, none from its own mapping, and the heap is not trimmed
+// below 4 GB). Benchmarks set the same for their child runs.
 inline constexpr const char* large_input_malloc_tunables =
-    "glibc.malloc.hugetlb=1:glibc.malloc.mmap_threshold=33554432:"
-    "glibc.malloc.trim_threshold=4294967296";
+    "glibc.malloc.hugetlb=1:glibc.malloc.mmap_max=0:glibc.malloc.trim_threshold=4294967296";
 
 void restart_with_large_pages_for_large_inputs(int argc, char** argv);
 
