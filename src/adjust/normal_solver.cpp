@@ -1,6 +1,7 @@
 #include "adjust/normal_solver.hpp"
 
 #include <cholmod.h>
+#include <dlfcn.h>
 #include <fmt/format.h>
 
 #include <Eigen/Dense>
@@ -20,6 +21,23 @@ namespace {
 
 double seconds_since(std::chrono::steady_clock::time_point start) {
   return std::chrono::duration<double>(std::chrono::steady_clock::now() - start).count();
+}
+
+// OpenBLAS, Debian's usual BLAS behind CHOLMOD, keeps its threads spinning
+// for a while after every threaded call. On factorisations of a few
+// billion flops a second thread saves little time and the spinning doubles
+// the CPU spent (bench_epochs at 1e4 points: 0.62 against 0.34 CPU s); on the
+// largest it saves 5-25 % of the factorisation (bench_adjust, 1e6-point
+// mesh, 2.26e10 flops). So BLAS gets the cores only above this many flops.
+constexpr double threaded_factor_flops = 1e10;
+
+// Sets OpenBLAS's thread count when OpenBLAS is the BLAS in use (found by
+// name at run time; with another BLAS nothing is done).
+void set_blas_threads(int threads) {
+  using Setter = void (*)(int);
+  static const auto setter =
+      reinterpret_cast<Setter>(::dlsym(RTLD_DEFAULT, "openblas_set_num_threads"));
+  if (setter) setter(threads);
 }
 
 // CHOLMOD reports through a global callback; keep the last message to report
@@ -92,6 +110,9 @@ NormalSolver::NormalSolver(const LowerMatrix& lower, const SolverLimits& limits)
   }
 
   start = std::chrono::steady_clock::now();
+  set_blas_threads(c.fl >= threaded_factor_flops
+                       ? static_cast<int>(std::max(1u, std::thread::hardware_concurrency()))
+                       : 1);
   const int ok = cholmod_factorize(&view, cholmod_->factor, &c);
   figures_.supernodal = cholmod_->factor->is_super != 0;
   if (!ok || c.status == CHOLMOD_NOT_POSDEF) {
