@@ -12,6 +12,7 @@
 #include <unordered_map>
 
 #include "adjust/normal_solver.hpp"
+#include "epochs/epoch_block_solver.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/time.hpp"
 #include "levelhead/levelling/statistics.hpp"
@@ -87,8 +88,8 @@ struct JointSolution {
   double vtpv = 0.0;
   std::vector<std::vector<long>> unknown;  // [epoch][point]: index, -1 held, -2 not observed
   Eigen::VectorXd x;
-  // Factor of the normal matrix with its selected inverse; only when asked for.
-  std::unique_ptr<detail::NormalSolver> solver;
+  // Cofactors of the unknowns; only when asked for.
+  std::unique_ptr<detail::EpochBlockSolver> cofactors;
   double held_height = 0.0;
 
   double height(std::size_t epoch, std::size_t point) const {
@@ -98,7 +99,7 @@ struct JointSolution {
   // Cofactor of the heights of one point in two epochs (or the same epoch).
   double cofactor(std::size_t e1, std::size_t e2, std::size_t point) const {
     const long a = unknown[e1][point], b = unknown[e2][point];
-    return a < 0 || b < 0 ? 0.0 : solver->inverse_entry(static_cast<int>(a), static_cast<int>(b));
+    return a < 0 || b < 0 ? 0.0 : cofactors->cofactor(static_cast<int>(a), static_cast<int>(b));
   }
 };
 
@@ -107,10 +108,8 @@ struct JointSolution {
 // (Koch, "Parameter Estimation and Hypothesis Testing in Linear Models",
 // ch. 3). The normal matrix is sparse and factorised by CHOLMOD; every epoch
 // must observe a shared point, so the only datum defect is the one the held
-// point removes. With cofactors, the unknowns of one point in different
-// epochs are joined by explicit zeros in the normal matrix, so that their
-// covariances lie on the factor's pattern and the Takahashi selected inverse
-// holds them (Takahashi, Fagan and Chin 1973) without a dense inverse.
+// point removes. The unknowns are numbered shared marks first, then each
+// epoch's own points together, the order EpochBlockSolver needs.
 JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::size_t held,
                           double held_height, bool with_cofactors, double max_factor_nonzeros) {
   JointSolution s;
@@ -121,12 +120,16 @@ JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::
   for (std::size_t p = 0; p < m.ids.size(); ++p) {
     if (shared[p]) shared_unknown[p] = p == held ? -1 : next++;
   }
+  const auto n_shared = static_cast<int>(next);
+  std::vector<int> epoch_begin;
   for (std::size_t k = 0; k < m.epochs; ++k) {
+    epoch_begin.push_back(static_cast<int>(next));
     for (std::size_t p = 0; p < m.ids.size(); ++p) {
       if (!m.observed[k][p]) continue;
       s.unknown[k][p] = shared[p] ? shared_unknown[p] : next++;
     }
   }
+  epoch_begin.push_back(static_cast<int>(next));
   const auto u = static_cast<int>(next);
   std::vector<Eigen::Triplet<double, int>> triplets;
   triplets.reserve(3 * m.observations.size());
@@ -146,28 +149,18 @@ JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::
     }
     if (t >= 0 && f >= 0) triplets.emplace_back(std::max(t, f), std::min(t, f), -o.weight);
   }
-  if (with_cofactors) {
-    for (std::size_t p = 0; p < m.ids.size(); ++p) {
-      if (shared[p]) continue;
-      for (std::size_t a = 0; a < m.epochs; ++a) {
-        for (std::size_t b = a + 1; b < m.epochs; ++b) {
-          const long ua = s.unknown[a][p], ub = s.unknown[b][p];
-          if (ua >= 0 && ub >= 0) triplets.emplace_back(std::max(ua, ub), std::min(ua, ub), 0.0);
-        }
-      }
-    }
-  }
   detail::NormalSolver::LowerMatrix normal(u, u);
   normal.setFromTriplets(triplets.begin(), triplets.end());
   normal.makeCompressed();
   triplets = {};
   try {
-    auto solver =
-        std::make_unique<detail::NormalSolver>(normal, detail::SolverLimits{max_factor_nonzeros});
-    s.x = solver->solve(rhs);
+    const detail::SolverLimits limits{max_factor_nonzeros};
     if (with_cofactors) {
-      solver->compute_selected_inverse();
-      s.solver = std::move(solver);
+      s.cofactors = std::make_unique<detail::EpochBlockSolver>(normal, n_shared,
+                                                               std::move(epoch_begin), limits);
+      s.x = s.cofactors->solve(rhs);
+    } else {
+      s.x = detail::NormalSolver(normal, limits).solve(rhs);
     }
   } catch (const ComputationError& e) {
     throw ComputationError(fmt::format(
