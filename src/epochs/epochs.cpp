@@ -108,8 +108,9 @@ struct JointSolution {
 // (Koch, "Parameter Estimation and Hypothesis Testing in Linear Models",
 // ch. 3). The normal matrix is sparse and factorised by CHOLMOD; every epoch
 // must observe a shared point, so the only datum defect is the one the held
-// point removes. The unknowns are numbered shared marks first, then each
-// epoch's own points together, the order EpochBlockSolver needs.
+// point removes. With cofactors it is solved epoch by epoch through the
+// shared marks (EpochBlockSolver), for which the unknowns are numbered
+// shared marks first, then each epoch's own points together.
 JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::size_t held,
                           double held_height, bool with_cofactors, double max_factor_nonzeros) {
   JointSolution s;

@@ -2,10 +2,13 @@
 //   national: a grid of junctions joined by long lines of benchmarks (most
 //             points of degree 2), the shape of regional levelling networks;
 //   mesh:     a dense 2D monitoring grid, the worst case for fill.
-// Each case runs in its own process (so peak memory is its own) and prints
-// the time of every stage: writing is not timed; reading the two CSV tables,
-// assembly, ordering (symbolic analysis), factorisation, solve, sigmas
-// (selected inverse + residual statistics), and the peak resident memory.
+// Each case runs in its own process (so peak memory is its own), with the
+// allocator settings the CLI uses on large inputs, and prints the time of
+// every stage: writing is not timed; reading the two CSV tables, assembly,
+// ordering (symbolic analysis), factorisation, solve, sigmas (selected
+// inverse + residual statistics), nnz(L), the factorisation's flops, the
+// factor's layout (sn: supernodal, simp: simplicial) and the peak resident
+// memory.
 // A dense solution of a small network is timed in the same process as the
 // sparse one and reported as a ratio, since machines are noisy.
 //
@@ -142,8 +145,8 @@ NormalEquations assemble(const Network& net) {
 }
 
 // Factorisation alone, same matrix, same process: Eigen's SimplicialLDLT with
-// AMD against CHOLMOD as the adjustment uses it (analysis, factorisation and
-// conversion to the simplicial LDL' that the selected inverse needs).
+// AMD against CHOLMOD as the adjustment uses it (analysis and factorisation,
+// supernodal or simplicial as CHOLMOD chooses).
 int run_solver_comparison() {
   fmt::print("{:<9}{:>9}{:>14}{:>14}{:>10}\n", "shape", "points", "Eigen LDLT s", "CHOLMOD s",
              "ratio");
