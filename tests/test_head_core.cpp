@@ -388,6 +388,17 @@ TEST_CASE("heads.gpkg is typed as a GIS expects, with NULLs and the layer's meta
   CHECK((y == 2020 && mo == 3 && d == 1 && h == 14 && mi == 0 && tz == 100));  // 08:00-06:00
   CHECK(OGR_F_IsFieldNull(second, index("head")));
   CHECK(std::string(OGR_F_GetFieldAsString(second, index("state"))) == "dry");
+  // Both readings at the well's position (one point object is reused for all).
+  for (OGRFeatureH f : {first, second}) {
+    OGRGeometryH point = OGR_F_GetGeometryRef(f);
+    REQUIRE(point);
+    CHECK(OGR_G_GetX(point, 0) == Approx(500000.0).margin(1e-6));
+    CHECK(OGR_G_GetY(point, 0) == Approx(4400000.0).margin(1e-6));
+  }
+  // Each reading gets its own row id, and the second's unset fields stay NULL
+  // although the first filled them.
+  CHECK(OGR_F_GetFID(first) != OGR_F_GetFID(second));
+  CHECK(OGR_F_IsFieldNull(second, index("sigma")));
   CHECK(OGR_F_GetFieldAsInteger(second, index("contour")) == 0);
   OGR_F_Destroy(first);
   OGR_F_Destroy(second);

@@ -48,6 +48,8 @@ class HeadsGpkgWriter final : public HeadSink {
  private:
   GDALDatasetH dataset_ = nullptr;
   OGRLayerH layer_ = nullptr;
+  OGRFeatureH feature_ = nullptr;  // one feature and point, filled anew for every reading
+  OGRGeometryH point_ = nullptr;   // owned by feature_
   std::string target_;
   bool has_event_;
   double k_;  // per metre
