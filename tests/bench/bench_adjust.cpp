@@ -18,6 +18,7 @@
 //        bench_adjust --dense N  sparse vs dense ratio on a random network
 //        bench_adjust --solvers  Eigen SimplicialLDLT vs CHOLMOD factorisation
 //        bench_adjust --loops    loop finding on the same shapes
+//        bench_adjust --read N   reading a national network's tables alone
 //        bench_adjust --cli national|mesh N
 //                                `levelhead adjust` end to end (its CPU
 //                                and wall time, peak memory) against one
@@ -325,6 +326,37 @@ int run_cli_against_anchor(const std::string& shape, std::size_t n) {
   return 0;
 }
 
+// Reading alone: the two tables of a national-style network through
+// read_table (text cells, every column), then as points and sections, in
+// MB/s of file; the least of three runs.
+int run_read_speed(std::size_t n) {
+  const std::filesystem::path folder =
+      std::filesystem::temp_directory_path() / fmt::format("levelhead-bench-read-{}", n);
+  std::filesystem::create_directories(folder);
+  write_csv(make_shape("national", n), folder);
+  const double megabytes =
+      static_cast<double>(std::filesystem::file_size(folder / "points.csv") +
+                          std::filesystem::file_size(folder / "sections.csv")) /
+      1e6;
+  double table_seconds = INFINITY, network_seconds = INFINITY;
+  for (int round = 0; round < 3; ++round) {
+    auto start = Clock::now();
+    const Table points = read_table(folder / "points.csv");
+    const Table sections = read_table(folder / "sections.csv");
+    table_seconds = std::min(table_seconds, seconds_since(start));
+    start = Clock::now();
+    const Network net = make_network(read_points(points), read_sections(sections));
+    network_seconds = std::min(network_seconds, seconds_since(start));
+  }
+  if (!std::getenv("LEVELHEAD_BENCH_KEEP")) std::filesystem::remove_all(folder);
+  fmt::print(
+      "{:.0f} MB: tables {:.2f} s ({:.0f} MB/s), points and sections with the network {:.2f} s "
+      "(all: {:.0f} MB/s)\n",
+      megabytes, table_seconds, megabytes / table_seconds, network_seconds,
+      megabytes / (table_seconds + network_seconds));
+  return 0;
+}
+
 // Loop finding (levelhead loops) against the adjustment of the same network,
 // in one process.
 int run_loop_timing() {
@@ -392,6 +424,7 @@ int main(int argc, char** argv) {
   if (argc == 3 && std::string(argv[1]) == "--dense") return run_dense_ratio(std::stoul(argv[2]));
   if (argc == 2 && std::string(argv[1]) == "--solvers") return run_solver_comparison();
   if (argc == 2 && std::string(argv[1]) == "--loops") return run_loop_timing();
+  if (argc == 3 && std::string(argv[1]) == "--read") return run_read_speed(std::stoul(argv[2]));
   if (argc == 4 && std::string(argv[1]) == "--cli") {
     fmt::print("{:<9}{:>9}{:>9}{:>9}{:>9} | {:>23} | {:>23}\n", "", "", "CLI", "", "",
                "solve in memory", "GDAL read + solve");
