@@ -1,12 +1,16 @@
 // The CLI driven in process: exit codes, messages, and all-or-nothing output.
 
+#include <fmt/format.h>
+
 #include <algorithm>
 #include <catch2/catch.hpp>
+#include <cmath>
 #include <filesystem>
 #include <fstream>
 #include <nlohmann/json.hpp>
 #include <sstream>
 #include <thread>
+#include <vector>
 
 #include "cli/app.hpp"
 #include "cli/terminal_progress.hpp"
@@ -493,4 +497,52 @@ TEST_CASE("the progress line of a long stage, and its estimate", "[cli][progress
   CHECK_THAT(terminal.str(), Contains("\rt: 50 % (about ") && Contains(" s left)"));
   progress.done("t");
   CHECK(terminal.str().back() == '\r');
+}
+
+TEST_CASE("convert writes a table longer than one chunk row for row", "[cli][proj][units]") {
+  // 70 000 rows: converted and written in two chunks of 65 536 and the rest.
+  // Every 997th row has no height and is copied as it is. US survey foot:
+  // 1200/3937 m (US Federal Register, 1959), as in the test above.
+  levelhead::testing::TempFolder tmp;
+  const fs::path in = tmp.path() / "many.csv";
+  {
+    std::ofstream table(in);
+    table << "id,x,y,height\n";
+    for (int i = 0; i < 70000; ++i) {
+      table << 'P' << i << ",-100.0,40.0,";
+      if (i % 997 != 0) table << fmt::format("{:.3f}", 100.0 + 0.001 * i);
+      table << '\n';
+    }
+  }
+  const fs::path out = tmp.path() / "feet.csv";
+  const CliRun run = run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs",
+                              "EPSG:4326", "--in", in.string(), "--out", out.string(), "--quiet"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  std::ifstream table(out);
+  std::string line;
+  std::getline(table, line);
+  CHECK(line == "id,x,y,height,sigma,sigma_relative,common,reference,transform,flags");
+  int rows = 0, mismatches = 0;
+  while (std::getline(table, line)) {
+    const int i = rows++;
+    std::vector<std::string> cells;
+    std::stringstream fields(line);
+    for (std::string cell; std::getline(fields, cell, ',');) cells.push_back(cell);
+    bool ok = cells.size() >= 8 && cells[0] == fmt::format("P{}", i);
+    if (ok && i % 997 == 0) {
+      ok = cells[3].empty() && cells[7].empty();  // copied, nothing added
+    } else if (ok) {
+      // Written to 5 decimals: within half a unit of the last decimal, and
+      // a hair for the two ways of computing it.
+      const double expected = (100.0 + 0.001 * i) * 3937.0 / 1200.0;
+      ok = std::abs(std::stod(cells[3]) - expected) < 0.51e-5 && cells[7] == "EPSG:6360";
+    }
+    mismatches += !ok;
+  }
+  CHECK(rows == 70000);
+  CHECK(mismatches == 0);
+  const auto summary = nlohmann::json::parse(std::ifstream(tmp.path() / "feet.summary.json"));
+  CHECK(summary["counts"]["points_with_height"] == 70000 - 71);  // 0, 997, ..., 69790
+  CHECK(summary["counts"]["converted"] == 70000 - 71);
 }

@@ -14,47 +14,152 @@
 
 namespace levelhead {
 
+namespace {
+
+// Points converted and written this many at a time: the conversion results
+// (a few hundred bytes a point with their steps and notes) never pile up for
+// the whole table.
+constexpr std::size_t conversion_chunk = 65536;
+
+}  // namespace
+
 HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
                                              const HeightConversionOptions& options,
                                              std::ostream& csv_out, std::ostream* summary_json) {
-  // Built whole before any of it is written: a bad cell found half-way
-  // leaves the stream (standard output, say) untouched.
-  std::ostringstream csv;
   const std::size_t id_col = table.require_column("id");
   const std::size_t x_col = table.require_column("x");
   const std::size_t y_col = table.require_column("y");
   const std::size_t height_col = table.require_column("height");
   const auto sigma_col = table.find_column("sigma");
 
-  std::vector<PlanePoint> points;
-  std::vector<double> heights;
-  std::vector<std::size_t> rows;  // table rows that carry a height
-  for (std::size_t row = 0; row < table.row_count(); ++row) {
-    const auto height = table.height(row, height_col);
-    if (!height) continue;  // nothing to convert; copied as is
-    const auto x = table.number(row, x_col), y = table.number(row, y_col);
-    if (!x || !y) {
-      throw InputError(table.location(row, x ? y_col : x_col), "",
-                       "a point with a height needs x and y to be converted");
-    }
-    points.push_back({*x, *y});
-    heights.push_back(*height);
-    rows.push_back(row);
+  // Columns this conversion writes; a table converted before has them
+  // already, and they are replaced rather than repeated.
+  std::vector<std::string> added = {"sigma_relative", "common", "reference", "transform", "flags"};
+  if (options.epoch) added.emplace_back("epoch");
+  std::vector<std::optional<std::size_t>> existing;
+  for (const std::string& name : added) existing.push_back(table.find_column(name));
+  CsvRows csv(csv_out);
+  for (const std::string& name : table.column_names()) csv.text(name);
+  if (!sigma_col) csv.text("sigma");
+  for (std::size_t i = 0; i < added.size(); ++i) {
+    if (!existing[i]) csv.text(added[i]);
   }
-  const std::vector<ConvertedHeight> results = converter.convert(points, heights);
+  csv.end_row();
 
   HeightConversionSummary counts;
-  counts.points = rows.size();
-  std::vector<std::string> failures;
-  for (std::size_t k = 0; k < results.size(); ++k) {
-    if (results[k].height) {
-      ++counts.converted;
-      continue;
+  std::vector<std::string> failures;  // the first few, for the message
+  nlohmann::json failed = nlohmann::json::array();
+  const double unit = metres_per_unit(options.output_unit);
+  const std::string epoch_text = options.epoch ? fmt::format("{:.3f}", *options.epoch) : "";
+  std::vector<PlanePoint> points;
+  std::vector<double> heights;
+  std::vector<std::optional<double>> sigmas;  // of every row of the chunk
+  std::vector<std::optional<std::size_t>> result_of_row;
+  for (std::size_t first = 0; first < table.row_count(); first += conversion_chunk) {
+    const std::size_t end = std::min(table.row_count(), first + conversion_chunk);
+    // Every cell is read and checked before any row of the chunk is written.
+    points.clear();
+    heights.clear();
+    sigmas.assign(end - first, std::nullopt);
+    result_of_row.assign(end - first, std::nullopt);
+    for (std::size_t row = first; row < end; ++row) {
+      if (sigma_col) sigmas[row - first] = table.sigma(row, *sigma_col);
+      const auto height = table.height(row, height_col);
+      if (!height) continue;  // nothing to convert; copied as is
+      const auto x = table.number(row, x_col), y = table.number(row, y_col);
+      if (!x || !y) {
+        throw InputError(table.location(row, x ? y_col : x_col), "",
+                         "a point with a height needs x and y to be converted");
+      }
+      result_of_row[row - first] = points.size();
+      points.push_back({*x, *y});
+      heights.push_back(*height);
     }
-    ++counts.failed;
-    if (failures.size() < 10) {
-      failures.push_back(fmt::format("'{}' (row {}): {}", table.cell(rows[k], id_col),
-                                     table.source_row(rows[k]), results[k].failure));
+    const std::vector<ConvertedHeight> results = converter.convert(points, heights);
+    counts.points += results.size();
+    for (std::size_t row = first; row < end; ++row) {
+      const auto k = result_of_row[row - first];
+      if (!k) continue;
+      if (results[*k].height) {
+        ++counts.converted;
+        continue;
+      }
+      ++counts.failed;
+      if (failures.size() < 10) {
+        failures.push_back(fmt::format("'{}' (row {}): {}", table.cell(row, id_col),
+                                       table.source_row(row), results[*k].failure));
+      }
+      failed.push_back({{"id", std::string(table.cell(row, id_col))},
+                        {"row", table.source_row(row)},
+                        {"reason", results[*k].failure}});
+    }
+    // Once a point has failed without --lenient, nothing more is written:
+    // the rest is only counted for the message.
+    if (counts.failed > 0 && !options.lenient) continue;
+
+    for (std::size_t row = first; row < end; ++row) {
+      const auto k = result_of_row[row - first];
+      const std::optional<double>& sigma_in = sigmas[row - first];
+      std::optional<double> height, sigma_out, relative;
+      std::string common_text, transform, flags;
+      if (k && results[*k].height) {
+        const ConvertedHeight& r = results[*k];
+        height = *r.height / unit;
+        transform = r.transform;
+        std::vector<std::string> notes = r.flags;
+        if (sigma_in || r.variance_added > 0.0) {
+          const double given = sigma_in ? *sigma_in : 0.0;
+          sigma_out = std::sqrt(given * given + r.variance_added) / unit;
+          relative = std::sqrt(given * given + r.relative_variance_added()) / unit;
+          common_text = format_common_errors(r.common, 1.0 / unit);
+        }
+        if (!sigma_in) notes.push_back("input-sigma-missing");
+        if (!r.variance_complete) notes.push_back("step-variance-unknown");
+        flags = fmt::format("{}", fmt::join(notes, " "));
+      } else if (k) {
+        flags = "not-converted: " + results[*k].failure;
+      } else if (sigma_in) {
+        sigma_out = *sigma_in / unit;
+      }
+      const auto write_added = [&](std::size_t i) {
+        switch (i) {
+          case 0:
+            csv.fixed(relative, 5);
+            break;
+          case 1:
+            csv.text(common_text);
+            break;
+          case 2:
+            csv.text(k ? converter.to() : std::string());
+            break;
+          case 3:
+            csv.text(transform);
+            break;
+          case 4:
+            csv.text(flags);
+            break;
+          default:
+            csv.text(k ? epoch_text : std::string());
+            break;
+        }
+      };
+      for (std::size_t c = 0; c < table.column_names().size(); ++c) {
+        const auto replaced = std::find(existing.begin(), existing.end(), c);
+        if (c == height_col && k) {
+          csv.fixed(height, 5);
+        } else if (sigma_col && c == *sigma_col) {
+          csv.fixed(sigma_out, 5);
+        } else if (replaced != existing.end()) {
+          write_added(static_cast<std::size_t>(replaced - existing.begin()));
+        } else {
+          csv.text(table.cell(row, c));
+        }
+      }
+      if (!sigma_col) csv.fixed(sigma_out, 5);
+      for (std::size_t i = 0; i < added.size(); ++i) {
+        if (!existing[i]) write_added(i);
+      }
+      csv.end_row();
     }
   }
   if (counts.failed > 0 && !options.lenient) {
@@ -64,80 +169,7 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
         counts.failed, counts.points, converter.from(), converter.to(), fmt::join(failures, "; "),
         counts.failed > failures.size() ? "; ..." : ""));
   }
-
-  std::vector<std::optional<std::size_t>> result_of_row(table.row_count());
-  for (std::size_t k = 0; k < rows.size(); ++k) result_of_row[rows[k]] = k;
-
-  // Columns this conversion writes; a table converted before has them
-  // already, and they are replaced rather than repeated.
-  std::vector<std::string> added = {"sigma_relative", "common", "reference", "transform", "flags"};
-  if (options.epoch) added.emplace_back("epoch");
-  std::vector<std::optional<std::size_t>> existing;
-  for (const std::string& name : added) existing.push_back(table.find_column(name));
-  for (std::size_t c = 0; c < table.column_names().size(); ++c) {
-    csv << (c ? "," : "") << csv_cell(table.column_names()[c]);
-  }
-  if (!sigma_col) csv << ",sigma";
-  for (std::size_t i = 0; i < added.size(); ++i) {
-    if (!existing[i]) csv << ',' << added[i];
-  }
-  csv << '\n';
-  const double unit = metres_per_unit(options.output_unit);
-  for (std::size_t row = 0; row < table.row_count(); ++row) {
-    const auto k = result_of_row[row];
-    std::optional<double> sigma_in;
-    if (sigma_col) sigma_in = table.sigma(row, *sigma_col);
-    const std::string sigma_given = sigma_in ? fmt::format("{:.5f}", *sigma_in / unit) : "";
-    std::string height_text, sigma_text, relative_text, common_text, transform, flags;
-    if (k && results[*k].height) {
-      const ConvertedHeight& r = results[*k];
-      height_text = fmt::format("{:.5f}", *r.height / unit);
-      transform = r.transform;
-      std::vector<std::string> notes = r.flags;
-      if (sigma_in || r.variance_added > 0.0) {
-        const double given = sigma_in ? *sigma_in : 0.0;
-        const double s = std::sqrt(given * given + r.variance_added);
-        sigma_text = fmt::format("{:.5f}", s / unit);
-        relative_text =
-            fmt::format("{:.5f}", std::sqrt(given * given + r.relative_variance_added()) / unit);
-        common_text = format_common_errors(r.common, 1.0 / unit);
-      }
-      if (!sigma_in) notes.push_back("input-sigma-missing");
-      if (!r.variance_complete) notes.push_back("step-variance-unknown");
-      flags = fmt::format("{}", fmt::join(notes, " "));
-    } else if (k) {
-      flags = "not-converted: " + results[*k].failure;
-    } else {
-      sigma_text = sigma_given;
-    }
-    const std::string values[] = {
-        relative_text,
-        common_text,
-        k ? converter.to() : std::string(),
-        transform,
-        flags,
-        k && options.epoch ? fmt::format("{:.3f}", *options.epoch) : std::string()};
-    for (std::size_t c = 0; c < table.column_names().size(); ++c) {
-      if (c) csv << ',';
-      const auto replaced = std::find(existing.begin(), existing.end(), c);
-      if (c == height_col && k) {
-        csv << height_text;
-      } else if (sigma_col && c == *sigma_col) {
-        csv << sigma_text;
-      } else if (replaced != existing.end()) {
-        csv << csv_cell(values[replaced - existing.begin()]);
-      } else {
-        csv << csv_cell(std::string(table.cell(row, c)));
-      }
-    }
-    if (!sigma_col) csv << ',' << sigma_text;
-    for (std::size_t i = 0; i < added.size(); ++i) {
-      if (!existing[i]) csv << ',' << csv_cell(values[i]);
-    }
-    csv << '\n';
-  }
-
-  csv_out << csv.str();
+  csv.finish();
   if (!summary_json) return counts;
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
@@ -188,14 +220,6 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   summary["operations"] = ops;
   summary["warnings"] =
       converter.proj() ? converter.proj()->warnings() : std::vector<std::string>{};
-  nlohmann::json failed = nlohmann::json::array();
-  for (std::size_t k = 0; k < results.size(); ++k) {
-    if (!results[k].height) {
-      failed.push_back({{"id", std::string(table.cell(rows[k], id_col))},
-                        {"row", table.source_row(rows[k])},
-                        {"reason", results[k].failure}});
-    }
-  }
   summary["failed_points"] = failed;
   *summary_json << util::json_text(summary) << '\n';
   return counts;

@@ -1,11 +1,17 @@
 // Benchmark of height conversion: 1e6 points through the EGM96 geoid grid
 // (EPSG:4979 -> EPSG:4326+5773), levelhead's VerticalTransformer against
 // PROJ's own `cct` running the same operation on the same points, in the
-// same run. Prints both times, the ratio, and the largest difference.
+// same run. Prints both times, the ratio, and the largest difference. Then
+// `levelhead convert` end to end on the same points as a CSV table, its CPU
+// time against cct's (both child processes, text in and out) and its peak
+// memory.
 //
 // usage: bench_convert [N]   (default 1000000)
 
 #include <fmt/format.h>
+#include <spawn.h>
+#include <sys/resource.h>
+#include <sys/wait.h>
 
 #include <chrono>
 #include <cmath>
@@ -20,6 +26,34 @@
 
 using namespace levelhead;
 using Clock = std::chrono::steady_clock;
+
+namespace {
+
+struct ChildRun {
+  double cpu_seconds = 0.0, peak_mb = 0.0;
+  bool ok = false;
+};
+
+// Runs `sh -c command` and returns its CPU time (user + system) and peak memory.
+ChildRun run_child(const std::string& command) {
+  std::vector<std::string> args = {"/bin/sh", "-c", command};
+  std::vector<char*> argv;
+  for (std::string& a : args) argv.push_back(a.data());
+  argv.push_back(nullptr);
+  pid_t child = 0;
+  ChildRun r;
+  if (posix_spawn(&child, argv[0], nullptr, nullptr, argv.data(), environ) != 0) return r;
+  int status = 0;
+  rusage usage{};
+  wait4(child, &status, 0, &usage);
+  r.cpu_seconds = static_cast<double>(usage.ru_utime.tv_sec + usage.ru_stime.tv_sec) +
+                  1e-6 * static_cast<double>(usage.ru_utime.tv_usec + usage.ru_stime.tv_usec);
+  r.peak_mb = static_cast<double>(usage.ru_maxrss) / 1024.0;
+  r.ok = WIFEXITED(status) && WEXITSTATUS(status) == 0;
+  return r;
+}
+
+}  // namespace
 
 int main(int argc, char** argv) {
   const std::size_t n = argc > 1 ? std::stoul(argv[1]) : 1000000;
@@ -68,6 +102,17 @@ int main(int argc, char** argv) {
     fields >> a >> b >> z;
     if (results[i].height) worst = std::max(worst, std::abs(z - *results[i].height));
   }
+  {
+    std::ofstream table(folder / "points.csv");
+    table << "id,x,y,height\n";
+    for (std::size_t i = 0; i < n; ++i) {
+      table << fmt::format("P{},{:.9f},{:.9f},{:.9f}\n", i, points[i].x, points[i].y, heights[i]);
+    }
+  }
+  const ChildRun cct_run = run_child(command);
+  const ChildRun cli_run = run_child(fmt::format(
+      "'{}' convert --from EPSG:4979 --to EPSG:4326+5773 --in '{}' --out '{}' --quiet",
+      LEVELHEAD_CLI_PATH, (folder / "points.csv").string(), (folder / "converted.csv").string()));
   std::filesystem::remove_all(folder);
   fmt::print("{} points through {}\n", n, t.operations().front().name);
   fmt::print("levelhead: {:.3f} s ({:.2f} M points/s; setup {:.3f} s)\n", ours, n / ours / 1e6,
@@ -75,5 +120,14 @@ int main(int argc, char** argv) {
   fmt::print("cct:       {:.3f} s ({:.2f} M points/s, text in and out)\n", cct, n / cct / 1e6);
   fmt::print("cct / levelhead time = {:.2f}; largest difference {:.1e} m (cct prints 6 decimals)\n",
              cct / ours, worst);
+  if (!cct_run.ok || !cli_run.ok) {
+    fmt::print("a child run failed (cct {}, levelhead convert {})\n", cct_run.ok, cli_run.ok);
+    return 1;
+  }
+  fmt::print(
+      "end to end, CPU: levelhead convert {:.2f} s (peak {:.0f} MB), cct {:.2f} s (peak {:.0f} "
+      "MB); levelhead / cct = {:.2f}\n",
+      cli_run.cpu_seconds, cli_run.peak_mb, cct_run.cpu_seconds, cct_run.peak_mb,
+      cli_run.cpu_seconds / cct_run.cpu_seconds);
   return 0;
 }

@@ -43,8 +43,12 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
                                              const HeightConversionOptions& options,
                                              const std::filesystem::path& output,
                                              const std::filesystem::path& summary);
-// The same into streams (e.g. standard output), the summary only when
-// `summary` is given. Nothing is written when the conversion fails.
+// The same into streams, the summary only when `summary` is given. Rows
+// are converted and written 65 536 at a time; when the conversion fails
+// (a bad cell, a point that does not convert without `lenient`), the error
+// is thrown after `csv` may have received the rows before it. Give a
+// temporary file or a buffer (the path overload and the CLI do), never
+// standard output directly.
 HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
                                              const HeightConversionOptions& options,
                                              std::ostream& csv, std::ostream* summary);
