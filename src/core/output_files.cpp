@@ -55,28 +55,37 @@ class DeferTerminationSignals {
 // ('nan')". Inputs are checked at the edge, so such a cell is a fault of a
 // computation; it is caught here, before the file is committed, rather than
 // reaching a user as a number. Reads the file once, in blocks.
+// "nan", "inf", signed or not, any case; `cell` without its line end.
+bool is_non_finite_text(std::string_view cell) {
+  if (cell.size() == 4 && (cell[0] == '-' || cell[0] == '+')) cell.remove_prefix(1);
+  if (cell.size() != 3) return false;
+  const auto lower = [](char c) { return static_cast<char>(c | 0x20); };  // ASCII letters only
+  const char a = lower(cell[0]), b = lower(cell[1]), c = lower(cell[2]);
+  return (a == 'n' && b == 'a' && c == 'n') || (a == 'i' && b == 'n' && c == 'f');
+}
+
 std::optional<std::string> find_non_finite_cell(const std::filesystem::path& file) {
   std::ifstream in(file, std::ios::binary);
   std::vector<char> block(1 << 20);
   std::vector<std::string> header;
-  std::string cell;  // the current unquoted cell, kept only while it is short
-  bool quoted = false, too_long = false;
+  std::string header_cell;
+  char start[4];                             // the current cell's first characters
+  std::size_t cell_length = 0;               // without '\r'
+  bool quoted = false, cell_quoted = false;  // a quoted cell is text
   std::size_t row = 1, column = 0;
   const auto end_cell = [&]() -> std::optional<std::string> {
-    if (row == 1) header.push_back(cell);
     std::optional<std::string> found;
-    // "nan", "inf" and their signed forms are 3 or 4 characters long.
-    const bool may_be_non_finite = row > 1 && !too_long && cell.size() >= 3 && cell.size() <= 4;
-    std::string lower = may_be_non_finite ? cell : std::string();
-    for (char& c : lower) c = static_cast<char>(std::tolower(static_cast<unsigned char>(c)));
-    if (may_be_non_finite && (lower == "nan" || lower == "-nan" || lower == "+nan" ||
-                              lower == "inf" || lower == "-inf" || lower == "+inf")) {
-      found =
-          fmt::format("row {}, column '{}' ('{}')", row,
-                      column < header.size() ? header[column] : std::to_string(column + 1), cell);
+    if (row == 1) {
+      header.push_back(std::move(header_cell));
+      header_cell.clear();
+    } else if (!cell_quoted && cell_length <= 4 &&
+               is_non_finite_text(std::string_view(start, cell_length))) {
+      found = fmt::format("row {}, column '{}' ('{}')", row,
+                          column < header.size() ? header[column] : std::to_string(column + 1),
+                          std::string_view(start, cell_length));
     }
-    cell.clear();
-    too_long = false;
+    cell_length = 0;
+    cell_quoted = false;
     return found;
   };
   while (in) {
@@ -84,12 +93,11 @@ std::optional<std::string> find_non_finite_cell(const std::filesystem::path& fil
     const std::size_t n = static_cast<std::size_t>(in.gcount());
     for (std::size_t i = 0; i < n; ++i) {
       const char c = block[i];
-      if (c == '"') {
-        quoted = !quoted;
-        too_long = true;  // a quoted cell is text
-      } else if (quoted) {
+      if (quoted) {
+        quoted = c != '"';  // "" inside quotes closes and reopens: the same
         continue;
-      } else if (c == ',' || c == '\n') {
+      }
+      if (c == ',' || c == '\n') {
         if (auto found = end_cell()) return found;
         if (c == ',') {
           ++column;
@@ -97,16 +105,16 @@ std::optional<std::string> find_non_finite_cell(const std::filesystem::path& fil
           ++row;
           column = 0;
         }
+      } else if (c == '"') {
+        quoted = cell_quoted = true;
       } else if (c != '\r') {
-        if (cell.size() < 8 || row == 1) {
-          cell.push_back(c);
-        } else {
-          too_long = true;
-        }
+        if (row == 1) header_cell.push_back(c);
+        if (cell_length < sizeof start) start[cell_length] = c;
+        ++cell_length;
       }
     }
   }
-  if (!cell.empty()) return end_cell();
+  if (cell_length > 0 || row == 1) return end_cell();
   return std::nullopt;
 }
 
