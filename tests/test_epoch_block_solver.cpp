@@ -10,6 +10,7 @@
 #include <vector>
 
 #include "epochs/epoch_block_solver.hpp"
+#include "support/normal_matrices.hpp"
 
 using levelhead::detail::EpochBlockSolver;
 using levelhead::detail::NormalSolver;
@@ -24,35 +25,23 @@ struct BlockMatrix {
 
 // `shared` marks, then epochs of the given sizes: each epoch a chain of its
 // own points closed into a ring, every few points tied to a shared mark,
-// weights over three orders of magnitude (invented, as levelling normal
-// matrices are made: sums of w [1 -1; -1 1]).
+// weights over three orders of magnitude.
 BlockMatrix block_matrix(int shared, const std::vector<int>& sizes, std::uint64_t seed) {
-  std::mt19937_64 rng(seed);
-  std::uniform_real_distribution<double> log_weight(0.0, 3.0);
-  std::vector<Eigen::Triplet<double, int>> t;
-  const auto section = [&](int a, int b) {
-    const double w = std::pow(10.0, log_weight(rng));
-    t.emplace_back(a, a, w);
-    t.emplace_back(b, b, w);
-    t.emplace_back(std::max(a, b), std::min(a, b), -w);
-  };
-  const auto to_datum = [&](int a) { t.emplace_back(a, a, std::pow(10.0, log_weight(rng))); };
+  levelhead::testing::NormalMatrixBuilder normal(seed, 3.0);
   BlockMatrix m;
   int next = shared;
-  for (int s = 0; s < shared; ++s) to_datum(s);  // each mark also tied to the held mark
+  for (int s = 0; s < shared; ++s) normal.control(s);  // each mark also tied to the held mark
   for (int size : sizes) {
     m.epoch_begin.push_back(next);
     for (int i = 0; i < size; ++i) {
-      section(next + i, next + (i + 1) % size);
-      if (shared > 0 && i % 4 == 0) section(next + i, i % shared);
+      normal.section(next + i, next + (i + 1) % size);
+      if (shared > 0 && i % 4 == 0) normal.section(next + i, i % shared);
     }
-    if (shared == 0 && size > 0) to_datum(next);
+    if (shared == 0 && size > 0) normal.control(next);
     next += size;
   }
   m.epoch_begin.push_back(next);
-  m.lower.resize(next, next);
-  m.lower.setFromTriplets(t.begin(), t.end());
-  m.lower.makeCompressed();
+  m.lower = normal.build(next);
   return m;
 }
 

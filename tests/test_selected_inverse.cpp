@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "adjust/normal_solver.hpp"
+#include "support/normal_matrices.hpp"
 
 using levelhead::detail::FactorLayout;
 using levelhead::detail::NormalSolver;
@@ -24,39 +25,28 @@ struct TestMatrix {
   std::vector<std::pair<int, int>> pattern;  // (row >= column) of every stored entry
 };
 
-// Normal matrix of a levelling grid of side x side points: each section adds
-// w [1 -1; -1 1] with a weight spread over four orders of magnitude, as
-// lengths and precisions do; `long_lines` random extra sections between far
-// points bring the fill of lines crossing a mesh; two points carry control.
+// Normal matrix of a levelling grid of side x side points, weights over four
+// orders of magnitude; `long_lines` random extra sections between far points
+// bring the fill of lines crossing a mesh; two points carry control.
 TestMatrix grid_normal_matrix(int side, int long_lines, std::uint64_t seed) {
-  std::mt19937_64 rng(seed);
-  std::uniform_real_distribution<double> log_weight(0.0, 4.0);
+  levelhead::testing::NormalMatrixBuilder normal(seed, 4.0);
   std::uniform_int_distribution<int> any_point(0, side * side - 1);
-  std::vector<Eigen::Triplet<double, int>> triplets;
-  const auto add_section = [&](int a, int b) {
-    const double w = std::pow(10.0, log_weight(rng));
-    triplets.emplace_back(a, a, w);
-    triplets.emplace_back(b, b, w);
-    triplets.emplace_back(std::max(a, b), std::min(a, b), -w);
-  };
   for (int r = 0; r < side; ++r) {
     for (int c = 0; c < side; ++c) {
       const int p = r * side + c;
-      if (c + 1 < side) add_section(p, p + 1);
-      if (r + 1 < side) add_section(p, p + side);
+      if (c + 1 < side) normal.section(p, p + 1);
+      if (r + 1 < side) normal.section(p, p + side);
     }
   }
   for (int k = 0; k < long_lines; ++k) {
-    const int a = any_point(rng), b = any_point(rng);
-    if (a != b) add_section(a, b);
+    const int a = any_point(normal.random()), b = any_point(normal.random());
+    if (a != b) normal.section(a, b);
   }
-  triplets.emplace_back(0, 0, 1e4);                              // a weighted benchmark
-  triplets.emplace_back(side * side - 1, side * side - 1, 1e2);  // and another
+  normal.control(0, 1e4);                // a weighted benchmark
+  normal.control(side * side - 1, 1e2);  // and another
   const int n = side * side;
   TestMatrix out;
-  out.lower.resize(n, n);
-  out.lower.setFromTriplets(triplets.begin(), triplets.end());
-  out.lower.makeCompressed();
+  out.lower = normal.build(n);
   for (int j = 0; j < n; ++j) {
     for (NormalSolver::LowerMatrix::InnerIterator it(out.lower, j); it; ++it)
       out.pattern.emplace_back(static_cast<int>(it.row()), j);
