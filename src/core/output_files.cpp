@@ -6,7 +6,6 @@
 #include <unistd.h>
 
 #include <algorithm>
-#include <cctype>
 #include <charconv>
 #include <cmath>
 #include <cstdint>
@@ -50,11 +49,6 @@ class DeferTerminationSignals {
   sigset_t previous_{};
 };
 
-// The first cell of a CSV file that holds a non-finite number as fmt and
-// iostreams print one (nan, -nan, inf, -inf): "row R, column 'name'
-// ('nan')". Inputs are checked at the edge, so such a cell is a fault of a
-// computation; it is caught here, before the file is committed, rather than
-// reaching a user as a number. Reads the file once, in blocks.
 // "nan", "inf", signed or not, any case; `cell` without its line end.
 bool is_non_finite_text(std::string_view cell) {
   if (cell.size() == 4 && (cell[0] == '-' || cell[0] == '+')) cell.remove_prefix(1);
@@ -64,6 +58,11 @@ bool is_non_finite_text(std::string_view cell) {
   return (a == 'n' && b == 'a' && c == 'n') || (a == 'i' && b == 'n' && c == 'f');
 }
 
+// The first cell of a CSV file that holds a non-finite number as fmt and
+// iostreams print one (nan, -nan, inf, -inf): "row R, column 'name'
+// ('nan')". Inputs are checked at the edge, so such a cell is a fault of a
+// computation; it is caught here, before the file is committed, rather than
+// reaching a user as a number. Reads the file once, in blocks.
 std::optional<std::string> find_non_finite_cell(const std::filesystem::path& file) {
   std::ifstream in(file, std::ios::binary);
   std::vector<char> block(1 << 20);
