@@ -546,3 +546,19 @@ TEST_CASE("convert writes a table longer than one chunk row for row", "[cli][pro
   CHECK(summary["counts"]["points_with_height"] == 70000 - 71);  // 0, 997, ..., 69790
   CHECK(summary["counts"]["converted"] == 70000 - 71);
 }
+
+TEST_CASE("convert of a table with a header alone writes the header", "[cli][proj]") {
+  levelhead::testing::TempFolder tmp;
+  const fs::path in = tmp.path() / "empty.csv";
+  std::ofstream(in) << "id,x,y,height\n";
+  const fs::path out = tmp.path() / "out.csv";
+  const CliRun run = run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs",
+                              "EPSG:4326", "--in", in.string(), "--out", out.string(), "--quiet"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  std::ifstream table(out);
+  std::string header, row;
+  std::getline(table, header);
+  CHECK(header == "id,x,y,height,sigma,sigma_relative,common,reference,transform,flags");
+  CHECK_FALSE(std::getline(table, row));
+}

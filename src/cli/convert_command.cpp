@@ -90,24 +90,42 @@ CommandRunner add_convert_command(CLI::App& app) {
     const LengthUnit written_unit = out_unit->count() > 0
                                         ? parse_length_unit(a->out_unit)
                                         : own_unit(converter.target_unit(), converter.to());
-    const Table table = read_table(
-        a->input, TableOptions{parse_column_map(a->columns), table_unit, a->layer, a->crs, {}});
-    // Without --crs, x and y are in the source reference's horizontal CRS:
-    // checked against its area of use all the same.
-    if (a->crs.empty()) check_coordinates_in_crs(table, converter.points_crs());
+    const TableOptions table_options{
+        parse_column_map(a->columns), table_unit, a->layer, a->crs, {}};
+    // x and y are checked against the area of use of --crs, or without it of
+    // the source reference's horizontal CRS, part by part as the table is read.
+    const std::string xy_crs = a->crs.empty() ? converter.points_crs() : a->crs;
     const HeightConversionOptions options{a->lenient, a->epoch, written_unit};
     std::filesystem::path output(a->output);
     std::filesystem::path summary = a->summary;
     if (summary.empty() && !to_stdout)
       summary = std::filesystem::path(output).replace_extension(".summary.json");
+    // A CSV is read, converted and written in parts of this many rows, so
+    // that a table of millions of points never sits in memory whole.
+    constexpr std::size_t rows_per_part = 65536;
+    const auto convert_into = [&](std::ostream& csv, std::ostream* json) {
+      PointsTableConverter writer(converter, options, csv);
+      bool any_part = false;
+      read_table_in_batches(a->input, table_options, rows_per_part, [&](Table& part) {
+        check_coordinates_in_crs(part, xy_crs);
+        writer.add(part);
+        any_part = true;
+      });
+      // A table of a header alone comes in no part: read whole, it gives the header.
+      if (!any_part) writer.add(read_table(a->input, table_options));
+      return writer.finish(json);
+    };
     HeightConversionSummary counts;
     if (!to_stdout && summary.parent_path() == output.parent_path()) {
-      counts = convert_points_table(table, converter, options, output, summary);
+      OutputSet out(output.parent_path().empty() ? "." : output.parent_path());
+      counts = convert_into(out.open(output.filename().string()),
+                            &out.open(summary.filename().string()));
+      out.commit();
     } else {
-      // The table and its summary in different places: each written whole.
+      // The table and its summary in different places, or the table on
+      // standard output: each written whole, once all of it converted.
       std::ostringstream csv, json;
-      counts =
-          convert_points_table(table, converter, options, csv, summary.empty() ? nullptr : &json);
+      counts = convert_into(csv, summary.empty() ? nullptr : &json);
       if (!summary.empty()) write_file_whole(summary, json.str());
       if (to_stdout)
         console << csv.str() << std::flush;

@@ -23,32 +23,63 @@ constexpr std::size_t conversion_chunk = 65536;
 
 }  // namespace
 
-HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
-                                             const HeightConversionOptions& options,
-                                             std::ostream& csv_out, std::ostream* summary_json) {
-  const std::size_t id_col = table.require_column("id");
-  const std::size_t x_col = table.require_column("x");
-  const std::size_t y_col = table.require_column("y");
-  const std::size_t height_col = table.require_column("height");
-  const auto sigma_col = table.find_column("sigma");
-
-  // Columns this conversion writes; a table converted before has them
-  // already, and they are replaced rather than repeated.
-  std::vector<std::string> added = {"sigma_relative", "common", "reference", "transform", "flags"};
-  if (options.epoch) added.emplace_back("epoch");
+struct PointsTableConverter::State {
+  HeightConverter& converter;
+  HeightConversionOptions options;
+  CsvRows csv;
+  std::string source;
+  bool started = false;
+  std::size_t id_col = 0, x_col = 0, y_col = 0, height_col = 0;
+  std::optional<std::size_t> sigma_col;
+  std::vector<std::string> added;
   std::vector<std::optional<std::size_t>> existing;
-  for (const std::string& name : added) existing.push_back(table.find_column(name));
-  CsvRows csv(csv_out);
-  for (const std::string& name : table.column_names()) csv.text(name);
-  if (!sigma_col) csv.text("sigma");
-  for (std::size_t i = 0; i < added.size(); ++i) {
-    if (!existing[i]) csv.text(added[i]);
-  }
-  csv.end_row();
-
   HeightConversionSummary counts;
   std::vector<std::string> failures;  // the first few, for the message
   nlohmann::json failed = nlohmann::json::array();
+  State(HeightConverter& c, const HeightConversionOptions& o, std::ostream& out)
+      : converter(c), options(o), csv(out) {}
+};
+
+PointsTableConverter::PointsTableConverter(HeightConverter& converter,
+                                           const HeightConversionOptions& options,
+                                           std::ostream& csv)
+    : state_(std::make_unique<State>(converter, options, csv)) {}
+
+PointsTableConverter::~PointsTableConverter() = default;
+
+void PointsTableConverter::add(const Table& table) {
+  State& st = *state_;
+  HeightConverter& converter = st.converter;
+  const HeightConversionOptions& options = st.options;
+  CsvRows& csv = st.csv;
+  if (!st.started) {
+    st.started = true;
+    st.source = table.source();
+    st.id_col = table.require_column("id");
+    st.x_col = table.require_column("x");
+    st.y_col = table.require_column("y");
+    st.height_col = table.require_column("height");
+    st.sigma_col = table.find_column("sigma");
+    // Columns this conversion writes; a table converted before has them
+    // already, and they are replaced rather than repeated.
+    st.added = {"sigma_relative", "common", "reference", "transform", "flags"};
+    if (options.epoch) st.added.emplace_back("epoch");
+    for (const std::string& name : st.added) st.existing.push_back(table.find_column(name));
+    for (const std::string& name : table.column_names()) csv.text(name);
+    if (!st.sigma_col) csv.text("sigma");
+    for (std::size_t i = 0; i < st.added.size(); ++i) {
+      if (!st.existing[i]) csv.text(st.added[i]);
+    }
+    csv.end_row();
+  }
+  const std::size_t id_col = st.id_col, x_col = st.x_col, y_col = st.y_col;
+  const std::size_t height_col = st.height_col;
+  const std::optional<std::size_t>& sigma_col = st.sigma_col;
+  const std::vector<std::string>& added = st.added;
+  const std::vector<std::optional<std::size_t>>& existing = st.existing;
+  HeightConversionSummary& counts = st.counts;
+  std::vector<std::string>& failures = st.failures;
+  nlohmann::json& failed = st.failed;
   const double unit = metres_per_unit(options.output_unit);
   const std::string epoch_text = options.epoch ? fmt::format("{:.3f}", *options.epoch) : "";
   std::vector<PlanePoint> points;
@@ -162,6 +193,14 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
       csv.end_row();
     }
   }
+}
+
+HeightConversionSummary PointsTableConverter::finish(std::ostream* summary_json) {
+  State& st = *state_;
+  HeightConverter& converter = st.converter;
+  const HeightConversionOptions& options = st.options;
+  const HeightConversionSummary& counts = st.counts;
+  const std::vector<std::string>& failures = st.failures;
   if (counts.failed > 0 && !options.lenient) {
     throw ReferenceError(fmt::format(
         "{} of {} point(s) could not be converted from '{}' to '{}': {}{}. Nothing was written; "
@@ -169,14 +208,14 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
         counts.failed, counts.points, converter.from(), converter.to(), fmt::join(failures, "; "),
         counts.failed > failures.size() ? "; ..." : ""));
   }
-  csv.finish();
+  st.csv.finish();
   if (!summary_json) return counts;
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
   summary["format_version"] = output_format_version;
   summary["command"] = "convert";
   summary["proj"] = proj_version_text();
-  summary["input"] = table.source();
+  summary["input"] = st.source;
   summary["units"] = to_string(options.output_unit);
   summary["lenient"] = options.lenient;
   summary["epoch"] = options.epoch ? nlohmann::json(*options.epoch) : nlohmann::json(nullptr);
@@ -220,23 +259,8 @@ HeightConversionSummary convert_points_table(const Table& table, HeightConverter
   summary["operations"] = ops;
   summary["warnings"] =
       converter.proj() ? converter.proj()->warnings() : std::vector<std::string>{};
-  summary["failed_points"] = failed;
+  summary["failed_points"] = st.failed;
   *summary_json << util::json_text(summary) << '\n';
-  return counts;
-}
-
-HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
-                                             const HeightConversionOptions& options,
-                                             const std::filesystem::path& output,
-                                             const std::filesystem::path& summary) {
-  if (summary.parent_path() != output.parent_path()) {
-    throw std::logic_error("summary must sit beside the output table");
-  }
-  OutputSet out(output.parent_path().empty() ? "." : output.parent_path());
-  std::ostream& csv = out.open(output.filename().string());
-  const HeightConversionSummary counts =
-      convert_points_table(table, converter, options, csv, &out.open(summary.filename().string()));
-  out.commit();
   return counts;
 }
 

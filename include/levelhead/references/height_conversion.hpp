@@ -17,7 +17,7 @@
 //      could not be converted (unless lenient: then they are flagged, left
 //      empty, and the summary says lenient).
 
-#include <filesystem>
+#include <memory>
 #include <optional>
 #include <ostream>
 #include <string>
@@ -38,19 +38,27 @@ struct HeightConversionSummary {
   std::size_t points = 0, converted = 0, failed = 0;
 };
 
-// Writes `output` (CSV) and `summary` (JSON, in the same folder) all-or-nothing.
-HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
-                                             const HeightConversionOptions& options,
-                                             const std::filesystem::path& output,
-                                             const std::filesystem::path& summary);
-// The same into streams, the summary only when `summary` is given. Rows
-// are converted and written 65 536 at a time; when the conversion fails
-// (a bad cell, a point that does not convert without `lenient`), the error
-// is thrown after `csv` may have received the rows before it. Give a
-// temporary file or a buffer (the path overload and the CLI do), never
-// standard output directly.
-HeightConversionSummary convert_points_table(const Table& table, HeightConverter& converter,
-                                             const HeightConversionOptions& options,
-                                             std::ostream& csv, std::ostream* summary);
+// The conversion of a table that comes in parts (read_table_in_batches):
+// each part's rows are converted and written as they come, the header with
+// the first part. finish() throws when a point did not convert (unless
+// lenient), and writes the summary. On an error `csv` may hold the rows
+// before it: give a temporary file or a buffer, never standard output.
+class PointsTableConverter {
+ public:
+  PointsTableConverter(HeightConverter& converter, const HeightConversionOptions& options,
+                       std::ostream& csv);
+  ~PointsTableConverter();
+  PointsTableConverter(const PointsTableConverter&) = delete;
+  PointsTableConverter& operator=(const PointsTableConverter&) = delete;
+
+  // Every part has the first part's columns.
+  void add(const Table& part);
+  // The summary is written only when `summary` is given.
+  HeightConversionSummary finish(std::ostream* summary);
+
+ private:
+  struct State;
+  std::unique_ptr<State> state_;
+};
 
 }  // namespace levelhead
