@@ -3,7 +3,9 @@
 #include <fmt/format.h>
 
 #include <cmath>
+#include <exception>
 #include <nlohmann/json.hpp>
+#include <thread>
 
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/version.hpp"
@@ -90,57 +92,77 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
                               const std::filesystem::path& folder) {
   OutputSet out(folder);
 
-  CsvRows heights(out.open("heights.csv"));
-  heights.line(
-      "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
-      "reference,kind,checked");
-  for (const AdjustedPoint& a : result.points) {
-    const Point& p = net.points[a.point];
-    heights.text(p.id)
-        .fixed(a.height, metre_decimals)
-        .fixed(a.sigma, metre_decimals)
-        .fixed(a.sigma_apriori, metre_decimals)
-        .text(to_string(a.control))
-        .fixed(p.height, metre_decimals)
-        .fixed(a.control_residual, metre_decimals)
-        .fixed(a.control_w, 3)
-        .text(result.reference)
-        .text(p.kind)
-        .text(a.checked ? "yes" : "no")
-        .end_row();
+  // The two tables are formatted at the same time, one on another core
+  // (both streams opened first: OutputSet is not shared between threads).
+  std::ostream& heights_file = out.open("heights.csv");
+  std::ostream& residuals_file = out.open("residuals.csv");
+  const auto write_heights = [&] {
+    CsvRows heights(heights_file);
+    heights.line(
+        "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
+        "reference,kind,checked");
+    for (const AdjustedPoint& a : result.points) {
+      const Point& p = net.points[a.point];
+      heights.text(p.id)
+          .fixed(a.height, metre_decimals)
+          .fixed(a.sigma, metre_decimals)
+          .fixed(a.sigma_apriori, metre_decimals)
+          .text(to_string(a.control))
+          .fixed(p.height, metre_decimals)
+          .fixed(a.control_residual, metre_decimals)
+          .fixed(a.control_w, 3)
+          .text(result.reference)
+          .text(p.kind)
+          .text(a.checked ? "yes" : "no")
+          .end_row();
+    }
+    heights.finish();
+  };
+  std::exception_ptr heights_failure;
+  std::thread heights_writer([&] {
+    try {
+      write_heights();
+    } catch (...) {
+      heights_failure = std::current_exception();
+    }
+  });
+  try {
+    CsvRows residuals(residuals_file);
+    residuals.line(
+        "from,to,dh,residual,w,tau,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,"
+        "run,date,suspect,removed_step");
+    for (const AdjustedSection& a : result.sections) {
+      const Section& s = net.sections[a.section];
+      const auto statistic = a.statistic();
+      const bool suspect = statistic && std::abs(*statistic) > result.test.critical;
+      residuals.text(s.from)
+          .text(s.to)
+          .fixed(s.dh, metre_decimals)
+          .fixed(a.residual, metre_decimals)
+          .fixed(a.w, 3)
+          .fixed(a.tau, 3)
+          .fixed(a.adjusted_dh, metre_decimals)
+          .fixed(a.sigma, metre_decimals)
+          .text(to_string(a.rule))
+          .fixed(a.redundancy, 4)
+          .fixed(a.mdb, metre_decimals)
+          .fixed(s.length, 3)
+          .text(s.run)
+          .text(s.date)
+          .text(suspect ? "yes" : "");
+      if (a.removal_step)
+        residuals.integer(static_cast<long long>(*a.removal_step));
+      else
+        residuals.empty();
+      residuals.end_row();
+    }
+    residuals.finish();
+  } catch (...) {
+    heights_writer.join();
+    throw;
   }
-  heights.finish();
-
-  CsvRows residuals(out.open("residuals.csv"));
-  residuals.line(
-      "from,to,dh,residual,w,tau,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,"
-      "run,date,suspect,removed_step");
-  for (const AdjustedSection& a : result.sections) {
-    const Section& s = net.sections[a.section];
-    const auto statistic = a.statistic();
-    const bool suspect = statistic && std::abs(*statistic) > result.test.critical;
-    residuals.text(s.from)
-        .text(s.to)
-        .fixed(s.dh, metre_decimals)
-        .fixed(a.residual, metre_decimals)
-        .fixed(a.w, 3)
-        .fixed(a.tau, 3)
-        .fixed(a.adjusted_dh, metre_decimals)
-        .fixed(a.sigma, metre_decimals)
-        .text(to_string(a.rule))
-        .fixed(a.redundancy, 4)
-        .fixed(a.mdb, metre_decimals)
-        .fixed(s.length, 3)
-        .text(s.run)
-        .text(s.date)
-        .text(suspect ? "yes" : "");
-    if (a.removal_step)
-      residuals.integer(static_cast<long long>(*a.removal_step));
-    else
-      residuals.empty();
-    residuals.end_row();
-  }
-  residuals.finish();
+  heights_writer.join();
+  if (heights_failure) std::rethrow_exception(heights_failure);
 
   nlohmann::json summary;
   summary["levelhead_version"] = version_string();
