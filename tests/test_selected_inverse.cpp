@@ -4,15 +4,18 @@
 // against each other where a dense inverse would be too slow.
 
 #include <Eigen/Dense>
+#include <algorithm>
 #include <catch2/catch.hpp>
 #include <cmath>
 #include <memory>
 #include <random>
+#include <stdexcept>
 #include <thread>
 #include <vector>
 
 #include "adjust/normal_solver.hpp"
 #include "support/normal_matrices.hpp"
+#include "util/parallel.hpp"
 
 using levelhead::detail::FactorLayout;
 using levelhead::detail::NormalSolver;
@@ -127,4 +130,25 @@ TEST_CASE("an entry off the factor's pattern is refused", "[adjust][selinv]") {
     // Opposite corners of a 12 x 12 grid share no column of any factor.
     CHECK_THROWS_AS(solver->inverse_entry(0, 143), std::logic_error);
   }
+}
+
+TEST_CASE("parallel ranges cover every item once and pass on a failure", "[adjust][threads]") {
+  for (const std::size_t count : {std::size_t{0}, std::size_t{7}, std::size_t{250001}}) {
+    std::vector<int> visits(count, 0);
+    levelhead::util::run_in_parallel_ranges(
+        count,
+        [&](std::size_t begin, std::size_t end) {
+          for (std::size_t i = begin; i < end; ++i) ++visits[i];
+        },
+        1000);
+    CHECK(std::count(visits.begin(), visits.end(), 1) == static_cast<long>(count));
+  }
+  CHECK_THROWS_AS(levelhead::util::run_in_parallel_ranges(
+                      100000,
+                      [](std::size_t, std::size_t end) {
+                        // The last range fails, whatever the number of threads.
+                        if (end == 100000) throw std::runtime_error("a range failed");
+                      },
+                      1000),
+                  std::runtime_error);
 }

@@ -12,6 +12,7 @@
 #include "adjust/normal_solver.hpp"
 #include "levelhead/levelling/statistics.hpp"
 #include "util/option_checks.hpp"
+#include "util/parallel.hpp"
 
 namespace levelhead {
 
@@ -433,23 +434,33 @@ AdjustmentResult adjust_once(const Network& net, const AdjustmentOptions& option
     return Check{r, v / std::sqrt(q_ll - q_adjusted), std::sqrt(result.lambda0 / r) * sigma};
   };
 
-  double vtpv = 0.0;
   result.sections.resize(net.sections.size());
+  // Each section on its own, so the sections are shared among the cores
+  // in contiguous ranges; the sum of v'Pv follows in order, so that it is
+  // the same whatever the number of threads.
+  const auto check_sections = [&](std::size_t begin, std::size_t end) {
+    for (std::size_t s = begin; s < end; ++s) {
+      AdjustedSection& out = result.sections[s];
+      const std::size_t f = net.from_index[s], t = net.to_index[s];
+      out.section = s;
+      out.rule = weights.rule[s];
+      out.sigma = weights.sigma[s];
+      out.adjusted_dh = height[t] - height[f];
+      out.residual = out.adjusted_dh - net.sections[s].dh;
+      if (!active[s]) continue;
+      const double q_adjusted = cofactor(t, t) + cofactor(f, f) - 2.0 * cofactor(f, t);
+      const Check c = check(out.residual, out.sigma, q_adjusted);
+      out.redundancy = c.redundancy;
+      out.w = c.w;
+      out.mdb = c.mdb;
+    }
+  };
+  util::run_in_parallel_ranges(net.sections.size(), check_sections);
+  double vtpv = 0.0;
   for (std::size_t s = 0; s < net.sections.size(); ++s) {
-    AdjustedSection& out = result.sections[s];
-    const std::size_t f = net.from_index[s], t = net.to_index[s];
-    out.section = s;
-    out.rule = weights.rule[s];
-    out.sigma = weights.sigma[s];
-    out.adjusted_dh = height[t] - height[f];
-    out.residual = out.adjusted_dh - net.sections[s].dh;
     if (!active[s]) continue;
+    const AdjustedSection& out = result.sections[s];
     vtpv += out.residual * out.residual / (out.sigma * out.sigma);
-    const double q_adjusted = cofactor(t, t) + cofactor(f, f) - 2.0 * cofactor(f, t);
-    const Check c = check(out.residual, out.sigma, q_adjusted);
-    out.redundancy = c.redundancy;
-    out.w = c.w;
-    out.mdb = c.mdb;
   }
   result.points.resize(n_points);
 
