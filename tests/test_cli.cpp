@@ -499,6 +499,17 @@ TEST_CASE("the progress line of a long stage, and its estimate", "[cli][progress
   CHECK(terminal.str().back() == '\r');
 }
 
+namespace {
+// NAVD88 heights in metres (EPSG:5703) to US survey feet (EPSG:6360), x and y
+// in EPSG:4326; the run must succeed.
+void convert_navd88_metres_to_feet(const fs::path& in, const fs::path& out) {
+  const CliRun run = run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs",
+                              "EPSG:4326", "--in", in.string(), "--out", out.string(), "--quiet"});
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+}
+}  // namespace
+
 TEST_CASE("convert writes a table longer than one chunk row for row", "[cli][proj][units]") {
   // 70 000 rows: converted and written in two chunks of 65 536 and the rest.
   // Every 997th row has no height and is copied as it is. US survey foot:
@@ -515,10 +526,7 @@ TEST_CASE("convert writes a table longer than one chunk row for row", "[cli][pro
     }
   }
   const fs::path out = tmp.path() / "feet.csv";
-  const CliRun run = run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs",
-                              "EPSG:4326", "--in", in.string(), "--out", out.string(), "--quiet"});
-  INFO(run.err);
-  REQUIRE(run.code == 0);
+  convert_navd88_metres_to_feet(in, out);
   std::ifstream table(out);
   std::string line;
   std::getline(table, line);
@@ -552,10 +560,7 @@ TEST_CASE("convert of a table with a header alone writes the header", "[cli][pro
   const fs::path in = tmp.path() / "empty.csv";
   std::ofstream(in) << "id,x,y,height\n";
   const fs::path out = tmp.path() / "out.csv";
-  const CliRun run = run_cli({"convert", "--from", "EPSG:5703", "--to", "EPSG:6360", "--crs",
-                              "EPSG:4326", "--in", in.string(), "--out", out.string(), "--quiet"});
-  INFO(run.err);
-  REQUIRE(run.code == 0);
+  convert_navd88_metres_to_feet(in, out);
   std::ifstream table(out);
   std::string header, row;
   std::getline(table, header);
