@@ -11,8 +11,10 @@
 #include <cmath>
 #include <deque>
 #include <nlohmann/json.hpp>
+#include <span>
 
 #include "heads/head_writers.hpp"
+#include "heads/series_store.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/rejects.hpp"
@@ -236,7 +238,6 @@ struct WellState {
   std::optional<EventHead> event;  // contourable reading nearest the event
   double event_distance = INFINITY;
   bool repeat_problem = false;
-  std::vector<std::pair<double, double>> series;  // (time, head) of contourable numeric heads
 };
 
 void write_qa(std::ostream& qa_csv, const QaEntry& e) {
@@ -278,11 +279,11 @@ void write_measuring_points(std::ostream& mp_csv, const std::vector<MeasuringPoi
 // A head that departs from the running median of its 5 neighbours in time
 // on each side by more than max(tolerance, 5 * 1.4826 * MAD of the well's
 // departures) (a robust scale, Hampel 1974). Departures as (time, m).
+// `series`: (time, head), sorted.
 std::vector<std::pair<double, double>> departures_from_history(
-    std::vector<std::pair<double, double>> series, double tolerance) {
+    std::span<const std::pair<double, double>> series, double tolerance) {
   std::vector<std::pair<double, double>> out;
   if (series.size() < 7) return out;
-  std::sort(series.begin(), series.end());
   std::vector<double> departure(series.size());
   for (std::size_t i = 0; i < series.size(); ++i) {
     std::vector<double> around;
@@ -306,8 +307,9 @@ std::vector<std::pair<double, double>> departures_from_history(
 void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
                      const LevelsColumns& c, const WellSet& wells,
                      const MeasuringPointHistory& history, const HeadOptions& options,
-                     std::vector<WellState>& state, const std::vector<HeadSink*>& sinks,
-                     std::ostream& qa_csv, HeadsSummary& summary) {
+                     std::vector<WellState>& state, WellSeriesStore& series,
+                     const std::vector<HeadSink*>& sinks, std::ostream& qa_csv,
+                     HeadsSummary& summary) {
   const Well& well = wells.wells[reading.well];
   const auto mp = history.at(reading.well, reading.time);
   if (!mp) {
@@ -351,7 +353,7 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
                          record.mp.network_point ? *record.mp.network_point : std::string()};
   }
   if (record.head && (record.contour() || record.reason == outside_event_reason))
-    ws.series.emplace_back(reading.time, *record.head);
+    series.add(reading.well, reading.time, *record.head);
   summary.heads += record.head.has_value();
   summary.contourable += record.contour();
   summary.in_event += options.event && !record.outside_event;
@@ -480,6 +482,9 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   // 2. Readings, streamed through the core into the sinks.
   HeadsSummary& summary = result.summary;
   std::vector<WellState> state(wells.wells.size(), WellState(options));
+  // (time, head) of the contourable numeric heads, and those outside the
+  // event's window, for step 3.
+  WellSeriesStore series(wells.wells.size(), out.folder());
   std::vector<RejectedRecord> rejects;
   read_table_in_batches(levels, levels_table, 100000, [&](Table& t) {
     const LevelsColumns columns(t);
@@ -487,7 +492,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
       ++summary.readings;
       try {
         process_reading(read_reading(t, r, columns, wells, options, times), t, r, columns, wells,
-                        history, options, state, sinks, qa_csv, summary);
+                        history, options, state, series, sinks, qa_csv, summary);
       } catch (const InputError& e) {
         // A row fails before anything of it is written or counted.
         if (!options.keep_going) throw;
@@ -503,9 +508,9 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
 
   // 3. Each well against its own history.
   std::map<std::string, std::vector<std::string>> history_departures;
-  for (std::size_t w = 0; w < state.size(); ++w) {
+  series.visit_wells([&](std::size_t w, std::span<const std::pair<double, double>> points) {
     for (const auto& [time, departure] :
-         departures_from_history(state[w].series, options.history_tolerance)) {
+         departures_from_history(points, options.history_tolerance)) {
       const std::string when = format_utc(time);
       write_qa(qa_csv,
                {wells.wells[w].id, when, "departs-from-history",
@@ -514,7 +519,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
           fmt::format("head at {} departs {:+.3f} m from its own trend", when, departure));
       ++summary.flags["departs-from-history"];
     }
-  }
+  });
 
   // 4. Across wells, for the synoptic event.
   nlohmann::json event_summary = nullptr;

@@ -26,6 +26,8 @@ namespace levelhead {
 
 namespace {
 
+constexpr std::string_view utf8_byte_order_mark = "\xEF\xBB\xBF";
+
 // The widest sheet of common spreadsheet programs (16384 columns, XFD): no
 // survey table comes near it, and a header far wider is a wrong file.
 constexpr std::size_t max_columns = 16384;
@@ -148,11 +150,12 @@ bool blank(const std::vector<std::string_view>& cells) {
 
 namespace {
 
+// `text` has been checked for UTF-8. After each batch is consumed,
+// `passed(offset)` is told how far into `text` the reader has come.
 void parse_delimited_batches(std::string_view text, const std::string& source,
                              const TableOptions& options, std::size_t batch_rows,
-                             const std::function<void(Table&)>& consume) {
-  if (text.substr(0, 3) == "\xEF\xBB\xBF") text.remove_prefix(3);  // UTF-8 byte order mark
-  util::require_utf8_file(text, source);
+                             const std::function<void(Table&)>& consume,
+                             const std::function<void(std::size_t)>& passed = {}) {
   const std::size_t first_break = text.find_first_of("\r\n");
   const char separator = detect_separator(text.substr(0, first_break));
 
@@ -196,6 +199,7 @@ void parse_delimited_batches(std::string_view text, const std::string& source,
     if (!one_batch && table.row_count() >= batch_rows) {
       consume(table);
       table = fresh();
+      if (passed) passed(reader.position());
       progress.report(static_cast<double>(reader.position()) / static_cast<double>(text.size()));
     }
   }
@@ -207,6 +211,8 @@ void parse_delimited_batches(std::string_view text, const std::string& source,
 Table parse_delimited_text(std::string_view text, const std::string& source,
                            const TableOptions& options) {
   std::optional<Table> result;
+  if (text.substr(0, 3) == utf8_byte_order_mark) text.remove_prefix(3);
+  util::require_utf8_file(text, source);
   parse_delimited_batches(text, source, options, 0,
                           [&](Table& t) { result.emplace(std::move(t)); });
   return std::move(*result);
@@ -241,8 +247,41 @@ void read_table_in_batches(const std::filesystem::path& path, const TableOptions
     std::size_t n;
     ~Unmap() { ::munmap(p, n); }
   } unmap{mapped, size};
-  parse_delimited_batches(std::string_view(static_cast<const char*>(mapped), size), path.string(),
-                          options, std::max<std::size_t>(batch_rows, 1), consume);
+  const char* const begin = static_cast<const char*>(mapped);
+  // Pages behind the reader are given back (MADV_DONTNEED on a read-only
+  // file mapping unmaps them from this process; the file and the page cache
+  // keep them, and a later touch reads them again), so that resident memory
+  // stays bounded whatever the file's size.
+  const std::size_t page = static_cast<std::size_t>(::sysconf(_SC_PAGESIZE));
+  std::size_t released = 0;
+  const auto release_before = [&](const char* position) {
+    const std::size_t upto = static_cast<std::size_t>(position - begin) / page * page;
+    if (upto > released) {
+      ::madvise(const_cast<char*>(begin) + released, upto - released, MADV_DONTNEED);
+      released = upto;
+    }
+  };
+  std::string_view text(begin, size);
+  if (text.substr(0, 3) == utf8_byte_order_mark) text.remove_prefix(3);
+  // The UTF-8 check in windows that end after a line break (a break is never
+  // inside a multi-byte character); the whole text only to word an error.
+  if (util::utf16_hint(text)) util::require_utf8_file(text, path.string());
+  constexpr std::size_t utf8_window = std::size_t{16} << 20;
+  for (std::size_t start = 0; start < text.size();) {
+    std::size_t end = std::min(text.size(), start + utf8_window);
+    if (end < text.size()) {
+      const std::size_t last_break = text.rfind('\n', end - 1);
+      if (last_break != std::string_view::npos && last_break >= start) end = last_break + 1;
+    }
+    if (util::first_invalid_utf8(text.substr(start, end - start)))
+      util::require_utf8_file(text, path.string());
+    release_before(text.data() + end);
+    start = end;
+  }
+  released = 0;
+  parse_delimited_batches(text, path.string(), options, std::max<std::size_t>(batch_rows, 1),
+                          consume,
+                          [&](std::size_t offset) { release_before(text.data() + offset); });
 }
 
 namespace detail {
