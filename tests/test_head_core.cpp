@@ -3,6 +3,7 @@
 // checks, the contouring decision and the flag table. Invented wells; every
 // expected value is worked by hand from the formulas in head_core.hpp.
 
+#include <fmt/format.h>
 #include <gdal.h>
 #include <ogr_api.h>
 #include <ogr_srs_api.h>
@@ -403,4 +404,54 @@ TEST_CASE("heads.gpkg is typed as a GIS expects, with NULLs and the layer's meta
   OGR_F_Destroy(first);
   OGR_F_Destroy(second);
   GDALClose(gpkg);
+}
+
+// heads.gpkg is written by a thread of its own, batch by batch: every
+// reading must arrive once and in order, and a bad row after some batches
+// have been written must stop it all and leave nothing.
+TEST_CASE("heads.gpkg holds every reading in order across batches, or nothing",
+          "[heads][gpkg][safety]") {
+  OneWellFiles files;
+  const int readings = 10000;  // a few of the writer's batches
+  const auto levels = [&](int bad_row) {
+    std::string text;
+    for (int i = 0; i < readings; ++i) {
+      text += fmt::format("W1,{}T{:02d}:{:02d}Z,{}\n", i < 5000 ? "2020-03-01" : "2020-03-02",
+                          (i % 5000) / 60 % 24, i % 60, i == bad_row ? "deep" : "4.000");
+    }
+    return text;
+  };
+  std::vector<std::string> args = files.heads_args(levels(-1), "all");
+  args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
+  const auto run = levelhead::testing::run_cli(args);
+  INFO(run.err);
+  REQUIRE(run.code == 0);
+  GDALAllRegister();
+  GDALDatasetH gpkg = GDALOpenEx((files.tmp.path() / "all" / "heads.gpkg").string().c_str(),
+                                 GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr, nullptr);
+  REQUIRE(gpkg);
+  OGRLayerH layer = GDALDatasetGetLayerByName(gpkg, "heads");
+  REQUIRE(layer);
+  CHECK(OGR_L_GetFeatureCount(layer, 1) == readings);
+  // The time column in row order is the levels table's order.
+  const int time = OGR_FD_GetFieldIndex(OGR_L_GetLayerDefn(layer), "time");
+  OGR_L_ResetReading(layer);
+  int in_order = 0;
+  for (int i = 0; i < readings; ++i) {
+    OGRFeatureH f = OGR_L_GetNextFeature(layer);
+    REQUIRE(f);
+    const std::string expected = fmt::format(
+        "{}T{:02d}:{:02d}Z", i < 5000 ? "2020-03-01" : "2020-03-02", (i % 5000) / 60 % 24, i % 60);
+    in_order += std::string(OGR_F_GetFieldAsString(f, time)) == expected;
+    OGR_F_Destroy(f);
+  }
+  CHECK(in_order == readings);
+  GDALClose(gpkg);
+
+  args = files.heads_args(levels(9000), "stopped");
+  args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
+  const auto stopped = levelhead::testing::run_cli(args);
+  CHECK(stopped.code == 1);
+  CHECK_THAT(stopped.err, Catch::Matchers::Contains("row 9002"));
+  CHECK_FALSE(std::filesystem::exists(files.tmp.path() / "stopped"));
 }

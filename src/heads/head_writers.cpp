@@ -22,6 +22,8 @@ namespace levelhead {
 
 namespace {
 
+constexpr std::size_t rows_per_batch = 4096;
+
 // A time in seconds since 1970 UTC as an OGR DateTime in UTC (TZ flag 100).
 void set_utc(OGRFeatureH feature, int field, double seconds) {
   using namespace std::chrono;
@@ -163,42 +165,117 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
   OGR_F_SetGeometryDirectly(feature_, OGR_G_CreateGeometry(wkbPoint));
   point_ = OGR_F_GetGeometryRef(feature_);
   GDALDatasetStartTransaction(dataset_, 1);
+  batch_.reserve(rows_per_batch);
+  thread_ = std::thread([this] { write_rows(); });
 }
 
 HeadsGpkgWriter::~HeadsGpkgWriter() {
+  if (thread_.joinable()) {
+    {
+      const std::lock_guard lock(mutex_);
+      closing_ = true;
+      queue_.clear();  // an error is on its way out: what waits is not written
+    }
+    changed_.notify_all();
+    thread_.join();
+  }
   if (feature_) OGR_F_Destroy(feature_);
   if (dataset_) GDALClose(dataset_);
 }
 
 void HeadsGpkgWriter::write(const Well& well, const ReadingInput& reading, const HeadRecord& r) {
+  Row& row = batch_.emplace_back();
+  row.well = &well;
+  row.time = reading.time;
+  row.time_text = reading.time_text;
+  row.state = r.state;
+  if (!r.flags.empty()) row.flags = fmt::format("{}", fmt::join(r.flags, " "));
+  row.head = r.head;
+  row.sigma = r.sigma;
+  row.sigma_relative = r.sigma_relative;
+  row.mp_elevation = r.mp.height;
+  row.contour = r.contour();
+  row.in_event = !r.outside_event;
+  if (batch_.size() >= rows_per_batch) hand_over();
+}
+
+void HeadsGpkgWriter::hand_over() {
+  std::unique_lock lock(mutex_);
+  // Two batches in the queue at most: the thread is the slower side.
+  changed_.wait(lock, [&] { return queue_.size() < 2 || error_; });
+  if (error_) std::rethrow_exception(error_);
+  queue_.push_back(std::move(batch_));
+  lock.unlock();
+  changed_.notify_all();
+  batch_ = {};
+  batch_.reserve(rows_per_batch);
+}
+
+void HeadsGpkgWriter::write_rows() {
+  std::unique_lock lock(mutex_);
+  while (true) {
+    changed_.wait(lock, [&] { return !queue_.empty() || closing_; });
+    if (queue_.empty()) return;
+    const std::vector<Row> rows = std::move(queue_.front());
+    queue_.pop_front();
+    lock.unlock();
+    std::exception_ptr failed;
+    try {
+      const util::GdalMessages gdal;
+      for (const Row& row : rows) {
+        if (OGR_L_CreateFeature(layer_, fill_feature(row)) != OGRERR_NONE)
+          throw OutputError("writing heads.gpkg failed" + gdal.quoted());
+      }
+    } catch (...) {
+      failed = std::current_exception();
+    }
+    lock.lock();
+    if (failed) {
+      error_ = failed;
+      queue_.clear();
+      closing_ = true;
+    }
+    changed_.notify_all();
+  }
+}
+
+OGRFeatureH HeadsGpkgWriter::fill_feature(const Row& row) {
   OGRFeatureH f = feature_;
   for (int i = 0; i < OGR_F_GetFieldCount(f); ++i) OGR_F_SetFieldNull(f, i);
   OGR_F_SetFID(f, OGRNullFID);
-  OGR_F_SetFieldString(f, 0, well.id.c_str());
-  OGR_F_SetFieldString(f, 1, reading.time_text.c_str());
-  set_utc(f, 2, reading.time);
-  if (r.head) {
-    OGR_F_SetFieldDouble(f, 3, *r.head * k_);
-    OGR_F_SetFieldDouble(f, 4, r.sigma * k_);
-    OGR_F_SetFieldDouble(f, 5, r.sigma_relative * k_);
+  OGR_F_SetFieldString(f, 0, row.well->id.c_str());
+  OGR_F_SetFieldString(f, 1, row.time_text.c_str());
+  set_utc(f, 2, row.time);
+  if (row.head) {
+    OGR_F_SetFieldDouble(f, 3, *row.head * k_);
+    OGR_F_SetFieldDouble(f, 4, row.sigma * k_);
+    OGR_F_SetFieldDouble(f, 5, row.sigma_relative * k_);
   }
   OGR_F_SetFieldString(f, 6, target_.c_str());
-  OGR_F_SetFieldDouble(f, 7, r.mp.height * k_);
-  if (!r.state.empty()) OGR_F_SetFieldString(f, 8, r.state.c_str());
-  if (!r.flags.empty())
-    OGR_F_SetFieldString(f, 9, fmt::format("{}", fmt::join(r.flags, " ")).c_str());
-  OGR_F_SetFieldInteger(f, 10, r.contour() ? 1 : 0);
-  if (has_event_) OGR_F_SetFieldInteger(f, 11, r.outside_event ? 0 : 1);
-  OGR_G_SetPoint_2D(point_, 0, well.x, well.y);
-  const OGRErr err = OGR_L_CreateFeature(layer_, f);
-  if (err != OGRERR_NONE)
-    throw OutputError("writing heads.gpkg failed: " + std::string(CPLGetLastErrorMsg()));
+  OGR_F_SetFieldDouble(f, 7, row.mp_elevation * k_);
+  if (!row.state.empty()) OGR_F_SetFieldString(f, 8, row.state.c_str());
+  if (!row.flags.empty()) OGR_F_SetFieldString(f, 9, row.flags.c_str());
+  OGR_F_SetFieldInteger(f, 10, row.contour ? 1 : 0);
+  if (has_event_) OGR_F_SetFieldInteger(f, 11, row.in_event ? 1 : 0);
+  OGR_G_SetPoint_2D(point_, 0, row.well->x, row.well->y);
+  return f;
 }
 
 void HeadsGpkgWriter::finish() {
+  if (!batch_.empty()) hand_over();
+  {
+    // The thread writes what is queued before it ends.
+    const std::lock_guard lock(mutex_);
+    closing_ = true;
+  }
+  changed_.notify_all();
+  thread_.join();
+  if (error_) std::rethrow_exception(error_);
   OGR_F_Destroy(feature_);
   feature_ = nullptr;
-  GDALDatasetCommitTransaction(dataset_);
+  const util::GdalMessages gdal;
+  if (GDALDatasetCommitTransaction(dataset_) != OGRERR_NONE)
+    throw OutputError("cannot finish writing heads.gpkg" + gdal.quoted());
   GDALClose(dataset_);
   dataset_ = nullptr;
 }
