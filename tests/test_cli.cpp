@@ -449,7 +449,7 @@ TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict
   const CliRun run = run_cli(args(false));
   INFO(run.out << run.err);
   REQUIRE(run.code == 0);
-  CHECK_THAT(run.out, Contains("C            moving (step 1)"));
+  CHECK_THAT(run.out, Contains("C            moving (step 1: Omega "));
   for (const char* name : {"epochs.csv", "reference_stability.csv", "displacements.csv",
                            "rates.csv", "heights_by_epoch.csv", "summary.json"}) {
     CHECK(fs::exists(out / name));
@@ -457,6 +457,20 @@ TEST_CASE("epochs: one sections table with an epoch column, outputs and --strict
   std::ifstream summary_file(out / "summary.json");
   const auto summary = nlohmann::json::parse(summary_file);
   CHECK(summary["held_mark"] == "A");
+  // The moving mark names the runner-up of its step, on the console and in
+  // the JSON alike; the stable ones have none.
+  for (const auto& mark : summary["marks"]) {
+    CAPTURE(mark.dump());
+    if (mark["mark"] == "C") {
+      CHECK(mark["next_best"].is_string());
+      CHECK(mark["next_best_omega"].is_number());
+      CHECK_THAT(run.out, Contains(fmt::format("leaving out {} instead",
+                                               mark["next_best"].get<std::string>())));
+    } else {
+      CHECK(mark["next_best"].is_null());
+      CHECK(mark["next_best_omega"].is_null());
+    }
+  }
   CHECK(summary["congruence_tests"][0]["passed"] == false);
   CHECK(summary["congruence_tests"].back()["passed"] == true);
   CHECK(run_cli(args(true)).code == 3);

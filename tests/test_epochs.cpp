@@ -15,6 +15,7 @@
 using namespace levelhead;
 using namespace levelhead::testing;
 using Catch::Matchers::WithinAbs;
+using Catch::Matchers::WithinRel;
 
 namespace {
 
@@ -142,6 +143,61 @@ TEST_CASE("a reference mark sinking 8 mm among four is found and left out", "[ep
   }
   CHECK(found_rate);
   CHECK(a.warnings.empty());  // same season, equal intervals, epochs pass their tests
+}
+
+// The stepwise search takes each candidate's Omega from the current fit's
+// factorisation (the test of added parameters) instead of refitting: its
+// choice must be the mark whose removal a refit of the remaining marks
+// finds lowest, and the test it reports must be that refit's.
+TEST_CASE("each step leaves out the mark a refit of every candidate set would choose", "[epochs]") {
+  const SimulatedSite site;
+  const std::vector<double> base = {100.0, 101.2, 99.4, 100.7, 100.3, 99.9, 100.1};
+  const char* dates[] = {"2025-04-15", "2026-04-15", "2027-04-15"};
+  int steps_checked = 0;
+  for (unsigned seed = 1; seed <= 12; ++seed) {
+    CAPTURE(seed);
+    // Two marks move by a few sigma each, so that the candidates' Omegas lie close.
+    std::mt19937 random(seed);
+    std::uniform_real_distribution<double> move(0.002, 0.006);
+    std::vector<std::vector<double>> truth(3, base);
+    truth[1][3] -= move(random);
+    truth[2][3] = truth[1][3] - move(random);
+    truth[2][1] += move(random);
+    const auto epochs = [&] {
+      std::mt19937 noise(seed * 7919u);
+      std::vector<EpochSections> e;
+      for (int k = 0; k < 3; ++k)
+        e.push_back(site.make(fmt::format("E{}", k + 1), dates[k], truth[k], noise));
+      return e;
+    };
+    const EpochAnalysis all = analyse_epochs(site.points(), epochs(), four_marks, EpochOptions{});
+    if (all.tests.front().passed) continue;
+    REQUIRE(all.tests.size() >= 2);
+    std::vector<std::pair<double, std::string>> refits;  // Omega without the mark, the mark
+    for (const std::string& left_out : four_marks) {
+      std::vector<std::string> rest;
+      for (const std::string& mark : four_marks)
+        if (mark != left_out) rest.push_back(mark);
+      refits.emplace_back(
+          analyse_epochs(site.points(), epochs(), rest, EpochOptions{}).tests.front().omega,
+          left_out);
+    }
+    std::sort(refits.begin(), refits.end());
+    const auto first_moving = std::find_if(
+        all.marks.begin(), all.marks.end(),
+        [](const MarkVerdict& v) { return v.kind == MarkVerdict::Kind::moving && v.step == 1; });
+    REQUIRE(first_moving != all.marks.end());
+    CHECK(first_moving->mark == refits[0].second);
+    // Refits of the same set: equal but for rounding (1e-9 relative).
+    CHECK_THAT(all.tests[1].omega, WithinRel(refits[0].first, 1e-9));
+    // The runner-up's Omega comes from the current fit alone: the same to
+    // rounding as the refit (the drop of v'Pv is an identity, not a bound).
+    CHECK(first_moving->next_best == refits[1].second);
+    REQUIRE(first_moving->next_best_omega);
+    CHECK_THAT(*first_moving->next_best_omega, WithinRel(refits[1].first, 1e-9));
+    ++steps_checked;
+  }
+  CHECK(steps_checked >= 8);
 }
 
 TEST_CASE("with no movement no mark is named", "[epochs]") {

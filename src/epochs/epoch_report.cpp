@@ -153,10 +153,14 @@ void write_epoch_outputs(const EpochAnalysis& a, const EpochOptions& options,
   summary["congruence_tests"] = std::move(tests);
   nlohmann::json verdicts = nlohmann::json::array();
   for (const MarkVerdict& v : a.marks) {
-    verdicts.push_back({{"mark", v.mark},
-                        {"verdict", to_string(v.kind)},
-                        {"step", v.step ? nlohmann::json(*v.step) : nlohmann::json(nullptr)},
-                        {"reason", v.reason}});
+    verdicts.push_back(
+        {{"mark", v.mark},
+         {"verdict", to_string(v.kind)},
+         {"step", v.step ? nlohmann::json(*v.step) : nlohmann::json(nullptr)},
+         {"next_best", v.next_best.empty() ? nlohmann::json(nullptr) : nlohmann::json(v.next_best)},
+         {"next_best_omega",
+          v.next_best_omega ? nlohmann::json(*v.next_best_omega) : nlohmann::json(nullptr)},
+         {"reason", v.reason}});
   }
   summary["marks"] = std::move(verdicts);
   summary["held_mark"] = a.held_mark;
@@ -202,8 +206,14 @@ std::string epoch_summary_text(const EpochAnalysis& a) {
       fmt::format("Congruence of the marks: {} = {:.3f} against {:.3f}: {}\n", first.distribution,
                   first.statistic, first.critical, first.passed ? "passed" : "failed");
   for (const MarkVerdict& v : a.marks) {
-    text += fmt::format("  {:<12} {}{}\n", v.mark, to_string(v.kind),
-                        v.step ? fmt::format(" (step {})", *v.step) : "");
+    std::string step;
+    if (v.step && v.next_best_omega) {
+      step = fmt::format(" (step {}: Omega {:.4g} without it; leaving out {} instead: {:.4g})",
+                         *v.step, a.tests[*v.step].omega, v.next_best, *v.next_best_omega);
+    } else if (v.step) {
+      step = fmt::format(" (step {})", *v.step);
+    }
+    text += fmt::format("  {:<12} {}{}\n", v.mark, to_string(v.kind), step);
   }
   text += fmt::format("Datum: {} held ({})\n", a.held_mark, a.reference);
   std::vector<const Displacement*> moved;

@@ -90,6 +90,8 @@ struct JointSolution {
   Eigen::VectorXd x;
   // Cofactors of the unknowns; only when asked for.
   std::unique_ptr<detail::EpochBlockSolver> cofactors;
+  // Otherwise the factorisation, for further solves.
+  std::unique_ptr<detail::NormalSolver> solver;
   double held_height = 0.0;
 
   double height(std::size_t epoch, std::size_t point) const {
@@ -161,7 +163,8 @@ JointSolution solve_joint(const Model& m, const std::vector<char>& shared, std::
                                                                std::move(epoch_begin), limits);
       s.x = s.cofactors->solve(rhs);
     } else {
-      s.x = detail::NormalSolver(normal, limits).solve(rhs);
+      s.solver = std::make_unique<detail::NormalSolver>(normal, limits);
+      s.x = s.solver->solve(rhs);
     }
   } catch (const ComputationError& e) {
     throw ComputationError(fmt::format(
@@ -209,19 +212,23 @@ std::size_t first_shared(const std::vector<char>& shared) {
   return static_cast<std::size_t>(std::find(shared.begin(), shared.end(), 1) - shared.begin());
 }
 
-// Global congruence test (Pelzer 1971; Caspary 2000, sec. 6.3).
-CongruenceTest congruence_test(const Model& m, const std::vector<char>& shared,
-                               const TestSettings& t, double max_factor_nonzeros) {
+struct CongruenceFit {
+  CongruenceTest test;
+  JointSolution joint;  // with its factorisation
+};
+
+// Global congruence test (Pelzer 1971; Caspary 2000, sec. 6.3) of the
+// marks `shared`, whose joint fit has `joint_vtpv`.
+CongruenceTest congruence_verdict(const Model& m, const std::vector<char>& shared,
+                                  const TestSettings& t, double joint_vtpv) {
   CongruenceTest test;
   for (std::size_t p = 0; p < m.ids.size(); ++p) {
     if (shared[p]) test.marks.push_back(m.ids[p]);
   }
   test.h = congruence_dof(m, shared);
-  const JointSolution joint =
-      solve_joint(m, shared, first_shared(shared), 0.0, false, max_factor_nonzeros);
   // The joint fit can never be better than the separate ones; a tiny
   // negative difference is rounding.
-  test.omega = std::max(0.0, joint.vtpv - t.separate_vtpv);
+  test.omega = std::max(0.0, joint_vtpv - t.separate_vtpv);
   if (test.h == 0) {
     test.distribution = "none (no redundancy between the marks)";
     return test;
@@ -238,6 +245,65 @@ CongruenceTest congruence_test(const Model& m, const std::vector<char>& shared,
   }
   test.passed = test.statistic <= test.critical;
   return test;
+}
+
+// The joint fit of the marks `shared` and their congruence test.
+CongruenceFit congruence_test(const Model& m, const std::vector<char>& shared,
+                              const TestSettings& t, double max_factor_nonzeros) {
+  CongruenceFit fit;
+  fit.joint = solve_joint(m, shared, first_shared(shared), 0.0, false, max_factor_nonzeros);
+  fit.test = congruence_verdict(m, shared, t, fit.joint.vtpv);
+  return fit;
+}
+
+// How much v'Pv of the joint fit drops when mark `p` stops being shared,
+// from that fit's own factorisation: freeing the mark adds one parameter
+// per epoch that observes it after the first, the offset of its height in
+// that epoch (columns C: +1 on the epoch's observations to the mark, -1 on
+// those from it). The drop is the test statistic of q added parameters,
+// T_q = g' M^-1 g with g = C'P v and M = C'P Q_v P C = C'PC - C'PA N^-1 A'PC,
+// which equals the difference of the two fits' v'Pv exactly (Teunissen,
+// "Testing Theory: an introduction", 2000, the generalised likelihood
+// ratio test of a linear model). One solve with N per added parameter
+// replaces a factorisation per candidate. nullopt when M is not safely
+// positive definite (an offset the epochs cannot determine): the caller
+// refits then.
+std::optional<double> vtpv_drop_when_freed(const Model& m, const JointSolution& joint,
+                                           const std::vector<std::size_t>& observations_at_p,
+                                           std::size_t p) {
+  std::vector<std::size_t> epochs;
+  for (const std::size_t o : observations_at_p) epochs.push_back(m.observations[o].epoch);
+  std::sort(epochs.begin(), epochs.end());
+  epochs.erase(std::unique(epochs.begin(), epochs.end()), epochs.end());
+  if (epochs.size() < 2) return 0.0;  // seen in one epoch: nothing is shared
+  const std::size_t q = epochs.size() - 1;
+  const Eigen::Index u = joint.x.size();
+  Eigen::VectorXd g = Eigen::VectorXd::Zero(static_cast<Eigen::Index>(q));
+  Eigen::VectorXd ctpc = Eigen::VectorXd::Zero(static_cast<Eigen::Index>(q));
+  Eigen::MatrixXd atpc = Eigen::MatrixXd::Zero(u, static_cast<Eigen::Index>(q));
+  for (const std::size_t index : observations_at_p) {
+    const Observation& o = m.observations[index];
+    const auto at = std::lower_bound(epochs.begin(), epochs.end(), o.epoch);
+    if (at == epochs.begin()) continue;  // the first epoch keeps the shared height
+    const auto column = static_cast<Eigen::Index>(at - epochs.begin() - 1);
+    const double c = o.to == p ? 1.0 : -1.0;
+    const double v = joint.height(o.epoch, o.to) - joint.height(o.epoch, o.from) - o.dh;
+    g(column) += c * o.weight * v;
+    ctpc(column) += o.weight;
+    if (const long t = joint.unknown[o.epoch][o.to]; t >= 0) atpc(t, column) += c * o.weight;
+    if (const long f = joint.unknown[o.epoch][o.from]; f >= 0) atpc(f, column) -= c * o.weight;
+  }
+  Eigen::MatrixXd mq = ctpc.asDiagonal();
+  for (Eigen::Index j = 0; j < static_cast<Eigen::Index>(q); ++j) {
+    const Eigen::VectorXd y = joint.solver->solve(atpc.col(j));
+    mq.col(j) -= atpc.transpose() * y;
+  }
+  const Eigen::LDLT<Eigen::MatrixXd> ldlt(mq);
+  // A pivot below 1e-10 of C'PC is an offset the other observations
+  // barely fix: its drop would be rounding noise amplified.
+  if (ldlt.info() != Eigen::Success || ldlt.vectorD().minCoeff() <= 1e-10 * ctpc.maxCoeff())
+    return std::nullopt;
+  return g.dot(ldlt.solve(g));
 }
 
 int season_of(double seconds) {
@@ -539,25 +605,52 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
   if (!every_epoch_holds_one(m, stable)) {
     throw std::logic_error("analyse_epochs: an epoch without a candidate passed adjust_epoch");
   }
-  out.tests.push_back(congruence_test(m, stable, settings, options.adjustment.max_factor_nonzeros));
+  const double max_nonzeros = options.adjustment.max_factor_nonzeros;
+  CongruenceFit current = congruence_test(m, stable, settings, max_nonzeros);
+  out.tests.push_back(current.test);
+  std::vector<std::vector<std::size_t>> observations_at(m.ids.size());
+  if (!current.test.passed) {
+    for (std::size_t o = 0; o < m.observations.size(); ++o) {
+      observations_at[m.observations[o].from].push_back(o);
+      observations_at[m.observations[o].to].push_back(o);
+    }
+  }
   std::size_t step = 0;
   while (!out.tests.back().passed && out.tests.back().marks.size() > 2) {
     const double omega = out.tests.back().omega;
-    std::optional<std::size_t> best;
-    CongruenceTest best_test;
+    // Each candidate's Omega from the current fit (vtpv_drop_when_freed);
+    // the chosen set is refitted only when a further step needs its fit.
+    std::optional<std::size_t> best, second;
+    double best_omega = 0.0, second_omega = 0.0, best_vtpv = 0.0;
     for (std::size_t p = 0; p < m.ids.size(); ++p) {
       if (!stable[p]) continue;
       std::vector<char> without = stable;
       without[p] = 0;
       if (!every_epoch_holds_one(m, without)) continue;
-      CongruenceTest t =
-          congruence_test(m, without, settings, options.adjustment.max_factor_nonzeros);
-      if (!best || t.omega < best_test.omega) {
+      const std::optional<double> drop =
+          vtpv_drop_when_freed(m, current.joint, observations_at[p], p);
+      const double vtpv = drop ? current.joint.vtpv - *drop
+                               : congruence_test(m, without, settings, max_nonzeros).joint.vtpv;
+      const double candidate_omega = std::max(0.0, vtpv - settings.separate_vtpv);
+      if (!best || candidate_omega < best_omega) {
+        second = best;
+        second_omega = best_omega;
         best = p;
-        best_test = std::move(t);
+        best_omega = candidate_omega;
+        best_vtpv = vtpv;
+      } else if (!second || candidate_omega < second_omega) {
+        second = p;
+        second_omega = candidate_omega;
       }
     }
     if (!best) break;
+    std::vector<char> without = stable;
+    without[*best] = 0;
+    CongruenceTest best_test = congruence_verdict(m, without, settings, best_vtpv);
+    if (!best_test.passed && best_test.marks.size() > 2) {
+      current = congruence_test(m, without, settings, max_nonzeros);
+      best_test = current.test;
+    }
     ++step;
     MarkVerdict v;
     v.mark = m.ids[*best];
@@ -569,6 +662,13 @@ EpochAnalysis analyse_epochs(const PointTable& points, std::vector<EpochSections
         "out lowered Omega most, from {:.4g} to {:.4g}",
         step, out.tests.back().distribution, out.tests.back().statistic, out.tests.back().critical,
         omega, best_test.omega);
+    if (second) {
+      v.next_best = m.ids[*second];
+      v.next_best_omega = second_omega;
+      // How clear the choice was: close Omegas mean the data hardly tell
+      // which of the two marks moved.
+      v.reason += fmt::format(" (leaving out {} instead: {:.4g})", v.next_best, second_omega);
+    }
     out.marks.push_back(std::move(v));
     stable[*best] = 0;
     out.tests.push_back(std::move(best_test));

@@ -101,6 +101,10 @@ struct MarkVerdict {
   enum class Kind { stable, moving, unresolved } kind = Kind::stable;
   std::optional<std::size_t> step;  // 1-based step at which it was removed
   double contribution = 0.0;        // drop of Omega when it was removed
+  // For a moving mark: the candidate whose removal lowered Omega second
+  // most at its step, and Omega without it; empty when there was none.
+  std::string next_best;
+  std::optional<double> next_best_omega;
   std::string reason;
 };
 std::string to_string(MarkVerdict::Kind kind);
