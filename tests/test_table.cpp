@@ -18,6 +18,7 @@
 #include "levelhead/core/progress.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/time.hpp"
+#include "support/cli_run.hpp"
 #include "support/temp_folder.hpp"
 #include "util/gdal_messages.hpp"
 
@@ -428,6 +429,41 @@ TEST_CASE("a CSV with a cell that is not a number is never put in place",
   out.open("notes.csv") << "point,note\nBM1,info\nBM2,nano\nBM3,\"nan\"\nBM4,nan1\n";
   CHECK_NOTHROW(out.commit());
   CHECK(std::filesystem::exists(folder.path() / "notes.csv"));
+}
+
+// A table written whole by CsvRows on the set is checked number by number
+// as it is written, and not read back at commit: a non-finite number is
+// still refused, named by row and column, and text is never mistaken for one.
+TEST_CASE("a table written by CsvRows is checked as it is written", "[table][outputs][safety]") {
+  for (const double bad :
+       {std::numeric_limits<double>::quiet_NaN(), -std::numeric_limits<double>::infinity()}) {
+    testing::TempFolder folder;
+    {
+      OutputSet out(folder.path());
+      CsvRows rows(out, "heights.csv");
+      rows.line("point,height,sigma");
+      rows.text("BM1").fixed(101.2, 4).fixed(0.001, 4).end_row();
+      rows.text("BM2").fixed(99.0, 4).fixed(bad, 4).end_row();
+      rows.finish();
+      REQUIRE(rows.first_non_finite());
+      CHECK_THAT(*rows.first_non_finite(), Contains("row 3") && Contains("column 'sigma'"));
+      CHECK_THROWS_WITH(out.commit(),
+                        Contains("heights.csv") && Contains("row 3") && Contains("column 'sigma'"));
+    }
+    CHECK_FALSE(std::filesystem::exists(folder.path() / "heights.csv"));
+  }
+  // Header cells given one by one name the column too; an id that reads
+  // "nan" is text and is written.
+  testing::TempFolder folder;
+  OutputSet out(folder.path());
+  CsvRows rows(out, "points.csv");
+  rows.text("id").text("height").end_row();
+  rows.text("nan").fixed(1.5, 3).end_row();
+  rows.text("inf").fixed(std::optional<double>(), 3).end_row();
+  rows.finish();
+  CHECK_FALSE(rows.first_non_finite());
+  CHECK_NOTHROW(out.commit());
+  CHECK(testing::read_file(folder.path() / "points.csv") == "id,height\nnan,1.500\ninf,\n");
 }
 
 TEST_CASE("fixed notation is written as fmt writes it", "[table][outputs][numbers]") {

@@ -93,11 +93,10 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
   OutputSet out(folder);
 
   // The two tables are formatted at the same time, one on another core
-  // (both streams opened first: OutputSet is not shared between threads).
-  std::ostream& heights_file = out.open("heights.csv");
-  std::ostream& residuals_file = out.open("residuals.csv");
+  // (both opened first: OutputSet's files are not opened from two threads).
+  CsvRows heights(out, "heights.csv");
+  CsvRows residuals(out, "residuals.csv");
   const auto write_heights = [&] {
-    CsvRows heights(heights_file);
     heights.line(
         "id,height,sigma,sigma_apriori,control,given_height,control_residual,control_w,"
         "reference,kind,checked");
@@ -127,7 +126,6 @@ void write_adjustment_outputs(const Network& net, const AdjustmentResult& result
     }
   });
   try {
-    CsvRows residuals(residuals_file);
     residuals.line(
         "from,to,dh,residual,w,tau,adjusted_dh,sigma,weight_rule,redundancy,mdb,length,"
         "run,date,suspect,removed_step");

@@ -103,7 +103,7 @@ CommandRunner add_convert_command(CLI::App& app) {
     // A CSV is read, converted and written in parts of this many rows, so
     // that a table of millions of points never sits in memory whole.
     constexpr std::size_t rows_per_part = 65536;
-    const auto convert_into = [&](std::ostream& csv, std::ostream* json) {
+    const auto convert_into = [&](CsvRows& csv, std::ostream* json) {
       PointsTableConverter writer(converter, options, csv);
       bool any_part = false;
       read_table_in_batches(a->input, table_options, rows_per_part, [&](Table& part) {
@@ -118,19 +118,22 @@ CommandRunner add_convert_command(CLI::App& app) {
     HeightConversionSummary counts;
     if (!to_stdout && summary.parent_path() == output.parent_path()) {
       OutputSet out(output.parent_path().empty() ? "." : output.parent_path());
-      counts = convert_into(out.open(output.filename().string()),
-                            &out.open(summary.filename().string()));
+      CsvRows csv(out, output.filename().string());
+      counts = convert_into(csv, &out.open(summary.filename().string()));
       out.commit();
     } else {
       // The table and its summary in different places, or the table on
       // standard output: each written whole, once all of it converted.
-      std::ostringstream csv, json;
+      std::ostringstream csv_text, json;
+      CsvRows csv(csv_text);
       counts = convert_into(csv, summary.empty() ? nullptr : &json);
+      if (const auto& cell = csv.first_non_finite())
+        throw non_finite_output_error(to_stdout ? "the table" : output.filename().string(), *cell);
       if (!summary.empty()) write_file_whole(summary, json.str());
       if (to_stdout)
-        console << csv.str() << std::flush;
+        console << csv_text.str() << std::flush;
       else
-        write_file_whole(output, csv.str());
+        write_file_whole(output, csv_text.str());
     }
     if (!a->quiet) {
       out << fmt::format(

@@ -6,9 +6,11 @@
 #include <unistd.h>
 
 #include <algorithm>
+#include <array>
 #include <charconv>
 #include <cmath>
 #include <cstdint>
+#include <cstring>
 #include <iterator>
 #include <optional>
 
@@ -87,15 +89,28 @@ std::optional<std::string> find_non_finite_cell(const std::filesystem::path& fil
     cell_quoted = false;
     return found;
   };
+  // Bytes that end or open a cell; the rest of a cell longer than 4
+  // characters cannot make it non-finite, so it is skipped by a table look-up
+  // per byte (most cells of a table are longer numbers).
+  std::array<bool, 256> boundary{};
+  for (const unsigned char c : {',', '\n', '"'}) boundary[c] = true;
   while (in) {
     in.read(block.data(), static_cast<std::streamsize>(block.size()));
     const std::size_t n = static_cast<std::size_t>(in.gcount());
+    const char* const data = block.data();
     for (std::size_t i = 0; i < n; ++i) {
-      const char c = block[i];
       if (quoted) {
-        quoted = c != '"';  // "" inside quotes closes and reopens: the same
+        const void* close = std::memchr(data + i, '"', n - i);
+        if (close == nullptr) break;
+        i = static_cast<std::size_t>(static_cast<const char*>(close) - data);
+        quoted = false;  // "" inside quotes closes and reopens: the same
         continue;
       }
+      if (row > 1 && cell_length > sizeof start) {
+        while (i < n && !boundary[static_cast<unsigned char>(data[i])]) ++i;
+        if (i == n) break;
+      }
+      const char c = data[i];
       if (c == ',' || c == '\n') {
         if (auto found = end_cell()) return found;
         if (c == ',') {
@@ -253,12 +268,15 @@ void OutputSet::commit() {
   for (const std::string& name : names) refuse_input_destination(name);
   for (const auto& [name, stream] : streams_) {
     if (std::filesystem::path(name).extension() != ".csv") continue;
-    if (const auto cell = find_non_finite_cell(temporary_path(name))) {
-      throw InternalCheckError(fmt::format(
-          "internal check: {} would hold a value that is not a number at {}; nothing was "
-          "written. This is a fault of levelhead with these inputs: please report it with them",
-          name, *cell));
+    {
+      const std::lock_guard lock(checked_mutex_);
+      if (const auto checked = checked_tables_.find(name); checked != checked_tables_.end()) {
+        if (checked->second) throw non_finite_output_error(name, *checked->second);
+        continue;
+      }
     }
+    if (const auto cell = find_non_finite_cell(temporary_path(name)))
+      throw non_finite_output_error(name, *cell);
   }
   for (const std::string& name : names) flush_to_disk(temporary_path(name));
   const DeferTerminationSignals defer;
@@ -272,6 +290,20 @@ void OutputSet::commit() {
   }
   flush_to_disk(folder_);
   committed_ = true;
+}
+
+void OutputSet::note_checked_table(const std::string& name,
+                                   std::optional<std::string> non_finite_at) {
+  const std::lock_guard lock(checked_mutex_);
+  checked_tables_[name] = std::move(non_finite_at);
+}
+
+InternalCheckError non_finite_output_error(const std::string& name, const std::string& cell) {
+  return InternalCheckError(
+      fmt::format("internal check: {} would hold a value that is not a number at {}; nothing was "
+                  "written. This is a fault of levelhead with these inputs: please report it "
+                  "with them",
+                  name, cell));
 }
 
 void append_csv_cell(std::string& out, std::string_view text) {
@@ -354,27 +386,53 @@ void append_fixed(std::string& out, double value, int decimals) {
 
 CsvRows::CsvRows(std::ostream& out) : out_(out) { buffer_.reserve(csv_block_bytes + 4096); }
 
+CsvRows::CsvRows(OutputSet& set, const std::string& name)
+    : out_(set.open(name)), set_(&set), name_(name) {
+  buffer_.reserve(csv_block_bytes + 4096);
+}
+
 CsvRows::~CsvRows() { finish(); }
 
 void CsvRows::separate() {
-  if (row_started_) buffer_.push_back(',');
+  if (row_started_) {
+    buffer_.push_back(',');
+    ++column_;
+  } else {
+    column_ = 0;
+  }
   row_started_ = true;
 }
 
 CsvRows& CsvRows::line(std::string_view text) {
+  if (rows_ == 0) {
+    for (std::size_t start = 0; start <= text.size();) {
+      const std::size_t comma = std::min(text.find(',', start), text.size());
+      header_.emplace_back(text.substr(start, comma - start));
+      start = comma + 1;
+    }
+  }
   buffer_.append(text);
   buffer_.push_back('\n');
+  ++rows_;
   return *this;
 }
 
 CsvRows& CsvRows::text(std::string_view text) {
   separate();
+  if (rows_ == 0) header_.emplace_back(text);
   append_csv_cell(buffer_, text);
   return *this;
 }
 
+void CsvRows::note_non_finite(double value) {
+  first_non_finite_ =
+      fmt::format("row {}, column '{}' ('{}')", rows_ + 1,
+                  column_ < header_.size() ? header_[column_] : std::to_string(column_ + 1), value);
+}
+
 CsvRows& CsvRows::fixed(double value, int decimals) {
   separate();
+  if (!std::isfinite(value) && !first_non_finite_) note_non_finite(value);
   append_fixed(buffer_, value, decimals);
   return *this;
 }
@@ -398,6 +456,7 @@ CsvRows& CsvRows::empty() {
 void CsvRows::end_row() {
   buffer_.push_back('\n');
   row_started_ = false;
+  ++rows_;
   if (buffer_.size() >= csv_block_bytes) {
     out_.write(buffer_.data(), static_cast<std::streamsize>(buffer_.size()));
     buffer_.clear();
@@ -405,9 +464,11 @@ void CsvRows::end_row() {
 }
 
 void CsvRows::finish() {
-  if (buffer_.empty()) return;
-  out_.write(buffer_.data(), static_cast<std::streamsize>(buffer_.size()));
-  buffer_.clear();
+  if (!buffer_.empty()) {
+    out_.write(buffer_.data(), static_cast<std::streamsize>(buffer_.size()));
+    buffer_.clear();
+  }
+  if (set_ != nullptr) set_->note_checked_table(name_, first_non_finite_);
 }
 
 void write_rejects(std::ostream& out, const std::vector<RejectedRecord>& rejects) {

@@ -26,7 +26,7 @@ constexpr std::size_t conversion_chunk = 65536;
 struct PointsTableConverter::State {
   HeightConverter& converter;
   HeightConversionOptions options;
-  CsvRows csv;
+  CsvRows& csv;
   std::string source;
   bool started = false;
   std::size_t id_col = 0, x_col = 0, y_col = 0, height_col = 0;
@@ -36,13 +36,12 @@ struct PointsTableConverter::State {
   HeightConversionSummary counts;
   std::vector<std::string> failures;  // the first few, for the message
   nlohmann::json failed = nlohmann::json::array();
-  State(HeightConverter& c, const HeightConversionOptions& o, std::ostream& out)
+  State(HeightConverter& c, const HeightConversionOptions& o, CsvRows& out)
       : converter(c), options(o), csv(out) {}
 };
 
 PointsTableConverter::PointsTableConverter(HeightConverter& converter,
-                                           const HeightConversionOptions& options,
-                                           std::ostream& csv)
+                                           const HeightConversionOptions& options, CsvRows& csv)
     : state_(std::make_unique<State>(converter, options, csv)) {}
 
 PointsTableConverter::~PointsTableConverter() = default;

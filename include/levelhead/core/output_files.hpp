@@ -14,10 +14,13 @@
 #include <filesystem>
 #include <fstream>
 #include <map>
+#include <mutex>
 #include <optional>
 #include <string>
 #include <string_view>
 #include <vector>
+
+#include "levelhead/core/errors.hpp"
 
 namespace levelhead {
 
@@ -41,6 +44,12 @@ class OutputSet {
 
   const std::filesystem::path& folder() const { return folder_; }
 
+  // Called by a CsvRows that wrote the whole of `name` (see there): the
+  // file's numbers were checked as they were written, so commit does not
+  // read it back; `non_finite_at` is the first non-finite cell, if any.
+  // May be called from any thread.
+  void note_checked_table(const std::string& name, std::optional<std::string> non_finite_at);
+
  private:
   std::filesystem::path temporary_path(const std::string& name) const;
   void refuse_input_destination(const std::string& name) const;
@@ -49,8 +58,15 @@ class OutputSet {
   std::map<std::string, std::ofstream> streams_;
   std::vector<std::string> reserved_;
   std::vector<std::filesystem::path> created_folders_;  // by the constructor, innermost first
+  std::mutex checked_mutex_;
+  std::map<std::string, std::optional<std::string>> checked_tables_;
   bool committed_ = false;
 };
+
+// The error of a table about to hold a non-finite number at `cell` ("row R,
+// column 'name' ('nan')"): a fault of levelhead, since inputs are checked
+// at the edge.
+InternalCheckError non_finite_output_error(const std::string& name, const std::string& cell);
 
 // A CSV cell: quoted when it holds a comma, quote or line break.
 std::string csv_cell(const std::string& text);
@@ -68,9 +84,15 @@ void append_fixed(std::string& out, double value, int decimals);
 // no string is made per cell. Cells are separated by commas; end_row ends a
 // line. The last block is written by finish() or the destructor; the
 // stream's state is checked by OutputSet::commit as for any stream.
+//
+// Every number given to fixed() is checked: first_non_finite() names the
+// first that is not finite. Made on an OutputSet, a CsvRows opens the file
+// itself, must be its only writer, and tells the set at finish(): the set
+// then trusts the check instead of reading the file back at commit.
 class CsvRows {
  public:
   explicit CsvRows(std::ostream& out);
+  CsvRows(OutputSet& set, const std::string& name);
   ~CsvRows();
   CsvRows(const CsvRows&) = delete;
   CsvRows& operator=(const CsvRows&) = delete;
@@ -84,11 +106,20 @@ class CsvRows {
   void end_row();
   void finish();
 
+  // "row R, column 'name' ('nan')" (the header is row 1), or nullopt.
+  const std::optional<std::string>& first_non_finite() const { return first_non_finite_; }
+
  private:
   void separate();
+  void note_non_finite(double value);
   std::ostream& out_;
+  OutputSet* set_ = nullptr;
+  std::string name_;
   std::string buffer_;
   bool row_started_ = false;
+  std::size_t rows_ = 0, column_ = 0;  // lines ended; cells begun in the current one
+  std::vector<std::string> header_;
+  std::optional<std::string> first_non_finite_;
 };
 
 }  // namespace levelhead

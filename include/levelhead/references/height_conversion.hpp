@@ -22,6 +22,7 @@
 #include <ostream>
 #include <string>
 
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/core/table.hpp"
 #include "levelhead/core/units.hpp"
 #include "levelhead/references/height_converter.hpp"
@@ -42,11 +43,13 @@ struct HeightConversionSummary {
 // each part's rows are converted and written as they come, the header with
 // the first part. finish() throws when a point did not convert (unless
 // lenient), and writes the summary. On an error `csv` may hold the rows
-// before it: give a temporary file or a buffer, never standard output.
+// before it: write it to a temporary file or a buffer, never standard
+// output. Its first_non_finite() is for the caller to check (an OutputSet
+// does at commit).
 class PointsTableConverter {
  public:
   PointsTableConverter(HeightConverter& converter, const HeightConversionOptions& options,
-                       std::ostream& csv);
+                       CsvRows& csv);
   ~PointsTableConverter();
   PointsTableConverter(const PointsTableConverter&) = delete;
   PointsTableConverter& operator=(const PointsTableConverter&) = delete;
