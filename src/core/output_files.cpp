@@ -424,6 +424,12 @@ CsvRows& CsvRows::text(std::string_view text) {
   return *this;
 }
 
+CsvRows& CsvRows::quoted(std::string_view cell) {
+  separate();
+  buffer_.append(cell);
+  return *this;
+}
+
 void CsvRows::note_non_finite(double value) {
   first_non_finite_ =
       fmt::format("row {}, column '{}' ('{}')", rows_ + 1,

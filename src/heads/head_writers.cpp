@@ -42,61 +42,61 @@ void set_utc(OGRFeatureH feature, int field, double seconds) {
 
 }  // namespace
 
-HeadsCsvWriter::HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history,
+HeadsCsvWriter::HeadsCsvWriter(OutputSet& out, const MeasuringPointHistory& history,
                                const std::string& target, bool has_event, double per_metre)
-    : out_(out), target_cell_(csv_cell(target)), has_event_(has_event), k_(per_metre) {
+    : rows_(out, "heads.csv"),
+      target_cell_(csv_cell(target)),
+      has_event_(has_event),
+      k_(per_metre) {
   for (const MeasuringPointElevation& e : history.elevations()) {
     source_cells_.push_back(csv_cell(e.source));
     transform_cells_.push_back(csv_cell(e.transform));
   }
-  out_ << "well,time,head,sigma,datum,sigma_relative,time_utc,mp_elevation,mp_sigma,mp_source,"
-          "depth,state,"
-          "flags,contour,reason,in_event,transform,density,freshwater_head,environmental_head\n";
+  rows_.line(
+      "well,time,head,sigma,datum,sigma_relative,time_utc,mp_elevation,mp_sigma,mp_source,"
+      "depth,state,flags,contour,reason,in_event,transform,density,freshwater_head,"
+      "environmental_head");
 }
 
 void HeadsCsvWriter::write(const Well& well, const ReadingInput& reading, const HeadRecord& r) {
   // Full precision (0.1 mm) with the sigmas beside: rounding to what the
-  // sigma supports is for text a person reads. One buffer per row, written at once: this runs for
-  // every reading (1e7).
-  row_.clear();
-  auto to = std::back_inserter(row_);
-  append_csv_cell(row_, well.id);
-  row_ += ',';
-  append_csv_cell(row_, reading.time_text);
-  row_ += ',';
-  if (r.head)
-    fmt::format_to(to, "{:.4f},{:.4f}", *r.head * k_, r.sigma * k_);
-  else
-    row_ += ',';
-  row_ += ',';
-  row_ += target_cell_;
-  row_ += ',';
-  if (r.head) fmt::format_to(to, "{:.4f}", r.sigma_relative * k_);
-  row_ += ',';
-  row_ += format_utc(reading.time);
-  fmt::format_to(to, ",{:.4f},{:.4f},", r.mp.height * k_, r.mp.sigma * k_);
-  row_ += source_cells_[r.mp.record];
-  row_ += ',';
-  if (reading.level.depth) fmt::format_to(to, "{:.4f}", *reading.level.depth * k_);
-  row_ += ',';
-  append_csv_cell(row_, r.state);
-  row_ += ',';
-  append_csv_cell(row_, fmt::format("{}", fmt::join(r.flags, " ")));
-  row_ += r.contour() ? ",yes," : ",no,";
-  append_csv_cell(row_, r.reason);
-  row_ += ',';
-  if (has_event_) row_ += r.outside_event ? "no" : "yes";
-  row_ += ',';
-  row_ += transform_cells_[r.mp.record];
-  row_ += ',';
-  if (r.density) fmt::format_to(to, "{:.2f}", *r.density);
-  row_ += ',';
-  if (r.freshwater_head) fmt::format_to(to, "{:.4f}", *r.freshwater_head * k_);
-  row_ += ',';
-  if (r.environmental_head) fmt::format_to(to, "{:.4f}", *r.environmental_head * k_);
-  row_ += '\n';
-  out_.write(row_.data(), static_cast<std::streamsize>(row_.size()));
+  // sigma supports is for text a person reads. Cells go straight into
+  // CsvRows' buffer: this runs for every reading (1e7).
+  const auto if_head = [&](double value) {
+    return r.head ? std::optional<double>(value * k_) : std::nullopt;
+  };
+  const auto scaled = [&](const std::optional<double>& value) {
+    return value ? std::optional<double>(*value * k_) : std::nullopt;
+  };
+  flags_.clear();
+  for (const std::string& f : r.flags) {
+    if (!flags_.empty()) flags_ += ' ';
+    flags_ += f;
+  }
+  rows_.text(well.id)
+      .text(reading.time_text)
+      .fixed(scaled(r.head), 4)
+      .fixed(if_head(r.sigma), 4)
+      .quoted(target_cell_)
+      .fixed(if_head(r.sigma_relative), 4)
+      .text(format_utc(reading.time))
+      .fixed(r.mp.height * k_, 4)
+      .fixed(r.mp.sigma * k_, 4)
+      .quoted(source_cells_[r.mp.record])
+      .fixed(scaled(reading.level.depth), 4)
+      .text(r.state)
+      .text(flags_)
+      .text(r.contour() ? "yes" : "no")
+      .text(r.reason)
+      .text(has_event_ ? (r.outside_event ? "no" : "yes") : "")
+      .quoted(transform_cells_[r.mp.record])
+      .fixed(r.density, 2)
+      .fixed(scaled(r.freshwater_head), 4)
+      .fixed(scaled(r.environmental_head), 4)
+      .end_row();
 }
+
+void HeadsCsvWriter::finish() { rows_.finish(); }
 
 HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::string& crs,
                                  const std::string& target, bool has_event, LengthUnit unit)

@@ -15,6 +15,7 @@
 #include <thread>
 #include <vector>
 
+#include "levelhead/core/output_files.hpp"
 #include "levelhead/core/units.hpp"
 #include "levelhead/heads/head_core.hpp"
 
@@ -25,13 +26,14 @@ namespace levelhead {
 // `per_metre` of them in a metre.
 class HeadsCsvWriter final : public HeadSink {
  public:
-  HeadsCsvWriter(std::ostream& out, const MeasuringPointHistory& history, const std::string& target,
+  HeadsCsvWriter(OutputSet& out, const MeasuringPointHistory& history, const std::string& target,
                  bool has_event, double per_metre);
   void write(const Well& well, const ReadingInput& reading, const HeadRecord& record) override;
+  void finish();  // writes what is buffered
 
  private:
-  std::ostream& out_;
-  std::string target_cell_, row_;
+  CsvRows rows_;
+  std::string target_cell_, flags_;
   bool has_event_;
   double k_;                                                 // per metre
   std::vector<std::string> source_cells_, transform_cells_;  // per measuring-point record

@@ -473,8 +473,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   std::ostream& qa_csv = out.open("qa.csv");
   qa_csv << "table,row,well,time,flag,detail\n";
   for (const QaEntry& e : history.qa()) write_qa(qa_csv, e);
-  HeadsCsvWriter heads_csv(out.open("heads.csv"), history, options.target,
-                           options.event.has_value(), per_metre);
+  HeadsCsvWriter heads_csv(out, history, options.target, options.event.has_value(), per_metre);
   std::vector<HeadSink*> sinks = {&heads_csv};
   if (gpkg) sinks.push_back(&*gpkg);
   sinks.insert(sinks.end(), more_sinks.begin(), more_sinks.end());
@@ -504,6 +503,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   summary.zoneless_times = times.zoneless_read_in();
   summary.rejected = rejects.size();
   if (options.keep_going) write_rejects(out.open("rejects.csv"), rejects);
+  heads_csv.finish();
   if (gpkg) gpkg->finish();
 
   // 3. Each well against its own history.

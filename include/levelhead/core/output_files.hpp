@@ -97,8 +97,9 @@ class CsvRows {
   CsvRows(const CsvRows&) = delete;
   CsvRows& operator=(const CsvRows&) = delete;
 
-  CsvRows& line(std::string_view text);  // a whole line as it is (the header)
-  CsvRows& text(std::string_view text);  // quoted when needed (csv_cell)
+  CsvRows& line(std::string_view text);    // a whole line as it is (the header)
+  CsvRows& text(std::string_view text);    // quoted when needed (csv_cell)
+  CsvRows& quoted(std::string_view cell);  // a cell already made by csv_cell
   CsvRows& fixed(double value, int decimals);
   CsvRows& fixed(const std::optional<double>& value, int decimals);  // empty when unset
   CsvRows& integer(long long value);
