@@ -14,7 +14,6 @@
 #include <span>
 
 #include "heads/head_writers.hpp"
-#include "heads/series_store.hpp"
 #include "levelhead/core/errors.hpp"
 #include "levelhead/core/output_files.hpp"
 #include "levelhead/core/rejects.hpp"
@@ -24,6 +23,7 @@
 #include "levelhead/heads/head_core.hpp"
 #include "levelhead/heads/levels.hpp"
 #include "levelhead/version.hpp"
+#include "util/grouped_spill.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
@@ -279,26 +279,31 @@ void write_measuring_points(std::ostream& mp_csv, const std::vector<MeasuringPoi
 // A head that departs from the running median of its 5 neighbours in time
 // on each side by more than max(tolerance, 5 * 1.4826 * MAD of the well's
 // departures) (a robust scale, Hampel 1974). Departures as (time, m).
-// `series`: (time, head), sorted.
-std::vector<std::pair<double, double>> departures_from_history(
-    std::span<const std::pair<double, double>> series, double tolerance) {
+struct TimeHead {
+  double time = 0.0, head = 0.0;  // s UTC, m
+};
+using WellSeries = util::GroupedSpill<TimeHead>;
+
+// `series`: sorted by time, then head.
+std::vector<std::pair<double, double>> departures_from_history(std::span<const TimeHead> series,
+                                                               double tolerance) {
   std::vector<std::pair<double, double>> out;
   if (series.size() < 7) return out;
   std::vector<double> departure(series.size());
   for (std::size_t i = 0; i < series.size(); ++i) {
     std::vector<double> around;
     for (std::size_t j = i >= 5 ? i - 5 : 0; j <= std::min(series.size() - 1, i + 5); ++j) {
-      if (j != i) around.push_back(series[j].second);
+      if (j != i) around.push_back(series[j].head);
     }
     std::nth_element(around.begin(), around.begin() + around.size() / 2, around.end());
-    departure[i] = series[i].second - around[around.size() / 2];
+    departure[i] = series[i].head - around[around.size() / 2];
   }
   std::vector<double> magnitude;
   for (double d : departure) magnitude.push_back(std::abs(d));
   std::nth_element(magnitude.begin(), magnitude.begin() + magnitude.size() / 2, magnitude.end());
   const double limit = std::max(tolerance, 5.0 * 1.4826 * magnitude[magnitude.size() / 2]);
   for (std::size_t i = 0; i < series.size(); ++i) {
-    if (std::abs(departure[i]) > limit) out.emplace_back(series[i].first, departure[i]);
+    if (std::abs(departure[i]) > limit) out.emplace_back(series[i].time, departure[i]);
   }
   return out;
 }
@@ -307,7 +312,7 @@ std::vector<std::pair<double, double>> departures_from_history(
 void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
                      const LevelsColumns& c, const WellSet& wells,
                      const MeasuringPointHistory& history, const HeadOptions& options,
-                     std::vector<WellState>& state, WellSeriesStore& series,
+                     std::vector<WellState>& state, WellSeries& series,
                      const std::vector<HeadSink*>& sinks, std::ostream& qa_csv,
                      HeadsSummary& summary) {
   const Well& well = wells.wells[reading.well];
@@ -353,7 +358,7 @@ void process_reading(const ReadingInput& reading, const Table& t, std::size_t r,
                          record.mp.network_point ? *record.mp.network_point : std::string()};
   }
   if (record.head && (record.contour() || record.reason == outside_event_reason))
-    series.add(reading.well, reading.time, *record.head);
+    series.add(reading.well, {reading.time, *record.head});
   summary.heads += record.head.has_value();
   summary.contourable += record.contour();
   summary.in_event += options.event && !record.outside_event;
@@ -483,7 +488,7 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
   std::vector<WellState> state(wells.wells.size(), WellState(options));
   // (time, head) of the contourable numeric heads, and those outside the
   // event's window, for step 3.
-  WellSeriesStore series(wells.wells.size(), out.folder());
+  WellSeries series(wells.wells.size(), out.folder());
   std::vector<RejectedRecord> rejects;
   read_table_in_batches(levels, levels_table, 100000, [&](Table& t) {
     const LevelsColumns columns(t);
@@ -508,7 +513,10 @@ HeadsResult compute_heads(const WellSet& wells, const std::vector<MeasuringPoint
 
   // 3. Each well against its own history.
   std::map<std::string, std::vector<std::string>> history_departures;
-  series.visit_wells([&](std::size_t w, std::span<const std::pair<double, double>> points) {
+  series.visit([&](std::size_t w, std::span<TimeHead> points) {
+    std::sort(points.begin(), points.end(), [](const TimeHead& a, const TimeHead& b) {
+      return a.time != b.time ? a.time < b.time : a.head < b.head;
+    });
     for (const auto& [time, departure] :
          departures_from_history(points, options.history_tolerance)) {
       const std::string when = format_utc(time);
