@@ -347,3 +347,51 @@ TEST_CASE("a barometric efficiency is written to the digits its sigma carries", 
   CHECK(BarometricEfficiency{6.2e-5, 0.00091, 100}.text() == "0.00006 +- 0.00091");
   CHECK(BarometricEfficiency{0.62, 0.031, 100}.text() == "0.620 +- 0.031");
 }
+
+// The records are held back per sensor and the readings per well until
+// levels.csv is written: the table must still come out by well, then time,
+// with two sensors of a well at one time in id order, however the archive
+// interleaves them. A sensor reading at a tape's time gives way to the tape.
+TEST_CASE("levels.csv is ordered by well and time, whatever the order of the records",
+          "[transducer]") {
+  Bench b;
+  b.wells += "W2,500050,4400000,100.0\n";
+  // A and C in W2, B in W1: W1's sensor sits between W2's in id order. Each
+  // sensor's sigma tells its rows apart in levels.csv.
+  b.sensors =
+      "sensor,kind,well,hung_depth,range_kpa,sigma\n"
+      "A,vented,W2,20.0,200,0.01\nB,vented,W1,20.0,200,0.03\nC,vented,W2,20.0,200,0.02\n";
+  b.options.manual_window_hours = 0.0;  // only readings at a tape's very time give way
+  // Records interleaved across sensors, C's hours given backwards.
+  for (int h = 0; h < 6; ++h) {
+    b.records += fmt::format("B,{},{:.6f}\n", b.at(h), kpa(8.0));
+    b.records += fmt::format("A,{},{:.6f}\n", b.at(h), kpa(7.0));
+    b.records += fmt::format("C,{},{:.6f}\n", b.at(5 - h), kpa(6.0));
+  }
+  b.levels += "W2," + b.at(3) + ",13.000\nW1," + b.at(3) + ",12.000\nW2," + b.at(0) + ",13.000\n";
+  b.run();
+  const Table levels = b.output("levels.csv");
+  std::vector<std::string> order;
+  for (std::size_t r = 0; r < levels.row_count(); ++r) {
+    const bool tape = levels.cell(r, *levels.find_column("method")).empty();
+    order.push_back(fmt::format("{} {} {}", levels.cell(r, *levels.find_column("well")),
+                                levels.cell(r, *levels.find_column("time")),
+                                tape ? "tape" : levels.cell(r, *levels.find_column("sigma"))));
+  }
+  std::vector<std::string> expected;
+  const auto add = [&](const char* well, int hour, const char* what) {
+    expected.push_back(fmt::format("{} {} {}", well, b.at(hour), what));
+  };
+  for (int h = 0; h < 6; ++h) {
+    add("W1", h, h == 3 ? "tape" : "0.0300");  // B
+  }
+  for (int h = 0; h < 6; ++h) {
+    if (h == 0 || h == 3) {
+      add("W2", h, "tape");
+      continue;
+    }
+    add("W2", h, "0.0100");  // A
+    add("W2", h, "0.0200");  // C
+  }
+  CHECK(order == expected);
+}

@@ -5,8 +5,10 @@
 #include <algorithm>
 #include <charconv>
 #include <cmath>
+#include <cstdint>
 #include <limits>
 #include <nlohmann/json.hpp>
+#include <span>
 #include <unordered_map>
 
 #include "levelhead/core/bounds.hpp"
@@ -18,6 +20,7 @@
 #include "levelhead/heads/levels.hpp"
 #include "levelhead/heads/transducer_core.hpp"
 #include "levelhead/version.hpp"
+#include "util/grouped_spill.hpp"
 #include "util/json_text.hpp"
 #include "util/option_checks.hpp"
 #include "util/text.hpp"
@@ -85,8 +88,15 @@ struct Sensor {
   std::optional<double> hung_depth, range_kpa, sigma, x, y, elevation;
   std::optional<TimeZone> zone;  // of the logger's clock, for times written without one
   std::size_t row = 0;
-  std::vector<Sample> samples;
+  std::vector<Sample> samples;  // a barometer's: they serve every sensor that names it
+  std::size_t ordinal = 0;      // a well sensor's: its group in SampleSpill
+  std::size_t records = 0;      // records read
+  double last_time = std::numeric_limits<double>::lowest();  // of the last record read
 };
+
+// A well sensor's records, held back until the sensor's turn: archives of
+// loggers run to tens of millions of rows.
+using SampleSpill = util::GroupedSpill<Sample>;
 
 std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells) {
   const std::size_t id = t.require_column("sensor"), kind = t.require_column("kind");
@@ -154,10 +164,16 @@ std::map<std::string, Sensor> read_sensors(const Table& t, const WellSet& wells)
   return out;
 }
 
-// Records are read in batches and kept as samples only: archives of
-// loggers run to tens of millions of rows.
+// In time order; records of one time keep the order they were read in.
+void sort_by_time(std::span<Sample> samples) {
+  std::stable_sort(samples.begin(), samples.end(),
+                   [](const Sample& a, const Sample& b) { return a.time < b.time; });
+}
+
+// Records are read in batches and kept as samples only: a barometer's in
+// memory, a well sensor's in `spill`.
 void read_records(const std::filesystem::path& path, const TableOptions& table,
-                  std::map<std::string, Sensor>& sensors, TimeReader& times,
+                  std::map<std::string, Sensor>& sensors, SampleSpill& spill, TimeReader& times,
                   std::vector<RejectedRecord>* rejects) {
   read_table_in_batches(path, table, 100000, [&](Table& t) {
     const std::size_t sensor = t.require_column("sensor"), time = t.require_column("time");
@@ -175,22 +191,23 @@ void read_records(const std::filesystem::path& path, const TableOptions& table,
         // Logger clocks kept in a local zone are brought to UTC; the hour
         // repeated when clocks go back is told apart by the record order.
         const double utc = times.read(t.cell(r, time), t.location(r, time),
-                                      last->zone ? &*last->zone : t.time_zone(),
-                                      last->samples.empty() ? std::numeric_limits<double>::lowest()
-                                                            : last->samples.back().time);
+                                      last->zone ? &*last->zone : t.time_zone(), last->last_time);
         const auto p = t.number(r, pressure);
         if (!p)
           throw InputError(t.location(r, pressure), "", "every record needs its pressure (kPa)");
-        last->samples.push_back({utc, *p, t.source_row(r)});
+        const Sample sample{utc, *p, t.source_row(r)};
+        if (last->kind == "barometer")
+          last->samples.push_back(sample);
+        else
+          spill.add(last->ordinal, sample);
+        last->last_time = utc;
+        ++last->records;
       } catch (const InputError& e) {
         if (!rejects) throw;
         rejects->push_back(rejected_from(e));
       }
   });
-  for (auto& [id, s] : sensors) {
-    std::stable_sort(s.samples.begin(), s.samples.end(),
-                     [](const Sample& a, const Sample& b) { return a.time < b.time; });
-  }
+  for (auto& [id, s] : sensors) sort_by_time(s.samples);
 }
 
 // Linear between the two samples around `time` when they are at most `gap` apart.
@@ -220,14 +237,21 @@ struct Reading {
   bool rejected() const { return (flags & rejecting_flags) != 0; }
 };
 
-// A line of the output levels table, formatted when written: a manual row
-// (sensor = npos) or a reading of a sensor.
-struct OutputRow {
+// A manual row of the output levels table (its line in ManualPart::lines).
+struct ManualRow {
   std::size_t well_rank = 0;
   double time = 0.0;
-  std::size_t sensor = 0, index = 0;
+  std::size_t line = 0;
 };
-constexpr std::size_t manual_row = static_cast<std::size_t>(-1);
+
+// A sensor reading for the output levels table, formatted when written;
+// held back by well rank until the table is written.
+struct WrittenReading {
+  double time = 0.0, depth = 0.0;  // s UTC, m
+  std::uint32_t sensor = 0;        // index among the well sensors written
+  std::uint32_t flags = 0;
+};
+using WrittenSpill = util::GroupedSpill<WrittenReading>;
 
 // Whether a time in `sorted` lies within `window` of `time`.
 bool within(const std::vector<double>& sorted, double time, double window) {
@@ -264,7 +288,7 @@ struct ManualPart {
   std::unordered_map<std::string, std::vector<double>> times;           // by time
   std::map<std::string, std::size_t> well_rank;                         // output order
   std::vector<std::string> lines;                                       // formatted rows
-  std::vector<OutputRow> rows;
+  std::vector<ManualRow> rows;
 };
 
 ManualPart read_manual(const Table& manual, const WellSet& wells,
@@ -321,7 +345,7 @@ ManualPart read_manual(const Table& manual, const WellSet& wells,
         else if (c < manual.column_names().size())
           append_csv_cell(line, manual.cell(r, c));
       }
-      part.rows.push_back({part.well_rank.at(well), when, manual_row, part.lines.size()});
+      part.rows.push_back({part.well_rank.at(well), when, part.lines.size()});
       part.lines.push_back(std::move(line));
     } catch (const InputError& e) {
       if (!rejects) throw;
@@ -364,14 +388,15 @@ void check_barometer(const Sensor& sensor, const Sensor& baro, const Well& well,
 // absolute sensor. A sample without a barometer sample near it gives none
 // (qa.csv: baro-gap); a pressure outside the range or below the water is
 // flagged for rejection.
-std::vector<Reading> raw_readings(const Sensor& sensor, const Sensor* baro, const SensorSummary& s,
+std::vector<Reading> raw_readings(const Sensor& sensor, std::span<const Sample> samples,
+                                  const Sensor* baro, const SensorSummary& s,
                                   const TransducerOptions& options, std::ostream& qa_csv,
                                   std::map<std::string, std::size_t>& flags) {
   std::vector<Reading> readings;
-  readings.reserve(sensor.samples.size());
+  readings.reserve(samples.size());
   const double hung = sensor.hung_depth.value_or(0.0);
   const double baro_gap = options.max_baro_gap_hours * 3600.0;
-  for (const Sample& sample : sensor.samples) {
+  for (const Sample& sample : samples) {
     std::optional<double> air;
     if (baro) air = interpolate(baro->samples, sample.time, baro_gap);
     if (sensor.kind == "absolute" && !air) {
@@ -431,9 +456,11 @@ void write_checks(std::ostream& checks_csv, const Sensor& sensor, const SensorCh
   }
 }
 
+// One table for `heads`, by well and then time, so readings arrive in order:
+// per well, its manual rows (in table order) and its sensors' readings (by
+// sensor id, then as read), sorted stably by time.
 void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit unit_of_table,
-                  const std::vector<const Sensor*>& sensors,
-                  const std::vector<std::vector<Reading>>& readings,
+                  const std::vector<const Sensor*>& sensors, WrittenSpill& readings,
                   const TransducerOptions& options) {
   const std::vector<std::string>& columns = manual.columns;
   const auto index_of = [&](const char* name) {
@@ -450,13 +477,7 @@ void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit uni
   const double unit = metres_per_unit(unit_of_table);
   std::vector<std::string> cells(columns.size());
   std::string line;
-  for (const OutputRow& row : manual.rows) {
-    if (row.sensor == manual_row) {
-      levels << manual.lines[row.index] << '\n';
-      continue;
-    }
-    const Sensor& sensor = *sensors[row.sensor];
-    const Reading& r = readings[row.sensor][row.index];
+  const auto write_reading = [&](const Sensor& sensor, const WrittenReading& r) {
     for (std::string& cell : cells) cell.clear();
     cells[well_index] = sensor.well;
     cells[time_index] = format_utc(r.time);
@@ -474,7 +495,31 @@ void write_levels(std::ostream& levels, const ManualPart& manual, LengthUnit uni
       append_csv_cell(line, cells[c]);
     }
     levels << line << '\n';
-  }
+  };
+  std::vector<std::vector<std::size_t>> manual_of_rank(readings.groups());
+  for (std::size_t i = 0; i < manual.rows.size(); ++i)
+    manual_of_rank[manual.rows[i].well_rank].push_back(i);
+  struct Row {
+    double time;
+    const ManualRow* manual;  // or
+    const WrittenReading* reading;
+  };
+  std::vector<Row> rows;
+  readings.visit([&](std::size_t rank, std::span<WrittenReading> written) {
+    rows.clear();
+    for (const std::size_t i : manual_of_rank[rank])
+      rows.push_back({manual.rows[i].time, &manual.rows[i], nullptr});
+    for (const WrittenReading& r : written) rows.push_back({r.time, nullptr, &r});
+    std::stable_sort(rows.begin(), rows.end(),
+                     [](const Row& a, const Row& b) { return a.time < b.time; });
+    for (const Row& row : rows) {
+      if (row.manual) {
+        levels << manual.lines[row.manual->line] << '\n';
+        continue;
+      }
+      write_reading(*sensors[row.reading->sensor], *row.reading);
+    }
+  });
 }
 
 nlohmann::json summary_json(const TransducerSummary& summary, const TransducerOptions& options,
@@ -534,13 +579,21 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
                                      const std::filesystem::path& folder) {
   options.validate();
   std::map<std::string, Sensor> sensors = read_sensors(sensors_table, wells);
+  std::vector<Sensor*> well_sensors;  // by ordinal: the sensors in wells, in id order
+  for (auto& [id, sensor] : sensors) {
+    if (sensor.kind == "barometer") continue;
+    sensor.ordinal = well_sensors.size();
+    well_sensors.push_back(&sensor);
+  }
+  // Made first: the records held back go to a temporary file in its folder.
+  OutputSet out(folder);
   std::vector<RejectedRecord> rejects;
   std::vector<RejectedRecord>* set_aside = options.keep_going ? &rejects : nullptr;
-  read_records(records, records_table, sensors, times, set_aside);
+  SampleSpill samples(well_sensors.size(), out.folder());
+  read_records(records, records_table, sensors, samples, times, set_aside);
   ManualPart part = read_manual(manual, wells, sensors, times, set_aside);
   times.require_consistent_zones();
 
-  OutputSet out(folder);
   std::ostream& checks_csv = out.open("checks.csv");
   checks_csv << "sensor,well,time,manual_depth,transducer_depth,offset,drift,rejected_until_next\n";
   std::ostream& qa_csv = out.open("qa.csv");
@@ -550,25 +603,26 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   summary.manual = manual.row_count();
   const double check_gap = options.max_check_gap_hours * 3600.0;
   const double window = options.manual_window_hours * 3600.0;
-  // Per well sensor, its readings, kept until the table is written.
-  std::vector<const Sensor*> written_sensors;
-  std::vector<std::vector<Reading>> sensor_readings;
-  for (auto& [id, sensor] : sensors) {
-    if (sensor.kind == "barometer") continue;
+  // The readings written, by well rank, until the table is written.
+  WrittenSpill written(part.well_rank.size(), out.folder());
+  // One well sensor at a time, in id order, with its records alone.
+  samples.visit([&](std::size_t ordinal, std::span<Sample> sensor_samples) {
+    const Sensor& sensor = *well_sensors[ordinal];
+    const std::string& id = sensor.id;
+    sort_by_time(sensor_samples);
     SensorSummary s;
     s.sensor = id;
     s.well = sensor.well;
     s.kind = sensor.kind;
     s.barometer = sensor.barometer;
-    s.records = sensor.samples.size();
+    s.records = sensor.records;
     const Well& well = wells.wells[wells.index.at(sensor.well)];
     s.density = well.density.value_or(options.density);
     s.gravity = options.gravity;
     const Sensor* baro = sensor.barometer.empty() ? nullptr : &sensors.at(sensor.barometer);
     if (baro) check_barometer(sensor, *baro, well, sensors_table.source(), options, s);
-    std::vector<Reading> readings = raw_readings(sensor, baro, s, options, qa_csv, s.flags);
-    // The well sensor's samples are done with (a barometer's may serve others).
-    std::vector<Sample>().swap(sensor.samples);
+    std::vector<Reading> readings =
+        raw_readings(sensor, sensor_samples, baro, s, options, qa_csv, s.flags);
 
     const SensorChecks checks = find_checks(part.by_well[sensor.well], readings, options, s);
     if (!sensor.hung_depth) {
@@ -590,7 +644,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
     std::vector<double> depth_changes, baro_changes;
     const Reading* previous = nullptr;
     const std::vector<double>& near = part.times[sensor.well];
-    const std::size_t sensor_index = sensor_readings.size();
+    const std::size_t rank = part.well_rank.at(sensor.well);
     std::size_t interval = 0;
     for (std::size_t k = 0; k < readings.size(); ++k) {
       Reading& r = readings[k];
@@ -619,7 +673,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
         }
       }
       if (no_depth) continue;
-      part.rows.push_back({part.well_rank.at(sensor.well), r.time, sensor_index, k});
+      written.add(rank, {r.time, r.depth, static_cast<std::uint32_t>(ordinal), r.flags});
       ++s.written;
     }
     if (baro)
@@ -627,15 +681,10 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
           barometric_efficiency(depth_changes, baro_changes, options.min_efficiency_pairs);
     summary.written += s.written;
     summary.sensors.push_back(std::move(s));
-    written_sensors.push_back(&sensor);
-    sensor_readings.push_back(std::move(readings));
-  }
-
-  // One table for `heads`, by well and time, so readings arrive in order.
-  std::stable_sort(part.rows.begin(), part.rows.end(), [](const OutputRow& a, const OutputRow& b) {
-    return a.well_rank != b.well_rank ? a.well_rank < b.well_rank : a.time < b.time;
   });
-  write_levels(out.open("levels.csv"), part, manual.length_unit(), written_sensors, sensor_readings,
+
+  write_levels(out.open("levels.csv"), part, manual.length_unit(),
+               std::vector<const Sensor*>(well_sensors.begin(), well_sensors.end()), written,
                options);
   summary.rejected = rejects.size();
   if (options.keep_going) write_rejects(out.open("rejects.csv"), rejects);

@@ -154,18 +154,19 @@ class GroupedSpill {
   }
   [[noreturn]] void short_read() const;
 
-  // Visits groups [first, last) from `stored`, which holds exactly their records.
+  // Visits groups [first, last) from `stored`, which holds exactly their
+  // records (and is released): each record is placed at its group's next
+  // slot (a counting sort, stable), then each group's slice is visited.
   void visit_run(std::vector<Stored>& stored, std::size_t first, std::size_t last,
                  const Visitor& visit_group) const {
-    std::stable_sort(stored.begin(), stored.end(),
-                     [](const Stored& a, const Stored& b) { return a.group < b.group; });
-    std::vector<Record> records;
-    std::size_t at = 0;
+    std::vector<std::size_t> begin(last - first + 1, 0);
+    for (std::size_t g = first; g < last; ++g) begin[g - first + 1] = begin[g - first] + counts_[g];
+    std::vector<Record> records(stored.size());
+    std::vector<std::size_t> next(begin.begin(), begin.end() - 1);
+    for (const Stored& s : stored) records[next[s.group - first]++] = s.record;
+    stored = {};
     for (std::size_t g = first; g < last; ++g) {
-      records.clear();
-      for (; at < stored.size() && stored[at].group == g; ++at)
-        records.push_back(stored[at].record);
-      visit_group(g, records);
+      visit_group(g, std::span<Record>(records.data() + begin[g - first], counts_[g]));
     }
   }
 

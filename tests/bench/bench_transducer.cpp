@@ -1,11 +1,14 @@
 // Benchmark of `transducer`: N records (default 2e6) of invented loggers,
-// half from an absolute sensor in one well and half from its barometer, one
-// record a minute, tape checks every 30 days. Prints the time of
-// reduce_transducers against reading the same records file whole in the same
-// process (the baseline: what holding the table as text costs), and the
-// peak memory after each; writing the input file is not timed.
+// WELLS absolute sensors (default 1), one per well, and the barometer they
+// share, each logging once a minute, their archives one after another; tape
+// checks every 30 days. Prints the time of reduce_transducers against
+// reading the same records file whole in the same process (the baseline:
+// what holding the table as text costs), and the peak memory after each;
+// writing the input file is not timed. With many wells the memory shows
+// what stays bounded: it grows with the barometer's records and one
+// sensor's, not with the archive.
 //
-// usage: bench_transducer [N]
+// usage: bench_transducer [N] [WELLS]
 
 #include <fmt/format.h>
 #include <sys/resource.h>
@@ -46,29 +49,40 @@ std::string minute_text(std::size_t k) {
 
 int main(int argc, char** argv) {
   const std::size_t n = argc > 1 ? std::stoul(argv[1]) : 2000000;
-  const std::size_t minutes = n / 2;
+  const std::size_t n_wells = argc > 2 ? std::max<std::size_t>(std::stoul(argv[2]), 1) : 1;
+  const std::size_t minutes = n / (n_wells + 1);
   const auto folder = std::filesystem::temp_directory_path() / "levelhead-bench-transducer";
   std::filesystem::create_directories(folder);
   std::mt19937_64 rng(11);
   std::normal_distribution<double> air(0.0, 0.3), water(0.0, 0.02);
   {
-    std::ofstream(folder / "wells.csv") << "id,x,y,ground\nW1,500000,4400000,100.0\n";
-    std::ofstream(folder / "sensors.csv")
-        << "sensor,kind,well,barometer,hung_depth,range_kpa,sigma,time_zone,x,y,elevation\n"
-           "T1,absolute,W1,B1,12.0,200,0.01,-06:00,,,\n"
-           "B1,barometer,,,,,,-06:00,500100,4400000,101.0\n";
+    std::ofstream wells_csv(folder / "wells.csv"), sensors_csv(folder / "sensors.csv");
+    wells_csv << "id,x,y,ground\n";
+    sensors_csv << "sensor,kind,well,barometer,hung_depth,range_kpa,sigma,time_zone,x,y,"
+                   "elevation\nB1,barometer,,,,,,-06:00,500100,4400000,101.0\n";
+    for (std::size_t w = 1; w <= n_wells; ++w) {
+      wells_csv << fmt::format("W{},{},4400000,100.0\n", w, 500000 + 10 * w);
+      sensors_csv << fmt::format("T{},absolute,W{},B1,12.0,200,0.01,-06:00,,,\n", w, w);
+    }
+    // Each logger's archive in turn, as loggers are downloaded: the
+    // barometer's, then each well's.
     std::ofstream records(folder / "records.csv");
     records << "sensor,time,pressure\n";
+    std::vector<double> p_air(minutes);
     for (std::size_t k = 0; k < minutes; ++k) {
-      const std::string t = minute_text(k);
-      const double p_air = 101.2 + air(rng);
-      records << fmt::format("T1,{},{:.3f}\nB1,{},{:.3f}\n", t, p_air + 68.6 + water(rng), t,
-                             p_air);
+      p_air[k] = 101.2 + air(rng);
+      records << fmt::format("B1,{},{:.3f}\n", minute_text(k), p_air[k]);
+    }
+    for (std::size_t w = 1; w <= n_wells; ++w) {
+      for (std::size_t k = 0; k < minutes; ++k)
+        records << fmt::format("T{},{},{:.3f}\n", w, minute_text(k), p_air[k] + 68.6 + water(rng));
     }
     std::ofstream levels(folder / "levels.csv");
     levels << "well,time,depth\n";
-    for (std::size_t k = 0; k < minutes; k += 30 * 1440)
-      levels << fmt::format("W1,{}-06:00,5.000\n", minute_text(k + 7));
+    for (std::size_t w = 1; w <= n_wells; ++w) {
+      for (std::size_t k = 0; k < minutes; k += 30 * 1440)
+        levels << fmt::format("W{},{}-06:00,5.000\n", w, minute_text(k + 7));
+    }
   }
   const WellSet wells = read_wells(read_table(folder / "wells.csv"));
   const Table sensors = read_table(folder / "sensors.csv");
@@ -88,8 +102,10 @@ int main(int argc, char** argv) {
   const double t_read = seconds_since(start);
   const double read_mb = peak_rss_mb();
 
-  fmt::print("transducer: {} records ({} written) in {:.2f} s ({:.2f} M records/s)\n", n, s.written,
-             t_reduce, static_cast<double>(n) / t_reduce / 1e6);
+  fmt::print(
+      "transducer: {} records of {} well sensor(s) and a barometer ({} written) in {:.2f} s "
+      "({:.2f} M records/s)\n",
+      n, n_wells, s.written, t_reduce, static_cast<double>(n) / t_reduce / 1e6);
   fmt::print(
       "reading the records table whole: {:.2f} s ({} rows); ratio transducer / read {:.2f}\n",
       t_read, whole.row_count(), t_reduce / t_read);
