@@ -589,7 +589,10 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   OutputSet out(folder);
   std::vector<RejectedRecord> rejects;
   std::vector<RejectedRecord>* set_aside = options.keep_going ? &rejects : nullptr;
-  SampleSpill samples(well_sensors.size(), out.folder());
+  // A quarter of the default in memory: a sensor's own working set (its
+  // samples and readings, 72 bytes a record) comes on top.
+  constexpr std::size_t records_in_memory = std::size_t{1} << 18;
+  SampleSpill samples(well_sensors.size(), out.folder(), records_in_memory);
   read_records(records, records_table, sensors, samples, times, set_aside);
   ManualPart part = read_manual(manual, wells, sensors, times, set_aside);
   times.require_consistent_zones();
@@ -604,7 +607,7 @@ TransducerSummary reduce_transducers(const WellSet& wells, const Table& sensors_
   const double check_gap = options.max_check_gap_hours * 3600.0;
   const double window = options.manual_window_hours * 3600.0;
   // The readings written, by well rank, until the table is written.
-  WrittenSpill written(part.well_rank.size(), out.folder());
+  WrittenSpill written(part.well_rank.size(), out.folder(), records_in_memory);
   // One well sensor at a time, in id order, with its records alone.
   samples.visit([&](std::size_t ordinal, std::span<Sample> sensor_samples) {
     const Sensor& sensor = *well_sensors[ordinal];
