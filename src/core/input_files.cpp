@@ -3,6 +3,7 @@
 #include <sys/stat.h>
 
 #include <fstream>
+#include <mutex>
 #include <vector>
 
 #include "levelhead/core/errors.hpp"
@@ -16,6 +17,9 @@ struct NotedFile {
   ino_t inode;
   std::string as_written;
 };
+
+// Guards scopes(): tables may be read on two threads at once.
+std::mutex scopes_mutex;
 
 // One list per open scope, innermost last.
 std::vector<std::vector<NotedFile>>& scopes() {
@@ -32,8 +36,10 @@ std::optional<NotedFile> identify(const std::filesystem::path& file) {
 }  // namespace
 
 void note_input_file(const std::filesystem::path& file) {
-  if (scopes().empty()) return;
-  if (auto noted = identify(file)) scopes().back().push_back(std::move(*noted));
+  auto noted = identify(file);
+  const std::lock_guard lock(scopes_mutex);
+  if (scopes().empty() || !noted) return;
+  scopes().back().push_back(std::move(*noted));
 }
 
 bool path_exists(const std::filesystem::path& path) noexcept {
@@ -57,6 +63,7 @@ std::string read_input_text(const std::filesystem::path& file) {
 std::optional<std::string> input_file_at(const std::filesystem::path& destination) {
   const auto target = identify(destination);
   if (!target) return std::nullopt;
+  const std::lock_guard lock(scopes_mutex);
   for (const auto& scope : scopes()) {
     for (const NotedFile& f : scope) {
       if (f.device == target->device && f.inode == target->inode) return f.as_written;
@@ -65,7 +72,13 @@ std::optional<std::string> input_file_at(const std::filesystem::path& destinatio
   return std::nullopt;
 }
 
-InputFileScope::InputFileScope() { scopes().emplace_back(); }
-InputFileScope::~InputFileScope() { scopes().pop_back(); }
+InputFileScope::InputFileScope() {
+  const std::lock_guard lock(scopes_mutex);
+  scopes().emplace_back();
+}
+InputFileScope::~InputFileScope() {
+  const std::lock_guard lock(scopes_mutex);
+  scopes().pop_back();
+}
 
 }  // namespace levelhead
