@@ -40,6 +40,21 @@ CliRun adjust_bad(const std::string& points, const std::string& sections, const 
 
 }  // namespace
 
+// The points and sections tables are read at once on two threads; with both
+// bad, the points' error is reported, as when they were read in turn, and
+// each alone is still named.
+TEST_CASE("adjust with both tables bad names the points table's problem", "[cli]") {
+  levelhead::testing::TempFolder tmp;
+  const CliRun both =
+      adjust_bad("points_height_nan.csv", "sections_bad_date.csv", tmp.path() / "a");
+  CHECK(both.code == 1);
+  CHECK_THAT(both.err, Contains("points_height_nan.csv"));
+  const CliRun sections = adjust_bad("points.csv", "sections_bad_date.csv", tmp.path() / "b");
+  CHECK(sections.code == 1);
+  CHECK_THAT(sections.err, Contains("sections_bad_date.csv"));
+  CHECK(files_in(tmp.path()).empty());
+}
+
 TEST_CASE("adjust writes the three outputs for a good network", "[cli]") {
   levelhead::testing::TempFolder tmp;
   const CliRun r = adjust_bad("points.csv", "sections.csv", tmp.path() / "out");
