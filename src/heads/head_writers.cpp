@@ -162,6 +162,8 @@ HeadsGpkgWriter::HeadsGpkgWriter(const std::filesystem::path& path, const std::s
   GDALSetMetadataItem(layer_, "HEIGHT_UNIT", to_string(unit).c_str(), nullptr);
   GDALSetMetadataItem(layer_, "PRODUCER", version_string().c_str(), nullptr);
   feature_ = OGR_F_Create(OGR_L_GetLayerDefn(layer_));
+  for (int i = 0; i < OGR_F_GetFieldCount(feature_); ++i) OGR_F_SetFieldNull(feature_, i);
+  OGR_F_SetFieldString(feature_, 6, target_.c_str());
   OGR_F_SetGeometryDirectly(feature_, OGR_G_CreateGeometry(wkbPoint));
   point_ = OGR_F_GetGeometryRef(feature_);
   GDALDatasetStartTransaction(dataset_, 1);
@@ -240,8 +242,10 @@ void HeadsGpkgWriter::write_rows() {
 }
 
 OGRFeatureH HeadsGpkgWriter::fill_feature(const Row& row) {
+  // Every field is given a value or NULL here, but for `datum` and, without
+  // an event, `in_event`: the same for every row, set once when the feature
+  // was made.
   OGRFeatureH f = feature_;
-  for (int i = 0; i < OGR_F_GetFieldCount(f); ++i) OGR_F_SetFieldNull(f, i);
   OGR_F_SetFID(f, OGRNullFID);
   OGR_F_SetFieldString(f, 0, row.well->id.c_str());
   OGR_F_SetFieldString(f, 1, row.time_text.c_str());
@@ -250,11 +254,18 @@ OGRFeatureH HeadsGpkgWriter::fill_feature(const Row& row) {
     OGR_F_SetFieldDouble(f, 3, *row.head * k_);
     OGR_F_SetFieldDouble(f, 4, row.sigma * k_);
     OGR_F_SetFieldDouble(f, 5, row.sigma_relative * k_);
+  } else {
+    for (const int i : {3, 4, 5}) OGR_F_SetFieldNull(f, i);
   }
-  OGR_F_SetFieldString(f, 6, target_.c_str());
   OGR_F_SetFieldDouble(f, 7, row.mp_elevation * k_);
-  if (!row.state.empty()) OGR_F_SetFieldString(f, 8, row.state.c_str());
-  if (!row.flags.empty()) OGR_F_SetFieldString(f, 9, row.flags.c_str());
+  if (!row.state.empty())
+    OGR_F_SetFieldString(f, 8, row.state.c_str());
+  else
+    OGR_F_SetFieldNull(f, 8);
+  if (!row.flags.empty())
+    OGR_F_SetFieldString(f, 9, row.flags.c_str());
+  else
+    OGR_F_SetFieldNull(f, 9);
   OGR_F_SetFieldInteger(f, 10, row.contour ? 1 : 0);
   if (has_event_) OGR_F_SetFieldInteger(f, 11, row.in_event ? 1 : 0);
   OGR_G_SetPoint_2D(point_, 0, row.well->x, row.well->y);
