@@ -276,15 +276,16 @@ void write_measuring_points(std::ostream& mp_csv, const std::vector<MeasuringPoi
   }
 }
 
-// A head that departs from the running median of its 5 neighbours in time
-// on each side by more than max(tolerance, 5 * 1.4826 * MAD of the well's
-// departures) (a robust scale, Hampel 1974). Departures as (time, m).
 struct TimeHead {
   double time = 0.0, head = 0.0;  // s UTC, m
 };
+// Each well's heads for its history check, in bounded memory.
 using WellSeries = util::GroupedSpill<TimeHead>;
 
-// `series`: sorted by time, then head.
+// A head that departs from the running median of its 5 neighbours in time
+// on each side by more than max(tolerance, 5 * 1.4826 * MAD of the well's
+// departures) (a robust scale, Hampel 1974). Departures as (time, m);
+// `series` sorted by time, then head.
 std::vector<std::pair<double, double>> departures_from_history(std::span<const TimeHead> series,
                                                                double tolerance) {
   std::vector<std::pair<double, double>> out;

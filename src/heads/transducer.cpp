@@ -248,7 +248,7 @@ struct ManualRow {
 // held back by well rank until the table is written.
 struct WrittenReading {
   double time = 0.0, depth = 0.0;  // s UTC, m
-  std::uint32_t sensor = 0;        // index among the well sensors written
+  std::uint32_t sensor = 0;        // the well sensor's ordinal (Sensor::ordinal)
   std::uint32_t flags = 0;
 };
 using WrittenSpill = util::GroupedSpill<WrittenReading>;
