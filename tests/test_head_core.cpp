@@ -110,7 +110,22 @@ struct OneWellFiles {
             "--out",
             (tmp.path() / out).string()};
   }
+  // heads_args with heads.gpkg written.
+  std::vector<std::string> heads_gpkg_args(const std::string& levels, const char* out) {
+    std::vector<std::string> args = heads_args(levels, out);
+    args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
+    return args;
+  }
 };
+
+// heads.gpkg in `folder`, opened read-only; the caller closes it.
+GDALDatasetH open_heads_gpkg(const std::filesystem::path& folder) {
+  GDALAllRegister();
+  GDALDatasetH gpkg = GDALOpenEx((folder / "heads.gpkg").string().c_str(),
+                                 GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr, nullptr);
+  REQUIRE(gpkg);
+  return gpkg;
+}
 
 }  // namespace
 
@@ -345,16 +360,12 @@ TEST_CASE("heads.gpkg is typed as a GIS expects, with NULLs and the layer's meta
           "[heads][gpkg]") {
   OneWellFiles files;
   std::vector<std::string> args =
-      files.heads_args("W1,2020-03-01T08:00-06:00,4.100\nW1,2020-06-10T08:00Z,dry\n", "typed");
-  args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
+      files.heads_gpkg_args("W1,2020-03-01T08:00-06:00,4.100\nW1,2020-06-10T08:00Z,dry\n", "typed");
   args.insert(args.end(), {"--event", "2020-06-10T12:00Z", "--compound-crs"});
   const auto run = levelhead::testing::run_cli(args);
   INFO(run.err);
   REQUIRE(run.code == 0);
-  GDALAllRegister();
-  GDALDatasetH gpkg = GDALOpenEx((files.tmp.path() / "typed" / "heads.gpkg").string().c_str(),
-                                 GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr, nullptr);
-  REQUIRE(gpkg);
+  GDALDatasetH gpkg = open_heads_gpkg(files.tmp.path() / "typed");
   OGRLayerH layer = GDALDatasetGetLayerByName(gpkg, "heads");
   REQUIRE(layer);
   OGRFeatureDefnH defn = OGR_L_GetLayerDefn(layer);
@@ -421,15 +432,10 @@ TEST_CASE("heads.gpkg holds every reading in order across batches, or nothing",
     }
     return text;
   };
-  std::vector<std::string> args = files.heads_args(levels(-1), "all");
-  args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
-  const auto run = levelhead::testing::run_cli(args);
+  const auto run = levelhead::testing::run_cli(files.heads_gpkg_args(levels(-1), "all"));
   INFO(run.err);
   REQUIRE(run.code == 0);
-  GDALAllRegister();
-  GDALDatasetH gpkg = GDALOpenEx((files.tmp.path() / "all" / "heads.gpkg").string().c_str(),
-                                 GDAL_OF_VECTOR | GDAL_OF_READONLY, nullptr, nullptr, nullptr);
-  REQUIRE(gpkg);
+  GDALDatasetH gpkg = open_heads_gpkg(files.tmp.path() / "all");
   OGRLayerH layer = GDALDatasetGetLayerByName(gpkg, "heads");
   REQUIRE(layer);
   CHECK(OGR_L_GetFeatureCount(layer, 1) == readings);
@@ -448,9 +454,7 @@ TEST_CASE("heads.gpkg holds every reading in order across batches, or nothing",
   CHECK(in_order == readings);
   GDALClose(gpkg);
 
-  args = files.heads_args(levels(9000), "stopped");
-  args.erase(std::find(args.begin(), args.end(), "--no-gpkg"));
-  const auto stopped = levelhead::testing::run_cli(args);
+  const auto stopped = levelhead::testing::run_cli(files.heads_gpkg_args(levels(9000), "stopped"));
   CHECK(stopped.code == 1);
   CHECK_THAT(stopped.err, Catch::Matchers::Contains("row 9002"));
   CHECK_FALSE(std::filesystem::exists(files.tmp.path() / "stopped"));
