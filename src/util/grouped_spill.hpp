@@ -25,9 +25,12 @@
 #include <memory>
 #include <span>
 #include <type_traits>
+#include <utility>
 #include <vector>
 
 namespace levelhead::util {
+
+[[noreturn]] void throw_short_spill_read(const std::filesystem::path& folder);
 
 namespace spill_files {
 struct Closer {
@@ -130,7 +133,7 @@ class GroupedSpill {
       for (std::size_t g = run_start[r]; g < run_start[r + 1]; ++g) size += counts_[g];
       records.resize(size);
       std::FILE* file = runs == 1 ? spill_.get() : run_files[r].get();
-      if (read_stored(file, records.data(), size) != size) short_read();
+      if (read_stored(file, records.data(), size) != size) throw_short_spill_read(folder_);
       visit_run(records, run_start[r], run_start[r + 1], visit_group);
     }
   }
@@ -152,7 +155,6 @@ class GroupedSpill {
   std::size_t read_stored(std::FILE* file, Stored* stored, std::size_t count) const {
     return spill_files::read(file, stored, count * sizeof(Stored), folder_) / sizeof(Stored);
   }
-  [[noreturn]] void short_read() const;
 
   // Visits groups [first, last) from `stored`, which holds exactly their
   // records (and is released): each record is placed at its group's next
@@ -176,12 +178,5 @@ class GroupedSpill {
   std::vector<Stored> buffer_;
   spill_files::File spill_;  // null while all fits
 };
-
-[[noreturn]] void throw_short_spill_read(const std::filesystem::path& folder);
-
-template <class Record>
-void GroupedSpill<Record>::short_read() const {
-  throw_short_spill_read(folder_);
-}
 
 }  // namespace levelhead::util
