@@ -44,6 +44,7 @@ class HeadsCsvWriter final : public HeadSink {
 // GDAL between construction and finish(): the GeoPackage is written on the
 // second core while the readings are computed and heads.csv is written.
 // At most two batches wait, so memory does not grow with the readings.
+// The wells given to write() must outlive finish() (rows point to them).
 // Throws OutputError when the file cannot be created or written (from write
 // or finish, once the thread has met the error), OptionError when GDAL does
 // not know `crs`.
